@@ -1,0 +1,235 @@
+//! Bench operations shared by the command line and the terminal UI: logging an aliquot from
+//! spectrum files (read, check, store, derive, all in one transaction) and importing a folder
+//! of exports as a growth series. Files are read and checked before the transaction opens, so
+//! a bad file leaves the database exactly as it was.
+
+use crate::derive::{engine, growth};
+use crate::error::{Error, Result};
+use crate::spectra::{self, RawSpectrum, ReadOptions};
+use crate::store::Store;
+use crate::store::model::{self, NewAliquot, NewSpectrum};
+use std::path::{Path, PathBuf};
+
+/// A spectrum file to attach, with its kind.
+#[derive(Debug, Clone)]
+pub struct SpectrumFile {
+    pub path: PathBuf,
+    pub kind: &'static str,
+    pub excitation_nm: Option<f64>,
+}
+
+/// Reads and checks a file for import: it must read and be a plausible UV-Vis-NIR spectrum.
+pub fn read_checked(path: &Path, x_unit: Option<&str>) -> Result<(RawSpectrum, String)> {
+    let opts = ReadOptions {
+        x_unit: x_unit.map(String::from),
+        ..Default::default()
+    };
+    let (raw, sha) = spectra::read_file(path, &opts)?;
+    raw.to_trace(&path.display().to_string(), None)?;
+    Ok((raw, sha))
+}
+
+/// Logs one aliquot with its spectra and derives its values. Returns the summary.
+pub fn add_aliquot(
+    store: &mut Store,
+    a: &NewAliquot,
+    files: &[SpectrumFile],
+    x_unit: Option<&str>,
+) -> Result<growth::AliquotSummary> {
+    if files.is_empty() {
+        return Err(Error::Invalid(
+            "an aliquot needs at least one spectrum (--abs, --pl or --ple)".into(),
+        ));
+    }
+    let mut read = Vec::new();
+    for f in files {
+        if f.kind == "pl" && f.excitation_nm.is_none() {
+            return Err(Error::Invalid(format!(
+                "PL file {} needs its excitation wavelength (--excitation-nm)",
+                f.path.display()
+            )));
+        }
+        read.push((f, read_checked(&f.path, x_unit)?));
+    }
+    store.write(|tx, who| {
+        let id = model::insert_aliquot(tx, who, a)?;
+        for (f, (raw, sha)) in &read {
+            model::insert_spectrum(tx, who, &new_spectrum(Some(id), f, raw, sha))?;
+        }
+        engine::derive_aliquot(tx, id)?;
+        let row = model::get_aliquot(tx, id)?;
+        growth::aliquot_summary(tx, &row)
+    })
+}
+
+pub fn new_spectrum(aliquot_id: Option<i64>, f: &SpectrumFile, raw: &RawSpectrum, sha: &str) -> NewSpectrum {
+    NewSpectrum {
+        aliquot_id,
+        vial_id: None,
+        kind: f.kind.to_string(),
+        x_unit: raw.x_unit.clone(),
+        y_unit: raw.y_unit.clone(),
+        x: raw.x.clone(),
+        y: raw.y.clone(),
+        file_name: f
+            .path
+            .file_name()
+            .map(|n| n.to_string_lossy().to_string())
+            .unwrap_or_default(),
+        sha256: sha.to_string(),
+        excitation_nm: f.excitation_nm,
+        instrument: None,
+    }
+}
+
+/// One aliquot's worth of files found in a folder.
+#[derive(Debug, Clone)]
+pub struct FolderGroup {
+    pub minutes: Option<f64>,
+    pub stage: Option<String>,
+    pub files: Vec<SpectrumFile>,
+}
+
+/// Groups a folder's exports by the minutes (or stage) in their names: a name holding "pl"
+/// (not "ple") is PL, "ple" is PL excitation, anything else absorbance; "05min", "t5" or a
+/// bare number give minutes; "crude" or "washed" a stage.
+pub fn group_folder(folder: &Path, excitation_nm: Option<f64>) -> Result<Vec<FolderGroup>> {
+    let mut entries: Vec<PathBuf> = std::fs::read_dir(folder)
+        .map_err(|e| Error::Invalid(format!("cannot read folder {}: {e}", folder.display())))?
+        .filter_map(|e| e.ok().map(|e| e.path()))
+        .filter(|p| p.is_file() && !p.file_name().is_some_and(|n| n.to_string_lossy().starts_with('.')))
+        .collect();
+    entries.sort();
+    let mut groups: Vec<FolderGroup> = Vec::new();
+    for p in entries {
+        let name = p
+            .file_stem()
+            .map(|s| s.to_string_lossy().to_ascii_lowercase())
+            .unwrap_or_default();
+        let kind = if name.contains("ple") {
+            "ple"
+        } else if name
+            .split(|c: char| !c.is_ascii_alphanumeric())
+            .any(|w| w == "pl" || w.starts_with("pl") && w[2..].chars().all(|c| c.is_ascii_digit()))
+        {
+            "pl"
+        } else {
+            "abs"
+        };
+        let stage = ["crude", "washed", "purified", "final"]
+            .iter()
+            .find(|s| name.contains(*s))
+            .map(|s| s.to_string());
+        let minutes = if stage.is_some() { None } else { minutes_in(&name) };
+        if minutes.is_none() && stage.is_none() {
+            return Err(Error::Invalid(format!(
+                "cannot tell the minutes or stage of {} (name it like abs_05min.csv or pl_washed.csv)",
+                p.display()
+            )));
+        }
+        let file = SpectrumFile {
+            path: p,
+            kind,
+            excitation_nm: if kind == "pl" { excitation_nm } else { None },
+        };
+        match groups.iter_mut().find(|g| g.minutes == minutes && g.stage == stage) {
+            Some(g) => {
+                if g.files.iter().any(|f| f.kind == kind) {
+                    return Err(Error::Invalid(format!(
+                        "two {kind} files for the same aliquot: {} and {}",
+                        g.files
+                            .iter()
+                            .find(|f| f.kind == kind)
+                            .map(|f| f.path.display().to_string())
+                            .unwrap_or_default(),
+                        file.path.display()
+                    )));
+                }
+                g.files.push(file)
+            }
+            None => groups.push(FolderGroup {
+                minutes,
+                stage,
+                files: vec![file],
+            }),
+        }
+    }
+    groups.sort_by(|a, b| a.minutes.unwrap_or(f64::MAX).total_cmp(&b.minutes.unwrap_or(f64::MAX)));
+    Ok(groups)
+}
+
+fn minutes_in(name: &str) -> Option<f64> {
+    // The first run of digits (with a decimal point) in the name.
+    let mut cur = String::new();
+    for c in name.chars() {
+        if c.is_ascii_digit() || (c == '.' && !cur.is_empty()) || (c == 'p' && !cur.is_empty() && !cur.contains('.')) {
+            cur.push(if c == 'p' { '.' } else { c });
+        } else if !cur.is_empty() {
+            break;
+        }
+    }
+    cur.trim_end_matches('.').parse().ok()
+}
+
+/// Imports a folder as aliquots of a batch in one transaction: all or nothing.
+pub fn import_folder(
+    store: &mut Store,
+    batch_id: i64,
+    folder: &Path,
+    template: &NewAliquot,
+    excitation_nm: Option<f64>,
+    mut progress: impl FnMut(usize, usize),
+) -> Result<Vec<i64>> {
+    let groups = group_folder(folder, excitation_nm)?;
+    if groups.is_empty() {
+        return Err(Error::Invalid(format!("no spectrum files in {}", folder.display())));
+    }
+    let mut read = Vec::new();
+    for g in &groups {
+        let mut files = Vec::new();
+        for f in &g.files {
+            if f.kind == "pl" && f.excitation_nm.is_none() {
+                return Err(Error::Invalid(format!(
+                    "PL file {} needs --excitation-nm",
+                    f.path.display()
+                )));
+            }
+            files.push((f.clone(), read_checked(&f.path, None)?));
+        }
+        read.push((g, files));
+    }
+    let total = read.len();
+    store.write(|tx, who| {
+        model::get_batch(tx, batch_id)?;
+        let mut ids = Vec::new();
+        for (i, (g, files)) in read.iter().enumerate() {
+            let a = NewAliquot {
+                batch_id,
+                minutes: g.minutes,
+                stage: g.stage.clone(),
+                ..template.clone()
+            };
+            let id = model::insert_aliquot(tx, who, &a)?;
+            for (f, (raw, sha)) in files {
+                model::insert_spectrum(tx, who, &new_spectrum(Some(id), f, raw, sha))?;
+            }
+            engine::derive_aliquot(tx, id)?;
+            ids.push(id);
+            progress(i + 1, total);
+        }
+        Ok(ids)
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::minutes_in;
+
+    #[test]
+    fn minutes_from_names() {
+        assert_eq!(minutes_in("abs_05min"), Some(5.0));
+        assert_eq!(minutes_in("b12_pl_t2p5"), Some(12.0));
+        assert_eq!(minutes_in("abs-0.5min"), Some(0.5));
+        assert_eq!(minutes_in("abs"), None);
+    }
+}

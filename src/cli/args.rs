@@ -1,0 +1,703 @@
+//! The command-line grammar. Names here are the contract scripts rely on (see README).
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use std::path::PathBuf;
+
+#[derive(Debug, Parser)]
+#[command(
+    name = "cuvette",
+    version,
+    about = "A lab record for colloidal nanocrystal synthesis: batches, aliquot spectra, derived sizes and yields, and the shelf of vials."
+)]
+pub struct Cli {
+    /// The lab database (default: $CUVETTE_DB, else lab.db in the platform's data directory).
+    #[arg(long, global = true, env = "CUVETTE_DB")]
+    pub db: Option<PathBuf>,
+    /// Who the writes are attributed to (default: $CUVETTE_USER, else the login name).
+    #[arg(long = "as", global = true, env = "CUVETTE_USER", value_name = "PERSON")]
+    pub actor: Option<String>,
+    #[command(subcommand)]
+    pub cmd: Option<Cmd>,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Cmd {
+    /// Create an empty lab database.
+    Init,
+    /// Build the invented demo lab into the database file, then open the UI in a terminal.
+    Demo(DemoArgs),
+    /// People of the lab.
+    #[command(subcommand)]
+    Person(PersonCmd),
+    /// Materials and the sizing curves that apply to them.
+    #[command(subcommand)]
+    Material(MaterialCmd),
+    /// Reagents and their GHS hazard statements.
+    #[command(subcommand)]
+    Reagent(ReagentCmd),
+    /// Versioned recipes.
+    #[command(subcommand)]
+    Recipe(RecipeCmd),
+    /// Synthesis batches.
+    #[command(subcommand)]
+    Batch(BatchCmd),
+    /// Aliquots of a batch and their spectra.
+    #[command(subcommand)]
+    Aliquot(AliquotCmd),
+    /// Storage locations.
+    #[command(subcommand)]
+    Location(LocationCmd),
+    /// Vials: new, draw, move, dispose, show.
+    #[command(subcommand)]
+    Vial(VialCmd),
+    /// The shelf: every vial grouped by location.
+    Shelf(ShelfArgs),
+    /// The audit log, newest first.
+    Log(LogArgs),
+    /// Analyse spectrum files (or folders of them) without touching the database.
+    Analyze(AnalyzeArgs),
+    /// Show what cuvette reads from one spectrum file.
+    Read(ReadArgs),
+    /// Diameter from a first-exciton wavelength.
+    Size(SizeArgs),
+    /// Relative photoluminescence quantum yield against a reference.
+    Qy(QyArgs),
+    /// Shell growth: precursor per monolayer and the expected diameter.
+    ShellPlan(ShellPlanArgs),
+    /// Calibrations: list, show, history and changes (each change is a new version).
+    #[command(subcommand)]
+    Calib(CalibCmd),
+    /// Recompute derived values whose inputs or calibration changed.
+    Recompute(RecomputeArgs),
+    /// Show how each derived value of an aliquot came about.
+    Explain(ExplainArgs),
+    /// Search batches with the query language (see README).
+    Find(FindArgs),
+    /// Hand a person's vials and open batches to another, and write a handover pack.
+    Handover(HandoverArgs),
+    /// Draw a batch's growth series as SVG.
+    Plot(PlotArgs),
+    /// Export every batch, aliquot and current derived value.
+    Export(ExportArgs),
+    /// Check the database: SQLite integrity, foreign keys and cuvette's own invariants.
+    Check(JsonFlag),
+    /// Copy the database through SQLite's online backup.
+    Backup(BackupArgs),
+    /// Replace the database with a backup (the replaced file is kept).
+    Restore(RestoreArgs),
+    /// Import a folder of spectrum exports into a batch as aliquots, all or nothing.
+    Import(ImportArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct JsonFlag {
+    /// Print JSON.
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct DemoArgs {
+    /// Build an invented lab of N batches for load tests instead of the 25-batch demo.
+    #[arg(long)]
+    pub scale: Option<usize>,
+    /// Do not open the UI afterwards.
+    #[arg(long)]
+    pub no_ui: bool,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum PersonCmd {
+    Add {
+        name: String,
+        #[arg(long)]
+        email: Option<String>,
+    },
+    List(JsonFlag),
+}
+
+#[derive(Debug, Subcommand)]
+pub enum MaterialCmd {
+    Add {
+        name: String,
+        /// The core whose sizing curve applies (CdSe for CdSe/ZnS).
+        #[arg(long)]
+        core: String,
+        #[arg(long)]
+        shell: Option<String>,
+    },
+    List(JsonFlag),
+}
+
+#[derive(Debug, Subcommand)]
+pub enum ReagentCmd {
+    Add {
+        name: String,
+        #[arg(long)]
+        formula: Option<String>,
+        #[arg(long)]
+        cas: Option<String>,
+        /// GHS hazard statements, e.g. --hazard H350 --hazard H410.
+        #[arg(long = "hazard")]
+        hazards: Vec<String>,
+        #[arg(long)]
+        pyrophoric: bool,
+    },
+    List(JsonFlag),
+}
+
+#[derive(Debug, Subcommand)]
+pub enum RecipeCmd {
+    /// A new recipe, or a new version of one: from a JSON file or from flags.
+    New {
+        name: String,
+        #[arg(long)]
+        material: String,
+        /// "REAGENT=AMOUNT UNIT[:ROLE]", e.g. "cadmium oxide=0.2 mmol:precursor".
+        #[arg(long = "reagent")]
+        reagents: Vec<String>,
+        /// "ACTION[@TEMP C][/MINUTES min]", e.g. "inject Se-TOP@260 C/5 min".
+        #[arg(long = "step")]
+        steps: Vec<String>,
+        #[arg(long)]
+        notes: Option<String>,
+        #[arg(long)]
+        json: bool,
+    },
+    Show {
+        name: String,
+        #[arg(long)]
+        version: Option<i64>,
+        #[arg(long)]
+        json: bool,
+    },
+    List(JsonFlag),
+    /// Mean and spread of the product values of a recipe version's batches.
+    Stats {
+        name: String,
+        #[arg(long)]
+        version: Option<i64>,
+        #[arg(long)]
+        json: bool,
+    },
+}
+
+#[derive(Debug, Subcommand)]
+pub enum BatchCmd {
+    New(BatchNewArgs),
+    List(BatchListArgs),
+    Show {
+        id: i64,
+        #[arg(long)]
+        json: bool,
+    },
+    Edit(BatchEditArgs),
+    SetStatus {
+        id: i64,
+        status: String,
+        #[arg(long)]
+        json: bool,
+    },
+    /// A new batch with the same material and recipe version as an earlier one.
+    Repeat {
+        id: i64,
+        #[arg(long)]
+        name: Option<String>,
+        #[arg(long)]
+        json: bool,
+    },
+}
+
+#[derive(Debug, Args)]
+pub struct BatchNewArgs {
+    #[arg(long)]
+    pub material: String,
+    #[arg(long)]
+    pub name: String,
+    #[arg(long)]
+    pub recipe: Option<String>,
+    #[arg(long)]
+    pub recipe_version: Option<i64>,
+    #[arg(long)]
+    pub operator: Option<String>,
+    /// When the run started (YYYY-MM-DD or YYYY-MM-DD HH:MM); default now.
+    #[arg(long)]
+    pub started: Option<String>,
+    #[arg(long)]
+    pub status: Option<String>,
+    /// The batch this one was made from (a core for a shell, a crude batch for a fraction).
+    #[arg(long)]
+    pub parent: Option<i64>,
+    /// shell, fraction or repeat.
+    #[arg(long)]
+    pub relation: Option<String>,
+    #[arg(long)]
+    pub notes: Option<String>,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct BatchListArgs {
+    #[arg(long)]
+    pub status: Option<String>,
+    #[arg(long)]
+    pub material: Option<String>,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct BatchEditArgs {
+    pub id: i64,
+    #[arg(long)]
+    pub name: Option<String>,
+    /// Replace the notes.
+    #[arg(long)]
+    pub notes: Option<String>,
+    /// Add a line to the notes.
+    #[arg(long)]
+    pub append_notes: Option<String>,
+    #[arg(long)]
+    pub operator: Option<String>,
+    /// Mark an aliquot as the batch's product.
+    #[arg(long)]
+    pub product_aliquot: Option<i64>,
+    /// Pin the batch to a calibration version.
+    #[arg(long)]
+    pub pin_calibration: Option<i64>,
+    #[arg(long)]
+    pub unpin: bool,
+    #[arg(long)]
+    pub parent: Option<i64>,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum AliquotCmd {
+    Add(AliquotAddArgs),
+    Show {
+        id: i64,
+        #[arg(long)]
+        json: bool,
+    },
+}
+
+#[derive(Debug, Args, Clone)]
+pub struct AliquotAddArgs {
+    pub batch_id: i64,
+    /// Absorbance spectrum file.
+    #[arg(long)]
+    pub abs: Option<PathBuf>,
+    /// Photoluminescence spectrum file.
+    #[arg(long)]
+    pub pl: Option<PathBuf>,
+    /// PL excitation spectrum file.
+    #[arg(long)]
+    pub ple: Option<PathBuf>,
+    /// Excitation wavelength of the PL spectrum, nm.
+    #[arg(long)]
+    pub excitation_nm: Option<f64>,
+    /// Minutes after injection.
+    #[arg(long)]
+    pub minutes: Option<f64>,
+    /// A stage label instead of minutes: crude, washed, ...
+    #[arg(long)]
+    pub stage: Option<String>,
+    #[arg(long, default_value_t = 1.0)]
+    pub dilution: f64,
+    #[arg(long, default_value_t = 1.0)]
+    pub path_cm: f64,
+    #[arg(long, default_value = "hexane")]
+    pub solvent: String,
+    /// x unit of the files when they do not say (nm, eV, 1/cm).
+    #[arg(long)]
+    pub x_unit: Option<String>,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum LocationCmd {
+    Add {
+        name: String,
+        /// freezer, fridge, glovebox, shelf or cabinet.
+        #[arg(long)]
+        kind: String,
+        #[arg(long)]
+        position: Option<String>,
+    },
+    List(JsonFlag),
+}
+
+#[derive(Debug, Subcommand)]
+pub enum VialCmd {
+    New {
+        batch_id: i64,
+        #[arg(long)]
+        ml: f64,
+        #[arg(long)]
+        location: String,
+        #[arg(long)]
+        label: Option<String>,
+        #[arg(long, default_value = "hexane")]
+        solvent: String,
+        #[arg(long)]
+        position: Option<String>,
+        #[arg(long)]
+        owner: Option<String>,
+        /// Concentration of the vial's solution, mol/L (default: from the batch's product).
+        #[arg(long)]
+        conc: Option<f64>,
+        #[arg(long)]
+        json: bool,
+    },
+    Draw {
+        vial: String,
+        #[arg(long)]
+        ml: f64,
+        #[arg(long)]
+        why: Option<String>,
+        #[arg(long)]
+        json: bool,
+    },
+    Move {
+        vial: String,
+        #[arg(long)]
+        to: String,
+        #[arg(long)]
+        position: Option<String>,
+        #[arg(long)]
+        why: Option<String>,
+        #[arg(long)]
+        json: bool,
+    },
+    Dispose {
+        vial: String,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
+    Show {
+        vial: String,
+        #[arg(long)]
+        json: bool,
+    },
+}
+
+#[derive(Debug, Args)]
+pub struct ShelfArgs {
+    /// Include disposed vials.
+    #[arg(long)]
+    pub all: bool,
+    /// Only vials with less than this many mL left.
+    #[arg(long)]
+    pub low: Option<f64>,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct LogArgs {
+    #[arg(long)]
+    pub entity: Option<String>,
+    #[arg(long, default_value_t = 50)]
+    pub limit: i64,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Clone, Copy, ValueEnum, PartialEq, Eq)]
+pub enum Kind {
+    Abs,
+    Pl,
+    Ple,
+}
+
+#[derive(Debug, Args)]
+pub struct AnalyzeArgs {
+    /// Files or folders of exports.
+    #[arg(required = true)]
+    pub paths: Vec<PathBuf>,
+    #[arg(long, value_enum)]
+    pub kind: Kind,
+    /// Also size and count the crystals of this material.
+    #[arg(long)]
+    pub material: Option<String>,
+    #[arg(long)]
+    pub curve: Option<String>,
+    #[arg(long, default_value_t = 1.0)]
+    pub path_cm: f64,
+    #[arg(long, default_value_t = 1.0)]
+    pub dilution: f64,
+    #[arg(long)]
+    pub x_unit: Option<String>,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct ReadArgs {
+    pub file: PathBuf,
+    /// JCAMP-DX block to read: number (from 1) or title.
+    #[arg(long)]
+    pub block: Option<String>,
+    #[arg(long)]
+    pub x_col: Option<usize>,
+    #[arg(long)]
+    pub y_col: Option<usize>,
+    #[arg(long)]
+    pub x_unit: Option<String>,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct SizeArgs {
+    #[arg(long)]
+    pub material: String,
+    #[arg(long)]
+    pub peak_nm: f64,
+    #[arg(long)]
+    pub curve: Option<String>,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct QyArgs {
+    #[arg(long)]
+    pub sample_integral: Option<f64>,
+    #[arg(long)]
+    pub sample_abs: Option<f64>,
+    #[arg(long)]
+    pub ref_integral: Option<f64>,
+    #[arg(long)]
+    pub ref_abs: Option<f64>,
+    /// Sample PL file (spectra form).
+    #[arg(long)]
+    pub sample_pl: Option<PathBuf>,
+    /// Sample absorbance file (spectra form).
+    #[arg(long)]
+    pub sample_abs_file: Option<PathBuf>,
+    #[arg(long)]
+    pub ref_pl: Option<PathBuf>,
+    #[arg(long)]
+    pub ref_abs_file: Option<PathBuf>,
+    /// Excitation wavelength for the spectra form, nm.
+    #[arg(long)]
+    pub excitation_nm: Option<f64>,
+    #[arg(long, conflicts_with = "ref_dye")]
+    pub ref_qy: Option<f64>,
+    #[arg(long)]
+    pub ref_dye: Option<String>,
+    #[arg(long)]
+    pub solvent: String,
+    #[arg(long)]
+    pub ref_solvent: String,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct ShellPlanArgs {
+    #[arg(long)]
+    pub shell: String,
+    #[arg(long)]
+    pub core_nm: f64,
+    /// Micromoles of core crystals.
+    #[arg(long)]
+    pub crystals_umol: f64,
+    #[arg(long, default_value_t = 1)]
+    pub layers: usize,
+    #[arg(long)]
+    pub ml_nm: Option<f64>,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum CalibCmd {
+    List(JsonFlag),
+    Show {
+        version: Option<i64>,
+        #[arg(long)]
+        json: bool,
+    },
+    History(JsonFlag),
+    /// Choose the sizing curve for a material.
+    SetCurve {
+        material: String,
+        curve: String,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
+    /// Choose the extinction model for a material.
+    SetExtinction {
+        material: String,
+        model: String,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
+    /// Set the QY reference measurement.
+    SetReference {
+        #[arg(long)]
+        dye: String,
+        /// The dye's quantum yield (default: the table value).
+        #[arg(long)]
+        qy: Option<f64>,
+        #[arg(long)]
+        solvent: Option<String>,
+        #[arg(long)]
+        excitation_nm: f64,
+        #[arg(long)]
+        integral: f64,
+        #[arg(long)]
+        abs: f64,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
+    /// Override a solvent's refractive index.
+    SetIndex {
+        solvent: String,
+        n: f64,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
+    /// Analysis settings.
+    SetAnalysis {
+        #[arg(long)]
+        smoothing_nm: Option<f64>,
+        #[arg(long)]
+        smoothing_order: Option<usize>,
+        #[arg(long)]
+        saturation_abs: Option<f64>,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
+    /// Load a PL detector correction curve (two columns: nm, factor).
+    SetDetector {
+        file: PathBuf,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
+    /// Bulk parameters for the effective-mass model.
+    SetBulk {
+        material: String,
+        #[arg(long)]
+        eg_ev: f64,
+        #[arg(long)]
+        me: f64,
+        #[arg(long)]
+        mh: f64,
+        #[arg(long)]
+        eps_r: f64,
+        #[arg(long)]
+        source: String,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
+}
+
+#[derive(Debug, Args)]
+pub struct RecomputeArgs {
+    #[arg(long)]
+    pub dry_run: bool,
+    #[arg(long)]
+    pub all: bool,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct ExplainArgs {
+    pub aliquot: i64,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct FindArgs {
+    /// The query, e.g. 'CdSe size:3.5..4 qy>50% stock'.
+    #[arg(num_args = 0.., trailing_var_arg = true, allow_hyphen_values = true)]
+    pub query: Vec<String>,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct HandoverArgs {
+    #[arg(long)]
+    pub from: String,
+    #[arg(long)]
+    pub to: String,
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct PlotArgs {
+    pub batch: i64,
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+}
+
+#[derive(Debug, Clone, Copy, ValueEnum, PartialEq, Eq)]
+pub enum ExportFormat {
+    Csv,
+    Json,
+}
+
+#[derive(Debug, Args)]
+pub struct ExportArgs {
+    #[arg(long, value_enum)]
+    pub format: ExportFormat,
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+}
+
+#[derive(Debug, Args)]
+pub struct BackupArgs {
+    #[arg(long)]
+    pub out: PathBuf,
+}
+
+#[derive(Debug, Args)]
+pub struct RestoreArgs {
+    pub file: PathBuf,
+}
+
+#[derive(Debug, Args)]
+pub struct ImportArgs {
+    pub batch_id: i64,
+    /// A folder of exports; files are matched by name: *abs* and *pl* with a number of minutes.
+    pub folder: PathBuf,
+    #[arg(long, default_value_t = 1.0)]
+    pub dilution: f64,
+    #[arg(long, default_value_t = 1.0)]
+    pub path_cm: f64,
+    #[arg(long, default_value = "hexane")]
+    pub solvent: String,
+    #[arg(long)]
+    pub excitation_nm: Option<f64>,
+    #[arg(long)]
+    pub json: bool,
+}

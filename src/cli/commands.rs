@@ -1,0 +1,1638 @@
+//! What each command does: open the store, call the library, print. No science and no SQL
+//! live here.
+
+use super::args::*;
+use super::output::{self, Progress, json, json_line, line, molar, num};
+use crate::bench::{self, SpectrumFile};
+use crate::derive::{calibration, engine, extinction, growth, qy, sizing, solvents, yields};
+use crate::spectra::{self, ReadOptions, analysis};
+use crate::store::{Store, model};
+use anyhow::{Context, Result, anyhow, bail};
+use serde_json::{Value, json};
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+pub fn default_db_path() -> PathBuf {
+    let home = std::env::var_os("HOME")
+        .map(PathBuf::from)
+        .unwrap_or_else(|| PathBuf::from("."));
+    let base = if let Some(x) = std::env::var_os("XDG_DATA_HOME") {
+        PathBuf::from(x)
+    } else if cfg!(target_os = "macos") {
+        home.join("Library/Application Support")
+    } else if cfg!(windows) {
+        std::env::var_os("APPDATA").map(PathBuf::from).unwrap_or(home)
+    } else {
+        home.join(".local/share")
+    };
+    base.join("cuvette").join("lab.db")
+}
+
+fn actor(cli: &Cli) -> String {
+    cli.actor
+        .clone()
+        .or_else(|| std::env::var("USER").ok())
+        .or_else(|| std::env::var("USERNAME").ok())
+        .unwrap_or_else(|| "unknown".into())
+}
+
+fn db_path(cli: &Cli) -> PathBuf {
+    cli.db.clone().unwrap_or_else(default_db_path)
+}
+
+fn open(cli: &Cli) -> Result<Store> {
+    let path = db_path(cli);
+    if let Some(dir) = path.parent()
+        && !dir.as_os_str().is_empty()
+        && !dir.exists()
+    {
+        std::fs::create_dir_all(dir).with_context(|| format!("cannot create {}", dir.display()))?;
+    }
+    let store = Store::open(&path, &actor(cli)).map_err(|e| anyhow!("{}: {e}", path.display()))?;
+    if let Some(b) = &store.migrated_backup {
+        eprintln!(
+            "cuvette: migrated {}; the previous file is kept at {}",
+            path.display(),
+            b.display()
+        );
+    }
+    Ok(store)
+}
+
+pub fn dispatch(cli: Cli) -> Result<ExitCode> {
+    let Some(cmd) = &cli.cmd else {
+        let mut store = open(&cli)?;
+        crate::tui::run(&mut store)?;
+        return Ok(ExitCode::SUCCESS);
+    };
+    match cmd {
+        Cmd::Init => {
+            let path = db_path(&cli);
+            let existed = path.exists();
+            open(&cli)?;
+            line(&format!(
+                "{} {}",
+                if existed { "opened existing lab" } else { "created lab" },
+                path.display()
+            ))?;
+        }
+        Cmd::Demo(a) => return demo(&cli, a),
+        Cmd::Person(c) => person(&cli, c)?,
+        Cmd::Material(c) => material(&cli, c)?,
+        Cmd::Reagent(c) => reagent(&cli, c)?,
+        Cmd::Recipe(c) => recipe(&cli, c)?,
+        Cmd::Batch(c) => batch(&cli, c)?,
+        Cmd::Aliquot(c) => aliquot(&cli, c)?,
+        Cmd::Location(c) => location(&cli, c)?,
+        Cmd::Vial(c) => vial(&cli, c)?,
+        Cmd::Shelf(a) => shelf(&cli, a)?,
+        Cmd::Log(a) => log(&cli, a)?,
+        Cmd::Analyze(a) => return analyze(a),
+        Cmd::Read(a) => read(a)?,
+        Cmd::Size(a) => size(a)?,
+        Cmd::Qy(a) => qy_cmd(a)?,
+        Cmd::ShellPlan(a) => {
+            let plan = yields::shell_plan(&a.shell, a.core_nm, a.crystals_umol, a.layers, a.ml_nm)?;
+            if a.json {
+                json(&plan)?;
+            } else {
+                line(&format!(
+                    "{} shell, {} nm a monolayer (from memory; check your own value)",
+                    plan.shell, plan.monolayer_nm
+                ))?;
+                for l in &plan.per_monolayer {
+                    line(&format!(
+                        "  ML {:>2}: {:.2} nm, {:.4} mmol of each shell element",
+                        l.layer, l.diameter_nm, l.precursor_mmol
+                    ))?;
+                }
+            }
+        }
+        Cmd::Calib(c) => calib(&cli, c)?,
+        Cmd::Recompute(a) => recompute(&cli, a)?,
+        Cmd::Explain(a) => explain(&cli, a)?,
+        Cmd::Find(a) => return find(&cli, a),
+        Cmd::Handover(a) => handover(&cli, a)?,
+        Cmd::Plot(a) => {
+            let mut store = open(&cli)?;
+            let svg = store.read(|tx| crate::report::plot_batch_svg(tx, a.batch))?;
+            match &a.out {
+                Some(p) => {
+                    std::fs::write(p, svg).with_context(|| format!("cannot write {}", p.display()))?;
+                    line(&format!("wrote {}", p.display()))?;
+                }
+                None => line(&svg)?,
+            }
+        }
+        Cmd::Export(a) => {
+            let mut store = open(&cli)?;
+            let written =
+                store.read(|tx| crate::report::export(tx, a.format == ExportFormat::Json, a.out.as_deref()))?;
+            for w in written {
+                line(&w)?;
+            }
+        }
+        Cmd::Check(a) => return check(&cli, a.json),
+        Cmd::Backup(a) => {
+            let store = open(&cli)?;
+            store.backup_to(&a.out)?;
+            line(&format!("backed up {} to {}", db_path(&cli).display(), a.out.display()))?;
+        }
+        Cmd::Restore(a) => restore(&cli, &a.file)?,
+        Cmd::Import(a) => import(&cli, a)?,
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+fn demo(cli: &Cli, a: &DemoArgs) -> Result<ExitCode> {
+    let path = db_path(cli);
+    crate::demo::prepare_file(&path)?;
+    let mut store = open(cli)?;
+    let progress = Progress::new("demo", false);
+    let n = crate::demo::build(&mut store, a.scale, |d, t| progress.tick(d, t))?;
+    use std::io::IsTerminal;
+    if !a.no_ui && std::io::stdout().is_terminal() && std::io::stdin().is_terminal() {
+        crate::tui::run(&mut store)?;
+    } else {
+        line(&format!("built the demo lab ({n} batches) in {}", path.display()))?;
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+fn person(cli: &Cli, c: &PersonCmd) -> Result<()> {
+    let mut store = open(cli)?;
+    match c {
+        PersonCmd::Add { name, email } => {
+            let id = store.write(|tx, who| model::add_person(tx, who, name, email.as_deref()))?;
+            line(&format!("person {id}: {name}"))?;
+        }
+        PersonCmd::List(f) => {
+            let people = store.read(|tx| model::list_people(tx))?;
+            if f.json {
+                json(&people)?;
+            } else {
+                for p in people {
+                    line(&format!("{:>4}  {}", p.id, p.name))?;
+                }
+            }
+        }
+    }
+    Ok(())
+}
+
+fn material(cli: &Cli, c: &MaterialCmd) -> Result<()> {
+    let mut store = open(cli)?;
+    match c {
+        MaterialCmd::Add { name, core, shell } => {
+            let id = store.write(|tx, who| model::add_material(tx, who, name, core, shell.as_deref()))?;
+            line(&format!("material {id}: {name}"))?;
+        }
+        MaterialCmd::List(f) => {
+            let ms = store.read(|tx| model::list_materials(tx))?;
+            if f.json {
+                let v: Vec<Value> = ms
+                    .iter()
+                    .map(|m| json!({"id": m.id, "name": m.name, "core": m.core, "shell": m.shell, "curves": sizing::curves_for(&m.core)}))
+                    .collect();
+                json(&v)?;
+            } else {
+                for m in ms {
+                    line(&format!(
+                        "{:>4}  {:<10} core {:<5} curves: {}",
+                        m.id,
+                        m.name,
+                        m.core,
+                        sizing::curves_for(&m.core).join(", ")
+                    ))?;
+                }
+            }
+        }
+    }
+    Ok(())
+}
+
+fn reagent(cli: &Cli, c: &ReagentCmd) -> Result<()> {
+    let mut store = open(cli)?;
+    match c {
+        ReagentCmd::Add {
+            name,
+            formula,
+            cas,
+            hazards,
+            pyrophoric,
+        } => {
+            let hz: Vec<String> = hazards.iter().map(|h| h.to_ascii_uppercase()).collect();
+            let id = store.write(|tx, who| {
+                model::add_reagent(tx, who, name, formula.as_deref(), cas.as_deref(), &hz, *pyrophoric)
+            })?;
+            line(&format!("reagent {id}: {name}"))?;
+        }
+        ReagentCmd::List(f) => {
+            let rs = store.read(|tx| model::list_reagents(tx))?;
+            if f.json {
+                json(&rs)?;
+            } else {
+                for r in rs {
+                    line(&format!(
+                        "{:>4}  {:<32} {}{}",
+                        r.id,
+                        r.name,
+                        r.ghs_hazards.join(" "),
+                        if r.pyrophoric { "  PYROPHORIC" } else { "" }
+                    ))?;
+                }
+                line(crate::hazards::SDS_NOTICE)?;
+            }
+        }
+    }
+    Ok(())
+}
+
+/// "cadmium oxide=0.2 mmol:precursor"
+fn parse_reagent(s: &str) -> Result<model::RecipeReagent> {
+    let (name, rest) = s
+        .split_once('=')
+        .ok_or_else(|| anyhow!("reagent '{s}' should read NAME=AMOUNT UNIT[:ROLE]"))?;
+    let (amount_unit, role) = match rest.split_once(':') {
+        Some((a, r)) => (a, Some(r.trim().to_string())),
+        None => (rest, None),
+    };
+    let mut parts = amount_unit.split_whitespace();
+    let amount: f64 = parts
+        .next()
+        .and_then(|a| a.parse().ok())
+        .ok_or_else(|| anyhow!("reagent '{s}': amount is not a number"))?;
+    let unit = parts
+        .next()
+        .ok_or_else(|| anyhow!("reagent '{s}': no unit"))?
+        .to_string();
+    Ok(model::RecipeReagent {
+        reagent: name.trim().to_string(),
+        amount,
+        unit,
+        role,
+    })
+}
+
+/// "inject Se-TOP@260 C/5 min"
+fn parse_step(s: &str) -> Result<model::RecipeStep> {
+    let (head, minutes) = match s.rsplit_once('/') {
+        Some((h, m)) if m.trim().ends_with("min") => {
+            let v: f64 = m
+                .trim()
+                .trim_end_matches("min")
+                .trim()
+                .parse()
+                .map_err(|_| anyhow!("step '{s}': minutes is not a number"))?;
+            (h, Some(v))
+        }
+        _ => (s, None),
+    };
+    let (action, temp) = match head.rsplit_once('@') {
+        Some((a, t)) => {
+            let v: f64 = t
+                .trim()
+                .trim_end_matches('C')
+                .trim_end_matches('°')
+                .trim()
+                .parse()
+                .map_err(|_| anyhow!("step '{s}': temperature is not a number"))?;
+            (a, Some(v))
+        }
+        None => (head, None),
+    };
+    Ok(model::RecipeStep {
+        action: action.trim().to_string(),
+        temperature_c: temp,
+        duration_min: minutes,
+    })
+}
+
+fn print_recipe(r: &model::RecipeView) -> Result<()> {
+    line(&format!("{} v{} ({})", r.name, r.version, r.material))?;
+    for g in &r.reagents {
+        line(&format!(
+            "  {:<32} {:>8} {:<5} {:<10} {}{}",
+            g.reagent,
+            g.amount,
+            g.unit,
+            g.role.clone().unwrap_or_default(),
+            g.ghs_hazards.join(" "),
+            if g.pyrophoric { " PYROPHORIC" } else { "" }
+        ))?;
+    }
+    for (i, s) in r.steps.iter().enumerate() {
+        line(&format!(
+            "  {}. {}{}{}",
+            i + 1,
+            s.action,
+            s.temperature_c.map(|t| format!(" at {t} °C")).unwrap_or_default(),
+            s.duration_min.map(|m| format!(" for {m} min")).unwrap_or_default()
+        ))?;
+    }
+    for c in crate::report::cautions(r) {
+        line(&format!("  ! {c}"))?;
+    }
+    Ok(())
+}
+
+fn recipe(cli: &Cli, c: &RecipeCmd) -> Result<()> {
+    let mut store = open(cli)?;
+    match c {
+        RecipeCmd::New {
+            name,
+            material,
+            reagents,
+            steps,
+            notes,
+            json: j,
+        } => {
+            let rs: Vec<model::RecipeReagent> = reagents.iter().map(|s| parse_reagent(s)).collect::<Result<_>>()?;
+            let ss: Vec<model::RecipeStep> = steps.iter().map(|s| parse_step(s)).collect::<Result<_>>()?;
+            let view = store.write(|tx, who| {
+                let (_, vid) = model::save_recipe(tx, who, name, material, &rs, &ss, notes.as_deref())?;
+                model::recipe_view(tx, vid)
+            })?;
+            if *j { json(&view)? } else { print_recipe(&view)? }
+        }
+        RecipeCmd::Show { name, version, json: j } => {
+            let view = store.read(|tx| {
+                let vid = model::recipe_version_id(tx, name, *version)?;
+                model::recipe_view(tx, vid)
+            })?;
+            if *j {
+                let mut v = serde_json::to_value(&view)?;
+                v["cautions"] = json!(crate::report::cautions(&view));
+                json(&v)?
+            } else {
+                print_recipe(&view)?
+            }
+        }
+        RecipeCmd::List(f) => {
+            let rs = store.read(|tx| model::list_recipes(tx))?;
+            if f.json {
+                json(&rs)?;
+            } else {
+                for r in rs {
+                    line(&format!(
+                        "{:>4}  {:<30} {:<10} v{}",
+                        r.id, r.name, r.material, r.latest_version
+                    ))?;
+                }
+            }
+        }
+        RecipeCmd::Stats { name, version, json: j } => {
+            let st = store.read(|tx| {
+                let vid = model::recipe_version_id(tx, name, *version)?;
+                growth::recipe_stats(tx, vid)
+            })?;
+            if *j {
+                json(&st)?;
+            } else {
+                line(&format!(
+                    "{} v{}: {} batches ({} failed)",
+                    st.recipe, st.version, st.batches, st.failed
+                ))?;
+                for (label, s) in [
+                    ("diameter nm", &st.diameter_nm),
+                    ("dispersion %", &st.size_dispersion_pct),
+                    ("PL peak nm", &st.pl_peak_nm),
+                    ("QY", &st.qy),
+                ] {
+                    if let Some(s) = s {
+                        line(&format!(
+                            "  {label:<13} mean {:.3}  sd {}  (n={})",
+                            s.mean,
+                            num(s.sd, 3),
+                            s.n
+                        ))?;
+                    }
+                }
+            }
+        }
+    }
+    Ok(())
+}
+
+fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
+    let mut store = open(cli)?;
+    match c {
+        BatchCmd::New(a) => {
+            let nb = model::NewBatch {
+                name: a.name.clone(),
+                material: a.material.clone(),
+                recipe: a.recipe.clone(),
+                recipe_version: a.recipe_version,
+                operator: a.operator.clone(),
+                started_at: a.started.clone(),
+                status: a.status.clone(),
+                parent_batch_id: a.parent,
+                parent_relation: a.relation.clone(),
+                notes: a.notes.clone(),
+            };
+            let row = store.write(|tx, who| {
+                let id = model::insert_batch(tx, who, &nb)?;
+                model::get_batch(tx, id)
+            })?;
+            if a.json {
+                json(&row)?
+            } else {
+                line(&format!(
+                    "batch {}: {} ({}, {})",
+                    row.id, row.name, row.material, row.status
+                ))?
+            }
+        }
+        BatchCmd::List(a) => {
+            if let Some(s) = &a.status {
+                model::check_status(s)?;
+            }
+            let rows = store.read(|tx| {
+                let mut all = model::list_batches(tx)?;
+                if let Some(m) = &a.material {
+                    let mat = model::material_by_name(tx, m)?;
+                    all.retain(|b| b.material == mat.name);
+                }
+                Ok(all)
+            })?;
+            let rows: Vec<_> = rows
+                .into_iter()
+                .filter(|b| a.status.as_ref().is_none_or(|s| &b.status == s))
+                .collect();
+            if a.json {
+                json(&rows)?;
+            } else {
+                for b in rows {
+                    line(&format!(
+                        "{:>5}  {:<28} {:<10} {:<9} {:<10} {}",
+                        b.id,
+                        b.name,
+                        b.material,
+                        b.status,
+                        &b.started_at[..10.min(b.started_at.len())],
+                        b.operator.unwrap_or_default()
+                    ))?;
+                }
+            }
+        }
+        BatchCmd::Show { id, json: j } => {
+            let v = store.read(|tx| crate::report::batch_detail(tx, *id))?;
+            if *j { json(&v)? } else { print_batch(&v)? }
+        }
+        BatchCmd::Edit(a) => {
+            let e = model::BatchEdit {
+                name: a.name.clone(),
+                notes: a.notes.clone(),
+                append_notes: a.append_notes.clone(),
+                operator: a.operator.clone(),
+                product_aliquot_id: a.product_aliquot,
+                pin_calibration: a.pin_calibration,
+                unpin: a.unpin,
+                parent_batch_id: a.parent,
+            };
+            let row = store.write(|tx, who| {
+                let r = model::edit_batch(tx, who, a.id, &e)?;
+                if e.pin_calibration.is_some() || e.unpin {
+                    engine::mark_stale(tx)?;
+                }
+                Ok(r)
+            })?;
+            if a.json {
+                json(&row)?
+            } else {
+                line(&format!("batch {} updated", row.id))?
+            }
+        }
+        BatchCmd::SetStatus { id, status, json: j } => {
+            let row = store.write(|tx, who| model::set_batch_status(tx, who, *id, status))?;
+            if *j {
+                json(&row)?
+            } else {
+                line(&format!("batch {} is now {}", row.id, row.status))?
+            }
+        }
+        BatchCmd::Repeat { id, name, json: j } => {
+            let row = store.write(|tx, who| {
+                let b = model::get_batch(tx, *id)?;
+                let nb = model::NewBatch {
+                    name: name.clone().unwrap_or_else(|| format!("{} (repeat)", b.name)),
+                    material: b.material.clone(),
+                    recipe: b.recipe.clone(),
+                    recipe_version: b.recipe_version,
+                    parent_batch_id: Some(b.id),
+                    parent_relation: Some("repeat".into()),
+                    ..Default::default()
+                };
+                let nid = model::insert_batch(tx, who, &nb)?;
+                model::get_batch(tx, nid)
+            })?;
+            if *j {
+                json(&row)?
+            } else {
+                line(&format!("batch {}: {} repeats batch {id}", row.id, row.name))?
+            }
+        }
+    }
+    Ok(())
+}
+
+fn print_batch(v: &Value) -> Result<()> {
+    let s = |k: &str| v[k].as_str().unwrap_or("").to_string();
+    line(&format!(
+        "batch {} {} ({}) {}",
+        v["id"],
+        s("name"),
+        s("material"),
+        s("status")
+    ))?;
+    line(&format!("  started {} by {}", s("started_at"), s("operator")))?;
+    if let Some(r) = v["recipe"].as_str() {
+        line(&format!("  recipe {r} v{}", v["recipe_version"]))?;
+    }
+    if !s("notes").is_empty() {
+        line(&format!("  notes: {}", s("notes")))?;
+    }
+    line("   id   min  stage     peak nm   abs    D nm   σ/D %   conc       PL nm  QY     curve (cal)")?;
+    for a in v["aliquots"].as_array().into_iter().flatten() {
+        let f = |k: &str, d: usize| num(a[k].as_f64(), d);
+        line(&format!(
+            "  {:>4} {:>5} {:<8} {:>8} {:>6} {:>6} {:>6}   {:<10} {:>6} {:>5}  {} ({}){}",
+            a["id"],
+            f("minutes", 1),
+            a["stage"].as_str().unwrap_or(""),
+            f("first_exciton_nm", 1),
+            f("first_exciton_abs", 3),
+            f("diameter_nm", 2),
+            f("size_dispersion_pct", 1),
+            molar(a["concentration_molar"].as_f64()),
+            f("pl_peak_nm", 1),
+            f("qy", 2),
+            a["curve"].as_str().unwrap_or("-"),
+            a["calibration_version"],
+            if a["stale"].as_bool() == Some(true) {
+                " STALE"
+            } else {
+                ""
+            }
+        ))?;
+    }
+    let g = &v["growth"];
+    line(&format!(
+        "  growth: {} ; rate {} nm/min{}",
+        g["regime"].as_str().unwrap_or(""),
+        num(g["growth_rate_nm_per_min"].as_f64(), 3),
+        g["focusing_turn_min"]
+            .as_f64()
+            .map(|m| format!("; focusing turns to defocusing at {m} min"))
+            .unwrap_or_default()
+    ))?;
+    for x in v["vials"].as_array().into_iter().flatten() {
+        line(&format!(
+            "  vial {} {} {:.2} mL at {} ({})",
+            x["id"],
+            x["label"].as_str().unwrap_or(""),
+            x["volume_ml"].as_f64().unwrap_or(0.0),
+            x["location"].as_str().unwrap_or(""),
+            x["status"].as_str().unwrap_or("")
+        ))?;
+    }
+    for c in v["cautions"].as_array().into_iter().flatten() {
+        line(&format!("  ! {}", c.as_str().unwrap_or("")))?;
+    }
+    Ok(())
+}
+
+fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
+    let mut store = open(cli)?;
+    match c {
+        AliquotCmd::Add(a) => {
+            if a.minutes.is_some() && a.stage.is_some() {
+                bail!("give either --minutes or --stage, not both");
+            }
+            if a.excitation_nm.is_some() && a.pl.is_none() {
+                bail!("--excitation-nm goes with --pl");
+            }
+            let mut files = Vec::new();
+            if let Some(p) = &a.abs {
+                files.push(SpectrumFile {
+                    path: p.clone(),
+                    kind: "abs",
+                    excitation_nm: None,
+                });
+            }
+            if let Some(p) = &a.pl {
+                files.push(SpectrumFile {
+                    path: p.clone(),
+                    kind: "pl",
+                    excitation_nm: a.excitation_nm,
+                });
+            }
+            if let Some(p) = &a.ple {
+                files.push(SpectrumFile {
+                    path: p.clone(),
+                    kind: "ple",
+                    excitation_nm: None,
+                });
+            }
+            let na = model::NewAliquot {
+                batch_id: a.batch_id,
+                minutes: a.minutes,
+                stage: a.stage.clone(),
+                dilution_factor: a.dilution,
+                path_cm: a.path_cm,
+                solvent: a.solvent.clone(),
+                taken_at: None,
+            };
+            let s = bench::add_aliquot(&mut store, &na, &files, a.x_unit.as_deref())?;
+            if a.json {
+                json(&s)?;
+            } else {
+                line(&format!(
+                    "aliquot {}: first exciton {} nm, D {} nm ({}), conc {}, PL {} nm, QY {}",
+                    s.id,
+                    num(s.first_exciton_nm, 1),
+                    num(s.diameter_nm, 2),
+                    s.curve.clone().unwrap_or("-".into()),
+                    molar(s.concentration_molar),
+                    num(s.pl_peak_nm, 1),
+                    num(s.qy, 2)
+                ))?;
+                for w in &s.warnings {
+                    line(&format!("  warning: {w}"))?;
+                }
+            }
+        }
+        AliquotCmd::Show { id, json: j } => {
+            let s = store.read(|tx| {
+                let a = model::get_aliquot(tx, *id)?;
+                growth::aliquot_summary(tx, &a)
+            })?;
+            if *j {
+                json(&s)?
+            } else {
+                line(&serde_json::to_string_pretty(&s)?)?
+            }
+        }
+    }
+    Ok(())
+}
+
+fn location(cli: &Cli, c: &LocationCmd) -> Result<()> {
+    let mut store = open(cli)?;
+    match c {
+        LocationCmd::Add { name, kind, position } => {
+            let id = store.write(|tx, who| model::add_location(tx, who, name, kind, position.as_deref()))?;
+            line(&format!("location {id}: {name}"))?;
+        }
+        LocationCmd::List(f) => {
+            let ls = store.read(|tx| model::list_locations(tx))?;
+            if f.json {
+                json(&ls)?;
+            } else {
+                for l in ls {
+                    line(&format!(
+                        "{:>4}  {:<24} {:<9} {}",
+                        l.id,
+                        l.name,
+                        l.kind,
+                        l.position.unwrap_or_default()
+                    ))?;
+                }
+            }
+        }
+    }
+    Ok(())
+}
+
+fn vial_id(store: &mut Store, key: &str) -> Result<i64> {
+    Ok(store.read(|tx| model::find_vial(tx, key))?.id)
+}
+
+fn print_vial(v: &model::VialRow, j: bool) -> Result<()> {
+    if j {
+        json(&crate::report::shelf_entry(v))
+    } else {
+        line(&format!(
+            "vial {} {}: {:.3} mL left at {} ({})",
+            v.id, v.label, v.volume_ml, v.location, v.status
+        ))
+    }
+}
+
+fn vial(cli: &Cli, c: &VialCmd) -> Result<()> {
+    let mut store = open(cli)?;
+    match c {
+        VialCmd::New {
+            batch_id,
+            ml,
+            location,
+            label,
+            solvent,
+            position,
+            owner,
+            conc,
+            json: j,
+        } => {
+            let v = store.write(|tx, who| {
+                let conc = match conc {
+                    Some(c) => Some(*c),
+                    None => crate::report::product_concentration(tx, *batch_id)?,
+                };
+                let id = model::insert_vial(
+                    tx,
+                    who,
+                    &model::NewVial {
+                        batch_id: *batch_id,
+                        label: label.clone(),
+                        volume_ml: *ml,
+                        solvent: solvent.clone(),
+                        location: location.clone(),
+                        position: position.clone(),
+                        owner: owner.clone(),
+                        concentration_molar: conc,
+                        created_at: None,
+                    },
+                )?;
+                model::get_vial(tx, id)
+            })?;
+            print_vial(&v, *j)?;
+        }
+        VialCmd::Draw { vial, ml, why, json: j } => {
+            let id = vial_id(&mut store, vial)?;
+            let v = store.write(|tx, who| model::draw_from_vial(tx, who, id, *ml, why.as_deref()))?;
+            print_vial(&v, *j)?;
+        }
+        VialCmd::Move {
+            vial,
+            to,
+            position,
+            why,
+            json: j,
+        } => {
+            let id = vial_id(&mut store, vial)?;
+            let v = store.write(|tx, who| model::move_vial(tx, who, id, to, position.as_deref(), why.as_deref()))?;
+            print_vial(&v, *j)?;
+        }
+        VialCmd::Dispose { vial, why, json: j } => {
+            let id = vial_id(&mut store, vial)?;
+            let v = store.write(|tx, who| model::dispose_vial(tx, who, id, why))?;
+            print_vial(&v, *j)?;
+        }
+        VialCmd::Show { vial, json: j } => {
+            let (v, events) = store.read(|tx| {
+                let v = model::find_vial(tx, vial)?;
+                let e = model::vial_events(tx, v.id)?;
+                Ok((v, e))
+            })?;
+            if *j {
+                let mut x = crate::report::shelf_entry(&v);
+                x["events"] = serde_json::to_value(&events)?;
+                json(&x)?;
+            } else {
+                print_vial(&v, false)?;
+                for e in events {
+                    line(&format!(
+                        "  {} {:<8} {:>8} {} {}",
+                        e.at,
+                        e.kind,
+                        num(e.amount_ml, 3),
+                        e.who,
+                        e.why.unwrap_or_default()
+                    ))?;
+                }
+            }
+        }
+    }
+    Ok(())
+}
+
+fn shelf(cli: &Cli, a: &ShelfArgs) -> Result<()> {
+    let mut store = open(cli)?;
+    let vials = store.read(|tx| model::list_vials(tx, a.all))?;
+    let vials: Vec<_> = vials
+        .into_iter()
+        .filter(|v| a.low.is_none_or(|l| v.volume_ml < l))
+        .collect();
+    if a.json {
+        let v: Vec<Value> = vials.iter().map(crate::report::shelf_entry).collect();
+        return json(&v);
+    }
+    let mut current = String::new();
+    for v in &vials {
+        if v.location != current {
+            current = v.location.clone();
+            line(&current.to_string())?;
+        }
+        let e = crate::report::shelf_entry(v);
+        line(&format!(
+            "  {:>4} {:<14} batch {:>4} {:<9} {:>7.3} mL {:>10} {:>9} nmol  {:<10} {}",
+            v.id,
+            v.label,
+            v.batch_id,
+            v.material,
+            v.volume_ml,
+            molar(v.concentration_molar),
+            num(e["nanomoles_left"].as_f64(), 2),
+            v.owner.clone().unwrap_or_default(),
+            if v.status == "in_use" {
+                String::new()
+            } else {
+                v.status.clone()
+            }
+        ))?;
+    }
+    Ok(())
+}
+
+fn log(cli: &Cli, a: &LogArgs) -> Result<()> {
+    let mut store = open(cli)?;
+    let rows = store.read(|tx| model::audit_log(tx, a.entity.as_deref(), a.limit))?;
+    if a.json {
+        return json(&rows);
+    }
+    for r in rows {
+        line(&format!(
+            "{:>6} {} {:<10} {:<12} {:>6} {}",
+            r.id,
+            r.at,
+            r.who,
+            r.entity,
+            r.entity_id.map(|i| i.to_string()).unwrap_or_default(),
+            r.action
+        ))?;
+    }
+    Ok(())
+}
+
+fn expand(paths: &[PathBuf]) -> Result<Vec<PathBuf>> {
+    let mut out = Vec::new();
+    for p in paths {
+        if p.is_dir() {
+            let mut v: Vec<PathBuf> = std::fs::read_dir(p)
+                .with_context(|| format!("cannot read folder {}", p.display()))?
+                .filter_map(|e| e.ok().map(|e| e.path()))
+                .filter(|p| p.is_file() && !p.file_name().is_some_and(|n| n.to_string_lossy().starts_with('.')))
+                .collect();
+            v.sort();
+            out.extend(v);
+        } else {
+            out.push(p.clone());
+        }
+    }
+    Ok(out)
+}
+
+/// Analyses one file for `analyze`: the JSON line for it.
+pub fn analyze_one(path: &Path, a: &AnalyzeArgs, cal: &calibration::Calibration) -> Value {
+    let file = path.display().to_string();
+    let result = (|| -> crate::Result<Value> {
+        let opts = ReadOptions {
+            x_unit: a.x_unit.clone(),
+            ..Default::default()
+        };
+        let (raw, _) = spectra::read_file(path, &opts)?;
+        let t = raw.to_trace(&file, None)?;
+        match a.kind {
+            Kind::Abs | Kind::Ple => {
+                let r = analysis::analyze_absorbance(&t, &cal.analysis)?;
+                let mut v = json!({
+                    "file": file,
+                    "first_exciton_nm": r.first_exciton_nm,
+                    "first_exciton_abs": r.first_exciton_abs,
+                    "hwhm_nm": r.hwhm_nm,
+                    "hwhm_mev": r.hwhm_ev.map(|h| h * 1000.0),
+                    "shoulder": r.shoulder,
+                    "warnings": r.warnings,
+                });
+                if let (Some(m), Some(peak)) = (&a.material, r.first_exciton_nm) {
+                    let core = m.split('/').next().unwrap_or(m).to_string();
+                    let curve = a.curve.clone().or_else(|| cal.curves.get(&core).cloned());
+                    let mut warnings: Vec<String> = r.warnings.clone();
+                    if let Some(curve) = curve {
+                        match sizing::size(&curve, &core, peak, cal.bulk.get(&core)) {
+                            Ok(sz) => {
+                                v["diameter_nm"] = json!(sz.diameter_nm);
+                                v["curve"] = json!(sz.curve);
+                                warnings.extend(sz.warnings.clone());
+                                let model = if a.curve.is_some() && extinction::model_for(&core, &curve).is_ok() {
+                                    Some(curve.clone())
+                                } else {
+                                    cal.extinction.get(&core).cloned()
+                                };
+                                if let Some(model) = model
+                                    && let Ok(ex) =
+                                        extinction::coefficient(&model, &core, sz.diameter_nm, peak, r.hwhm_ev)
+                                {
+                                    let a_at = if (ex.at_nm - peak).abs() < 1e-9 {
+                                        r.first_exciton_abs
+                                    } else {
+                                        analysis::interpolate(&t, ex.at_nm)
+                                    };
+                                    v["extinction_m1cm1"] = json!(ex.extinction_m1cm1);
+                                    v["concentration_molar"] = json!(a_at.and_then(|av| {
+                                        extinction::concentration_molar(av, ex.extinction_m1cm1, a.path_cm, a.dilution)
+                                            .ok()
+                                    }));
+                                } else {
+                                    v["extinction_m1cm1"] = Value::Null;
+                                    v["concentration_molar"] = Value::Null;
+                                    warnings.push(format!("no extinction model for {core}"));
+                                }
+                            }
+                            Err(e) => warnings.push(e.to_string()),
+                        }
+                    } else {
+                        warnings.push(format!("no sizing curve for {core}"));
+                    }
+                    v["warnings"] = json!(warnings);
+                }
+                Ok(v)
+            }
+            Kind::Pl => {
+                let r = analysis::analyze_pl(&t, &cal.analysis)?;
+                Ok(json!({
+                    "file": file,
+                    "pl_peak_nm": r.pl_peak_nm,
+                    "pl_fwhm_nm": r.pl_fwhm_nm,
+                    "pl_fwhm_mev": r.pl_fwhm_mev,
+                    "pl_integral": r.pl_integral,
+                    "pl_integral_energy": r.pl_integral_energy,
+                    "warnings": r.warnings,
+                }))
+            }
+        }
+    })();
+    match result {
+        Ok(v) => v,
+        Err(e) => json!({"file": file, "error": e.to_string()}),
+    }
+}
+
+fn analyze(a: &AnalyzeArgs) -> Result<ExitCode> {
+    if let Some(m) = &a.material {
+        let core = m.split('/').next().unwrap_or(m);
+        if sizing::curves_for(core).is_empty() {
+            bail!("unknown material '{m}' for sizing (known cores: CdSe, CdTe, CdS, PbS, PbSe, InP)");
+        }
+    }
+    if !(a.path_cm > 0.0) || !(a.dilution >= 1.0) {
+        bail!("--path-cm must be above zero and --dilution at least 1");
+    }
+    let files = expand(&a.paths)?;
+    let cal = calibration::Calibration::default();
+    let workers = std::thread::available_parallelism()
+        .map(|n| n.get())
+        .unwrap_or(2)
+        .clamp(1, 8);
+    let results = crate::report::parallel_map(&files, workers, |p| analyze_one(p, a, &cal));
+    let mut failed = false;
+    for v in &results {
+        if let Some(e) = v.get("error").and_then(|e| e.as_str()) {
+            failed = true;
+            eprintln!("cuvette: refused {e}");
+        }
+        if a.json {
+            json_line(v)?;
+        } else if v.get("error").is_none() {
+            let f = |k: &str, d: usize| num(v[k].as_f64(), d);
+            match a.kind {
+                Kind::Pl => line(&format!(
+                    "{}  PL {} nm  FWHM {} nm  integral {}",
+                    v["file"].as_str().unwrap_or(""),
+                    f("pl_peak_nm", 1),
+                    f("pl_fwhm_nm", 1),
+                    f("pl_integral", 1)
+                ))?,
+                _ => line(&format!(
+                    "{}  first exciton {} nm{}  A {}  HWHM {} nm{}",
+                    v["file"].as_str().unwrap_or(""),
+                    f("first_exciton_nm", 1),
+                    if v["shoulder"].as_bool() == Some(true) {
+                        " (shoulder)"
+                    } else {
+                        ""
+                    },
+                    f("first_exciton_abs", 3),
+                    f("hwhm_nm", 1),
+                    if v.get("diameter_nm").is_some() {
+                        format!(
+                            "  D {} nm  c {}",
+                            f("diameter_nm", 2),
+                            molar(v["concentration_molar"].as_f64())
+                        )
+                    } else {
+                        String::new()
+                    }
+                ))?,
+            }
+            for w in v["warnings"].as_array().into_iter().flatten() {
+                line(&format!("  warning: {}", w.as_str().unwrap_or("")))?;
+            }
+        }
+    }
+    Ok(if failed { ExitCode::from(1) } else { ExitCode::SUCCESS })
+}
+
+fn read(a: &ReadArgs) -> Result<()> {
+    let opts = ReadOptions {
+        x_col: a.x_col,
+        y_col: a.y_col,
+        x_unit: a.x_unit.clone(),
+        block: a.block.clone(),
+    };
+    let (raw, sha) = spectra::read_file(&a.file, &opts)?;
+    if a.json {
+        let mut v = serde_json::to_value(&raw)?;
+        v["npoints"] = json!(raw.x.len());
+        v["sha256"] = json!(sha);
+        return json(&v);
+    }
+    line(&format!(
+        "{}: {} ({} points)",
+        a.file.display(),
+        raw.format,
+        raw.x.len()
+    ))?;
+    if let Some(t) = &raw.title {
+        line(&format!("  title: {t}"))?;
+    }
+    line(&format!(
+        "  x: {} .. {} {}",
+        raw.x[0],
+        raw.x[raw.x.len() - 1],
+        raw.x_unit
+    ))?;
+    line(&format!("  y unit: {}", raw.y_unit.clone().unwrap_or("-".into())))?;
+    for c in &raw.checks {
+        line(&format!(
+            "  check {}: {} ({})",
+            c.name,
+            if c.passed { "passed" } else { "FAILED" },
+            c.detail
+        ))?;
+    }
+    for w in &raw.warnings {
+        line(&format!("  warning: {w}"))?;
+    }
+    Ok(())
+}
+
+fn size(a: &SizeArgs) -> Result<()> {
+    let core = a.material.split('/').next().unwrap_or(&a.material).to_string();
+    let curve = match &a.curve {
+        Some(c) => c.clone(),
+        None => sizing::default_curve(&core)
+            .ok_or_else(|| {
+                anyhow!(
+                    "unknown material '{}' (known: CdSe, CdTe, CdS, PbS, PbSe, InP)",
+                    a.material
+                )
+            })?
+            .to_string(),
+    };
+    let sz = sizing::size(&curve, &core, a.peak_nm, None)?;
+    let c = sizing::Curve::parse(&curve)?;
+    let peak_range = sizing::peak_range_nm(c, &core, None);
+    if a.json {
+        let mut v = serde_json::to_value(&sz)?;
+        v["material"] = json!(a.material);
+        v["peak_nm"] = json!(a.peak_nm);
+        v["valid_peak_range_nm"] = json!(peak_range.map(|(l, h)| [l, h]));
+        v["source"] = json!(c.source());
+        return json(&v);
+    }
+    line(&format!(
+        "{} with first exciton at {} nm: D = {:.2} nm ({}; valid {:.1}-{:.1} nm)",
+        a.material,
+        a.peak_nm,
+        sz.diameter_nm,
+        c.source(),
+        sz.valid_range_nm[0],
+        sz.valid_range_nm[1]
+    ))?;
+    if let Some(e) = sz.edge_nm {
+        line(&format!(
+            "  tetrahedron edge {e:.2} nm (the diameter is the sphere of equal volume)"
+        ))?;
+    }
+    for w in &sz.warnings {
+        line(&format!("  warning: {w}"))?;
+    }
+    Ok(())
+}
+
+fn qy_cmd(a: &QyArgs) -> Result<()> {
+    let n = solvents::refractive_index(&a.solvent).ok_or_else(|| {
+        anyhow!(
+            "unknown solvent '{}' (known: {})",
+            a.solvent,
+            solvents::names().join(", ")
+        )
+    })?;
+    let nr = solvents::refractive_index(&a.ref_solvent).ok_or_else(|| {
+        anyhow!(
+            "unknown reference solvent '{}' (known: {})",
+            a.ref_solvent,
+            solvents::names().join(", ")
+        )
+    })?;
+    let mut extra = Vec::new();
+    let ref_qy = match (&a.ref_qy, &a.ref_dye) {
+        (Some(q), None) => *q,
+        (None, Some(d)) => {
+            let dye = solvents::dye(d).ok_or_else(|| {
+                anyhow!(
+                    "unknown dye '{d}' (known: {})",
+                    solvents::DYES.iter().map(|d| d.name).collect::<Vec<_>>().join(", ")
+                )
+            })?;
+            if !dye.solvent.eq_ignore_ascii_case(&a.ref_solvent) {
+                extra.push(format!(
+                    "{} has its tabulated value in {}, not {}",
+                    dye.name, dye.solvent, a.ref_solvent
+                ));
+            }
+            dye.qy
+        }
+        _ => bail!("give the reference's quantum yield: --ref-qy Q or --ref-dye NAME"),
+    };
+    let set = analysis::AnalysisSettings::default();
+    let numbers = (a.sample_integral, a.sample_abs, a.ref_integral, a.ref_abs);
+    let (fs, as_, fr, ar) = match numbers {
+        (Some(fs), Some(as_), Some(fr), Some(ar)) => (fs, as_, fr, ar),
+        _ => {
+            let (Some(sp), Some(sa), Some(rp), Some(ra), Some(ex)) = (
+                &a.sample_pl,
+                &a.sample_abs_file,
+                &a.ref_pl,
+                &a.ref_abs_file,
+                a.excitation_nm,
+            ) else {
+                bail!(
+                    "give either the numbers (--sample-integral --sample-abs --ref-integral --ref-abs) or the files (--sample-pl --sample-abs-file --ref-pl --ref-abs-file --excitation-nm)"
+                );
+            };
+            let pl_int = |p: &Path| -> Result<f64> {
+                let (raw, _) = spectra::read_file(p, &ReadOptions::default())?;
+                Ok(analysis::analyze_pl(&raw.to_trace(&p.display().to_string(), None)?, &set)?.pl_integral)
+            };
+            let abs_at = |p: &Path| -> Result<f64> {
+                let (raw, _) = spectra::read_file(p, &ReadOptions::default())?;
+                analysis::interpolate(&raw.to_trace(&p.display().to_string(), None)?, ex)
+                    .ok_or_else(|| anyhow!("{} does not cover {ex} nm", p.display()))
+            };
+            (pl_int(sp)?, abs_at(sa)?, pl_int(rp)?, abs_at(ra)?)
+        }
+    };
+    let mut r = qy::single_point(fs, as_, fr, ar, ref_qy, n, nr)?;
+    r.warnings.extend(extra);
+    if a.json {
+        return json(
+            &json!({"qy": r.qy, "method": r.method, "ref_qy": ref_qy, "n_sample": n, "n_ref": nr,
+            "sample_integral": fs, "sample_abs": as_, "ref_integral": fr, "ref_abs": ar, "warnings": r.warnings}),
+        );
+    }
+    line(&format!("QY = {:.3} ({:.1} %), {}", r.qy, r.qy * 100.0, r.method))?;
+    for w in &r.warnings {
+        line(&format!("  warning: {w}"))?;
+    }
+    Ok(())
+}
+
+fn core_of(tx: &rusqlite::Connection, material: &str) -> crate::Result<String> {
+    match model::material_by_name(tx, material) {
+        Ok(m) => Ok(m.core),
+        Err(e) => {
+            // A bare core with a curve is fine even if the lab has not added it as a material.
+            if sizing::default_curve(material).is_some() {
+                Ok(material.to_string())
+            } else {
+                Err(e)
+            }
+        }
+    }
+}
+
+fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
+    let mut store = open(cli)?;
+    let change = |store: &mut Store,
+                  why: &str,
+                  j: bool,
+                  f: &dyn Fn(&rusqlite::Connection, &mut calibration::Calibration) -> crate::Result<()>|
+     -> Result<()> {
+        let (v, stale) = store.write(|tx, who| {
+            let mut body = calibration::latest(tx)?.body;
+            f(tx, &mut body)?;
+            let v = calibration::save(tx, who, why, &body)?;
+            let stale = engine::mark_stale(tx)?;
+            Ok((v, stale))
+        })?;
+        if j {
+            json(&json!({"version": v, "marked_stale": stale}))
+        } else {
+            line(&format!(
+                "calibration version {v}; {stale} derived values are now stale (run `cuvette recompute --dry-run` to preview)"
+            ))
+        }
+    };
+    match c {
+        CalibCmd::List(f) | CalibCmd::History(f) => {
+            let h = store.read(|tx| calibration::history(tx))?;
+            if f.json {
+                return json(&h);
+            }
+            for v in h {
+                line(&format!(
+                    "v{:<3} {} {:<10} {}",
+                    v.version, v.created_at, v.created_by, v.why
+                ))?;
+            }
+        }
+        CalibCmd::Show { version, json: j } => {
+            let v = store.read(|tx| match version {
+                Some(v) => calibration::get(tx, *v),
+                None => calibration::latest(tx),
+            })?;
+            if *j {
+                return json(&v);
+            }
+            line(&format!(
+                "calibration v{} ({} by {}: {})",
+                v.version, v.created_at, v.created_by, v.why
+            ))?;
+            for (m, curve) in &v.body.curves {
+                let src = sizing::Curve::parse(curve).map(|c| c.source()).unwrap_or("");
+                line(&format!(
+                    "  {m:<6} curve {curve:<14} extinction {:<14} {src}",
+                    v.body.extinction.get(m).cloned().unwrap_or("-".into())
+                ))?;
+            }
+            match &v.body.qy_reference {
+                Some(r) => line(&format!(
+                    "  QY reference: {} in {} = {} (excited at {} nm, A {}, integral {})",
+                    r.dye, r.solvent, r.qy, r.excitation_nm, r.abs_at_excitation, r.integral
+                ))?,
+                None => line("  QY reference: none")?,
+            }
+            line(&format!(
+                "  detector correction: {}",
+                v.body
+                    .detector_correction
+                    .as_ref()
+                    .map(|d| d.name.clone())
+                    .unwrap_or("none".into())
+            ))?;
+            line(&format!(
+                "  analysis: smoothing {} nm, order {}, saturation A {}",
+                v.body.analysis.smoothing_nm, v.body.analysis.smoothing_order, v.body.analysis.saturation_abs
+            ))?;
+        }
+        CalibCmd::SetCurve {
+            material,
+            curve,
+            why,
+            json: j,
+        } => {
+            let (material, curve) = (material.clone(), curve.to_ascii_lowercase());
+            change(&mut store, why, *j, &|tx, body| {
+                let core = core_of(tx, &material)?;
+                body.curves.insert(core.clone(), curve.clone());
+                // A curve that comes with its own extinction coefficients brings them along:
+                // the two calibrations of one paper belong together.
+                if extinction::model_for(&core, &curve).is_ok() {
+                    body.extinction.insert(core, curve.clone());
+                }
+                Ok(())
+            })?;
+        }
+        CalibCmd::SetExtinction {
+            material,
+            model,
+            why,
+            json: j,
+        } => {
+            let (material, model) = (material.clone(), model.to_ascii_lowercase());
+            change(&mut store, why, *j, &|tx, body| {
+                let core = core_of(tx, &material)?;
+                body.extinction.insert(core, model.clone());
+                Ok(())
+            })?;
+        }
+        CalibCmd::SetReference {
+            dye,
+            qy: q,
+            solvent,
+            excitation_nm,
+            integral,
+            abs,
+            why,
+            json: j,
+        } => {
+            let table = solvents::dye(dye);
+            let q = q
+                .or(table.map(|d| d.qy))
+                .ok_or_else(|| anyhow!("dye '{dye}' is not in the table; give its --qy"))?;
+            let solvent = solvent
+                .clone()
+                .or(table.map(|d| d.solvent.to_string()))
+                .ok_or_else(|| anyhow!("give the reference's --solvent"))?;
+            let r = calibration::QyReference {
+                dye: dye.clone(),
+                solvent,
+                qy: q,
+                excitation_nm: *excitation_nm,
+                integral: *integral,
+                abs_at_excitation: *abs,
+            };
+            change(&mut store, why, *j, &|_, body| {
+                body.qy_reference = Some(r.clone());
+                Ok(())
+            })?;
+        }
+        CalibCmd::SetIndex {
+            solvent,
+            n,
+            why,
+            json: j,
+        } => {
+            let (s, n) = (solvent.clone(), *n);
+            change(&mut store, why, *j, &|_, body| {
+                body.solvent_index.insert(s.clone(), n);
+                Ok(())
+            })?;
+        }
+        CalibCmd::SetAnalysis {
+            smoothing_nm,
+            smoothing_order,
+            saturation_abs,
+            why,
+            json: j,
+        } => {
+            let (a, b, c2) = (*smoothing_nm, *smoothing_order, *saturation_abs);
+            change(&mut store, why, *j, &|_, body| {
+                if let Some(v) = a {
+                    body.analysis.smoothing_nm = v;
+                }
+                if let Some(v) = b {
+                    body.analysis.smoothing_order = v;
+                }
+                if let Some(v) = c2 {
+                    body.analysis.saturation_abs = v;
+                }
+                Ok(())
+            })?;
+        }
+        CalibCmd::SetDetector { file, why, json: j } => {
+            let (raw, _) = spectra::read_file(file, &ReadOptions::default())?;
+            let t = raw.to_trace(&file.display().to_string(), None)?;
+            let name = file
+                .file_name()
+                .map(|n| n.to_string_lossy().to_string())
+                .unwrap_or_default();
+            let d = calibration::DetectorCorrection {
+                name,
+                nm: t.nm,
+                factor: t.y,
+            };
+            change(&mut store, why, *j, &|_, body| {
+                body.detector_correction = Some(d.clone());
+                Ok(())
+            })?;
+        }
+        CalibCmd::SetBulk {
+            material,
+            eg_ev,
+            me,
+            mh,
+            eps_r,
+            source,
+            why,
+            json: j,
+        } => {
+            let b = sizing::BulkParams {
+                eg_ev: *eg_ev,
+                me: *me,
+                mh: *mh,
+                eps_r: *eps_r,
+                source: source.clone(),
+            };
+            let m = material.clone();
+            change(&mut store, why, *j, &|tx, body| {
+                let core = core_of(tx, &m).unwrap_or(m.clone());
+                body.bulk.insert(core, b.clone());
+                Ok(())
+            })?;
+        }
+    }
+    Ok(())
+}
+
+fn recompute(cli: &Cli, a: &RecomputeArgs) -> Result<()> {
+    let mut store = open(cli)?;
+    let progress = Progress::new("recompute", a.json);
+    let report = if a.dry_run {
+        store.read(|tx| engine::recompute(tx, a.all, true, |d, t| progress.tick(d, t)))?
+    } else {
+        store.write(|tx, who| {
+            let r = engine::recompute(tx, a.all, false, |d, t| progress.tick(d, t))?;
+            crate::store::audit(
+                tx,
+                who,
+                "derived_value",
+                None,
+                "recompute",
+                None,
+                Some(&json!({"recomputed": r.recomputed, "changed": r.changed, "all": a.all})),
+            )?;
+            Ok(r)
+        })?
+    };
+    if a.json {
+        return json(&report);
+    }
+    line(&format!(
+        "{}{} of {} aliquots recomputed ({} stale): {} values, {} changed",
+        if a.dry_run { "dry run: " } else { "" },
+        report.aliquots_recomputed,
+        report.aliquots_considered,
+        report.stale_found,
+        report.recomputed,
+        report.changed
+    ))?;
+    for m in &report.largest_moves {
+        line(&format!(
+            "  aliquot {:>5} (batch {:>4}) {:<20} {} -> {} ({})",
+            m.aliquot_id,
+            m.batch_id,
+            m.quantity,
+            num(m.old, 4),
+            num(m.new, 4),
+            m.relative_change
+                .map(|r| format!("{:+.1} %", r * 100.0))
+                .unwrap_or("-".into())
+        ))?;
+    }
+    for c in &report.threshold_crossings {
+        line(&format!(
+            "  batch {} crosses {} {} ({} -> {})",
+            c.batch_id,
+            c.field,
+            c.threshold,
+            num(c.old, 3),
+            num(c.new, 3)
+        ))?;
+    }
+    Ok(())
+}
+
+fn explain(cli: &Cli, a: &ExplainArgs) -> Result<()> {
+    let mut store = open(cli)?;
+    let v = store.read(|tx| crate::report::explain(tx, a.aliquot))?;
+    if a.json {
+        return json(&v);
+    }
+    line(&format!(
+        "aliquot {} of batch {} ({})",
+        v["aliquot_id"],
+        v["batch_id"],
+        v["material"].as_str().unwrap_or("")
+    ))?;
+    for s in v["spectra"].as_array().into_iter().flatten() {
+        line(&format!(
+            "  spectrum {} {} {} sha256 {}",
+            s["id"],
+            s["kind"].as_str().unwrap_or(""),
+            s["file_name"].as_str().unwrap_or(""),
+            &s["sha256"].as_str().unwrap_or("")[..12.min(s["sha256"].as_str().unwrap_or("").len())]
+        ))?;
+    }
+    for step in v["chain"].as_array().into_iter().flatten() {
+        line(&format!(
+            "  {:<20} {:>14} {:<11} {} (calibration v{}){}",
+            step["quantity"].as_str().unwrap_or(""),
+            num(step["value"].as_f64(), 5),
+            step["unit"].as_str().unwrap_or(""),
+            step["method"].as_str().unwrap_or(""),
+            step["calibration_version"],
+            if step["stale"].as_bool() == Some(true) {
+                " STALE"
+            } else {
+                ""
+            }
+        ))?;
+        if let Some(src) = step["source"].as_str() {
+            line(&format!("  {:<20} source: {src}", ""))?;
+        }
+    }
+    Ok(())
+}
+
+fn find(cli: &Cli, a: &FindArgs) -> Result<ExitCode> {
+    let q = a.query.join(" ");
+    let mut store = open(cli)?;
+    let parsed = crate::search::parse(&q)?;
+    let hits = store.read(|tx| crate::search::run(tx, &parsed))?;
+    // Remember the numeric bounds people search by, for recompute previews.
+    let _ = store.write(|tx, _| crate::search::record_thresholds(tx, &parsed));
+    if a.json {
+        json(&hits)?;
+    } else {
+        for h in &hits {
+            line(&format!(
+                "{:>5}  {:<28} {:<9} D {:>5} nm  peak {:>6}  PL {:>6}  QY {:>5}  stock {:>6.2} mL  {}",
+                h.id,
+                h.name,
+                h.material,
+                num(h.diameter_nm, 2),
+                num(h.first_exciton_nm, 1),
+                num(h.pl_peak_nm, 1),
+                num(h.qy, 2),
+                h.stock_ml,
+                h.status
+            ))?;
+        }
+        if hits.is_empty() {
+            line("no batches match")?;
+        }
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+fn handover(cli: &Cli, a: &HandoverArgs) -> Result<()> {
+    let mut store = open(cli)?;
+    let out = a.out.clone().unwrap_or_else(|| {
+        PathBuf::from(format!(
+            "handover-{}-to-{}",
+            a.from.replace(' ', "_"),
+            a.to.replace(' ', "_")
+        ))
+    });
+    let r = crate::report::handover(&mut store, &a.from, &a.to, &out, None)?;
+    if a.json {
+        return json(&r);
+    }
+    line(&format!(
+        "handed {} vials and {} open batches from {} to {}; pack in {}",
+        r.vials,
+        r.batches,
+        a.from,
+        a.to,
+        out.display()
+    ))?;
+    Ok(())
+}
+
+fn check(cli: &Cli, j: bool) -> Result<ExitCode> {
+    let mut store = open(cli)?;
+    let problems = store.read(|tx| crate::store::check::check(tx))?;
+    if j {
+        json(&json!({"ok": problems.is_empty(), "problems": problems}))?;
+    } else if problems.is_empty() {
+        line("ok: integrity, foreign keys and cuvette's invariants hold")?;
+    } else {
+        for p in &problems {
+            line(&format!("problem: {p}"))?;
+        }
+    }
+    Ok(if problems.is_empty() {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(1)
+    })
+}
+
+fn restore(cli: &Cli, file: &Path) -> Result<()> {
+    let target = db_path(cli);
+    let kept = crate::store::check::restore(file, &target)?;
+    line(&format!(
+        "restored {} from {}{}",
+        target.display(),
+        file.display(),
+        kept.map(|k| format!("; the replaced file is kept at {}", k.display()))
+            .unwrap_or_default()
+    ))?;
+    Ok(())
+}
+
+fn import(cli: &Cli, a: &ImportArgs) -> Result<()> {
+    let mut store = open(cli)?;
+    let template = model::NewAliquot {
+        batch_id: a.batch_id,
+        minutes: None,
+        stage: None,
+        dilution_factor: a.dilution,
+        path_cm: a.path_cm,
+        solvent: a.solvent.clone(),
+        taken_at: None,
+    };
+    let progress = Progress::new("import", a.json);
+    let ids = bench::import_folder(&mut store, a.batch_id, &a.folder, &template, a.excitation_nm, |d, t| {
+        progress.tick(d, t)
+    })?;
+    if a.json {
+        return json(&json!({"batch_id": a.batch_id, "aliquots": ids}));
+    }
+    line(&format!("imported {} aliquots into batch {}", ids.len(), a.batch_id))?;
+    let _ = output::num(None, 0);
+    Ok(())
+}

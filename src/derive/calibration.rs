@@ -1,0 +1,249 @@
+//! Calibrations: everything a derived value depends on besides the measurement itself — the
+//! sizing curve chosen per material, the extinction model, the quantum-yield reference, the PL
+//! detector correction, solvent indices, bulk parameters and the analysis settings. They are
+//! versioned as a whole: a change writes a new version with who, when and why, and the old
+//! versions stay. Every change is validated first; a bad one is refused and nothing changes.
+
+use super::{extinction, qy, sizing, solvents};
+use crate::error::{Error, Result, invalid};
+use crate::spectra::analysis::AnalysisSettings;
+use crate::store::{Store, audit, now};
+use rusqlite::{Connection, OptionalExtension, params};
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+
+/// The reference measurement a relative quantum yield is computed against.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct QyReference {
+    pub dye: String,
+    pub solvent: String,
+    /// The dye's quantum yield as used (stored with every measurement through the version).
+    pub qy: f64,
+    pub excitation_nm: f64,
+    /// The reference's integrated, corrected PL and absorbance at the excitation wavelength,
+    /// measured with the same instrument settings as the samples.
+    pub integral: f64,
+    pub abs_at_excitation: f64,
+}
+
+/// A spectral correction curve for the PL detector: factors to multiply raw counts by.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct DetectorCorrection {
+    pub name: String,
+    pub nm: Vec<f64>,
+    pub factor: Vec<f64>,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct Calibration {
+    /// Sizing curve id per core material.
+    pub curves: BTreeMap<String, String>,
+    /// Extinction model id per core material.
+    pub extinction: BTreeMap<String, String>,
+    pub qy_reference: Option<QyReference>,
+    pub detector_correction: Option<DetectorCorrection>,
+    /// Refractive-index overrides, by solvent.
+    pub solvent_index: BTreeMap<String, f64>,
+    /// Bulk parameters for the effective-mass model, by core.
+    pub bulk: BTreeMap<String, sizing::BulkParams>,
+    pub analysis: AnalysisSettings,
+}
+
+impl Default for Calibration {
+    fn default() -> Self {
+        let cores = ["CdSe", "CdTe", "CdS", "PbS", "PbSe", "InP"];
+        let curves = cores
+            .iter()
+            .filter_map(|c| sizing::default_curve(c).map(|k| (c.to_string(), k.to_string())))
+            .collect();
+        let extinction = cores
+            .iter()
+            .filter_map(|c| extinction::default_model(c).map(|k| (c.to_string(), k.to_string())))
+            .collect();
+        let bulk = ["CdSe", "CdS", "CdTe", "PbS", "PbSe", "InP", "ZnSe"]
+            .iter()
+            .filter_map(|c| sizing::default_bulk(c).map(|b| (c.to_string(), b)))
+            .collect();
+        Calibration {
+            curves,
+            extinction,
+            qy_reference: None,
+            detector_correction: None,
+            solvent_index: BTreeMap::new(),
+            bulk,
+            analysis: AnalysisSettings::default(),
+        }
+    }
+}
+
+impl Calibration {
+    pub fn refractive_index(&self, solvent: &str) -> Option<f64> {
+        self.solvent_index
+            .iter()
+            .find(|(k, _)| k.eq_ignore_ascii_case(solvent))
+            .map(|(_, v)| *v)
+            .or_else(|| solvents::refractive_index(solvent))
+    }
+
+    /// Refuses a calibration that cannot be right: a curve not made for its material, a
+    /// non-monotonic curve, a non-positive extinction, a dye value outside (0, 1], a
+    /// detector correction that is not a positive, increasing curve.
+    pub fn validate(&self) -> Result<()> {
+        for (core, curve) in &self.curves {
+            let c = sizing::Curve::parse(curve)?;
+            if c != sizing::Curve::Brus && !c.materials().contains(&core.as_str()) {
+                return invalid(format!(
+                    "curve {curve} is not for {core} (curves for {core}: {})",
+                    sizing::curves_for(core).join(", ")
+                ));
+            }
+            if c == sizing::Curve::Brus && !self.bulk.contains_key(core) {
+                return invalid(format!("brus needs bulk parameters for {core}"));
+            }
+            sizing::check_monotonic(curve, core, self.bulk.get(core))?;
+        }
+        for (core, model) in &self.extinction {
+            extinction::model_for(core, model)?;
+        }
+        for (core, b) in &self.bulk {
+            if !(b.eg_ev > 0.0 && b.me > 0.0 && b.mh > 0.0 && b.eps_r >= 1.0) {
+                return invalid(format!(
+                    "bulk parameters for {core} must be positive (eps_r at least 1)"
+                ));
+            }
+        }
+        if let Some(r) = &self.qy_reference {
+            qy::check_ref_qy(r.qy)?;
+            if !(r.integral > 0.0) || !(r.abs_at_excitation > 0.0) || !(r.excitation_nm > 0.0) {
+                return invalid("the QY reference needs a positive integral, absorbance and excitation wavelength");
+            }
+            if self.refractive_index(&r.solvent).is_none() {
+                return invalid(format!("no refractive index for the reference solvent '{}'", r.solvent));
+            }
+        }
+        if let Some(d) = &self.detector_correction {
+            if d.nm.len() != d.factor.len() || d.nm.len() < 2 {
+                return invalid(
+                    "a detector correction needs matching wavelength and factor lists of two or more points",
+                );
+            }
+            if d.nm.windows(2).any(|w| w[1] <= w[0]) {
+                return invalid("detector correction wavelengths must increase");
+            }
+            if d.factor.iter().any(|f| !(*f > 0.0) || !f.is_finite()) {
+                return invalid("detector correction factors must be positive");
+            }
+        }
+        for (s, n) in &self.solvent_index {
+            if !(1.0..=3.0).contains(n) {
+                return invalid(format!("refractive index {n} for {s} is not plausible (1 to 3)"));
+            }
+        }
+        let a = &self.analysis;
+        if !(a.smoothing_nm > 0.0 && a.smoothing_nm <= 100.0 && (2..=6).contains(&a.smoothing_order)) {
+            return invalid("smoothing must be 0-100 nm wide with a polynomial order of 2 to 6");
+        }
+        if !(a.saturation_abs > 0.0) {
+            return invalid("the saturation absorbance must be above zero");
+        }
+        Ok(())
+    }
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct CalibrationVersion {
+    pub version: i64,
+    pub created_at: String,
+    pub created_by: String,
+    pub why: String,
+    pub body: Calibration,
+}
+
+/// Writes version 1 with the shipped defaults, and the shipped reagents, on a new lab.
+pub fn ensure_initial(store: &mut Store) -> Result<()> {
+    let n: i64 = store
+        .conn
+        .query_row("SELECT count(*) FROM calibration", [], |r| r.get(0))?;
+    if n > 0 {
+        return Ok(());
+    }
+    store.write(|tx, who| {
+        let body = serde_json::to_string(&Calibration::default())?;
+        tx.execute(
+            "INSERT INTO calibration (version, body, created_at, created_by, why) VALUES (1, ?1, ?2, ?3, 'shipped defaults')",
+            params![body, now(), who],
+        )?;
+        audit(tx, who, "calibration", Some(1), "create", None, Some(&serde_json::json!({"why": "shipped defaults"})))?;
+        for r in crate::hazards::SHIPPED_REAGENTS {
+            let hazards: Vec<String> = r.hazards.split_whitespace().map(String::from).collect();
+            if crate::store::model::reagent_by_name(tx, r.name).is_err() {
+                crate::store::model::add_reagent(tx, who, r.name, Some(r.formula), None, &hazards, r.pyrophoric)?;
+            }
+        }
+        Ok(())
+    })
+}
+
+fn row(conn: &Connection, version: Option<i64>) -> Result<CalibrationVersion> {
+    let sql = "SELECT version, body, created_at, created_by, why FROM calibration
+               WHERE (?1 IS NULL OR version = ?1) ORDER BY version DESC LIMIT 1";
+    let found: Option<(i64, String, String, String, String)> = conn
+        .query_row(sql, params![version], |r| {
+            Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?, r.get(4)?))
+        })
+        .optional()?;
+    let (v, body, at, by, why) = found.ok_or_else(|| Error::NotFound {
+        kind: "calibration version",
+        what: version.map(|v| v.to_string()).unwrap_or_else(|| "(none)".into()),
+    })?;
+    let body: Calibration = serde_json::from_str(&body)
+        .map_err(|e| Error::Invalid(format!("calibration version {v} cannot be read: {e}")))?;
+    Ok(CalibrationVersion {
+        version: v,
+        created_at: at,
+        created_by: by,
+        why,
+        body,
+    })
+}
+
+pub fn latest(conn: &Connection) -> Result<CalibrationVersion> {
+    row(conn, None)
+}
+
+pub fn get(conn: &Connection, version: i64) -> Result<CalibrationVersion> {
+    row(conn, Some(version))
+}
+
+pub fn history(conn: &Connection) -> Result<Vec<CalibrationVersion>> {
+    let mut st = conn.prepare("SELECT version FROM calibration ORDER BY version")?;
+    let versions: Vec<i64> = st.query_map([], |r| r.get(0))?.collect::<rusqlite::Result<_>>()?;
+    versions.into_iter().map(|v| get(conn, v)).collect()
+}
+
+/// Validates `body` and writes it as the next version. Returns the new version number.
+pub fn save(tx: &Connection, who: &str, why: &str, body: &Calibration) -> Result<i64> {
+    if why.trim().is_empty() {
+        return invalid("a calibration change needs a reason (--why)");
+    }
+    body.validate()?;
+    let prev = latest(tx)?;
+    if &prev.body == body {
+        return invalid(format!("nothing to change: version {} already says this", prev.version));
+    }
+    let v = prev.version + 1;
+    tx.execute(
+        "INSERT INTO calibration (version, body, created_at, created_by, why) VALUES (?1, ?2, ?3, ?4, ?5)",
+        params![v, serde_json::to_string(body)?, now(), who, why],
+    )?;
+    audit(
+        tx,
+        who,
+        "calibration",
+        Some(v),
+        "new_version",
+        Some(&serde_json::to_value(&prev.body)?),
+        Some(&serde_json::to_value(body)?),
+    )?;
+    Ok(v)
+}

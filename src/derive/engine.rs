@@ -1,0 +1,770 @@
+//! The derived-property engine. Every derived value is stored with its method, the calibration
+//! version it used and a hash of all its inputs (the spectra's file hashes, the aliquot's
+//! dilution, path and solvent, and the parts of the calibration that touch it). A value whose
+//! stored hash differs from the hash its inputs give now is stale. `recompute` streams the
+//! aliquots, recomputes only stale values (or all, when asked), keeps superseded values as
+//! history and, in a dry run, writes nothing.
+
+use super::calibration::{self, Calibration};
+use super::{extinction, qy, sizing};
+use crate::error::Result;
+use crate::spectra::analysis::{self, AbsResult, PlResult};
+use crate::spectra::{RawSpectrum, Trace};
+use crate::store::model::{AliquotRow, SpectrumRow};
+use crate::store::now;
+use rusqlite::{Connection, params};
+use serde::Serialize;
+use sha2::{Digest, Sha256};
+use std::collections::{BTreeMap, HashMap};
+
+/// One derived quantity of an aliquot.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct Derived {
+    pub quantity: String,
+    pub value: Option<f64>,
+    pub unit: String,
+    pub method: String,
+    pub warnings: Vec<String>,
+}
+
+fn d(quantity: &str, value: Option<f64>, unit: &str, method: &str, warnings: Vec<String>) -> Derived {
+    Derived {
+        quantity: quantity.into(),
+        value,
+        unit: unit.into(),
+        method: method.into(),
+        warnings,
+    }
+}
+
+/// The parts of a calibration one aliquot's values depend on.
+fn relevant(cal: &Calibration, core: &str, solvent: &str, has_pl: bool) -> serde_json::Value {
+    let mut v = serde_json::json!({
+        "curve": cal.curves.get(core),
+        "extinction": cal.extinction.get(core),
+        "bulk": cal.bulk.get(core),
+        "analysis": cal.analysis,
+        "n": cal.refractive_index(solvent),
+    });
+    if has_pl {
+        v["qy_reference"] = serde_json::to_value(&cal.qy_reference).unwrap_or_default();
+        v["detector"] = serde_json::to_value(&cal.detector_correction).unwrap_or_default();
+        if let Some(r) = &cal.qy_reference {
+            v["n_ref"] = serde_json::to_value(cal.refractive_index(&r.solvent)).unwrap_or_default();
+        }
+    }
+    v
+}
+
+/// The hash of everything an aliquot's derived values depend on.
+pub fn inputs_hash(a: &AliquotRow, core: &str, spectra: &[SpectrumMeta], cal: &Calibration) -> String {
+    let has_pl = spectra.iter().any(|s| s.kind == "pl");
+    let mut h = Sha256::new();
+    h.update(format!(
+        "v1|{core}|{}|{}|{}|",
+        a.dilution_factor,
+        a.path_cm,
+        a.solvent.to_ascii_lowercase()
+    ));
+    for s in spectra {
+        h.update(format!("{}|{}|{:?}|{}|", s.kind, s.sha256, s.excitation_nm, s.x_unit));
+    }
+    h.update(relevant(cal, core, &a.solvent, has_pl).to_string());
+    h.finalize().iter().take(16).map(|b| format!("{b:02x}")).collect()
+}
+
+/// What the hash needs of a spectrum (no data).
+#[derive(Debug, Clone)]
+pub struct SpectrumMeta {
+    pub kind: String,
+    pub sha256: String,
+    pub excitation_nm: Option<f64>,
+    pub x_unit: String,
+}
+
+impl From<&SpectrumRow> for SpectrumMeta {
+    fn from(s: &SpectrumRow) -> Self {
+        SpectrumMeta {
+            kind: s.kind.clone(),
+            sha256: s.sha256.clone(),
+            excitation_nm: s.excitation_nm,
+            x_unit: s.x_unit.clone(),
+        }
+    }
+}
+
+pub fn trace_of(s: &SpectrumRow) -> Result<Trace> {
+    let raw = RawSpectrum {
+        format: String::new(),
+        title: None,
+        x_unit: s.x_unit.clone(),
+        y_unit: s.y_unit.clone(),
+        x: s.x.clone(),
+        y: s.y.clone(),
+        checks: Vec::new(),
+        warnings: Vec::new(),
+    };
+    raw.to_trace(&s.file_name, None)
+}
+
+/// Everything computed for an aliquot, with the intermediate analysis kept for `explain`.
+#[derive(Debug, Clone, Serialize)]
+pub struct Computation {
+    pub values: Vec<Derived>,
+    pub absorbance: Option<AbsResult>,
+    pub pl: Option<PlResult>,
+    pub sizing: Option<sizing::Sizing>,
+    pub extinction: Option<extinction::Extinction>,
+}
+
+/// Computes an aliquot's derived values from its spectra under one calibration. Pure.
+pub fn compute(a: &AliquotRow, core: &str, spectra: &[SpectrumRow], cal: &Calibration) -> Computation {
+    let mut out = Vec::new();
+    let set = &cal.analysis;
+    let peak_method = format!(
+        "first exciton: Savitzky-Golay {} nm order {}; local maximum, else second-derivative minimum",
+        set.smoothing_nm, set.smoothing_order
+    );
+    let abs_spec = spectra.iter().find(|s| s.kind == "abs");
+    let pl_spec = spectra.iter().find(|s| s.kind == "pl");
+    let mut abs_trace = None;
+    let mut abs_res = None;
+    let mut sizing_res = None;
+    let mut ext_res = None;
+    if let Some(s) = abs_spec {
+        match trace_of(s).and_then(|t| analysis::analyze_absorbance(&t, set).map(|r| (t, r))) {
+            Err(e) => out.push(d("first_exciton_nm", None, "nm", &peak_method, vec![e.to_string()])),
+            Ok((t, r)) => {
+                let w = r.warnings.clone();
+                out.push(d("first_exciton_nm", r.first_exciton_nm, "nm", &peak_method, w.clone()));
+                out.push(d(
+                    "first_exciton_abs",
+                    r.first_exciton_abs,
+                    "absorbance",
+                    "smoothed, scattering background removed",
+                    vec![],
+                ));
+                out.push(d(
+                    "hwhm_nm",
+                    r.hwhm_nm,
+                    "nm",
+                    "low-energy side half width at half maximum",
+                    vec![],
+                ));
+                out.push(d(
+                    "hwhm_mev",
+                    r.hwhm_ev.map(|h| h * 1000.0),
+                    "meV",
+                    "low-energy side half width at half maximum",
+                    vec![],
+                ));
+                out.push(d(
+                    "shoulder",
+                    r.first_exciton_nm.map(|_| if r.shoulder { 1.0 } else { 0.0 }),
+                    "flag",
+                    &peak_method,
+                    vec![],
+                ));
+                if let Some(peak) = r.first_exciton_nm {
+                    match cal.curves.get(core) {
+                        None => out.push(d(
+                            "diameter_nm",
+                            None,
+                            "nm",
+                            "none",
+                            vec![format!("no sizing curve set for {core}")],
+                        )),
+                        Some(curve) => match sizing::size(curve, core, peak, cal.bulk.get(core)) {
+                            Err(e) => out.push(d("diameter_nm", None, "nm", curve, vec![e.to_string()])),
+                            Ok(sz) => {
+                                let w = sz.warnings.clone();
+                                out.push(d("diameter_nm", Some(sz.diameter_nm), "nm", &sz.curve, w));
+                                if let Some(e) = sz.edge_nm {
+                                    out.push(d("edge_nm", Some(e), "nm", &sz.curve, vec![]));
+                                }
+                                // σ from HWHM through the curve's slope, assuming a Gaussian
+                                // (σ = HWHM / √(2 ln 2)); an upper bound, since the width also
+                                // holds homogeneous broadening (common practice).
+                                let disp = r
+                                    .hwhm_nm
+                                    .filter(|_| sz.slope.is_finite())
+                                    .map(|h| 100.0 * sz.slope.abs() * h / (2.0f64.ln() * 2.0).sqrt() / sz.diameter_nm);
+                                out.push(d(
+                                    "size_dispersion_pct",
+                                    disp,
+                                    "%",
+                                    &format!("{}: σ/D from HWHM x dD/dλ (upper bound)", sz.curve),
+                                    vec![],
+                                ));
+                                if let Some(model) = cal.extinction.get(core) {
+                                    match extinction::coefficient(model, core, sz.diameter_nm, peak, r.hwhm_ev) {
+                                        Err(e) => out.push(d(
+                                            "extinction_m1cm1",
+                                            None,
+                                            "M^-1 cm^-1",
+                                            model,
+                                            vec![e.to_string()],
+                                        )),
+                                        Ok(ex) => {
+                                            let a_at = if (ex.at_nm - peak).abs() < 1e-9 {
+                                                r.first_exciton_abs
+                                            } else {
+                                                analysis::interpolate(&t, ex.at_nm)
+                                            };
+                                            out.push(d(
+                                                "extinction_m1cm1",
+                                                Some(ex.extinction_m1cm1),
+                                                "M^-1 cm^-1",
+                                                &format!("{model} at {:.0} nm", ex.at_nm),
+                                                ex.warnings.clone(),
+                                            ));
+                                            let (c, w) = match a_at {
+                                                Some(av) => match extinction::concentration_molar(
+                                                    av,
+                                                    ex.extinction_m1cm1,
+                                                    a.path_cm,
+                                                    a.dilution_factor,
+                                                ) {
+                                                    Ok(c) => (Some(c), vec![]),
+                                                    Err(e) => (None, vec![e.to_string()]),
+                                                },
+                                                None => (
+                                                    None,
+                                                    vec![format!("no absorbance measured at {:.0} nm", ex.at_nm)],
+                                                ),
+                                            };
+                                            out.push(d(
+                                                "concentration_molar",
+                                                c,
+                                                "M",
+                                                &format!("Beer-Lambert with {model}, undiluted"),
+                                                w,
+                                            ));
+                                            ext_res = Some(ex);
+                                        }
+                                    }
+                                } else {
+                                    out.push(d(
+                                        "concentration_molar",
+                                        None,
+                                        "M",
+                                        "none",
+                                        vec![format!("no extinction model for {core}")],
+                                    ));
+                                }
+                                sizing_res = Some(sz);
+                            }
+                        },
+                    }
+                }
+                abs_trace = Some(t);
+                abs_res = Some(r);
+            }
+        }
+    }
+    let mut pl_res = None;
+    if let Some(s) = pl_spec {
+        let traced = trace_of(s).and_then(|t| match &cal.detector_correction {
+            Some(c) => analysis::apply_correction(
+                &t,
+                &Trace {
+                    nm: c.nm.clone(),
+                    y: c.factor.clone(),
+                },
+            ),
+            None => Ok(t),
+        });
+        let method = match &cal.detector_correction {
+            Some(c) => format!("PL, corrected with '{}'", c.name),
+            None => "PL, no detector correction".to_string(),
+        };
+        match traced.and_then(|t| analysis::analyze_pl(&t, set)) {
+            Err(e) => out.push(d("pl_peak_nm", None, "nm", &method, vec![e.to_string()])),
+            Ok(p) => {
+                out.push(d("pl_peak_nm", p.pl_peak_nm, "nm", &method, p.warnings.clone()));
+                out.push(d("pl_fwhm_nm", p.pl_fwhm_nm, "nm", &method, vec![]));
+                out.push(d("pl_fwhm_mev", p.pl_fwhm_mev, "meV", &method, vec![]));
+                out.push(d("pl_integral", Some(p.pl_integral), "counts nm", &method, vec![]));
+                if let (Some(ab), Some(pp)) = (abs_res.as_ref().and_then(|r| r.first_exciton_nm), p.pl_peak_nm) {
+                    let (_, mev) = analysis::stokes_shift(ab, pp);
+                    out.push(d(
+                        "stokes_shift_mev",
+                        Some(mev),
+                        "meV",
+                        "first exciton minus PL peak",
+                        vec![],
+                    ));
+                }
+                out.push(qy_value(a, s, abs_trace.as_ref(), &p, cal));
+                pl_res = Some(p);
+            }
+        }
+    }
+    Computation {
+        values: out,
+        absorbance: abs_res,
+        pl: pl_res,
+        sizing: sizing_res,
+        extinction: ext_res,
+    }
+}
+
+fn qy_value(a: &AliquotRow, pl: &SpectrumRow, abs: Option<&Trace>, p: &PlResult, cal: &Calibration) -> Derived {
+    let method = "relative, single point (Brouwer 2011)";
+    let Some(r) = &cal.qy_reference else {
+        return d(
+            "qy",
+            None,
+            "fraction",
+            method,
+            vec!["no QY reference in the calibration (cuvette calib set-reference)".into()],
+        );
+    };
+    let Some(ex) = pl.excitation_nm else {
+        return d(
+            "qy",
+            None,
+            "fraction",
+            method,
+            vec!["the PL spectrum has no excitation wavelength".into()],
+        );
+    };
+    let Some(a_ex) = abs.and_then(|t| analysis::interpolate(t, ex)) else {
+        return d(
+            "qy",
+            None,
+            "fraction",
+            method,
+            vec![format!("no absorbance at the excitation wavelength {ex} nm")],
+        );
+    };
+    let (Some(n), Some(nr)) = (cal.refractive_index(&a.solvent), cal.refractive_index(&r.solvent)) else {
+        return d(
+            "qy",
+            None,
+            "fraction",
+            method,
+            vec!["no refractive index for a solvent".into()],
+        );
+    };
+    match qy::single_point(p.pl_integral, a_ex, r.integral, r.abs_at_excitation, r.qy, n, nr) {
+        Err(e) => d("qy", None, "fraction", method, vec![e.to_string()]),
+        Ok(q) => {
+            let mut w = q.warnings;
+            if (ex - r.excitation_nm).abs() > 2.0 {
+                w.push(format!(
+                    "sample excited at {ex} nm, reference at {} nm",
+                    r.excitation_nm
+                ));
+            }
+            d(
+                "qy",
+                Some(q.qy),
+                "fraction",
+                &format!("{method} against {} ({})", r.dye, r.qy),
+                w,
+            )
+        }
+    }
+}
+
+/// A stored derived value.
+#[derive(Debug, Clone, Serialize)]
+pub struct StoredValue {
+    pub id: i64,
+    pub aliquot_id: i64,
+    pub quantity: String,
+    pub value: Option<f64>,
+    pub unit: String,
+    pub method: String,
+    pub calibration_version: i64,
+    pub inputs_hash: String,
+    pub warnings: Vec<String>,
+    pub computed_at: String,
+    pub superseded_at: Option<String>,
+    pub stale: bool,
+}
+
+const VALUE_COLS: &str = "id, aliquot_id, quantity, value, unit, method, calibration_version, inputs_hash, warnings, computed_at, superseded_at, stale";
+
+fn value_from(r: &rusqlite::Row) -> rusqlite::Result<StoredValue> {
+    let w: String = r.get(8)?;
+    Ok(StoredValue {
+        id: r.get(0)?,
+        aliquot_id: r.get(1)?,
+        quantity: r.get(2)?,
+        value: r.get(3)?,
+        unit: r.get(4)?,
+        method: r.get(5)?,
+        calibration_version: r.get(6)?,
+        inputs_hash: r.get(7)?,
+        warnings: serde_json::from_str(&w).unwrap_or_default(),
+        computed_at: r.get(9)?,
+        superseded_at: r.get(10)?,
+        stale: r.get(11)?,
+    })
+}
+
+pub fn current_values(conn: &Connection, aliquot_id: i64) -> Result<Vec<StoredValue>> {
+    let mut st = conn.prepare_cached(&format!(
+        "SELECT {VALUE_COLS} FROM derived_value WHERE aliquot_id = ?1 AND superseded_at IS NULL ORDER BY id"
+    ))?;
+    let rows = st.query_map([aliquot_id], value_from)?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+pub fn value_history(conn: &Connection, aliquot_id: i64) -> Result<Vec<StoredValue>> {
+    let mut st = conn.prepare(&format!(
+        "SELECT {VALUE_COLS} FROM derived_value WHERE aliquot_id = ?1 AND superseded_at IS NOT NULL ORDER BY id"
+    ))?;
+    let rows = st.query_map([aliquot_id], value_from)?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+/// The calibration an aliquot's batch uses: its pinned version, else the latest.
+pub fn effective_calibration_version(conn: &Connection, batch_id: i64) -> Result<i64> {
+    let pinned: Option<i64> =
+        conn.query_row("SELECT pinned_calibration FROM batch WHERE id = ?1", [batch_id], |r| {
+            r.get(0)
+        })?;
+    match pinned {
+        Some(v) => Ok(v),
+        None => Ok(conn.query_row("SELECT MAX(version) FROM calibration", [], |r| r.get(0))?),
+    }
+}
+
+fn same(a: Option<f64>, b: Option<f64>) -> bool {
+    match (a, b) {
+        (None, None) => true,
+        (Some(x), Some(y)) => x == y || (x - y).abs() <= 1e-9 * x.abs().max(y.abs()),
+        _ => false,
+    }
+}
+
+/// Writes the new values of one aliquot: unchanged numbers are re-stamped in place, changed
+/// ones supersede the old row (kept as history). Returns how many values changed.
+fn apply(
+    tx: &Connection,
+    aliquot_id: i64,
+    version: i64,
+    hash: &str,
+    new: &[Derived],
+    old: &[StoredValue],
+) -> Result<usize> {
+    let t = now();
+    let mut changed = 0;
+    let old_by: HashMap<&str, &StoredValue> = old.iter().map(|o| (o.quantity.as_str(), o)).collect();
+    for v in new {
+        let w = serde_json::to_string(&v.warnings)?;
+        match old_by.get(v.quantity.as_str()) {
+            Some(o) if same(o.value, v.value) && o.method == v.method => {
+                tx.prepare_cached(
+                    "UPDATE derived_value SET inputs_hash = ?1, calibration_version = ?2, computed_at = ?3, stale = 0, warnings = ?4 WHERE id = ?5",
+                )?
+                .execute(params![hash, version, t, w, o.id])?;
+            }
+            other => {
+                if let Some(o) = other {
+                    tx.prepare_cached("UPDATE derived_value SET superseded_at = ?1 WHERE id = ?2")?
+                        .execute(params![t, o.id])?;
+                }
+                tx.prepare_cached(
+                    "INSERT INTO derived_value (aliquot_id, quantity, value, unit, method, calibration_version, inputs_hash, warnings, computed_at)
+                     VALUES (?1,?2,?3,?4,?5,?6,?7,?8,?9)",
+                )?
+                .execute(params![aliquot_id, v.quantity, v.value, v.unit, v.method, version, hash, w, t])?;
+                changed += 1;
+            }
+        }
+    }
+    for o in old {
+        if !new.iter().any(|v| v.quantity == o.quantity) {
+            tx.prepare_cached("UPDATE derived_value SET superseded_at = ?1 WHERE id = ?2")?
+                .execute(params![t, o.id])?;
+            changed += 1;
+        }
+    }
+    Ok(changed)
+}
+
+fn count_changes(new: &[Derived], old: &[StoredValue]) -> usize {
+    let mut n = new
+        .iter()
+        .filter(|v| {
+            !old.iter()
+                .any(|o| o.quantity == v.quantity && same(o.value, v.value) && o.method == v.method)
+        })
+        .count();
+    n += old
+        .iter()
+        .filter(|o| !new.iter().any(|v| v.quantity == o.quantity))
+        .count();
+    n
+}
+
+/// Derives (or re-derives) one aliquot now, inside the caller's transaction.
+pub fn derive_aliquot(tx: &Connection, aliquot_id: i64) -> Result<Vec<Derived>> {
+    let a = crate::store::model::get_aliquot(tx, aliquot_id)?;
+    let batch = crate::store::model::get_batch(tx, a.batch_id)?;
+    let version = effective_calibration_version(tx, a.batch_id)?;
+    let cal = calibration::get(tx, version)?.body;
+    let spectra = crate::store::model::spectra_of_aliquot(tx, aliquot_id)?;
+    let metas: Vec<SpectrumMeta> = spectra.iter().map(SpectrumMeta::from).collect();
+    let hash = inputs_hash(&a, &batch.core, &metas, &cal);
+    let comp = compute(&a, &batch.core, &spectra, &cal);
+    let old = current_values(tx, aliquot_id)?;
+    apply(tx, aliquot_id, version, &hash, &comp.values, &old)?;
+    Ok(comp.values)
+}
+
+/// A value that moves in a recompute.
+#[derive(Debug, Clone, Serialize)]
+pub struct Move {
+    pub aliquot_id: i64,
+    pub batch_id: i64,
+    pub quantity: String,
+    pub old: Option<f64>,
+    pub new: Option<f64>,
+    pub relative_change: Option<f64>,
+}
+
+/// A batch whose product value crosses a threshold someone has searched by.
+#[derive(Debug, Clone, Serialize)]
+pub struct Crossing {
+    pub batch_id: i64,
+    pub field: String,
+    pub threshold: f64,
+    pub old: Option<f64>,
+    pub new: Option<f64>,
+}
+
+#[derive(Debug, Clone, Serialize, Default)]
+pub struct RecomputeReport {
+    pub dry_run: bool,
+    pub aliquots_considered: usize,
+    pub aliquots_recomputed: usize,
+    /// Values computed.
+    pub recomputed: usize,
+    /// Values whose number, method or presence changed.
+    pub changed: usize,
+    pub stale_found: usize,
+    pub largest_moves: Vec<Move>,
+    pub threshold_crossings: Vec<Crossing>,
+}
+
+/// The search fields a threshold can be about, and the derived quantity behind each.
+pub const THRESHOLD_FIELDS: &[(&str, &str)] = &[
+    ("size", "diameter_nm"),
+    ("peak", "first_exciton_nm"),
+    ("pl", "pl_peak_nm"),
+    ("qy", "qy"),
+    ("fwhm", "pl_fwhm_nm"),
+    ("dispersion", "size_dispersion_pct"),
+    ("conc", "concentration_molar"),
+];
+
+/// Recomputes stale values (all with `all`); a dry run only reports. Streams aliquots so
+/// memory stays bounded whatever the size of the lab. `progress` gets (done, total).
+pub fn recompute(
+    conn: &Connection,
+    all: bool,
+    dry_run: bool,
+    mut progress: impl FnMut(usize, usize),
+) -> Result<RecomputeReport> {
+    let mut report = RecomputeReport {
+        dry_run,
+        ..Default::default()
+    };
+    let total: i64 = conn.query_row("SELECT count(*) FROM aliquot", [], |r| r.get(0))?;
+    let latest = calibration::latest(conn)?.version;
+    let mut cals: BTreeMap<i64, Calibration> = BTreeMap::new();
+    let thresholds = search_thresholds(conn)?;
+    let products = product_aliquots(conn)?;
+    let mut moves: Vec<Move> = Vec::new();
+    let mut st = conn.prepare(
+        "SELECT a.id, a.batch_id, a.minutes, a.stage, a.dilution_factor, a.path_cm, a.solvent, a.taken_at,
+                m.core, COALESCE(b.pinned_calibration, ?1)
+         FROM aliquot a JOIN batch b ON b.id = a.batch_id JOIN material m ON m.id = b.material_id ORDER BY a.id",
+    )?;
+    let mut rows = st.query([latest])?;
+    let mut done = 0usize;
+    while let Some(r) = rows.next()? {
+        let a = AliquotRow {
+            id: r.get(0)?,
+            batch_id: r.get(1)?,
+            minutes: r.get(2)?,
+            stage: r.get(3)?,
+            dilution_factor: r.get(4)?,
+            path_cm: r.get(5)?,
+            solvent: r.get(6)?,
+            taken_at: r.get(7)?,
+        };
+        let core: String = r.get(8)?;
+        let version: i64 = r.get(9)?;
+        if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
+            e.insert(calibration::get(conn, version)?.body);
+        }
+        let cal = &cals[&version];
+        report.aliquots_considered += 1;
+        done += 1;
+        if done.is_multiple_of(256) {
+            progress(done, total as usize);
+        }
+        let metas = spectrum_metas(conn, a.id)?;
+        let hash = inputs_hash(&a, &core, &metas, cal);
+        let old = current_values(conn, a.id)?;
+        let stale = (old.is_empty() && !metas.is_empty()) || old.iter().any(|o| o.inputs_hash != hash);
+        if stale {
+            report.stale_found += 1;
+        }
+        if !stale && !all {
+            continue;
+        }
+        let spectra = crate::store::model::spectra_of_aliquot(conn, a.id)?;
+        let comp = compute(&a, &core, &spectra, cal);
+        report.aliquots_recomputed += 1;
+        report.recomputed += comp.values.len();
+        let n_changed = if dry_run {
+            count_changes(&comp.values, &old)
+        } else {
+            apply(conn, a.id, version, &hash, &comp.values, &old)?
+        };
+        report.changed += n_changed;
+        if n_changed > 0 {
+            for v in &comp.values {
+                let o = old.iter().find(|o| o.quantity == v.quantity).and_then(|o| o.value);
+                if same(o, v.value) {
+                    continue;
+                }
+                let rel = match (o, v.value) {
+                    (Some(x), Some(y)) if x != 0.0 => Some((y - x) / x.abs()),
+                    _ => None,
+                };
+                if products.contains(&a.id) {
+                    for (field, q, t) in &thresholds {
+                        if q == &v.quantity
+                            && let (Some(x), Some(y)) = (o, v.value)
+                            && (x - t) * (y - t) < 0.0
+                        {
+                            report.threshold_crossings.push(Crossing {
+                                batch_id: a.batch_id,
+                                field: field.clone(),
+                                threshold: *t,
+                                old: o,
+                                new: v.value,
+                            });
+                        }
+                    }
+                }
+                if ["diameter_nm", "concentration_molar", "qy", "first_exciton_nm"].contains(&v.quantity.as_str()) {
+                    moves.push(Move {
+                        aliquot_id: a.id,
+                        batch_id: a.batch_id,
+                        quantity: v.quantity.clone(),
+                        old: o,
+                        new: v.value,
+                        relative_change: rel,
+                    });
+                    // Keep only the largest moves so memory stays bounded.
+                    if moves.len() > 200 {
+                        sort_moves(&mut moves);
+                        moves.truncate(20);
+                    }
+                }
+            }
+        }
+    }
+    progress(done, total as usize);
+    sort_moves(&mut moves);
+    moves.truncate(10);
+    report.largest_moves = moves;
+    Ok(report)
+}
+
+fn sort_moves(m: &mut [Move]) {
+    m.sort_by(|a, b| {
+        let ka = a.relative_change.map(f64::abs).unwrap_or(f64::INFINITY);
+        let kb = b.relative_change.map(f64::abs).unwrap_or(f64::INFINITY);
+        kb.total_cmp(&ka)
+    });
+}
+
+fn spectrum_metas(conn: &Connection, aliquot_id: i64) -> Result<Vec<SpectrumMeta>> {
+    let mut st = conn
+        .prepare_cached("SELECT kind, sha256, excitation_nm, x_unit FROM spectrum WHERE aliquot_id = ?1 ORDER BY id")?;
+    let rows = st.query_map([aliquot_id], |r| {
+        Ok(SpectrumMeta {
+            kind: r.get(0)?,
+            sha256: r.get(1)?,
+            excitation_nm: r.get(2)?,
+            x_unit: r.get(3)?,
+        })
+    })?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+/// Marks current values whose inputs no longer match as stale (cheap: no spectrum is read).
+pub fn mark_stale(tx: &Connection) -> Result<usize> {
+    let latest = calibration::latest(tx)?.version;
+    let mut cals: BTreeMap<i64, Calibration> = BTreeMap::new();
+    let mut st = tx.prepare(
+        "SELECT a.id, a.batch_id, a.minutes, a.stage, a.dilution_factor, a.path_cm, a.solvent, a.taken_at,
+                m.core, COALESCE(b.pinned_calibration, ?1)
+         FROM aliquot a JOIN batch b ON b.id = a.batch_id JOIN material m ON m.id = b.material_id ORDER BY a.id",
+    )?;
+    let mut rows = st.query([latest])?;
+    let mut n = 0;
+    while let Some(r) = rows.next()? {
+        let a = AliquotRow {
+            id: r.get(0)?,
+            batch_id: r.get(1)?,
+            minutes: r.get(2)?,
+            stage: r.get(3)?,
+            dilution_factor: r.get(4)?,
+            path_cm: r.get(5)?,
+            solvent: r.get(6)?,
+            taken_at: r.get(7)?,
+        };
+        let core: String = r.get(8)?;
+        let version: i64 = r.get(9)?;
+        if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
+            e.insert(calibration::get(tx, version)?.body);
+        }
+        let hash = inputs_hash(&a, &core, &spectrum_metas(tx, a.id)?, &cals[&version]);
+        n += tx
+            .prepare_cached("UPDATE derived_value SET stale = (inputs_hash <> ?1) WHERE aliquot_id = ?2 AND superseded_at IS NULL AND stale <> (inputs_hash <> ?1)")?
+            .execute(params![hash, a.id])?;
+    }
+    Ok(n)
+}
+
+/// (field, quantity, threshold) pairs people have searched by.
+pub fn search_thresholds(conn: &Connection) -> Result<Vec<(String, String, f64)>> {
+    let mut st = conn.prepare("SELECT field, value FROM search_threshold ORDER BY field, value")?;
+    let rows = st.query_map([], |r| Ok((r.get::<_, String>(0)?, r.get::<_, f64>(1)?)))?;
+    let mut out = Vec::new();
+    for row in rows {
+        let (f, v) = row?;
+        if let Some((_, q)) = THRESHOLD_FIELDS.iter().find(|(k, _)| *k == f) {
+            out.push((f, q.to_string(), v));
+        }
+    }
+    Ok(out)
+}
+
+/// Each batch's product aliquot: the one marked, else the last of the growth series.
+pub fn product_aliquots(conn: &Connection) -> Result<std::collections::HashSet<i64>> {
+    let mut st = conn.prepare(
+        "SELECT COALESCE(b.product_aliquot_id,
+                 (SELECT a.id FROM aliquot a WHERE a.batch_id = b.id ORDER BY a.minutes IS NULL, a.minutes DESC, a.id DESC LIMIT 1))
+         FROM batch b",
+    )?;
+    let rows = st.query_map([], |r| r.get::<_, Option<i64>>(0))?;
+    let mut out = std::collections::HashSet::new();
+    for r in rows {
+        if let Some(id) = r? {
+            out.insert(id);
+        }
+    }
+    Ok(out)
+}

@@ -1,0 +1,251 @@
+//! Batch-level values: the growth series (diameter, size dispersion, crystal concentration and
+//! PL peak against minutes), the growth rate, the turn from size focusing to defocusing
+//! (dispersion falling, then rising: the picture of Peng, Wickham & Alivisatos, J. Am. Chem.
+//! Soc. 120, 5343 (1998)), a batch's product values, and the repeatability of a recipe version.
+
+use super::engine::current_values;
+use crate::error::Result;
+use crate::store::model;
+use rusqlite::Connection;
+use serde::Serialize;
+
+/// An aliquot with its current derived values, as scripts and screens see it.
+#[derive(Debug, Clone, Serialize, Default)]
+pub struct AliquotSummary {
+    pub id: i64,
+    pub minutes: Option<f64>,
+    pub stage: Option<String>,
+    pub dilution_factor: f64,
+    pub path_cm: f64,
+    pub solvent: String,
+    pub first_exciton_nm: Option<f64>,
+    pub first_exciton_abs: Option<f64>,
+    pub hwhm_nm: Option<f64>,
+    pub shoulder: Option<bool>,
+    pub diameter_nm: Option<f64>,
+    pub edge_nm: Option<f64>,
+    pub size_dispersion_pct: Option<f64>,
+    pub extinction_m1cm1: Option<f64>,
+    pub concentration_molar: Option<f64>,
+    pub pl_peak_nm: Option<f64>,
+    pub pl_fwhm_nm: Option<f64>,
+    pub pl_integral: Option<f64>,
+    pub stokes_shift_mev: Option<f64>,
+    pub qy: Option<f64>,
+    /// The sizing curve id behind `diameter_nm`.
+    pub curve: Option<String>,
+    /// The calibration version behind `diameter_nm` (or the newest of the values).
+    pub calibration_version: Option<i64>,
+    pub stale: bool,
+    pub warnings: Vec<String>,
+    pub spectra: Vec<SpectrumBrief>,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct SpectrumBrief {
+    pub id: i64,
+    pub kind: String,
+    pub file_name: String,
+    pub sha256: String,
+    pub excitation_nm: Option<f64>,
+}
+
+pub fn aliquot_summary(conn: &Connection, a: &model::AliquotRow) -> Result<AliquotSummary> {
+    let vals = current_values(conn, a.id)?;
+    let mut s = AliquotSummary {
+        id: a.id,
+        minutes: a.minutes,
+        stage: a.stage.clone(),
+        dilution_factor: a.dilution_factor,
+        path_cm: a.path_cm,
+        solvent: a.solvent.clone(),
+        ..Default::default()
+    };
+    for v in &vals {
+        let x = v.value;
+        match v.quantity.as_str() {
+            "first_exciton_nm" => s.first_exciton_nm = x,
+            "first_exciton_abs" => s.first_exciton_abs = x,
+            "hwhm_nm" => s.hwhm_nm = x,
+            "shoulder" => s.shoulder = x.map(|f| f > 0.5),
+            "diameter_nm" => {
+                s.diameter_nm = x;
+                s.curve = Some(v.method.clone());
+                s.calibration_version = Some(v.calibration_version);
+            }
+            "edge_nm" => s.edge_nm = x,
+            "size_dispersion_pct" => s.size_dispersion_pct = x,
+            "extinction_m1cm1" => s.extinction_m1cm1 = x,
+            "concentration_molar" => s.concentration_molar = x,
+            "pl_peak_nm" => s.pl_peak_nm = x,
+            "pl_fwhm_nm" => s.pl_fwhm_nm = x,
+            "pl_integral" => s.pl_integral = x,
+            "stokes_shift_mev" => s.stokes_shift_mev = x,
+            "qy" => s.qy = x,
+            _ => {}
+        }
+        s.stale |= v.stale;
+        for w in &v.warnings {
+            if !s.warnings.contains(w) {
+                s.warnings.push(w.clone());
+            }
+        }
+    }
+    if s.calibration_version.is_none() {
+        s.calibration_version = vals.iter().map(|v| v.calibration_version).max();
+    }
+    s.spectra = model::spectra_of_aliquot(conn, a.id)?
+        .into_iter()
+        .map(|sp| SpectrumBrief {
+            id: sp.id,
+            kind: sp.kind,
+            file_name: sp.file_name,
+            sha256: sp.sha256,
+            excitation_nm: sp.excitation_nm,
+        })
+        .collect();
+    Ok(s)
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct Growth {
+    /// nm of diameter per minute between the last two timed aliquots.
+    pub growth_rate_nm_per_min: Option<f64>,
+    /// Least-squares slope of diameter against minutes over the whole series.
+    pub mean_growth_rate_nm_per_min: Option<f64>,
+    /// "focusing", "defocusing", "focusing then defocusing" or "too few points".
+    pub regime: String,
+    /// Minutes at which size dispersion stopped falling and began to rise.
+    pub focusing_turn_min: Option<f64>,
+}
+
+/// The growth picture from the timed aliquots.
+pub fn growth(series: &[AliquotSummary]) -> Growth {
+    let timed: Vec<&AliquotSummary> = series.iter().filter(|a| a.minutes.is_some()).collect();
+    let dpts: Vec<(f64, f64)> = timed
+        .iter()
+        .filter_map(|a| Some((a.minutes?, a.diameter_nm?)))
+        .collect();
+    let rate = if dpts.len() >= 2 {
+        let (t0, d0) = dpts[dpts.len() - 2];
+        let (t1, d1) = dpts[dpts.len() - 1];
+        (t1 > t0).then(|| (d1 - d0) / (t1 - t0))
+    } else {
+        None
+    };
+    let mean = super::qy::linear_fit(&dpts).ok().map(|f| f.0);
+    let disp: Vec<(f64, f64)> = timed
+        .iter()
+        .filter_map(|a| Some((a.minutes?, a.size_dispersion_pct?)))
+        .collect();
+    // A change smaller than this is not taken as a trend (common practice, no source).
+    let margin = 0.25;
+    let (regime, turn) = if disp.len() < 3 {
+        ("too few points".to_string(), None)
+    } else {
+        let (imin, _) = disp
+            .iter()
+            .enumerate()
+            .fold((0, f64::MAX), |acc, (i, p)| if p.1 < acc.1 { (i, p.1) } else { acc });
+        let fell = disp[0].1 - disp[imin].1 > margin;
+        let rose = disp[disp.len() - 1].1 - disp[imin].1 > margin;
+        match (fell, rose) {
+            (true, true) => ("focusing then defocusing".to_string(), Some(disp[imin].0)),
+            (true, false) => ("focusing".to_string(), None),
+            (false, true) => ("defocusing".to_string(), None),
+            (false, false) => ("steady".to_string(), None),
+        }
+    };
+    Growth {
+        growth_rate_nm_per_min: rate,
+        mean_growth_rate_nm_per_min: mean,
+        regime,
+        focusing_turn_min: turn,
+    }
+}
+
+/// The product aliquot of a batch: the one marked, else the last of the growth series, else
+/// the last logged.
+pub fn product_of<'a>(batch: &model::BatchRow, series: &'a [AliquotSummary]) -> Option<&'a AliquotSummary> {
+    if let Some(id) = batch.product_aliquot_id
+        && let Some(a) = series.iter().find(|a| a.id == id)
+    {
+        return Some(a);
+    }
+    series
+        .iter()
+        .filter(|a| a.minutes.is_some())
+        .max_by(|a, b| {
+            a.minutes
+                .unwrap_or(0.0)
+                .total_cmp(&b.minutes.unwrap_or(0.0))
+                .then(a.id.cmp(&b.id))
+        })
+        .or_else(|| series.iter().max_by_key(|a| a.id))
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct Spread {
+    pub n: usize,
+    pub mean: f64,
+    pub sd: Option<f64>,
+}
+
+fn spread(v: &[f64]) -> Option<Spread> {
+    if v.is_empty() {
+        return None;
+    }
+    let n = v.len();
+    let mean = v.iter().sum::<f64>() / n as f64;
+    let sd = (n > 1).then(|| (v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1) as f64).sqrt());
+    Some(Spread { n, mean, sd })
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct RecipeStats {
+    pub recipe: String,
+    pub version: i64,
+    pub batches: usize,
+    pub diameter_nm: Option<Spread>,
+    pub size_dispersion_pct: Option<Spread>,
+    pub pl_peak_nm: Option<Spread>,
+    pub qy: Option<Spread>,
+    pub failed: usize,
+}
+
+/// How repeatable a recipe version is: mean and spread of its batches' product values.
+pub fn recipe_stats(conn: &Connection, recipe_version_id: i64) -> Result<RecipeStats> {
+    let view = model::recipe_view(conn, recipe_version_id)?;
+    let batches: Vec<model::BatchRow> = model::list_batches(conn)?
+        .into_iter()
+        .filter(|b| b.recipe_version_id == Some(recipe_version_id))
+        .collect();
+    let (mut d, mut s, mut p, mut q) = (vec![], vec![], vec![], vec![]);
+    let mut failed = 0;
+    for b in &batches {
+        if b.status == "failed" {
+            failed += 1;
+            continue;
+        }
+        let series: Vec<AliquotSummary> = model::aliquots_of(conn, b.id)?
+            .iter()
+            .map(|a| aliquot_summary(conn, a))
+            .collect::<Result<_>>()?;
+        if let Some(prod) = product_of(b, &series) {
+            d.extend(prod.diameter_nm);
+            s.extend(prod.size_dispersion_pct);
+            p.extend(prod.pl_peak_nm);
+            q.extend(prod.qy);
+        }
+    }
+    Ok(RecipeStats {
+        recipe: view.name,
+        version: view.version,
+        batches: batches.len(),
+        diameter_nm: spread(&d),
+        size_dispersion_pct: spread(&s),
+        pl_peak_nm: spread(&p),
+        qy: spread(&q),
+        failed,
+    })
+}

@@ -1,0 +1,44 @@
+//! The library's typed errors. Every error a user can cause is one of these, with a message
+//! that names what was wrong in one line; the binary turns them into exit codes.
+
+use thiserror::Error;
+
+/// Everything that can go wrong inside the library.
+#[derive(Debug, Error)]
+pub enum Error {
+    /// The user gave something that cannot be accepted (a missing batch, a bad unit, ...).
+    #[error("{0}")]
+    Invalid(String),
+    /// A named thing does not exist.
+    #[error("{kind} {what} not found")]
+    NotFound { kind: &'static str, what: String },
+    /// A spectrum file could not be read; `line` is 1-based where it applies.
+    #[error("{file}{}: {reason}", line.map(|l| format!(" line {l}")).unwrap_or_default())]
+    Spectrum {
+        file: String,
+        line: Option<usize>,
+        reason: String,
+    },
+    /// The database file was written by a newer cuvette.
+    #[error("database schema version {found} is newer than this cuvette understands ({supported}); upgrade cuvette")]
+    NewerSchema { found: i64, supported: i64 },
+    /// The file is not a cuvette/SQLite database.
+    #[error("{path} is not a cuvette database ({reason})")]
+    NotADatabase { path: String, reason: String },
+    /// A search query did not parse; `column` is 1-based.
+    #[error("query error at column {column}: {reason}")]
+    Query { column: usize, reason: String },
+    #[error("database: {0}")]
+    Sqlite(#[from] rusqlite::Error),
+    #[error("{0}")]
+    Io(#[from] std::io::Error),
+    #[error("json: {0}")]
+    Json(#[from] serde_json::Error),
+}
+
+pub type Result<T> = std::result::Result<T, Error>;
+
+/// Shorthand for an [`Error::Invalid`].
+pub fn invalid<T>(msg: impl Into<String>) -> Result<T> {
+    Err(Error::Invalid(msg.into()))
+}

@@ -1,0 +1,128 @@
+//! Exports for a paper's supporting information or another tool: every batch, aliquot and
+//! current derived value with its method and calibration version, as CSV files or one JSON file.
+
+use crate::derive::engine;
+use crate::error::{Error, Result};
+use crate::store::model;
+use rusqlite::Connection;
+use std::path::Path;
+
+fn csv_err(e: csv::Error) -> Error {
+    Error::Invalid(format!("csv: {e}"))
+}
+
+/// Writes the export into `out` (default `export/`); returns the files written.
+pub fn export(conn: &Connection, as_json: bool, out: Option<&Path>) -> Result<Vec<String>> {
+    let dir = out.unwrap_or(Path::new("export"));
+    std::fs::create_dir_all(dir).map_err(|e| Error::Invalid(format!("cannot create {}: {e}", dir.display())))?;
+    let batches = model::list_batches(conn)?;
+    let mut aliquots = Vec::new();
+    let mut values = Vec::new();
+    for b in &batches {
+        for a in model::aliquots_of(conn, b.id)? {
+            values.extend(engine::current_values(conn, a.id)?);
+            aliquots.push(a);
+        }
+    }
+    let mut written = Vec::new();
+    if as_json {
+        let p = dir.join("cuvette-export.json");
+        let v = serde_json::json!({"batches": batches, "aliquots": aliquots, "derived_values": values});
+        std::fs::write(&p, serde_json::to_string_pretty(&v)?)?;
+        written.push(p.display().to_string());
+        return Ok(written);
+    }
+    let p = dir.join("batches.csv");
+    let mut w = csv::Writer::from_path(&p).map_err(csv_err)?;
+    w.write_record([
+        "id",
+        "name",
+        "material",
+        "recipe",
+        "recipe_version",
+        "operator",
+        "started_at",
+        "status",
+        "parent_batch_id",
+        "parent_relation",
+        "notes",
+    ])
+    .map_err(csv_err)?;
+    for b in &batches {
+        w.write_record([
+            b.id.to_string(),
+            b.name.clone(),
+            b.material.clone(),
+            b.recipe.clone().unwrap_or_default(),
+            b.recipe_version.map(|v| v.to_string()).unwrap_or_default(),
+            b.operator.clone().unwrap_or_default(),
+            b.started_at.clone(),
+            b.status.clone(),
+            b.parent_batch_id.map(|v| v.to_string()).unwrap_or_default(),
+            b.parent_relation.clone().unwrap_or_default(),
+            b.notes.clone(),
+        ])
+        .map_err(csv_err)?;
+    }
+    w.flush()?;
+    written.push(p.display().to_string());
+    let p = dir.join("aliquots.csv");
+    let mut w = csv::Writer::from_path(&p).map_err(csv_err)?;
+    w.write_record([
+        "id",
+        "batch_id",
+        "minutes",
+        "stage",
+        "dilution_factor",
+        "path_cm",
+        "solvent",
+        "taken_at",
+    ])
+    .map_err(csv_err)?;
+    for a in &aliquots {
+        w.write_record([
+            a.id.to_string(),
+            a.batch_id.to_string(),
+            a.minutes.map(|v| v.to_string()).unwrap_or_default(),
+            a.stage.clone().unwrap_or_default(),
+            a.dilution_factor.to_string(),
+            a.path_cm.to_string(),
+            a.solvent.clone(),
+            a.taken_at.clone(),
+        ])
+        .map_err(csv_err)?;
+    }
+    w.flush()?;
+    written.push(p.display().to_string());
+    let p = dir.join("derived_values.csv");
+    let mut w = csv::Writer::from_path(&p).map_err(csv_err)?;
+    w.write_record([
+        "aliquot_id",
+        "quantity",
+        "value",
+        "unit",
+        "method",
+        "calibration_version",
+        "inputs_hash",
+        "stale",
+        "computed_at",
+    ])
+    .map_err(csv_err)?;
+    for v in &values {
+        w.write_record([
+            v.aliquot_id.to_string(),
+            v.quantity.clone(),
+            v.value.map(|x| x.to_string()).unwrap_or_default(),
+            v.unit.clone(),
+            v.method.clone(),
+            v.calibration_version.to_string(),
+            v.inputs_hash.clone(),
+            v.stale.to_string(),
+            v.computed_at.clone(),
+        ])
+        .map_err(csv_err)?;
+    }
+    w.flush()?;
+    written.push(p.display().to_string());
+    Ok(written)
+}

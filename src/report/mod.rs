@@ -1,0 +1,213 @@
+//! Views for people and other tools, built from the store: the shelf entry, `explain`'s chain,
+//! SVG plots of a growth series, exports and the handover pack. Read-only, except `handover`,
+//! which reassigns ownership in one transaction before it writes the pack.
+
+mod export;
+mod handover;
+mod plot;
+
+pub use export::export;
+pub use handover::{HandoverReport, handover};
+pub use plot::{plot_batch_svg, plot_series_svg};
+
+use crate::derive::{calibration, engine, growth, sizing};
+use crate::error::Result;
+use crate::store::model;
+use rusqlite::Connection;
+use serde_json::{Value, json};
+
+/// Below this volume a vial counts as low on stock (common practice of our invented lab; a
+/// setting a lab may want to change).
+pub const LOW_STOCK_ML: f64 = 0.5;
+
+/// A vial as `shelf --json` prints it.
+pub fn shelf_entry(v: &model::VialRow) -> Value {
+    let nmol = v.concentration_molar.map(|c| c * v.volume_ml * 1e6);
+    json!({
+        "id": v.id,
+        "label": v.label,
+        "batch_id": v.batch_id,
+        "batch_name": v.batch_name,
+        "material": v.material,
+        "location": v.location,
+        "position": v.position,
+        "volume_ml": v.volume_ml,
+        "initial_ml": v.initial_ml,
+        "solvent": v.solvent,
+        "owner": v.owner,
+        "status": v.status,
+        "concentration_molar": v.concentration_molar,
+        "nanomoles_left": nmol,
+        "low_stock": v.status != "disposed" && v.volume_ml < LOW_STOCK_ML,
+        "created_at": v.created_at,
+    })
+}
+
+/// The concentration of a batch's product aliquot (undiluted), if derived.
+pub fn product_concentration(conn: &Connection, batch_id: i64) -> Result<Option<f64>> {
+    let b = model::get_batch(conn, batch_id)?;
+    let series: Vec<growth::AliquotSummary> = model::aliquots_of(conn, batch_id)?
+        .iter()
+        .map(|a| growth::aliquot_summary(conn, a))
+        .collect::<Result<_>>()?;
+    Ok(growth::product_of(&b, &series).and_then(|p| p.concentration_molar))
+}
+
+/// Maps `f` over `items` on `workers` threads, keeping the order.
+pub fn parallel_map<T: Sync, R: Send>(items: &[T], workers: usize, f: impl Fn(&T) -> R + Sync) -> Vec<R> {
+    use std::sync::Mutex;
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    let next = AtomicUsize::new(0);
+    let out: Mutex<Vec<Option<R>>> = Mutex::new((0..items.len()).map(|_| None).collect());
+    std::thread::scope(|s| {
+        for _ in 0..workers.max(1).min(items.len().max(1)) {
+            s.spawn(|| {
+                loop {
+                    let i = next.fetch_add(1, Ordering::Relaxed);
+                    if i >= items.len() {
+                        break;
+                    }
+                    let r = f(&items[i]);
+                    if let Ok(mut o) = out.lock() {
+                        o[i] = Some(r);
+                    }
+                }
+            });
+        }
+    });
+    out.into_inner().unwrap_or_default().into_iter().flatten().collect()
+}
+
+/// Each derived value of an aliquot with where it came from: spectrum, peak, curve and its
+/// version and source, diameter, extinction, concentration; and the superseded history.
+pub fn explain(conn: &Connection, aliquot_id: i64) -> Result<Value> {
+    let a = model::get_aliquot(conn, aliquot_id)?;
+    let b = model::get_batch(conn, a.batch_id)?;
+    let spectra = model::spectra_of_aliquot(conn, aliquot_id)?;
+    let values = engine::current_values(conn, aliquot_id)?;
+    let history = engine::value_history(conn, aliquot_id)?;
+    let version = values.iter().map(|v| v.calibration_version).max();
+    let cal = match version {
+        Some(v) => Some(calibration::get(conn, v)?),
+        None => None,
+    };
+    let order = [
+        "first_exciton_nm",
+        "first_exciton_abs",
+        "shoulder",
+        "hwhm_nm",
+        "hwhm_mev",
+        "diameter_nm",
+        "edge_nm",
+        "size_dispersion_pct",
+        "extinction_m1cm1",
+        "concentration_molar",
+        "pl_peak_nm",
+        "pl_fwhm_nm",
+        "pl_fwhm_mev",
+        "pl_integral",
+        "stokes_shift_mev",
+        "qy",
+    ];
+    let mut chain = Vec::new();
+    for q in order {
+        if let Some(v) = values.iter().find(|v| v.quantity == q) {
+            let mut step = serde_json::to_value(v)?;
+            if (q == "diameter_nm" || q == "edge_nm")
+                && let Ok(c) = sizing::Curve::parse(&v.method) {
+                    step["curve"] = json!(c.id());
+                    step["source"] = json!(c.source());
+                    step["valid_range_nm"] = json!(c.valid_range_nm(&b.core));
+                }
+            chain.push(step);
+        }
+    }
+    Ok(json!({
+        "aliquot_id": a.id,
+        "batch_id": b.id,
+        "material": b.material,
+        "core": b.core,
+        "minutes": a.minutes,
+        "stage": a.stage,
+        "dilution_factor": a.dilution_factor,
+        "path_cm": a.path_cm,
+        "solvent": a.solvent,
+        "calibration_version": version,
+        "pinned_calibration": b.pinned_calibration,
+        "calibration": cal.map(|c| json!({
+            "version": c.version, "why": c.why, "created_by": c.created_by, "created_at": c.created_at,
+            "curve": c.body.curves.get(&b.core), "extinction": c.body.extinction.get(&b.core),
+            "qy_reference": c.body.qy_reference, "analysis": c.body.analysis,
+        })),
+        "spectra": spectra.iter().map(|s| json!({"id": s.id, "kind": s.kind, "file_name": s.file_name, "sha256": s.sha256,
+            "npoints": s.npoints, "x_unit": s.x_unit, "excitation_nm": s.excitation_nm})).collect::<Vec<_>>(),
+        "chain": chain,
+        "history": history,
+    }))
+}
+
+/// The cautions of a recipe: its reagents' hazards and the general ones.
+pub fn cautions(r: &model::RecipeView) -> Vec<String> {
+    let mut out: Vec<String> = r
+        .reagents
+        .iter()
+        .filter(|g| !g.ghs_hazards.is_empty())
+        .map(|g| {
+            format!(
+                "{}: {}",
+                g.reagent,
+                g.ghs_hazards
+                    .iter()
+                    .map(|h| format!("{h} {}", crate::hazards::statement(h).unwrap_or("")))
+                    .collect::<Vec<_>>()
+                    .join("; ")
+            )
+        })
+        .collect();
+    let core = r.material.split('/').next().unwrap_or("");
+    out.extend(crate::hazards::general_cautions(
+        core,
+        r.reagents.iter().any(|g| g.pyrophoric),
+    ));
+    out
+}
+
+/// The full record of a batch as `batch show --json` prints it.
+pub fn batch_detail(tx: &rusqlite::Connection, id: i64) -> crate::Result<Value> {
+    let b = model::get_batch(tx, id)?;
+    let series: Vec<growth::AliquotSummary> = model::aliquots_of(tx, id)?
+        .iter()
+        .map(|a| growth::aliquot_summary(tx, a))
+        .collect::<crate::Result<_>>()?;
+    let g = growth::growth(&series);
+    let product = growth::product_of(&b, &series).cloned();
+    let vials = model::vials_of_batch(tx, id)?;
+    let recipe = match b.recipe_version_id {
+        Some(v) => Some(model::recipe_view(tx, v)?),
+        None => None,
+    };
+    let mut v = serde_json::to_value(&b)?;
+    v["aliquots"] = serde_json::to_value(&series)?;
+    v["growth"] = serde_json::to_value(&g)?;
+    v["product"] = serde_json::to_value(&product)?;
+    v["vials"] = serde_json::to_value(&vials)?;
+    v["stock_ml"] = json!(
+        vials
+            .iter()
+            .filter(|x| x.status != "disposed")
+            .map(|x| x.volume_ml)
+            .sum::<f64>()
+    );
+    v["children"] = json!(
+        model::children_of(tx, id)?
+            .into_iter()
+            .map(|(i, n, r)| json!({"id": i, "name": n, "relation": r}))
+            .collect::<Vec<_>>()
+    );
+    v["cautions"] = match &recipe {
+        Some(r) => json!(cautions(r)),
+        None => json!(crate::hazards::general_cautions(&b.core, false)),
+    };
+    v["recipe_detail"] = serde_json::to_value(&recipe)?;
+    Ok(v)
+}

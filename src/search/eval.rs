@@ -1,0 +1,299 @@
+//! Evaluating a query over the facts of every batch. Loading the facts is one pass over the
+//! database; filtering them is pure and fast, so the UI can keep the facts and re-filter on
+//! every keystroke.
+
+use super::parse::{Clause, Field, Query};
+use crate::error::Result;
+use fuzzy_matcher::FuzzyMatcher;
+use fuzzy_matcher::skim::SkimMatcherV2;
+use rusqlite::Connection;
+use serde::Serialize;
+use std::collections::HashMap;
+
+/// What search knows of a batch.
+#[derive(Debug, Clone, Serialize, Default)]
+pub struct Facts {
+    pub id: i64,
+    pub name: String,
+    pub material: String,
+    pub status: String,
+    pub operator: Option<String>,
+    pub started_at: String,
+    pub recipe: Option<String>,
+    pub notes: String,
+    pub locations: Vec<String>,
+    pub stock_ml: f64,
+    pub diameter_nm: Option<f64>,
+    pub first_exciton_nm: Option<f64>,
+    pub pl_peak_nm: Option<f64>,
+    pub pl_fwhm_nm: Option<f64>,
+    pub size_dispersion_pct: Option<f64>,
+    pub qy: Option<f64>,
+    pub concentration_molar: Option<f64>,
+    #[serde(skip)]
+    haystack: String,
+}
+
+/// One search result.
+#[derive(Debug, Clone, Serialize)]
+pub struct Hit {
+    #[serde(flatten)]
+    pub facts: Facts,
+    pub score: i64,
+}
+
+impl std::ops::Deref for Hit {
+    type Target = Facts;
+    fn deref(&self) -> &Facts {
+        &self.facts
+    }
+}
+
+/// Reads every batch's facts: product values, stock and locations.
+pub fn load_facts(conn: &Connection) -> Result<Vec<Facts>> {
+    let mut facts: Vec<Facts> = Vec::new();
+    let mut index: HashMap<i64, usize> = HashMap::new();
+    let mut st = conn.prepare(
+        "SELECT b.id, b.name, m.name, b.status, p.name, b.started_at, r.name, b.notes
+         FROM batch b JOIN material m ON m.id = b.material_id
+         LEFT JOIN person p ON p.id = b.operator_id
+         LEFT JOIN recipe_version rv ON rv.id = b.recipe_version_id LEFT JOIN recipe r ON r.id = rv.recipe_id
+         ORDER BY b.id",
+    )?;
+    let mut rows = st.query([])?;
+    while let Some(r) = rows.next()? {
+        let f = Facts {
+            id: r.get(0)?,
+            name: r.get(1)?,
+            material: r.get(2)?,
+            status: r.get(3)?,
+            operator: r.get(4)?,
+            started_at: r.get(5)?,
+            recipe: r.get(6)?,
+            notes: r.get(7)?,
+            ..Default::default()
+        };
+        index.insert(f.id, facts.len());
+        facts.push(f);
+    }
+    let mut st = conn.prepare(
+        "WITH prod AS (
+           SELECT b.id AS batch_id, COALESCE(b.product_aliquot_id,
+             (SELECT a.id FROM aliquot a WHERE a.batch_id = b.id ORDER BY a.minutes IS NULL, a.minutes DESC, a.id DESC LIMIT 1)) AS aliquot_id
+           FROM batch b)
+         SELECT p.batch_id, d.quantity, d.value FROM prod p
+         JOIN derived_value d ON d.aliquot_id = p.aliquot_id AND d.superseded_at IS NULL
+         WHERE d.quantity IN ('diameter_nm','first_exciton_nm','pl_peak_nm','pl_fwhm_nm','size_dispersion_pct','qy','concentration_molar')",
+    )?;
+    let mut rows = st.query([])?;
+    while let Some(r) = rows.next()? {
+        let id: i64 = r.get(0)?;
+        let q: String = r.get(1)?;
+        let v: Option<f64> = r.get(2)?;
+        if let Some(&i) = index.get(&id) {
+            let f = &mut facts[i];
+            match q.as_str() {
+                "diameter_nm" => f.diameter_nm = v,
+                "first_exciton_nm" => f.first_exciton_nm = v,
+                "pl_peak_nm" => f.pl_peak_nm = v,
+                "pl_fwhm_nm" => f.pl_fwhm_nm = v,
+                "size_dispersion_pct" => f.size_dispersion_pct = v,
+                "qy" => f.qy = v,
+                "concentration_molar" => f.concentration_molar = v,
+                _ => {}
+            }
+        }
+    }
+    let mut st = conn.prepare(
+        "SELECT v.batch_id, SUM(v.volume_ml), GROUP_CONCAT(DISTINCT l.name) FROM vial v JOIN location l ON l.id = v.location_id
+         WHERE v.status <> 'disposed' GROUP BY v.batch_id",
+    )?;
+    let mut rows = st.query([])?;
+    while let Some(r) = rows.next()? {
+        let id: i64 = r.get(0)?;
+        if let Some(&i) = index.get(&id) {
+            facts[i].stock_ml = r.get::<_, Option<f64>>(1)?.unwrap_or(0.0);
+            let locs: Option<String> = r.get(2)?;
+            facts[i].locations = locs
+                .map(|l| l.split(',').map(String::from).collect())
+                .unwrap_or_default();
+        }
+    }
+    for f in &mut facts {
+        f.haystack = format!(
+            "{} {} {} {} {}",
+            f.name,
+            f.recipe.clone().unwrap_or_default(),
+            f.notes,
+            f.operator.clone().unwrap_or_default(),
+            f.material
+        )
+        .to_lowercase();
+    }
+    Ok(facts)
+}
+
+fn within(v: Option<f64>, lo: Option<f64>, hi: Option<f64>, strict_lo: bool, strict_hi: bool) -> bool {
+    let Some(v) = v else { return false };
+    // A bound typed in the query carries decimal round-off; compare with a hair of slack.
+    let eps = 1e-9 * v.abs().max(1.0);
+    let lo_ok = lo.is_none_or(|l| if strict_lo { v > l + eps } else { v >= l - eps });
+    let hi_ok = hi.is_none_or(|h| if strict_hi { v < h - eps } else { v <= h + eps });
+    lo_ok && hi_ok
+}
+
+/// Damerau-Levenshtein distance (optimal string alignment), for typo-tolerant words.
+fn edit_distance(a: &str, b: &str) -> usize {
+    let a: Vec<char> = a.chars().collect();
+    let b: Vec<char> = b.chars().collect();
+    let mut d = vec![vec![0usize; b.len() + 1]; a.len() + 1];
+    for (i, row) in d.iter_mut().enumerate() {
+        row[0] = i;
+    }
+    for j in 0..=b.len() {
+        d[0][j] = j;
+    }
+    for i in 1..=a.len() {
+        for j in 1..=b.len() {
+            let cost = usize::from(a[i - 1] != b[j - 1]);
+            d[i][j] = (d[i - 1][j] + 1).min(d[i][j - 1] + 1).min(d[i - 1][j - 1] + cost);
+            if i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1] {
+                d[i][j] = d[i][j].min(d[i - 2][j - 2] + 1);
+            }
+        }
+    }
+    d[a.len()][b.len()]
+}
+
+/// How many typos a word of this length may carry.
+fn allowed_typos(len: usize) -> usize {
+    match len {
+        0..=3 => 0,
+        4..=7 => 1,
+        _ => 2,
+    }
+}
+
+/// The score of a free word against a batch, or None when it does not match.
+fn word_score(matcher: &SkimMatcherV2, hay: &str, word: &str) -> Option<i64> {
+    if let Some(s) = matcher.fuzzy_match(hay, word) {
+        // Subsequence matches that scatter across the text are not meaningful for short words.
+        if hay.contains(word) || s >= (word.len() as i64) * 12 {
+            return Some(s);
+        }
+    }
+    let k = allowed_typos(word.chars().count());
+    if k == 0 {
+        return None;
+    }
+    hay.split(|c: char| !c.is_alphanumeric() && c != '-' && c != '/')
+        .filter(|w| !w.is_empty())
+        .map(|w| edit_distance(w, word))
+        .min()
+        .filter(|&dist| dist <= k)
+        .map(|dist| 10 * word.len() as i64 / (dist as i64 + 1))
+}
+
+fn text_matches(f: &Facts, field: Field, value: &str) -> bool {
+    let v = value.to_lowercase();
+    match field {
+        Field::Material => f.material.to_lowercase() == v,
+        Field::Status => f.status == v,
+        Field::By => f.operator.as_ref().is_some_and(|o| {
+            let o = o.to_lowercase();
+            o == v || o.split_whitespace().any(|w| w == v)
+        }),
+        Field::At => f.locations.iter().any(|l| l.to_lowercase().contains(&v)),
+        Field::Recipe => f.recipe.as_ref().is_some_and(|r| r.to_lowercase().contains(&v)),
+        _ => false,
+    }
+}
+
+/// Applies a query to facts: filters narrow, the fuzzy score of the free words ranks, newest
+/// first among equals.
+pub fn filter(facts: &[Facts], q: &Query) -> Vec<Hit> {
+    let matcher = SkimMatcherV2::default();
+    let words = q.words();
+    let mut hits: Vec<Hit> = Vec::new();
+    'outer: for f in facts {
+        for c in &q.clauses {
+            let ok = match c {
+                Clause::Word(_) => true,
+                Clause::Stock => f.stock_ml > 1e-9,
+                Clause::Text { field, value } => text_matches(f, *field, value),
+                Clause::Date {
+                    lo,
+                    hi,
+                    strict_lo,
+                    strict_hi,
+                } => {
+                    let d = f.started_at.get(..10).unwrap_or("");
+                    lo.as_ref()
+                        .is_none_or(|l| if *strict_lo { d > l.as_str() } else { d >= l.as_str() })
+                        && hi
+                            .as_ref()
+                            .is_none_or(|h| if *strict_hi { d < h.as_str() } else { d <= h.as_str() })
+                }
+                Clause::Numeric {
+                    field,
+                    lo,
+                    hi,
+                    strict_lo,
+                    strict_hi,
+                    ..
+                } => {
+                    let v = match field {
+                        Field::Size => f.diameter_nm,
+                        Field::Peak => f.first_exciton_nm,
+                        Field::Pl => f.pl_peak_nm,
+                        Field::Qy => f.qy,
+                        Field::Fwhm => f.pl_fwhm_nm,
+                        Field::Dispersion => f.size_dispersion_pct,
+                        Field::Conc => f.concentration_molar,
+                        Field::Id => Some(f.id as f64),
+                        _ => None,
+                    };
+                    within(v, *lo, *hi, *strict_lo, *strict_hi)
+                }
+            };
+            if !ok {
+                continue 'outer;
+            }
+        }
+        let mut score = 0;
+        for w in &words {
+            match word_score(&matcher, &f.haystack, w) {
+                Some(s) => score += s,
+                None => continue 'outer,
+            }
+        }
+        hits.push(Hit {
+            facts: f.clone(),
+            score,
+        });
+    }
+    hits.sort_by(|a, b| {
+        b.score
+            .cmp(&a.score)
+            .then(b.facts.started_at.cmp(&a.facts.started_at))
+            .then(b.facts.id.cmp(&a.facts.id))
+    });
+    hits
+}
+
+/// Loads and filters in one call.
+pub fn run(conn: &Connection, q: &Query) -> Result<Vec<Hit>> {
+    Ok(filter(&load_facts(conn)?, q))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn typo_distance() {
+        assert_eq!(edit_distance("oleylamine", "oleylamine"), 0);
+        assert_eq!(edit_distance("olyelamine", "oleylamine"), 1);
+        assert_eq!(edit_distance("cdse", "cdes"), 1);
+    }
+}

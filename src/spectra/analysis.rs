@@ -1,0 +1,511 @@
+//! Spectrum analysis as pure functions on a [`Trace`] (nm ascending). Nothing here does I/O or
+//! changes its input. Doubtful results (low signal, a peak at the edge of the range, saturated
+//! absorbance) come back with warnings rather than as confident numbers.
+//!
+//! The first excitonic peak is the longest-wavelength excitonic feature: the local maximum of
+//! the smoothed absorbance where the peak is resolved, else the minimum of the second
+//! derivative (a shoulder; common practice). Smoothing and derivatives are Savitzky-Golay.
+
+use super::savgol;
+use super::{HC_EV_NM, Trace};
+use crate::error::{Result, invalid};
+use serde::{Deserialize, Serialize};
+
+/// Settings that shape the analysis; part of the calibration, so a change is versioned.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct AnalysisSettings {
+    /// Width of the Savitzky-Golay window in nm (rounded to an odd number of points).
+    pub smoothing_nm: f64,
+    /// Polynomial order of the Savitzky-Golay fit.
+    pub smoothing_order: usize,
+    /// Absorbance above which a detector is taken to be saturated (common practice: about 2).
+    pub saturation_abs: f64,
+}
+
+impl Default for AnalysisSettings {
+    fn default() -> Self {
+        AnalysisSettings {
+            smoothing_nm: 9.0,
+            smoothing_order: 3,
+            saturation_abs: 2.0,
+        }
+    }
+}
+
+/// An evenly spaced copy of a trace (linear interpolation where the file was not even).
+#[derive(Debug, Clone)]
+pub struct Uniform {
+    pub start_nm: f64,
+    pub step_nm: f64,
+    pub y: Vec<f64>,
+}
+
+impl Uniform {
+    pub fn nm(&self, i: f64) -> f64 {
+        self.start_nm + i * self.step_nm
+    }
+}
+
+pub fn uniform(t: &Trace) -> Result<Uniform> {
+    let n = t.nm.len();
+    if n < 2 {
+        return invalid("a trace needs at least two points");
+    }
+    let span = t.nm[n - 1] - t.nm[0];
+    let step = span / (n - 1) as f64;
+    let even =
+        t.nm.windows(2)
+            .all(|w| ((w[1] - w[0]) - step).abs() <= 1e-6 * step.abs().max(1e-12) + 1e-9);
+    if even {
+        return Ok(Uniform {
+            start_nm: t.nm[0],
+            step_nm: step,
+            y: t.y.clone(),
+        });
+    }
+    let mut steps: Vec<f64> = t.nm.windows(2).map(|w| w[1] - w[0]).collect();
+    steps.sort_by(f64::total_cmp);
+    let step = steps[steps.len() / 2].max(span / 20_000.0);
+    let m = (span / step).floor() as usize + 1;
+    let y = (0..m)
+        .map(|i| interpolate(t, t.nm[0] + i as f64 * step).unwrap_or(0.0))
+        .collect();
+    Ok(Uniform {
+        start_nm: t.nm[0],
+        step_nm: step,
+        y,
+    })
+}
+
+/// The value at `nm` by linear interpolation, or None outside the measured range.
+pub fn interpolate(t: &Trace, nm: f64) -> Option<f64> {
+    let n = t.nm.len();
+    if n == 0 || !nm.is_finite() || nm < t.nm[0] || nm > t.nm[n - 1] {
+        return None;
+    }
+    let i = t.nm.partition_point(|&x| x < nm);
+    if i == 0 {
+        return Some(t.y[0]);
+    }
+    let (x0, x1) = (t.nm[i - 1], t.nm[i]);
+    let (y0, y1) = (t.y[i - 1], t.y[i]);
+    Some(y0 + (y1 - y0) * (nm - x0) / (x1 - x0))
+}
+
+fn half_window(u: &Uniform, s: &AnalysisSettings) -> usize {
+    let want = (s.smoothing_nm / u.step_nm / 2.0).round() as usize;
+    let cap = (u.y.len().saturating_sub(1) / 6).max(2);
+    want.clamp((s.smoothing_order / 2 + 1).max(2), cap.max(2))
+}
+
+/// Robust noise: 1.4826 x the median absolute deviation of the residual from the smooth.
+fn noise_of(raw: &[f64], smooth: &[f64]) -> f64 {
+    let mut r: Vec<f64> = raw.iter().zip(smooth).map(|(a, b)| (a - b).abs()).collect();
+    if r.is_empty() {
+        return 0.0;
+    }
+    r.sort_by(f64::total_cmp);
+    1.4826 * r[r.len() / 2]
+}
+
+/// Where a sampled function crosses zero between i and i+1, as a fractional index.
+fn zero_crossing(d: &[f64], i: usize) -> f64 {
+    let (a, b) = (d[i], d[i + 1]);
+    if a == b { i as f64 } else { i as f64 + a / (a - b) }
+}
+
+fn value_at(y: &[f64], fi: f64) -> f64 {
+    let i = fi.floor().max(0.0) as usize;
+    if i + 1 >= y.len() {
+        return y[y.len() - 1];
+    }
+    let f = fi - i as f64;
+    y[i] * (1.0 - f) + y[i + 1] * f
+}
+
+/// The scattering background model fitted red of the first exciton.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct Background {
+    /// "c + k/λ⁴ (Rayleigh-like scattering) fitted over the transparent red side", or "none".
+    pub model: String,
+    pub offset: f64,
+    pub k_nm4: f64,
+    pub fit_from_nm: Option<f64>,
+}
+
+impl Background {
+    fn none() -> Background {
+        Background {
+            model: "none".into(),
+            offset: 0.0,
+            k_nm4: 0.0,
+            fit_from_nm: None,
+        }
+    }
+    pub fn at(&self, nm: f64) -> f64 {
+        self.offset + self.k_nm4 / nm.powi(4)
+    }
+}
+
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct AbsResult {
+    pub first_exciton_nm: Option<f64>,
+    /// Absorbance at the first exciton, scattering background removed.
+    pub first_exciton_abs: Option<f64>,
+    /// Half width at half maximum on the low-energy (red) side.
+    pub hwhm_nm: Option<f64>,
+    pub hwhm_ev: Option<f64>,
+    pub shoulder: bool,
+    pub max_abs: f64,
+    pub noise: f64,
+    pub background: Background,
+    pub warnings: Vec<String>,
+}
+
+/// Finds the first excitonic peak of an absorbance (or PL excitation) spectrum.
+pub fn analyze_absorbance(t: &Trace, set: &AnalysisSettings) -> Result<AbsResult> {
+    let u = uniform(t)?;
+    let n = u.y.len();
+    let half = half_window(&u, set);
+    let order = set.smoothing_order.min(2 * half - 1);
+    let s = savgol::filter(&u.y, half, order, 0, u.step_nm)?;
+    let d1 = savgol::filter(&u.y, half, order.max(2), 1, u.step_nm)?;
+    let d2 = savgol::filter(&u.y, half, order.max(2), 2, u.step_nm)?;
+    let noise = noise_of(&u.y, &s);
+    let max_abs = t.y.iter().copied().fold(f64::MIN, f64::max);
+    let smax = s.iter().copied().fold(f64::MIN, f64::max);
+    let threshold = (8.0 * noise).max(0.01 * smax).max(1e-3);
+    let mut warnings = Vec::new();
+
+    // Resolved peaks: local maxima of the smooth, reddest first, with a real dip to the blue.
+    let mut found: Option<(f64, bool)> = None;
+    for i in (1..n - 1).rev() {
+        if !(s[i] > s[i + 1] && s[i] >= s[i - 1] && s[i] > threshold) {
+            continue;
+        }
+        let mut v = i;
+        while v > 0 && s[v - 1] <= s[v] {
+            v -= 1;
+        }
+        let dip = s[i] - s[v];
+        let red_min = s[i..].iter().copied().fold(f64::MAX, f64::min);
+        let red_drop = s[i] - red_min;
+        if (v == 0 || dip > (3.0 * noise).max(0.002 * s[i])) && red_drop > (3.0 * noise).max(0.02 * s[i]) {
+            let fi = if d1[i] > 0.0 && i + 1 < n && d1[i + 1] <= 0.0 {
+                zero_crossing(&d1, i)
+            } else if i > 0 && d1[i - 1] > 0.0 && d1[i] <= 0.0 {
+                zero_crossing(&d1, i - 1)
+            } else {
+                i as f64
+            };
+            found = Some((fi, false));
+            break;
+        }
+    }
+    if found.is_none() {
+        // A shoulder: the reddest significant minimum of the second derivative.
+        let c2 = savgol::coefficients(half, order.max(2), 2)?;
+        let d2_noise = noise * c2.iter().map(|c| c * c).sum::<f64>().sqrt() / u.step_nm.powi(2);
+        let region_max = (0..n)
+            .filter(|&i| s[i] > threshold)
+            .map(|i| d2[i].abs())
+            .fold(0.0, f64::max);
+        let thr2 = (5.0 * d2_noise).max(0.05 * region_max);
+        for i in (1..n - 1).rev() {
+            if d2[i] < d2[i - 1] && d2[i] <= d2[i + 1] && d2[i] < -thr2 && s[i] > threshold {
+                let denom = d2[i - 1] - 2.0 * d2[i] + d2[i + 1];
+                let off = if denom.abs() > 0.0 {
+                    0.5 * (d2[i - 1] - d2[i + 1]) / denom
+                } else {
+                    0.0
+                };
+                found = Some((i as f64 + off.clamp(-0.5, 0.5), true));
+                break;
+            }
+        }
+    }
+    let Some((fi, shoulder)) = found else {
+        warnings.push("no excitonic feature found".into());
+        if max_abs > set.saturation_abs {
+            warnings.push(format!(
+                "absorbance reaches {max_abs:.2}, above {:.1}: saturated",
+                set.saturation_abs
+            ));
+        }
+        return Ok(AbsResult {
+            first_exciton_nm: None,
+            first_exciton_abs: None,
+            hwhm_nm: None,
+            hwhm_ev: None,
+            shoulder: false,
+            max_abs,
+            noise,
+            background: Background::none(),
+            warnings,
+        });
+    };
+    let peak_nm = u.nm(fi);
+    let mut background = Background::none();
+    let (mut peak_abs, mut hwhm) = peak_height_and_hwhm(&u, &s, fi, &background);
+    // Scattering: fit c + k/λ⁴ over the transparent red side, if the scan reaches it.
+    if let Some(h) = hwhm {
+        let from = peak_nm + 4.0 * h;
+        let idx: Vec<usize> = (0..n).filter(|&i| u.nm(i as f64) >= from).collect();
+        if idx.len() >= 10.max(n / 20) {
+            if let Some(bg) = fit_scatter(&u, &idx, from) {
+                let (pa, hw) = peak_height_and_hwhm(&u, &s, fi, &bg);
+                peak_abs = pa;
+                hwhm = hw;
+                background = bg;
+            }
+        } else if s[n - 1] > 0.1 * value_at(&s, fi) {
+            warnings.push("the scan ends before the sample is transparent: scattering background not removed".into());
+        }
+    }
+    let edge = (3 * half) as f64;
+    if fi < edge || fi > (n - 1) as f64 - edge {
+        warnings.push(format!(
+            "first exciton at {peak_nm:.1} nm is at the edge of the measured range"
+        ));
+    }
+    let raw_peak = value_at(&s, fi);
+    if raw_peak > set.saturation_abs {
+        warnings.push(format!(
+            "absorbance {raw_peak:.2} at the first exciton is above {:.1}: likely saturated; dilute and remeasure",
+            set.saturation_abs
+        ));
+    } else if max_abs > set.saturation_abs {
+        warnings.push(format!(
+            "absorbance reaches {max_abs:.2} in the UV, above {:.1}: values there are unreliable",
+            set.saturation_abs
+        ));
+    }
+    if raw_peak < 0.02 || raw_peak < 20.0 * noise {
+        warnings.push(format!(
+            "low signal: absorbance {raw_peak:.4} at the first exciton, noise {noise:.4}"
+        ));
+    }
+    if shoulder {
+        warnings.push(
+            "first exciton is a shoulder (minimum of the second derivative); position and width are less certain"
+                .into(),
+        );
+    }
+    if hwhm.is_none() {
+        warnings.push("absorbance does not fall to half the peak on the red side: HWHM not measured".into());
+    }
+    let hwhm_ev = hwhm.map(|h| HC_EV_NM / peak_nm - HC_EV_NM / (peak_nm + h));
+    Ok(AbsResult {
+        first_exciton_nm: Some(peak_nm),
+        first_exciton_abs: Some(peak_abs),
+        hwhm_nm: hwhm,
+        hwhm_ev,
+        shoulder,
+        max_abs,
+        noise,
+        background,
+        warnings,
+    })
+}
+
+fn peak_height_and_hwhm(u: &Uniform, s: &[f64], fi: f64, bg: &Background) -> (f64, Option<f64>) {
+    let corrected = |i: f64| value_at(s, i) - bg.at(u.nm(i));
+    let peak = corrected(fi);
+    let target = peak / 2.0;
+    let mut i = fi.ceil() as usize;
+    let n = s.len();
+    while i < n {
+        let v = s[i] - bg.at(u.nm(i as f64));
+        if v <= target {
+            let prev_i = (i as f64 - 1.0).max(fi);
+            let pv = corrected(prev_i);
+            let f = if pv == v { 0.0 } else { (pv - target) / (pv - v) };
+            let at = prev_i + f * (i as f64 - prev_i);
+            return (peak, Some((u.nm(at) - u.nm(fi)).max(0.0)));
+        }
+        i += 1;
+    }
+    (peak, None)
+}
+
+fn fit_scatter(u: &Uniform, idx: &[usize], from: f64) -> Option<Background> {
+    // Linear least squares y = c + k w with w = 1/λ⁴.
+    let m = idx.len() as f64;
+    let (mut sw, mut sy, mut sww, mut swy) = (0.0, 0.0, 0.0, 0.0);
+    for &i in idx {
+        let w = 1.0 / u.nm(i as f64).powi(4);
+        let y = u.y[i];
+        sw += w;
+        sy += y;
+        sww += w * w;
+        swy += w * y;
+    }
+    let det = m * sww - sw * sw;
+    let (c, k) = if det.abs() > 1e-300 {
+        let k = (m * swy - sw * sy) / det;
+        ((sy - k * sw) / m, k)
+    } else {
+        (sy / m, 0.0)
+    };
+    let (c, k) = if k < 0.0 { (sy / m, 0.0) } else { (c, k) };
+    if !c.is_finite() || !k.is_finite() {
+        return None;
+    }
+    Some(Background {
+        model: "c + k/λ⁴ (Rayleigh-like scattering) fitted over the transparent red side".into(),
+        offset: c,
+        k_nm4: k,
+        fit_from_nm: Some(from),
+    })
+}
+
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct PlResult {
+    pub pl_peak_nm: Option<f64>,
+    pub pl_peak_ev: Option<f64>,
+    pub pl_fwhm_nm: Option<f64>,
+    pub pl_fwhm_mev: Option<f64>,
+    /// ∫ I dλ, baseline subtracted, in the file's intensity units times nm.
+    pub pl_integral: f64,
+    /// ∫ I(E) dE with I(E) = I(λ) λ²/hc: equal to `pl_integral` when the Jacobian is right.
+    pub pl_integral_energy: f64,
+    pub baseline: f64,
+    pub noise: f64,
+    pub warnings: Vec<String>,
+}
+
+/// Peak, width and integrals of a photoluminescence spectrum.
+pub fn analyze_pl(t: &Trace, set: &AnalysisSettings) -> Result<PlResult> {
+    let n = t.nm.len();
+    let tail = (n / 20).max(3).min(n / 2);
+    let median = |v: &mut Vec<f64>| {
+        v.sort_by(f64::total_cmp);
+        v[v.len() / 2]
+    };
+    let left = median(&mut t.y[..tail].to_vec());
+    let right = median(&mut t.y[n - tail..].to_vec());
+    let baseline = left.min(right);
+    let corrected: Vec<f64> = t.y.iter().map(|y| y - baseline).collect();
+    let mut integral = 0.0;
+    for i in 1..n {
+        integral += 0.5 * (corrected[i] + corrected[i - 1]) * (t.nm[i] - t.nm[i - 1]);
+    }
+    // Over energy: E = hc/λ, I(E) = I(λ) λ²/hc; points reversed so E ascends.
+    let mut integral_e = 0.0;
+    for i in 1..n {
+        let (l0, l1) = (t.nm[i - 1], t.nm[i]);
+        let (e0, e1) = (HC_EV_NM / l0, HC_EV_NM / l1);
+        let (i0, i1) = (corrected[i - 1] * l0 * l0 / HC_EV_NM, corrected[i] * l1 * l1 / HC_EV_NM);
+        integral_e += 0.5 * (i0 + i1) * (e0 - e1);
+    }
+    let u = uniform(&Trace {
+        nm: t.nm.clone(),
+        y: corrected.clone(),
+    })?;
+    let half = half_window(&u, set);
+    let order = set.smoothing_order.min(2 * half - 1);
+    let s = savgol::filter(&u.y, half, order, 0, u.step_nm)?;
+    let d1 = savgol::filter(&u.y, half, order.max(2), 1, u.step_nm)?;
+    let noise = noise_of(&u.y, &s);
+    let mut warnings = Vec::new();
+    let (imax, smax) = s
+        .iter()
+        .copied()
+        .enumerate()
+        .fold((0, f64::MIN), |acc, (i, v)| if v > acc.1 { (i, v) } else { acc });
+    if smax <= 0.0 || smax < 10.0 * noise {
+        warnings.push(format!("low signal: PL peak {smax:.3} against noise {noise:.3}"));
+    }
+    if smax <= 0.0 {
+        return Ok(PlResult {
+            pl_peak_nm: None,
+            pl_peak_ev: None,
+            pl_fwhm_nm: None,
+            pl_fwhm_mev: None,
+            pl_integral: integral,
+            pl_integral_energy: integral_e,
+            baseline,
+            noise,
+            warnings,
+        });
+    }
+    let fi = if imax + 1 < s.len() && d1[imax] > 0.0 && d1[imax + 1] <= 0.0 {
+        zero_crossing(&d1, imax)
+    } else if imax > 0 && d1[imax - 1] > 0.0 && d1[imax] <= 0.0 {
+        zero_crossing(&d1, imax - 1)
+    } else {
+        imax as f64
+    };
+    let peak_nm = u.nm(fi);
+    let peak = value_at(&s, fi);
+    let crossing = |dir: i64| -> Option<f64> {
+        let mut i = imax as i64;
+        while i >= 0 && (i as usize) < s.len() {
+            if s[i as usize] <= peak / 2.0 {
+                let j = (i - dir) as usize;
+                let (a, b) = (s[j], s[i as usize]);
+                let f = if a == b { 0.0 } else { (a - peak / 2.0) / (a - b) };
+                return Some(u.nm(j as f64 + f * dir as f64));
+            }
+            i += dir;
+        }
+        None
+    };
+    let lo = crossing(-1);
+    let hi = crossing(1);
+    let fwhm = match (lo, hi) {
+        (Some(a), Some(b)) => Some(b - a),
+        _ => {
+            warnings.push("PL does not fall to half its peak on both sides: FWHM not measured".into());
+            None
+        }
+    };
+    let fwhm_mev = match (lo, hi) {
+        (Some(a), Some(b)) => Some(1000.0 * (HC_EV_NM / a - HC_EV_NM / b)),
+        _ => None,
+    };
+    let edge = (3 * half) as f64;
+    if fi < edge || fi > (u.y.len() - 1) as f64 - edge {
+        warnings.push(format!(
+            "PL peak at {peak_nm:.1} nm is at the edge of the measured range"
+        ));
+    }
+    if corrected[0] > 0.1 * peak || corrected[n - 1] > 0.1 * peak {
+        warnings.push("PL is not fully inside the scanned range: the integral is a lower bound".into());
+    }
+    Ok(PlResult {
+        pl_peak_nm: Some(peak_nm),
+        pl_peak_ev: Some(HC_EV_NM / peak_nm),
+        pl_fwhm_nm: fwhm,
+        pl_fwhm_mev: fwhm_mev,
+        pl_integral: integral,
+        pl_integral_energy: integral_e,
+        baseline,
+        noise,
+        warnings,
+    })
+}
+
+/// Stokes shift between the first exciton and the PL peak: (nm, meV).
+pub fn stokes_shift(abs_nm: f64, pl_nm: f64) -> (f64, f64) {
+    (pl_nm - abs_nm, 1000.0 * (HC_EV_NM / abs_nm - HC_EV_NM / pl_nm))
+}
+
+/// Multiplies a PL trace by a detector correction curve (interpolated; 1 outside its range
+/// is not assumed: points outside it are refused).
+pub fn apply_correction(t: &Trace, curve: &Trace) -> Result<Trace> {
+    let mut y = Vec::with_capacity(t.y.len());
+    for (nm, v) in t.nm.iter().zip(&t.y) {
+        match interpolate(curve, *nm) {
+            Some(f) => y.push(v * f),
+            None => {
+                return invalid(format!(
+                    "detector correction covers {:.0}-{:.0} nm but the PL spectrum reaches {nm:.0} nm",
+                    curve.nm[0],
+                    curve.nm[curve.nm.len() - 1]
+                ));
+            }
+        }
+    }
+    Ok(Trace { nm: t.nm.clone(), y })
+}

@@ -1,0 +1,226 @@
+//! Reading and analysing spectra. The readers (`delimited`, `jcamp`) turn a file's bytes into a
+//! [`RawSpectrum`] exactly as the file states it: values with the file's factors applied, in the
+//! file's own units and order. `analysis` holds pure functions (no I/O, no database) that work
+//! on a [`Trace`]: the same data converted to nanometres and sorted ascending. Analysis never
+//! changes the raw data; the store keeps the raw spectrum and its file hash.
+
+pub mod analysis;
+pub mod delimited;
+pub mod jcamp;
+pub mod savgol;
+
+use crate::error::{Error, Result};
+use serde::Serialize;
+use sha2::{Digest, Sha256};
+
+/// Fewer points than this cannot carry a peak, a width and a smoothing window.
+pub const MIN_POINTS: usize = 8;
+
+/// What the user can say about a file when detection is not enough.
+#[derive(Debug, Clone, Default)]
+pub struct ReadOptions {
+    /// 1-based column of x (delimited text).
+    pub x_col: Option<usize>,
+    /// 1-based column of y (delimited text).
+    pub y_col: Option<usize>,
+    /// Override the x unit the file states (nm, eV, 1/cm, um).
+    pub x_unit: Option<String>,
+    /// JCAMP-DX: the block to read, by 1-based number or by title.
+    pub block: Option<String>,
+}
+
+/// One verification a format allowed, such as a JCAMP-DX Y-check.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct Check {
+    pub name: String,
+    pub passed: bool,
+    pub detail: String,
+}
+
+/// A spectrum exactly as the file states it.
+#[derive(Debug, Clone, Serialize)]
+pub struct RawSpectrum {
+    pub format: String,
+    pub title: Option<String>,
+    pub x_unit: String,
+    pub y_unit: Option<String>,
+    pub x: Vec<f64>,
+    pub y: Vec<f64>,
+    pub checks: Vec<Check>,
+    pub warnings: Vec<String>,
+}
+
+/// The x units cuvette can convert to nanometres.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum XUnit {
+    Nanometre,
+    Micrometre,
+    ElectronVolt,
+    Wavenumber,
+}
+
+/// hc in eV·nm (CODATA 2018: h = 6.62607015e-34 J s, c = 299792458 m/s, e = 1.602176634e-19 C).
+pub const HC_EV_NM: f64 = 1_239.841_984;
+
+impl XUnit {
+    /// Understands how files commonly name their x unit.
+    pub fn parse(s: &str) -> Option<XUnit> {
+        let t: String = s
+            .to_ascii_lowercase()
+            .chars()
+            .filter(|c| !c.is_whitespace() && *c != '^' && *c != '(' && *c != ')' && *c != '[' && *c != ']')
+            .collect();
+        match t.as_str() {
+            "nm" | "nanometers" | "nanometres" | "nanometer" | "nanometre" | "wavelength" => Some(XUnit::Nanometre),
+            "um" | "µm" | "micrometers" | "micrometres" | "microns" => Some(XUnit::Micrometre),
+            "ev" | "electronvolts" => Some(XUnit::ElectronVolt),
+            "1/cm" | "cm-1" | "cm⁻¹" | "wavenumbers" | "wavenumber" => Some(XUnit::Wavenumber),
+            _ => None,
+        }
+    }
+
+    pub fn to_nm(self, x: f64) -> f64 {
+        match self {
+            XUnit::Nanometre => x,
+            XUnit::Micrometre => x * 1000.0,
+            XUnit::ElectronVolt => HC_EV_NM / x,
+            XUnit::Wavenumber => 1e7 / x,
+        }
+    }
+}
+
+/// Reads a spectrum from bytes, detecting the format from the content.
+pub fn read_bytes(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<RawSpectrum> {
+    let text = decode_text(bytes);
+    if text.trim().is_empty() {
+        return Err(spectrum_error(file, None, "the file is empty"));
+    }
+    let looks_jcamp = text.lines().take(50).any(|l| l.trim_start().starts_with("##"));
+    if looks_jcamp {
+        jcamp::read(file, &text, opts)
+    } else {
+        delimited::read(file, &text, opts)
+    }
+}
+
+/// Reads a file from disk: the spectrum and the SHA-256 of its bytes.
+pub fn read_file(path: &std::path::Path, opts: &ReadOptions) -> Result<(RawSpectrum, String)> {
+    let name = path.display().to_string();
+    let bytes = std::fs::read(path).map_err(|e| spectrum_error(&name, None, &format!("cannot read: {e}")))?;
+    let spec = read_bytes(&name, &bytes, opts)?;
+    Ok((spec, sha256_hex(&bytes)))
+}
+
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    let d = Sha256::digest(bytes);
+    d.iter().map(|b| format!("{b:02x}")).collect()
+}
+
+/// UTF-8 where it is, else Latin-1 (many instrument exports are), without a BOM.
+fn decode_text(bytes: &[u8]) -> String {
+    let s = match std::str::from_utf8(bytes) {
+        Ok(s) => s.to_string(),
+        Err(_) => bytes.iter().map(|&b| b as char).collect(),
+    };
+    s.trim_start_matches('\u{feff}').to_string()
+}
+
+pub(crate) fn spectrum_error(file: &str, line: Option<usize>, reason: &str) -> Error {
+    Error::Spectrum {
+        file: file.to_string(),
+        line,
+        reason: reason.to_string(),
+    }
+}
+
+/// Checks shared by every reader: finite values, enough points, strictly monotonic x.
+pub(crate) fn validate_xy(file: &str, x: &[f64], y: &[f64], lines: Option<&[usize]>) -> Result<()> {
+    let line_of = |i: usize| lines.and_then(|l| l.get(i).copied());
+    for (i, (a, b)) in x.iter().zip(y).enumerate() {
+        if !a.is_finite() || !b.is_finite() {
+            return Err(spectrum_error(file, line_of(i), "NaN or infinite value"));
+        }
+    }
+    if x.len() < MIN_POINTS {
+        return Err(spectrum_error(
+            file,
+            None,
+            &format!("too few points ({}; at least {MIN_POINTS} needed)", x.len()),
+        ));
+    }
+    let ascending = x[1] > x[0];
+    for i in 1..x.len() {
+        if x[i] == x[i - 1] {
+            return Err(spectrum_error(file, line_of(i), &format!("duplicate x value {}", x[i])));
+        }
+        if (x[i] > x[i - 1]) != ascending {
+            return Err(spectrum_error(
+                file,
+                line_of(i),
+                &format!("x is not monotonic ({} after {})", x[i], x[i - 1]),
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// A spectrum ready for analysis: nm ascending, y as absorbance (or counts for PL).
+#[derive(Debug, Clone)]
+pub struct Trace {
+    pub nm: Vec<f64>,
+    pub y: Vec<f64>,
+}
+
+/// The wavelength span in which UV-Vis-NIR analysis makes sense.
+pub const PLAUSIBLE_NM: (f64, f64) = (150.0, 3500.0);
+
+impl RawSpectrum {
+    /// Converts to nm, ascending; transmittance becomes absorbance. Refuses x ranges that are
+    /// not UV-Vis-NIR (values in metres, an infrared file) with a message naming the range.
+    pub fn to_trace(&self, file: &str, unit_override: Option<&str>) -> Result<Trace> {
+        let unit_name = unit_override.unwrap_or(&self.x_unit);
+        let unit = XUnit::parse(unit_name).ok_or_else(|| {
+            spectrum_error(
+                file,
+                None,
+                &format!("x unit '{unit_name}' cannot be converted to nm (use --x-unit nm|eV|1/cm|um)"),
+            )
+        })?;
+        let mut pts: Vec<(f64, f64)> = self.x.iter().zip(&self.y).map(|(&x, &y)| (unit.to_nm(x), y)).collect();
+        if pts.iter().any(|p| !p.0.is_finite() || p.0 <= 0.0) {
+            return Err(spectrum_error(file, None, "x values convert to no positive wavelength"));
+        }
+        pts.sort_by(|a, b| a.0.total_cmp(&b.0));
+        let lo = pts[0].0;
+        let hi = pts[pts.len() - 1].0;
+        if hi < PLAUSIBLE_NM.0 || lo > PLAUSIBLE_NM.1 || (hi - lo) < 5.0 {
+            return Err(spectrum_error(
+                file,
+                None,
+                &format!(
+                    "x range {lo:.4}..{hi:.4} nm is not plausible for UV-Vis-NIR ({:.0}-{:.0} nm); are the values in other units?",
+                    PLAUSIBLE_NM.0, PLAUSIBLE_NM.1
+                ),
+            ));
+        }
+        let transmittance = self
+            .y_unit
+            .as_deref()
+            .map(|u| u.to_ascii_lowercase().contains("transmit"))
+            .unwrap_or(false);
+        let percent = transmittance && pts.iter().any(|p| p.1 > 1.5);
+        let nm = pts.iter().map(|p| p.0).collect();
+        let y = pts
+            .iter()
+            .map(|p| {
+                if transmittance {
+                    let t = if percent { p.1 / 100.0 } else { p.1 };
+                    -(t.max(1e-6)).log10()
+                } else {
+                    p.1
+                }
+            })
+            .collect();
+        Ok(Trace { nm, y })
+    }
+}

@@ -1,0 +1,179 @@
+//! Savitzky-Golay smoothing and derivatives (Savitzky & Golay, Anal. Chem. 36, 1627 (1964);
+//! tables corrected by Steinier, Termonia & Deltour, Anal. Chem. 44, 1906 (1972)).
+//! Coefficients are computed by least squares rather than copied from the tables, so any
+//! window and order work; the tests check them against the published tables. Near the ends of
+//! the data the same fitted polynomial is evaluated off-centre instead of padding with invented
+//! values.
+
+use crate::error::{Result, invalid};
+
+/// Convolution weights for a window of `2m+1` points, polynomial `order`, derivative `deriv`,
+/// evaluated at offset `t` from the window centre (t = 0 is the tables' case). The weights
+/// give the derivative per unit of point spacing.
+pub fn coefficients_at(half: usize, order: usize, deriv: usize, t: f64) -> Result<Vec<f64>> {
+    let n = 2 * half + 1;
+    if order >= n {
+        return invalid(format!(
+            "Savitzky-Golay order {order} needs a window above {order} points"
+        ));
+    }
+    if deriv > order {
+        return invalid(format!(
+            "derivative {deriv} needs a polynomial of order {deriv} or more"
+        ));
+    }
+    let k = order + 1;
+    // Normal matrix A = JᵀJ with J[i][p] = z_i^p, z_i = i - half.
+    let z: Vec<f64> = (0..n).map(|i| i as f64 - half as f64).collect();
+    let mut a = vec![vec![0.0; k]; k];
+    for zi in &z {
+        for p in 0..k {
+            for q in 0..k {
+                a[p][q] += zi.powi((p + q) as i32);
+            }
+        }
+    }
+    // Row vector: d^deriv/dt^deriv of [1, t, t², ...] at t.
+    let mut dv = vec![0.0; k];
+    for (p, v) in dv.iter_mut().enumerate().skip(deriv) {
+        let falling: f64 = ((p - deriv + 1)..=p).map(|f| f as f64).product();
+        *v = falling * t.powi((p - deriv) as i32);
+    }
+    // Solve A w = dv (A symmetric positive definite), then c_i = Σ_p w_p z_i^p.
+    let w = solve(a, dv)?;
+    Ok(z.iter()
+        .map(|zi| (0..k).map(|p| w[p] * zi.powi(p as i32)).sum())
+        .collect())
+}
+
+/// The tables' centred weights.
+pub fn coefficients(half: usize, order: usize, deriv: usize) -> Result<Vec<f64>> {
+    coefficients_at(half, order, deriv, 0.0)
+}
+
+fn solve(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Result<Vec<f64>> {
+    let n = b.len();
+    for col in 0..n {
+        let piv = (col..n)
+            .max_by(|&i, &j| a[i][col].abs().total_cmp(&a[j][col].abs()))
+            .unwrap_or(col);
+        if a[piv][col].abs() < 1e-300 {
+            return invalid("Savitzky-Golay normal matrix is singular");
+        }
+        a.swap(col, piv);
+        b.swap(col, piv);
+        for r in 0..n {
+            if r != col {
+                let f = a[r][col] / a[col][col];
+                for c in col..n {
+                    a[r][c] -= f * a[col][c];
+                }
+                b[r] -= f * b[col];
+            }
+        }
+    }
+    Ok((0..n).map(|i| b[i] / a[i][i]).collect())
+}
+
+/// Applies the filter to evenly spaced data with spacing `dx`; returns the smoothed values
+/// (deriv 0) or the derivative in units of y per unit x.
+pub fn filter(y: &[f64], half: usize, order: usize, deriv: usize, dx: f64) -> Result<Vec<f64>> {
+    let n = y.len();
+    let w = 2 * half + 1;
+    if n < w {
+        return invalid(format!("{n} points are fewer than the smoothing window of {w}"));
+    }
+    let centre = coefficients(half, order, deriv)?;
+    let scale = dx.powi(deriv as i32);
+    let mut out = vec![0.0; n];
+    for i in half..n - half {
+        let s: f64 = centre.iter().zip(&y[i - half..=i + half]).map(|(c, v)| c * v).sum();
+        out[i] = s / scale;
+    }
+    for i in 0..half {
+        let t = i as f64 - half as f64;
+        let c = coefficients_at(half, order, deriv, t)?;
+        out[i] = c.iter().zip(&y[..w]).map(|(c, v)| c * v).sum::<f64>() / scale;
+        let j = n - 1 - i;
+        let c = coefficients_at(half, order, deriv, -t)?;
+        out[j] = c.iter().zip(&y[n - w..]).map(|(c, v)| c * v).sum::<f64>() / scale;
+    }
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn assert_table(half: usize, order: usize, deriv: usize, ints: &[f64], norm: f64) {
+        let c = coefficients(half, order, deriv).unwrap();
+        for (got, want) in c.iter().zip(ints) {
+            assert!((got - want / norm).abs() < 1e-12, "{half} {order} {deriv}: {c:?}");
+        }
+    }
+
+    // Savitzky & Golay 1964, Table I (smoothing, quadratic/cubic), as corrected by
+    // Steinier, Termonia & Deltour 1972.
+    #[test]
+    fn smoothing_quadratic_matches_the_tables() {
+        assert_table(2, 2, 0, &[-3.0, 12.0, 17.0, 12.0, -3.0], 35.0);
+        assert_table(3, 2, 0, &[-2.0, 3.0, 6.0, 7.0, 6.0, 3.0, -2.0], 21.0);
+        assert_table(
+            4,
+            3,
+            0,
+            &[-21.0, 14.0, 39.0, 54.0, 59.0, 54.0, 39.0, 14.0, -21.0],
+            231.0,
+        );
+        assert_table(
+            5,
+            2,
+            0,
+            &[-36.0, 9.0, 44.0, 69.0, 84.0, 89.0, 84.0, 69.0, 44.0, 9.0, -36.0],
+            429.0,
+        );
+    }
+
+    // Table II (smoothing, quartic/quintic), 7 and 9 points.
+    #[test]
+    fn smoothing_quartic_matches_the_tables() {
+        assert_table(3, 4, 0, &[5.0, -30.0, 75.0, 131.0, 75.0, -30.0, 5.0], 231.0);
+        assert_table(
+            4,
+            4,
+            0,
+            &[15.0, -55.0, 30.0, 135.0, 179.0, 135.0, 30.0, -55.0, 15.0],
+            429.0,
+        );
+    }
+
+    // Table III (first derivative, quadratic) and Table VI (second derivative, quadratic/cubic).
+    #[test]
+    fn derivatives_match_the_tables() {
+        assert_table(2, 2, 1, &[-2.0, -1.0, 0.0, 1.0, 2.0], 10.0);
+        assert_table(3, 2, 1, &[-3.0, -2.0, -1.0, 0.0, 1.0, 2.0, 3.0], 28.0);
+        assert_table(2, 2, 2, &[2.0, -1.0, -2.0, -1.0, 2.0], 7.0);
+        assert_table(3, 3, 2, &[5.0, 0.0, -3.0, -4.0, -3.0, 0.0, 5.0], 42.0);
+        // Table IV (first derivative, cubic/quartic), 5 points: (1, -8, 0, 8, -1)/12.
+        assert_table(2, 3, 1, &[1.0, -8.0, 0.0, 8.0, -1.0], 12.0);
+    }
+
+    #[test]
+    fn a_cubic_passes_through_a_cubic_filter_unchanged() {
+        let y: Vec<f64> = (0..30)
+            .map(|i| {
+                let x = i as f64 * 0.5;
+                0.3 * x * x * x - x + 2.0
+            })
+            .collect();
+        let s = filter(&y, 3, 3, 0, 0.5).unwrap();
+        for (a, b) in s.iter().zip(&y) {
+            assert!((a - b).abs() < 1e-8);
+        }
+        let d2 = filter(&y, 3, 3, 2, 0.5).unwrap();
+        for (i, v) in d2.iter().enumerate() {
+            let x = i as f64 * 0.5;
+            assert!((v - 1.8 * x).abs() < 1e-6, "at {i}: {v}");
+        }
+    }
+}

@@ -1,0 +1,1395 @@
+//! The lab's entities and their reads and writes. Every write function takes the open
+//! transaction and the actor, validates its input before touching a row, and writes an audit
+//! row beside the change. Column lists are constants and each entity has one row-mapping
+//! function, so a query and its struct cannot drift apart.
+
+use super::{audit, decode_xy, encode_xy, now};
+use crate::error::{Error, Result, invalid};
+use rusqlite::{Connection, OptionalExtension, Row, params};
+use serde::Serialize;
+use serde_json::json;
+
+pub const BATCH_STATUSES: &[&str] = &["planned", "growing", "done", "failed", "archived"];
+pub const AMOUNT_UNITS: &[&str] = &["mg", "g", "mL", "uL", "mmol", "umol"];
+pub const LOCATION_KINDS: &[&str] = &["freezer", "fridge", "glovebox", "shelf", "cabinet"];
+
+fn not_found(kind: &'static str, what: impl ToString) -> Error {
+    Error::NotFound {
+        kind,
+        what: what.to_string(),
+    }
+}
+
+/// Rejects NaN, infinities and (where asked) negatives, naming the field.
+pub fn check_number(field: &str, v: f64, allow_zero: bool) -> Result<f64> {
+    if !v.is_finite() {
+        return invalid(format!("{field} must be a finite number, got {v}"));
+    }
+    if v < 0.0 || (!allow_zero && v == 0.0) {
+        let bound = if allow_zero { "zero or more" } else { "above zero" };
+        return invalid(format!("{field} must be {bound}, got {v}"));
+    }
+    Ok(v)
+}
+
+// ---------------------------------------------------------------- people
+
+pub fn person_id(conn: &Connection, name: &str) -> Result<i64> {
+    conn.query_row("SELECT id FROM person WHERE name = ?1", [name], |r| r.get(0))
+        .optional()?
+        .ok_or_else(|| not_found("person", format!("'{name}' (add them with `cuvette person add`)")))
+}
+
+pub fn add_person(tx: &Connection, who: &str, name: &str, email: Option<&str>) -> Result<i64> {
+    let name = name.trim();
+    if name.is_empty() {
+        return invalid("a person needs a name");
+    }
+    if tx
+        .query_row("SELECT 1 FROM person WHERE name = ?1", [name], |_| Ok(()))
+        .optional()?
+        .is_some()
+    {
+        return invalid(format!("person '{name}' already exists"));
+    }
+    tx.execute("INSERT INTO person (name, email) VALUES (?1, ?2)", params![name, email])?;
+    let id = tx.last_insert_rowid();
+    audit(
+        tx,
+        who,
+        "person",
+        Some(id),
+        "create",
+        None,
+        Some(&json!({"name": name, "email": email})),
+    )?;
+    Ok(id)
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct PersonRow {
+    pub id: i64,
+    pub name: String,
+    pub email: Option<String>,
+}
+
+pub fn list_people(conn: &Connection) -> Result<Vec<PersonRow>> {
+    let mut st = conn.prepare("SELECT id, name, email FROM person ORDER BY name")?;
+    let rows = st.query_map([], |r| {
+        Ok(PersonRow {
+            id: r.get(0)?,
+            name: r.get(1)?,
+            email: r.get(2)?,
+        })
+    })?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+// ---------------------------------------------------------------- materials
+
+#[derive(Debug, Clone, Serialize)]
+pub struct MaterialRow {
+    pub id: i64,
+    pub name: String,
+    pub core: String,
+    pub shell: Option<String>,
+}
+
+pub fn material_by_name(conn: &Connection, name: &str) -> Result<MaterialRow> {
+    let found = conn
+        .query_row(
+            "SELECT id, name, core, shell FROM material WHERE name = ?1 COLLATE NOCASE",
+            [name],
+            |r| {
+                Ok(MaterialRow {
+                    id: r.get(0)?,
+                    name: r.get(1)?,
+                    core: r.get(2)?,
+                    shell: r.get(3)?,
+                })
+            },
+        )
+        .optional()?;
+    match found {
+        Some(m) => Ok(m),
+        None => {
+            let known: Vec<String> = list_materials(conn)?.into_iter().map(|m| m.name).collect();
+            Err(Error::Invalid(format!(
+                "unknown material '{name}' (known: {})",
+                known.join(", ")
+            )))
+        }
+    }
+}
+
+pub fn list_materials(conn: &Connection) -> Result<Vec<MaterialRow>> {
+    let mut st = conn.prepare("SELECT id, name, core, shell FROM material ORDER BY name")?;
+    let rows = st.query_map([], |r| {
+        Ok(MaterialRow {
+            id: r.get(0)?,
+            name: r.get(1)?,
+            core: r.get(2)?,
+            shell: r.get(3)?,
+        })
+    })?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+pub fn add_material(tx: &Connection, who: &str, name: &str, core: &str, shell: Option<&str>) -> Result<i64> {
+    if name.trim().is_empty() || core.trim().is_empty() {
+        return invalid("a material needs a name and a core");
+    }
+    if material_by_name(tx, name).is_ok() {
+        return invalid(format!("material '{name}' already exists"));
+    }
+    tx.execute(
+        "INSERT INTO material (name, core, shell) VALUES (?1, ?2, ?3)",
+        params![name, core, shell],
+    )?;
+    let id = tx.last_insert_rowid();
+    audit(
+        tx,
+        who,
+        "material",
+        Some(id),
+        "create",
+        None,
+        Some(&json!({"name": name, "core": core, "shell": shell})),
+    )?;
+    Ok(id)
+}
+
+// ---------------------------------------------------------------- reagents
+
+#[derive(Debug, Clone, Serialize)]
+pub struct ReagentRow {
+    pub id: i64,
+    pub name: String,
+    pub formula: Option<String>,
+    pub cas: Option<String>,
+    pub ghs_hazards: Vec<String>,
+    pub pyrophoric: bool,
+}
+
+fn reagent_from(r: &Row) -> rusqlite::Result<ReagentRow> {
+    let h: String = r.get(4)?;
+    Ok(ReagentRow {
+        id: r.get(0)?,
+        name: r.get(1)?,
+        formula: r.get(2)?,
+        cas: r.get(3)?,
+        ghs_hazards: h.split_whitespace().map(String::from).collect(),
+        pyrophoric: r.get(5)?,
+    })
+}
+
+const REAGENT_COLS: &str = "id, name, formula, cas, ghs_hazards, pyrophoric";
+
+pub fn add_reagent(
+    tx: &Connection,
+    who: &str,
+    name: &str,
+    formula: Option<&str>,
+    cas: Option<&str>,
+    hazards: &[String],
+    pyrophoric: bool,
+) -> Result<i64> {
+    for h in hazards {
+        if crate::hazards::statement(h).is_none() {
+            return invalid(format!("unknown GHS hazard statement '{h}'"));
+        }
+    }
+    if tx
+        .query_row("SELECT 1 FROM reagent WHERE name = ?1", [name], |_| Ok(()))
+        .optional()?
+        .is_some()
+    {
+        return invalid(format!("reagent '{name}' already exists"));
+    }
+    tx.execute(
+        "INSERT INTO reagent (name, formula, cas, ghs_hazards, pyrophoric) VALUES (?1,?2,?3,?4,?5)",
+        params![name, formula, cas, hazards.join(" "), pyrophoric],
+    )?;
+    let id = tx.last_insert_rowid();
+    audit(
+        tx,
+        who,
+        "reagent",
+        Some(id),
+        "create",
+        None,
+        Some(&json!({"name": name, "ghs_hazards": hazards})),
+    )?;
+    Ok(id)
+}
+
+pub fn reagent_by_name(conn: &Connection, name: &str) -> Result<ReagentRow> {
+    conn.query_row(
+        &format!("SELECT {REAGENT_COLS} FROM reagent WHERE name = ?1 COLLATE NOCASE"),
+        [name],
+        reagent_from,
+    )
+    .optional()?
+    .ok_or_else(|| not_found("reagent", format!("'{name}'")))
+}
+
+pub fn list_reagents(conn: &Connection) -> Result<Vec<ReagentRow>> {
+    let mut st = conn.prepare(&format!("SELECT {REAGENT_COLS} FROM reagent ORDER BY name"))?;
+    let rows = st.query_map([], reagent_from)?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+// ---------------------------------------------------------------- recipes
+
+#[derive(Debug, Clone, Serialize, serde::Deserialize)]
+pub struct RecipeReagent {
+    pub reagent: String,
+    pub amount: f64,
+    pub unit: String,
+    pub role: Option<String>,
+}
+
+#[derive(Debug, Clone, Serialize, serde::Deserialize)]
+pub struct RecipeStep {
+    pub action: String,
+    pub temperature_c: Option<f64>,
+    pub duration_min: Option<f64>,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct RecipeView {
+    pub id: i64,
+    pub name: String,
+    pub material: String,
+    pub version: i64,
+    pub version_id: i64,
+    pub reagents: Vec<RecipeReagentView>,
+    pub steps: Vec<RecipeStep>,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct RecipeReagentView {
+    pub reagent: String,
+    pub amount: f64,
+    pub unit: String,
+    pub role: Option<String>,
+    pub ghs_hazards: Vec<String>,
+    pub pyrophoric: bool,
+}
+
+/// Creates a recipe, or a new version of an existing one (old versions are never changed).
+pub fn save_recipe(
+    tx: &Connection,
+    who: &str,
+    name: &str,
+    material: &str,
+    reagents: &[RecipeReagent],
+    steps: &[RecipeStep],
+    notes: Option<&str>,
+) -> Result<(i64, i64)> {
+    let mat = material_by_name(tx, material)?;
+    for r in reagents {
+        reagent_by_name(tx, &r.reagent)?;
+        check_number(&format!("amount of {}", r.reagent), r.amount, true)?;
+        if !AMOUNT_UNITS.contains(&r.unit.as_str()) {
+            return invalid(format!(
+                "bad unit '{}' for {} (use one of {})",
+                r.unit,
+                r.reagent,
+                AMOUNT_UNITS.join(", ")
+            ));
+        }
+    }
+    for s in steps {
+        if let Some(d) = s.duration_min {
+            check_number("step duration_min", d, true)?;
+        }
+        if let Some(t) = s.temperature_c
+            && !(-273.15..=1000.0).contains(&t)
+        {
+            return invalid(format!("step temperature {t} °C is not plausible"));
+        }
+    }
+    let existing: Option<(i64, i64)> = tx
+        .query_row("SELECT id, material_id FROM recipe WHERE name = ?1", [name], |r| {
+            Ok((r.get(0)?, r.get(1)?))
+        })
+        .optional()?;
+    let recipe_id = match existing {
+        Some((id, mid)) => {
+            if mid != mat.id {
+                return invalid(format!("recipe '{name}' is for another material"));
+            }
+            id
+        }
+        None => {
+            tx.execute(
+                "INSERT INTO recipe (name, material_id) VALUES (?1, ?2)",
+                params![name, mat.id],
+            )?;
+            tx.last_insert_rowid()
+        }
+    };
+    let version: i64 = tx.query_row(
+        "SELECT COALESCE(MAX(version), 0) + 1 FROM recipe_version WHERE recipe_id = ?1",
+        [recipe_id],
+        |r| r.get(0),
+    )?;
+    let person = person_id(tx, who).ok();
+    tx.execute(
+        "INSERT INTO recipe_version (recipe_id, version, created_at, created_by, notes) VALUES (?1,?2,?3,?4,?5)",
+        params![recipe_id, version, now(), person, notes],
+    )?;
+    let vid = tx.last_insert_rowid();
+    for r in reagents {
+        let rid = reagent_by_name(tx, &r.reagent)?.id;
+        tx.execute(
+            "INSERT INTO recipe_reagent (recipe_version_id, reagent_id, amount, unit, role) VALUES (?1,?2,?3,?4,?5)",
+            params![vid, rid, r.amount, r.unit, r.role],
+        )?;
+    }
+    for (i, s) in steps.iter().enumerate() {
+        tx.execute(
+            "INSERT INTO recipe_step (recipe_version_id, position, action, temperature_c, duration_min) VALUES (?1,?2,?3,?4,?5)",
+            params![vid, i as i64 + 1, s.action, s.temperature_c, s.duration_min],
+        )?;
+    }
+    audit(
+        tx,
+        who,
+        "recipe",
+        Some(recipe_id),
+        "new_version",
+        None,
+        Some(&json!({"name": name, "version": version, "reagents": reagents, "steps": steps})),
+    )?;
+    Ok((recipe_id, vid))
+}
+
+/// The latest version of a recipe by name, or a given version.
+pub fn recipe_version_id(conn: &Connection, name: &str, version: Option<i64>) -> Result<i64> {
+    let sql = "SELECT rv.id FROM recipe_version rv JOIN recipe r ON r.id = rv.recipe_id
+               WHERE r.name = ?1 AND (?2 IS NULL OR rv.version = ?2) ORDER BY rv.version DESC LIMIT 1";
+    conn.query_row(sql, params![name, version], |r| r.get(0))
+        .optional()?
+        .ok_or_else(|| {
+            not_found(
+                "recipe",
+                match version {
+                    Some(v) => format!("'{name}' version {v}"),
+                    None => format!("'{name}'"),
+                },
+            )
+        })
+}
+
+pub fn recipe_view(conn: &Connection, version_id: i64) -> Result<RecipeView> {
+    let (id, name, material, version): (i64, String, String, i64) = conn
+        .query_row(
+            "SELECT r.id, r.name, m.name, rv.version FROM recipe_version rv
+             JOIN recipe r ON r.id = rv.recipe_id JOIN material m ON m.id = r.material_id
+             WHERE rv.id = ?1",
+            [version_id],
+            |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?)),
+        )
+        .optional()?
+        .ok_or_else(|| not_found("recipe version", version_id))?;
+    let mut st = conn.prepare(
+        "SELECT g.name, rr.amount, rr.unit, rr.role, g.ghs_hazards, g.pyrophoric FROM recipe_reagent rr
+         JOIN reagent g ON g.id = rr.reagent_id WHERE rr.recipe_version_id = ?1 ORDER BY rr.id",
+    )?;
+    let reagents = st
+        .query_map([version_id], |r| {
+            let h: String = r.get(4)?;
+            Ok(RecipeReagentView {
+                reagent: r.get(0)?,
+                amount: r.get(1)?,
+                unit: r.get(2)?,
+                role: r.get(3)?,
+                ghs_hazards: h.split_whitespace().map(String::from).collect(),
+                pyrophoric: r.get(5)?,
+            })
+        })?
+        .collect::<rusqlite::Result<Vec<_>>>()?;
+    let mut st = conn.prepare(
+        "SELECT action, temperature_c, duration_min FROM recipe_step WHERE recipe_version_id = ?1 ORDER BY position",
+    )?;
+    let steps = st
+        .query_map([version_id], |r| {
+            Ok(RecipeStep {
+                action: r.get(0)?,
+                temperature_c: r.get(1)?,
+                duration_min: r.get(2)?,
+            })
+        })?
+        .collect::<rusqlite::Result<Vec<_>>>()?;
+    Ok(RecipeView {
+        id,
+        name,
+        material,
+        version,
+        version_id,
+        reagents,
+        steps,
+    })
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct RecipeListRow {
+    pub id: i64,
+    pub name: String,
+    pub material: String,
+    pub latest_version: i64,
+}
+
+pub fn list_recipes(conn: &Connection) -> Result<Vec<RecipeListRow>> {
+    let mut st = conn.prepare(
+        "SELECT r.id, r.name, m.name, (SELECT MAX(version) FROM recipe_version WHERE recipe_id = r.id)
+         FROM recipe r JOIN material m ON m.id = r.material_id ORDER BY r.name",
+    )?;
+    let rows = st.query_map([], |r| {
+        Ok(RecipeListRow {
+            id: r.get(0)?,
+            name: r.get(1)?,
+            material: r.get(2)?,
+            latest_version: r.get(3)?,
+        })
+    })?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+// ---------------------------------------------------------------- batches
+
+#[derive(Debug, Clone, Serialize)]
+pub struct BatchRow {
+    pub id: i64,
+    pub name: String,
+    pub material: String,
+    pub core: String,
+    pub recipe: Option<String>,
+    pub recipe_version: Option<i64>,
+    pub recipe_version_id: Option<i64>,
+    pub operator: Option<String>,
+    pub started_at: String,
+    pub status: String,
+    pub parent_batch_id: Option<i64>,
+    pub parent_relation: Option<String>,
+    pub pinned_calibration: Option<i64>,
+    pub product_aliquot_id: Option<i64>,
+    pub notes: String,
+}
+
+const BATCH_SELECT: &str = "SELECT b.id, b.name, m.name, m.core, r.name, rv.version, b.recipe_version_id, p.name,
+    b.started_at, b.status, b.parent_batch_id, b.parent_relation, b.pinned_calibration,
+    b.product_aliquot_id, b.notes
+  FROM batch b JOIN material m ON m.id = b.material_id
+  LEFT JOIN recipe_version rv ON rv.id = b.recipe_version_id
+  LEFT JOIN recipe r ON r.id = rv.recipe_id
+  LEFT JOIN person p ON p.id = b.operator_id";
+
+fn batch_from(r: &Row) -> rusqlite::Result<BatchRow> {
+    Ok(BatchRow {
+        id: r.get(0)?,
+        name: r.get(1)?,
+        material: r.get(2)?,
+        core: r.get(3)?,
+        recipe: r.get(4)?,
+        recipe_version: r.get(5)?,
+        recipe_version_id: r.get(6)?,
+        operator: r.get(7)?,
+        started_at: r.get(8)?,
+        status: r.get(9)?,
+        parent_batch_id: r.get(10)?,
+        parent_relation: r.get(11)?,
+        pinned_calibration: r.get(12)?,
+        product_aliquot_id: r.get(13)?,
+        notes: r.get(14)?,
+    })
+}
+
+#[derive(Debug, Clone, Default)]
+pub struct NewBatch {
+    pub name: String,
+    pub material: String,
+    pub recipe: Option<String>,
+    pub recipe_version: Option<i64>,
+    pub operator: Option<String>,
+    pub started_at: Option<String>,
+    pub status: Option<String>,
+    pub parent_batch_id: Option<i64>,
+    pub parent_relation: Option<String>,
+    pub notes: Option<String>,
+}
+
+pub fn check_status(s: &str) -> Result<()> {
+    if BATCH_STATUSES.contains(&s) {
+        Ok(())
+    } else {
+        invalid(format!(
+            "unknown status '{s}' (use one of {})",
+            BATCH_STATUSES.join(", ")
+        ))
+    }
+}
+
+/// Accepts RFC 3339, "YYYY-MM-DD HH:MM" or a bare date; returns the stored form.
+pub fn parse_time(field: &str, s: &str) -> Result<String> {
+    use chrono::{NaiveDate, NaiveDateTime, Utc};
+    if let Ok(t) = chrono::DateTime::parse_from_rfc3339(s) {
+        return Ok(t.with_timezone(&Utc).format("%Y-%m-%dT%H:%M:%SZ").to_string());
+    }
+    for f in ["%Y-%m-%d %H:%M", "%Y-%m-%dT%H:%M", "%Y-%m-%d %H:%M:%S"] {
+        if let Ok(t) = NaiveDateTime::parse_from_str(s, f) {
+            return Ok(t.format("%Y-%m-%dT%H:%M:%SZ").to_string());
+        }
+    }
+    if let Ok(d) = NaiveDate::parse_from_str(s, "%Y-%m-%d") {
+        return Ok(format!("{}T00:00:00Z", d.format("%Y-%m-%d")));
+    }
+    invalid(format!(
+        "{field} '{s}' is not a date (use YYYY-MM-DD or YYYY-MM-DD HH:MM)"
+    ))
+}
+
+pub fn insert_batch(tx: &Connection, who: &str, b: &NewBatch) -> Result<i64> {
+    let name = b.name.trim();
+    if name.is_empty() {
+        return invalid("a batch needs a name (--name)");
+    }
+    let mat = material_by_name(tx, &b.material)?;
+    let rv = match &b.recipe {
+        Some(r) => {
+            let id = recipe_version_id(tx, r, b.recipe_version)?;
+            let rm: i64 = tx.query_row(
+                "SELECT r.material_id FROM recipe_version rv JOIN recipe r ON r.id = rv.recipe_id WHERE rv.id = ?1",
+                [id],
+                |r| r.get(0),
+            )?;
+            if rm != mat.id {
+                return invalid(format!("recipe '{r}' is not for {}", mat.name));
+            }
+            Some(id)
+        }
+        None => None,
+    };
+    let op = match &b.operator {
+        Some(p) => Some(person_id(tx, p)?),
+        None => person_id(tx, who).ok(),
+    };
+    let status = b.status.clone().unwrap_or_else(|| "planned".into());
+    check_status(&status)?;
+    let started = match &b.started_at {
+        Some(s) => parse_time("started at", s)?,
+        None => now(),
+    };
+    if let Some(p) = b.parent_batch_id {
+        get_batch(tx, p)?;
+    }
+    if let Some(rel) = &b.parent_relation {
+        if !["shell", "fraction", "repeat"].contains(&rel.as_str()) {
+            return invalid(format!("unknown relation '{rel}' (use shell, fraction or repeat)"));
+        }
+        if b.parent_batch_id.is_none() {
+            return invalid("a relation needs a parent batch (--parent)");
+        }
+    }
+    let relation = match (&b.parent_relation, b.parent_batch_id) {
+        (Some(r), _) => Some(r.clone()),
+        (None, Some(_)) => Some("shell".to_string()),
+        _ => None,
+    };
+    tx.execute(
+        "INSERT INTO batch (name, material_id, recipe_version_id, operator_id, started_at, status,
+                            parent_batch_id, parent_relation, notes)
+         VALUES (?1,?2,?3,?4,?5,?6,?7,?8,?9)",
+        params![
+            name,
+            mat.id,
+            rv,
+            op,
+            started,
+            status,
+            b.parent_batch_id,
+            relation,
+            b.notes.clone().unwrap_or_default()
+        ],
+    )?;
+    let id = tx.last_insert_rowid();
+    let after = serde_json::to_value(get_batch(tx, id)?)?;
+    audit(tx, who, "batch", Some(id), "create", None, Some(&after))?;
+    Ok(id)
+}
+
+pub fn get_batch(conn: &Connection, id: i64) -> Result<BatchRow> {
+    conn.query_row(&format!("{BATCH_SELECT} WHERE b.id = ?1"), [id], batch_from)
+        .optional()?
+        .ok_or_else(|| not_found("batch", id))
+}
+
+pub fn list_batches(conn: &Connection) -> Result<Vec<BatchRow>> {
+    let mut st = conn.prepare(&format!("{BATCH_SELECT} ORDER BY b.id"))?;
+    let rows = st.query_map([], batch_from)?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+pub fn children_of(conn: &Connection, id: i64) -> Result<Vec<(i64, String, Option<String>)>> {
+    let mut st = conn.prepare("SELECT id, name, parent_relation FROM batch WHERE parent_batch_id = ?1 ORDER BY id")?;
+    let rows = st.query_map([id], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?)))?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+#[derive(Debug, Clone, Default)]
+pub struct BatchEdit {
+    pub name: Option<String>,
+    pub notes: Option<String>,
+    pub append_notes: Option<String>,
+    pub operator: Option<String>,
+    pub product_aliquot_id: Option<i64>,
+    pub pin_calibration: Option<i64>,
+    pub unpin: bool,
+    pub parent_batch_id: Option<i64>,
+}
+
+pub fn edit_batch(tx: &Connection, who: &str, id: i64, e: &BatchEdit) -> Result<BatchRow> {
+    let before = get_batch(tx, id)?;
+    if let Some(n) = &e.name {
+        if n.trim().is_empty() {
+            return invalid("a batch name cannot be empty");
+        }
+        tx.execute("UPDATE batch SET name = ?1 WHERE id = ?2", params![n.trim(), id])?;
+    }
+    if let Some(n) = &e.notes {
+        tx.execute("UPDATE batch SET notes = ?1 WHERE id = ?2", params![n, id])?;
+    }
+    if let Some(n) = &e.append_notes {
+        let cur: String = tx.query_row("SELECT notes FROM batch WHERE id = ?1", [id], |r| r.get(0))?;
+        let joined = if cur.is_empty() {
+            n.clone()
+        } else {
+            format!("{cur}\n{n}")
+        };
+        tx.execute("UPDATE batch SET notes = ?1 WHERE id = ?2", params![joined, id])?;
+    }
+    if let Some(p) = &e.operator {
+        let pid = person_id(tx, p)?;
+        tx.execute("UPDATE batch SET operator_id = ?1 WHERE id = ?2", params![pid, id])?;
+    }
+    if let Some(a) = e.product_aliquot_id {
+        let owner: Option<i64> = tx
+            .query_row("SELECT batch_id FROM aliquot WHERE id = ?1", [a], |r| r.get(0))
+            .optional()?;
+        if owner != Some(id) {
+            return invalid(format!("aliquot {a} is not an aliquot of batch {id}"));
+        }
+        tx.execute("UPDATE batch SET product_aliquot_id = ?1 WHERE id = ?2", params![a, id])?;
+    }
+    if let Some(v) = e.pin_calibration {
+        let ok = tx
+            .query_row("SELECT 1 FROM calibration WHERE version = ?1", [v], |_| Ok(()))
+            .optional()?;
+        if ok.is_none() {
+            return Err(not_found("calibration version", v));
+        }
+        tx.execute("UPDATE batch SET pinned_calibration = ?1 WHERE id = ?2", params![v, id])?;
+    }
+    if e.unpin {
+        tx.execute("UPDATE batch SET pinned_calibration = NULL WHERE id = ?1", [id])?;
+    }
+    if let Some(p) = e.parent_batch_id {
+        if p == id {
+            return invalid("a batch cannot be its own parent");
+        }
+        get_batch(tx, p)?;
+        tx.execute("UPDATE batch SET parent_batch_id = ?1 WHERE id = ?2", params![p, id])?;
+    }
+    let after = get_batch(tx, id)?;
+    audit(
+        tx,
+        who,
+        "batch",
+        Some(id),
+        "edit",
+        Some(&serde_json::to_value(&before)?),
+        Some(&serde_json::to_value(&after)?),
+    )?;
+    Ok(after)
+}
+
+pub fn set_batch_status(tx: &Connection, who: &str, id: i64, status: &str) -> Result<BatchRow> {
+    check_status(status)?;
+    let before = get_batch(tx, id)?;
+    tx.execute("UPDATE batch SET status = ?1 WHERE id = ?2", params![status, id])?;
+    audit(
+        tx,
+        who,
+        "batch",
+        Some(id),
+        "set_status",
+        Some(&json!({"status": before.status})),
+        Some(&json!({"status": status})),
+    )?;
+    get_batch(tx, id)
+}
+
+// ---------------------------------------------------------------- aliquots and spectra
+
+#[derive(Debug, Clone, Serialize)]
+pub struct AliquotRow {
+    pub id: i64,
+    pub batch_id: i64,
+    pub minutes: Option<f64>,
+    pub stage: Option<String>,
+    pub dilution_factor: f64,
+    pub path_cm: f64,
+    pub solvent: String,
+    pub taken_at: String,
+}
+
+const ALIQUOT_COLS: &str = "id, batch_id, minutes, stage, dilution_factor, path_cm, solvent, taken_at";
+
+fn aliquot_from(r: &Row) -> rusqlite::Result<AliquotRow> {
+    Ok(AliquotRow {
+        id: r.get(0)?,
+        batch_id: r.get(1)?,
+        minutes: r.get(2)?,
+        stage: r.get(3)?,
+        dilution_factor: r.get(4)?,
+        path_cm: r.get(5)?,
+        solvent: r.get(6)?,
+        taken_at: r.get(7)?,
+    })
+}
+
+#[derive(Debug, Clone)]
+pub struct NewAliquot {
+    pub batch_id: i64,
+    pub minutes: Option<f64>,
+    pub stage: Option<String>,
+    pub dilution_factor: f64,
+    pub path_cm: f64,
+    pub solvent: String,
+    pub taken_at: Option<String>,
+}
+
+pub fn insert_aliquot(tx: &Connection, who: &str, a: &NewAliquot) -> Result<i64> {
+    let batch = get_batch(tx, a.batch_id)?;
+    if let Some(m) = a.minutes {
+        check_number("minutes", m, true)?;
+    }
+    check_number("dilution factor", a.dilution_factor, false)?;
+    check_number("path length (cm)", a.path_cm, false)?;
+    if a.dilution_factor < 1.0 {
+        return invalid(format!(
+            "dilution factor {} is below 1; it is the factor by which the aliquot was diluted",
+            a.dilution_factor
+        ));
+    }
+    if crate::derive::solvents::refractive_index(&a.solvent).is_none() {
+        return invalid(format!(
+            "unknown solvent '{}' (known: {})",
+            a.solvent,
+            crate::derive::solvents::names().join(", ")
+        ));
+    }
+    let stage = match (&a.minutes, &a.stage) {
+        (None, None) => Some("crude".to_string()),
+        (_, s) => s.clone(),
+    };
+    if batch.status == "archived" {
+        return invalid(format!("batch {} is archived; set its status first", batch.id));
+    }
+    let taken = match &a.taken_at {
+        Some(t) => parse_time("taken at", t)?,
+        None => now(),
+    };
+    tx.execute(
+        "INSERT INTO aliquot (batch_id, minutes, stage, dilution_factor, path_cm, solvent, taken_at)
+         VALUES (?1,?2,?3,?4,?5,?6,?7)",
+        params![
+            a.batch_id,
+            a.minutes,
+            stage,
+            a.dilution_factor,
+            a.path_cm,
+            a.solvent,
+            taken
+        ],
+    )?;
+    let id = tx.last_insert_rowid();
+    let row = get_aliquot(tx, id)?;
+    audit(
+        tx,
+        who,
+        "aliquot",
+        Some(id),
+        "create",
+        None,
+        Some(&serde_json::to_value(&row)?),
+    )?;
+    Ok(id)
+}
+
+pub fn get_aliquot(conn: &Connection, id: i64) -> Result<AliquotRow> {
+    conn.query_row(
+        &format!("SELECT {ALIQUOT_COLS} FROM aliquot WHERE id = ?1"),
+        [id],
+        aliquot_from,
+    )
+    .optional()?
+    .ok_or_else(|| not_found("aliquot", id))
+}
+
+pub fn aliquots_of(conn: &Connection, batch_id: i64) -> Result<Vec<AliquotRow>> {
+    let mut st = conn.prepare(&format!(
+        "SELECT {ALIQUOT_COLS} FROM aliquot WHERE batch_id = ?1 ORDER BY minutes IS NULL, minutes, id"
+    ))?;
+    let rows = st.query_map([batch_id], aliquot_from)?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+#[derive(Debug, Clone)]
+pub struct NewSpectrum {
+    pub aliquot_id: Option<i64>,
+    pub vial_id: Option<i64>,
+    pub kind: String,
+    pub x_unit: String,
+    pub y_unit: Option<String>,
+    pub x: Vec<f64>,
+    pub y: Vec<f64>,
+    pub file_name: String,
+    pub sha256: String,
+    pub excitation_nm: Option<f64>,
+    pub instrument: Option<String>,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct SpectrumRow {
+    pub id: i64,
+    pub aliquot_id: Option<i64>,
+    pub vial_id: Option<i64>,
+    pub kind: String,
+    pub x_unit: String,
+    pub y_unit: Option<String>,
+    pub npoints: i64,
+    #[serde(skip)]
+    pub x: Vec<f64>,
+    #[serde(skip)]
+    pub y: Vec<f64>,
+    pub file_name: String,
+    pub sha256: String,
+    pub excitation_nm: Option<f64>,
+    pub instrument: Option<String>,
+}
+
+pub fn insert_spectrum(tx: &Connection, who: &str, s: &NewSpectrum) -> Result<i64> {
+    if !["abs", "pl", "ple"].contains(&s.kind.as_str()) {
+        return invalid(format!("unknown spectrum kind '{}' (abs, pl, ple)", s.kind));
+    }
+    if s.x.len() != s.y.len() || s.x.is_empty() {
+        return invalid("a spectrum needs as many y values as x values");
+    }
+    if s.aliquot_id.is_some() == s.vial_id.is_some() {
+        return invalid("a spectrum belongs to exactly one aliquot or one vial");
+    }
+    if let Some(e) = s.excitation_nm {
+        check_number("excitation wavelength (nm)", e, false)?;
+    }
+    tx.execute(
+        "INSERT INTO spectrum (aliquot_id, vial_id, kind, x_unit, y_unit, npoints, data, file_name, sha256,
+                               excitation_nm, instrument, created_at)
+         VALUES (?1,?2,?3,?4,?5,?6,?7,?8,?9,?10,?11,?12)",
+        params![
+            s.aliquot_id,
+            s.vial_id,
+            s.kind,
+            s.x_unit,
+            s.y_unit,
+            s.x.len() as i64,
+            encode_xy(&s.x, &s.y),
+            s.file_name,
+            s.sha256,
+            s.excitation_nm,
+            s.instrument,
+            now()
+        ],
+    )?;
+    let id = tx.last_insert_rowid();
+    audit(
+        tx,
+        who,
+        "spectrum",
+        Some(id),
+        "create",
+        None,
+        Some(
+            &json!({"aliquot_id": s.aliquot_id, "vial_id": s.vial_id, "kind": s.kind,
+                     "file_name": s.file_name, "sha256": s.sha256, "npoints": s.x.len()}),
+        ),
+    )?;
+    Ok(id)
+}
+
+const SPECTRUM_COLS: &str =
+    "id, aliquot_id, vial_id, kind, x_unit, y_unit, npoints, data, file_name, sha256, excitation_nm, instrument";
+
+fn spectrum_from(r: &Row) -> rusqlite::Result<(SpectrumRow, Vec<u8>)> {
+    Ok((
+        SpectrumRow {
+            id: r.get(0)?,
+            aliquot_id: r.get(1)?,
+            vial_id: r.get(2)?,
+            kind: r.get(3)?,
+            x_unit: r.get(4)?,
+            y_unit: r.get(5)?,
+            npoints: r.get(6)?,
+            x: Vec::new(),
+            y: Vec::new(),
+            file_name: r.get(8)?,
+            sha256: r.get(9)?,
+            excitation_nm: r.get(10)?,
+            instrument: r.get(11)?,
+        },
+        r.get(7)?,
+    ))
+}
+
+fn with_data((mut s, blob): (SpectrumRow, Vec<u8>)) -> Result<SpectrumRow> {
+    let (x, y) = decode_xy(&blob)?;
+    s.x = x;
+    s.y = y;
+    Ok(s)
+}
+
+pub fn spectra_of_aliquot(conn: &Connection, aliquot_id: i64) -> Result<Vec<SpectrumRow>> {
+    let mut st = conn.prepare_cached(&format!(
+        "SELECT {SPECTRUM_COLS} FROM spectrum WHERE aliquot_id = ?1 ORDER BY id"
+    ))?;
+    let rows = st
+        .query_map([aliquot_id], spectrum_from)?
+        .collect::<rusqlite::Result<Vec<_>>>()?;
+    rows.into_iter().map(with_data).collect()
+}
+
+pub fn get_spectrum(conn: &Connection, id: i64) -> Result<SpectrumRow> {
+    let raw = conn
+        .query_row(
+            &format!("SELECT {SPECTRUM_COLS} FROM spectrum WHERE id = ?1"),
+            [id],
+            spectrum_from,
+        )
+        .optional()?
+        .ok_or_else(|| not_found("spectrum", id))?;
+    with_data(raw)
+}
+
+// ---------------------------------------------------------------- locations and vials
+
+#[derive(Debug, Clone, Serialize)]
+pub struct LocationRow {
+    pub id: i64,
+    pub name: String,
+    pub kind: String,
+    pub position: Option<String>,
+}
+
+pub fn add_location(tx: &Connection, who: &str, name: &str, kind: &str, position: Option<&str>) -> Result<i64> {
+    if name.trim().is_empty() {
+        return invalid("a location needs a name");
+    }
+    if !LOCATION_KINDS.contains(&kind) {
+        return invalid(format!(
+            "unknown location kind '{kind}' (use one of {})",
+            LOCATION_KINDS.join(", ")
+        ));
+    }
+    if location_by_name(tx, name).is_ok() {
+        return invalid(format!("location '{name}' already exists"));
+    }
+    tx.execute(
+        "INSERT INTO location (name, kind, position) VALUES (?1,?2,?3)",
+        params![name.trim(), kind, position],
+    )?;
+    let id = tx.last_insert_rowid();
+    audit(
+        tx,
+        who,
+        "location",
+        Some(id),
+        "create",
+        None,
+        Some(&json!({"name": name, "kind": kind, "position": position})),
+    )?;
+    Ok(id)
+}
+
+pub fn location_by_name(conn: &Connection, name: &str) -> Result<LocationRow> {
+    conn.query_row(
+        "SELECT id, name, kind, position FROM location WHERE name = ?1 COLLATE NOCASE",
+        [name],
+        |r| {
+            Ok(LocationRow {
+                id: r.get(0)?,
+                name: r.get(1)?,
+                kind: r.get(2)?,
+                position: r.get(3)?,
+            })
+        },
+    )
+    .optional()?
+    .ok_or_else(|| {
+        Error::Invalid(format!(
+            "unknown location '{name}' (add it with `cuvette location add`)"
+        ))
+    })
+}
+
+pub fn list_locations(conn: &Connection) -> Result<Vec<LocationRow>> {
+    let mut st = conn.prepare("SELECT id, name, kind, position FROM location ORDER BY name")?;
+    let rows = st.query_map([], |r| {
+        Ok(LocationRow {
+            id: r.get(0)?,
+            name: r.get(1)?,
+            kind: r.get(2)?,
+            position: r.get(3)?,
+        })
+    })?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct VialRow {
+    pub id: i64,
+    pub label: String,
+    pub batch_id: i64,
+    pub batch_name: String,
+    pub material: String,
+    pub location: String,
+    pub position: Option<String>,
+    pub volume_ml: f64,
+    pub initial_ml: f64,
+    pub solvent: String,
+    pub owner: Option<String>,
+    pub status: String,
+    pub concentration_molar: Option<f64>,
+    pub created_at: String,
+}
+
+const VIAL_SELECT: &str = "SELECT v.id, v.label, v.batch_id, b.name, m.name, l.name, v.position, v.volume_ml,
+    v.initial_ml, v.solvent, p.name, v.status, v.concentration_molar, v.created_at
+  FROM vial v JOIN batch b ON b.id = v.batch_id JOIN material m ON m.id = b.material_id
+  JOIN location l ON l.id = v.location_id LEFT JOIN person p ON p.id = v.owner_id";
+
+fn vial_from(r: &Row) -> rusqlite::Result<VialRow> {
+    Ok(VialRow {
+        id: r.get(0)?,
+        label: r.get(1)?,
+        batch_id: r.get(2)?,
+        batch_name: r.get(3)?,
+        material: r.get(4)?,
+        location: r.get(5)?,
+        position: r.get(6)?,
+        volume_ml: r.get(7)?,
+        initial_ml: r.get(8)?,
+        solvent: r.get(9)?,
+        owner: r.get(10)?,
+        status: r.get(11)?,
+        concentration_molar: r.get(12)?,
+        created_at: r.get(13)?,
+    })
+}
+
+#[derive(Debug, Clone)]
+pub struct NewVial {
+    pub batch_id: i64,
+    pub label: Option<String>,
+    pub volume_ml: f64,
+    pub solvent: String,
+    pub location: String,
+    pub position: Option<String>,
+    pub owner: Option<String>,
+    pub concentration_molar: Option<f64>,
+    pub created_at: Option<String>,
+}
+
+pub fn insert_vial(tx: &Connection, who: &str, v: &NewVial) -> Result<i64> {
+    let batch = get_batch(tx, v.batch_id)?;
+    check_number("volume (mL)", v.volume_ml, true)?;
+    if let Some(c) = v.concentration_molar {
+        check_number("concentration (M)", c, true)?;
+    }
+    let loc = location_by_name(tx, &v.location)?;
+    let owner = match &v.owner {
+        Some(o) => Some(person_id(tx, o)?),
+        None => person_id(tx, who).ok(),
+    };
+    let label = match &v.label {
+        Some(l) if !l.trim().is_empty() => l.trim().to_string(),
+        Some(_) => return invalid("a vial label cannot be empty"),
+        None => {
+            let n: i64 = tx.query_row("SELECT count(*) + 1 FROM vial WHERE batch_id = ?1", [batch.id], |r| {
+                r.get(0)
+            })?;
+            format!("B{}-{}", batch.id, n)
+        }
+    };
+    if tx
+        .query_row("SELECT 1 FROM vial WHERE label = ?1", [&label], |_| Ok(()))
+        .optional()?
+        .is_some()
+    {
+        return invalid(format!("a vial labelled '{label}' already exists"));
+    }
+    let created = match &v.created_at {
+        Some(t) => parse_time("created at", t)?,
+        None => now(),
+    };
+    tx.execute(
+        "INSERT INTO vial (batch_id, label, volume_ml, initial_ml, solvent, location_id, position, owner_id,
+                           status, concentration_molar, created_at)
+         VALUES (?1,?2,?3,?3,?4,?5,?6,?7,'in_use',?8,?9)",
+        params![
+            batch.id,
+            label,
+            v.volume_ml,
+            v.solvent,
+            loc.id,
+            v.position,
+            owner,
+            v.concentration_molar,
+            created
+        ],
+    )?;
+    let id = tx.last_insert_rowid();
+    tx.execute(
+        "INSERT INTO vial_event (vial_id, kind, amount_ml, to_location_id, who, why, at) VALUES (?1,'create',?2,?3,?4,NULL,?5)",
+        params![id, v.volume_ml, loc.id, who, created],
+    )?;
+    let row = get_vial(tx, id)?;
+    audit(
+        tx,
+        who,
+        "vial",
+        Some(id),
+        "create",
+        None,
+        Some(&serde_json::to_value(&row)?),
+    )?;
+    Ok(id)
+}
+
+pub fn get_vial(conn: &Connection, id: i64) -> Result<VialRow> {
+    conn.query_row(&format!("{VIAL_SELECT} WHERE v.id = ?1"), [id], vial_from)
+        .optional()?
+        .ok_or_else(|| not_found("vial", id))
+}
+
+/// Vials by id or by label.
+pub fn find_vial(conn: &Connection, key: &str) -> Result<VialRow> {
+    if let Ok(id) = key.parse::<i64>() {
+        return get_vial(conn, id);
+    }
+    conn.query_row(&format!("{VIAL_SELECT} WHERE v.label = ?1"), [key], vial_from)
+        .optional()?
+        .ok_or_else(|| not_found("vial", key))
+}
+
+pub fn list_vials(conn: &Connection, include_disposed: bool) -> Result<Vec<VialRow>> {
+    let sql = if include_disposed {
+        format!("{VIAL_SELECT} ORDER BY l.name, v.id")
+    } else {
+        format!("{VIAL_SELECT} WHERE v.status <> 'disposed' ORDER BY l.name, v.id")
+    };
+    let mut st = conn.prepare(&sql)?;
+    let rows = st.query_map([], vial_from)?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+pub fn vials_of_batch(conn: &Connection, batch_id: i64) -> Result<Vec<VialRow>> {
+    let mut st = conn.prepare(&format!("{VIAL_SELECT} WHERE v.batch_id = ?1 ORDER BY v.id"))?;
+    let rows = st.query_map([batch_id], vial_from)?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+fn usable_vial(conn: &Connection, id: i64) -> Result<VialRow> {
+    let v = get_vial(conn, id)?;
+    if v.status == "disposed" {
+        return invalid(format!("vial {} ({}) has been disposed of", v.id, v.label));
+    }
+    Ok(v)
+}
+
+/// Tolerance for "draw everything that is left": volumes carry float round-off.
+const VOLUME_EPS_ML: f64 = 1e-9;
+
+pub fn draw_from_vial(tx: &Connection, who: &str, id: i64, ml: f64, why: Option<&str>) -> Result<VialRow> {
+    let v = usable_vial(tx, id)?;
+    check_number("volume to draw (mL)", ml, false)?;
+    if ml > v.volume_ml + VOLUME_EPS_ML {
+        return invalid(format!(
+            "cannot draw {ml} mL from vial {} ({}): only {} mL left",
+            v.id, v.label, v.volume_ml
+        ));
+    }
+    let left = (v.volume_ml - ml).max(0.0);
+    let left = if left < VOLUME_EPS_ML { 0.0 } else { left };
+    let status = if left == 0.0 { "empty" } else { "in_use" };
+    tx.execute(
+        "UPDATE vial SET volume_ml = ?1, status = ?2 WHERE id = ?3",
+        params![left, status, id],
+    )?;
+    tx.execute(
+        "INSERT INTO vial_event (vial_id, kind, amount_ml, who, why, at) VALUES (?1,'draw',?2,?3,?4,?5)",
+        params![id, ml, who, why, now()],
+    )?;
+    audit(
+        tx,
+        who,
+        "vial",
+        Some(id),
+        "draw",
+        Some(&json!({"volume_ml": v.volume_ml})),
+        Some(&json!({"volume_ml": left, "drawn_ml": ml, "why": why})),
+    )?;
+    get_vial(tx, id)
+}
+
+pub fn move_vial(
+    tx: &Connection,
+    who: &str,
+    id: i64,
+    location: &str,
+    position: Option<&str>,
+    why: Option<&str>,
+) -> Result<VialRow> {
+    let v = usable_vial(tx, id)?;
+    let to = location_by_name(tx, location)?;
+    let from = location_by_name(tx, &v.location)?;
+    tx.execute(
+        "UPDATE vial SET location_id = ?1, position = ?2 WHERE id = ?3",
+        params![to.id, position, id],
+    )?;
+    tx.execute(
+        "INSERT INTO vial_event (vial_id, kind, from_location_id, to_location_id, who, why, at) VALUES (?1,'move',?2,?3,?4,?5,?6)",
+        params![id, from.id, to.id, who, why, now()],
+    )?;
+    audit(
+        tx,
+        who,
+        "vial",
+        Some(id),
+        "move",
+        Some(&json!({"location": v.location, "position": v.position})),
+        Some(&json!({"location": to.name, "position": position})),
+    )?;
+    get_vial(tx, id)
+}
+
+pub fn dispose_vial(tx: &Connection, who: &str, id: i64, why: &str) -> Result<VialRow> {
+    let v = usable_vial(tx, id)?;
+    if why.trim().is_empty() {
+        return invalid("disposal needs a reason (--why)");
+    }
+    tx.execute("UPDATE vial SET status = 'disposed' WHERE id = ?1", [id])?;
+    tx.execute(
+        "INSERT INTO vial_event (vial_id, kind, amount_ml, who, why, at) VALUES (?1,'dispose',?2,?3,?4,?5)",
+        params![id, v.volume_ml, who, why, now()],
+    )?;
+    audit(
+        tx,
+        who,
+        "vial",
+        Some(id),
+        "dispose",
+        Some(&json!({"status": v.status, "volume_ml": v.volume_ml})),
+        Some(&json!({"status": "disposed", "why": why})),
+    )?;
+    get_vial(tx, id)
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct VialEventRow {
+    pub id: i64,
+    pub vial_id: i64,
+    pub kind: String,
+    pub amount_ml: Option<f64>,
+    pub who: String,
+    pub why: Option<String>,
+    pub at: String,
+}
+
+pub fn vial_events(conn: &Connection, vial_id: i64) -> Result<Vec<VialEventRow>> {
+    let mut st = conn
+        .prepare("SELECT id, vial_id, kind, amount_ml, who, why, at FROM vial_event WHERE vial_id = ?1 ORDER BY id")?;
+    let rows = st.query_map([vial_id], |r| {
+        Ok(VialEventRow {
+            id: r.get(0)?,
+            vial_id: r.get(1)?,
+            kind: r.get(2)?,
+            amount_ml: r.get(3)?,
+            who: r.get(4)?,
+            why: r.get(5)?,
+            at: r.get(6)?,
+        })
+    })?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+// ---------------------------------------------------------------- audit log
+
+#[derive(Debug, Clone, Serialize)]
+pub struct AuditRow {
+    pub id: i64,
+    pub at: String,
+    pub who: String,
+    pub entity: String,
+    pub entity_id: Option<i64>,
+    pub action: String,
+    pub before: Option<serde_json::Value>,
+    pub after: Option<serde_json::Value>,
+}
+
+pub fn audit_log(conn: &Connection, entity: Option<&str>, limit: i64) -> Result<Vec<AuditRow>> {
+    let mut st = conn.prepare(
+        "SELECT id, at, who, entity, entity_id, action, before, after FROM audit_log
+         WHERE (?1 IS NULL OR entity = ?1) ORDER BY id DESC LIMIT ?2",
+    )?;
+    let rows = st.query_map(params![entity, limit], |r| {
+        let b: Option<String> = r.get(6)?;
+        let a: Option<String> = r.get(7)?;
+        Ok(AuditRow {
+            id: r.get(0)?,
+            at: r.get(1)?,
+            who: r.get(2)?,
+            entity: r.get(3)?,
+            entity_id: r.get(4)?,
+            action: r.get(5)?,
+            before: b.and_then(|s| serde_json::from_str(&s).ok()),
+            after: a.and_then(|s| serde_json::from_str(&s).ok()),
+        })
+    })?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+pub fn meta_get(conn: &Connection, key: &str) -> Result<Option<String>> {
+    Ok(conn
+        .query_row("SELECT value FROM lab_meta WHERE key = ?1", [key], |r| r.get(0))
+        .optional()?)
+}
+
+pub fn meta_set(tx: &Connection, who: &str, key: &str, value: &str) -> Result<()> {
+    let before = meta_get(tx, key)?;
+    tx.execute(
+        "INSERT INTO lab_meta (key, value) VALUES (?1, ?2) ON CONFLICT(key) DO UPDATE SET value = excluded.value",
+        params![key, value],
+    )?;
+    audit(
+        tx,
+        who,
+        "lab_meta",
+        None,
+        "set",
+        before.map(|b| json!({key: b})).as_ref(),
+        Some(&json!({key: value})),
+    )?;
+    Ok(())
+}
