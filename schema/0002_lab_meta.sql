@@ -8,7 +8,7 @@ CREATE TABLE lab_meta (
 CREATE INDEX spectrum_sha ON spectrum(sha256);
 
 -- The materials the shipped methods know. A lab adds its own with `cuvette material add`.
-INSERT INTO material (name, core, shell, notes) VALUES
+INSERT OR IGNORE INTO material (name, core, shell, notes) VALUES
     ('CdSe', 'CdSe', NULL, 'zinc-blende or wurtzite cores'),
     ('CdTe', 'CdTe', NULL, NULL),
     ('CdS', 'CdS', NULL, NULL),

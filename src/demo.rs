@@ -452,7 +452,7 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                 let nvials = if scale.is_some() {
                     1
                 } else {
-                    1 + (rng.next_u64() % 3) as usize
+                    2 + (rng.next_u64() % 2) as usize
                 };
                 for k in 0..nvials {
                     let ml = (rng.range(1.5, 5.0) * 10.0).round() / 10.0;

@@ -209,6 +209,7 @@ pub enum BatchCmd {
 }
 
 #[derive(Debug, Args)]
+#[command(allow_negative_numbers = true)]
 pub struct BatchNewArgs {
     #[arg(long)]
     pub material: String,
@@ -285,6 +286,7 @@ pub enum AliquotCmd {
 }
 
 #[derive(Debug, Args, Clone)]
+#[command(allow_negative_numbers = true)]
 pub struct AliquotAddArgs {
     pub batch_id: i64,
     /// Absorbance spectrum file.
@@ -333,6 +335,7 @@ pub enum LocationCmd {
 
 #[derive(Debug, Subcommand)]
 pub enum VialCmd {
+    #[command(allow_negative_numbers = true)]
     New {
         batch_id: i64,
         #[arg(long)]
@@ -353,6 +356,7 @@ pub enum VialCmd {
         #[arg(long)]
         json: bool,
     },
+    #[command(allow_negative_numbers = true)]
     Draw {
         vial: String,
         #[arg(long)]
@@ -417,6 +421,7 @@ pub enum Kind {
 }
 
 #[derive(Debug, Args)]
+#[command(allow_negative_numbers = true)]
 pub struct AnalyzeArgs {
     /// Files or folders of exports.
     #[arg(required = true)]
@@ -455,6 +460,7 @@ pub struct ReadArgs {
 }
 
 #[derive(Debug, Args)]
+#[command(allow_negative_numbers = true)]
 pub struct SizeArgs {
     #[arg(long)]
     pub material: String,
@@ -467,6 +473,7 @@ pub struct SizeArgs {
 }
 
 #[derive(Debug, Args)]
+#[command(allow_negative_numbers = true)]
 pub struct QyArgs {
     #[arg(long)]
     pub sample_integral: Option<f64>,
@@ -502,6 +509,7 @@ pub struct QyArgs {
 }
 
 #[derive(Debug, Args)]
+#[command(allow_negative_numbers = true)]
 pub struct ShellPlanArgs {
     #[arg(long)]
     pub shell: String,
@@ -546,6 +554,7 @@ pub enum CalibCmd {
         json: bool,
     },
     /// Set the QY reference measurement.
+    #[command(allow_negative_numbers = true)]
     SetReference {
         #[arg(long)]
         dye: String,
@@ -566,6 +575,7 @@ pub enum CalibCmd {
         json: bool,
     },
     /// Override a solvent's refractive index.
+    #[command(allow_negative_numbers = true)]
     SetIndex {
         solvent: String,
         n: f64,
@@ -596,6 +606,7 @@ pub enum CalibCmd {
         json: bool,
     },
     /// Bulk parameters for the effective-mass model.
+    #[command(allow_negative_numbers = true)]
     SetBulk {
         material: String,
         #[arg(long)]
@@ -686,6 +697,7 @@ pub struct RestoreArgs {
 }
 
 #[derive(Debug, Args)]
+#[command(allow_negative_numbers = true)]
 pub struct ImportArgs {
     pub batch_id: i64,
     /// A folder of exports; files are matched by name: *abs* and *pl* with a number of minutes.

@@ -22,9 +22,10 @@ pub fn line(s: &str) -> Result<()> {
     }
 }
 
-/// A number with a fixed count of decimals, or "-".
+/// A number with a fixed count of decimals (small ones in scientific form), or "-".
 pub fn num(v: Option<f64>, decimals: usize) -> String {
     match v {
+        Some(x) if x != 0.0 && x.abs() < 0.01 => format!("{x:.3e}"),
         Some(x) => format!("{x:.decimals$}"),
         None => "-".into(),
     }

@@ -114,11 +114,12 @@ pub fn explain(conn: &Connection, aliquot_id: i64) -> Result<Value> {
         if let Some(v) = values.iter().find(|v| v.quantity == q) {
             let mut step = serde_json::to_value(v)?;
             if (q == "diameter_nm" || q == "edge_nm")
-                && let Ok(c) = sizing::Curve::parse(&v.method) {
-                    step["curve"] = json!(c.id());
-                    step["source"] = json!(c.source());
-                    step["valid_range_nm"] = json!(c.valid_range_nm(&b.core));
-                }
+                && let Ok(c) = sizing::Curve::parse(&v.method)
+            {
+                step["curve"] = json!(c.id());
+                step["source"] = json!(c.source());
+                step["valid_range_nm"] = json!(c.valid_range_nm(&b.core));
+            }
             chain.push(step);
         }
     }

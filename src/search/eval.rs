@@ -119,11 +119,22 @@ pub fn load_facts(conn: &Connection) -> Result<Vec<Facts>> {
                 .unwrap_or_default();
         }
     }
+    // A recipe's reagents count as part of its text, so "oleylamine" finds its batches.
+    let mut reagents: HashMap<i64, String> = HashMap::new();
+    let mut st = conn.prepare(
+        "SELECT b.id, GROUP_CONCAT(g.name, ' ') FROM batch b JOIN recipe_reagent rr ON rr.recipe_version_id = b.recipe_version_id
+         JOIN reagent g ON g.id = rr.reagent_id GROUP BY b.id",
+    )?;
+    let mut rows = st.query([])?;
+    while let Some(r) = rows.next()? {
+        reagents.insert(r.get(0)?, r.get::<_, Option<String>>(1)?.unwrap_or_default());
+    }
     for f in &mut facts {
         f.haystack = format!(
-            "{} {} {} {} {}",
+            "{} {} {} {} {} {}",
             f.name,
             f.recipe.clone().unwrap_or_default(),
+            reagents.get(&f.id).map(String::as_str).unwrap_or(""),
             f.notes,
             f.operator.clone().unwrap_or_default(),
             f.material

@@ -460,10 +460,9 @@ pub fn analyze_pl(t: &Trace, set: &AnalysisSettings) -> Result<PlResult> {
             None
         }
     };
-    let fwhm_mev = match (lo, hi) {
-        (Some(a), Some(b)) => Some(1000.0 * (HC_EV_NM / a - HC_EV_NM / b)),
-        _ => None,
-    };
+    // In energy the spectrum is I(E) = I(λ) λ²/hc (the Jacobian), whose peak and width differ
+    // slightly from the wavelength ones.
+    let (peak_ev, fwhm_mev) = energy_peak_and_width(&u, &s);
     let edge = (3 * half) as f64;
     if fi < edge || fi > (u.y.len() - 1) as f64 - edge {
         warnings.push(format!(
@@ -475,7 +474,7 @@ pub fn analyze_pl(t: &Trace, set: &AnalysisSettings) -> Result<PlResult> {
     }
     Ok(PlResult {
         pl_peak_nm: Some(peak_nm),
-        pl_peak_ev: Some(HC_EV_NM / peak_nm),
+        pl_peak_ev: peak_ev,
         pl_fwhm_nm: fwhm,
         pl_fwhm_mev: fwhm_mev,
         pl_integral: integral,
@@ -484,6 +483,52 @@ pub fn analyze_pl(t: &Trace, set: &AnalysisSettings) -> Result<PlResult> {
         noise,
         warnings,
     })
+}
+
+fn energy_peak_and_width(u: &Uniform, s: &[f64]) -> (Option<f64>, Option<f64>) {
+    let e: Vec<f64> = (0..s.len()).map(|i| HC_EV_NM / u.nm(i as f64)).collect();
+    let ie: Vec<f64> = (0..s.len()).map(|i| s[i] * u.nm(i as f64).powi(2) / HC_EV_NM).collect();
+    let (imax, vmax) = ie
+        .iter()
+        .copied()
+        .enumerate()
+        .fold((0, f64::MIN), |acc, (i, v)| if v > acc.1 { (i, v) } else { acc });
+    if vmax <= 0.0 {
+        return (None, None);
+    }
+    // Parabolic refinement of the peak in energy.
+    let peak_ev = if imax > 0 && imax + 1 < ie.len() {
+        let (a, b, c) = (ie[imax - 1], ie[imax], ie[imax + 1]);
+        let denom = a - 2.0 * b + c;
+        let off = if denom != 0.0 {
+            (0.5 * (a - c) / denom).clamp(-0.5, 0.5)
+        } else {
+            0.0
+        };
+        let fi = imax as f64 + off;
+        Some(HC_EV_NM / u.nm(fi))
+    } else {
+        Some(e[imax])
+    };
+    let half = vmax / 2.0;
+    let cross = |dir: i64| -> Option<f64> {
+        let mut i = imax as i64;
+        while i >= 0 && (i as usize) < ie.len() {
+            if ie[i as usize] <= half {
+                let j = (i - dir) as usize;
+                let (a, b) = (ie[j], ie[i as usize]);
+                let f = if a == b { 0.0 } else { (a - half) / (a - b) };
+                return Some(e[j] + f * (e[i as usize] - e[j]));
+            }
+            i += dir;
+        }
+        None
+    };
+    let width = match (cross(-1), cross(1)) {
+        (Some(hi_e), Some(lo_e)) => Some(1000.0 * (hi_e - lo_e)),
+        _ => None,
+    };
+    (peak_ev, width)
 }
 
 /// Stokes shift between the first exciton and the PL peak: (nm, meV).

@@ -1,0 +1,117 @@
+//! A small harness for binary-level tests: a temporary folder per test, the real `cuvette`
+//! binary, spectrum files written from stated formulas, and row counts to prove that a failed
+//! command changed nothing.
+#![allow(dead_code, clippy::unwrap_used, clippy::panic, clippy::expect_used)]
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+pub const HC: f64 = 1239.841984;
+
+pub struct Lab {
+    pub dir: tempfile::TempDir,
+    pub db: PathBuf,
+}
+
+pub struct Out {
+    pub code: i32,
+    pub stdout: String,
+    pub stderr: String,
+}
+
+impl Out {
+    pub fn json(&self) -> serde_json::Value {
+        serde_json::from_str(&self.stdout)
+            .unwrap_or_else(|e| panic!("not JSON ({e}): {}\nstderr: {}", self.stdout, self.stderr))
+    }
+}
+
+impl Lab {
+    pub fn new() -> Lab {
+        let dir = tempfile::tempdir().unwrap();
+        let db = dir.path().join("lab.db");
+        Lab { dir, db }
+    }
+    pub fn path(&self, name: &str) -> PathBuf {
+        self.dir.path().join(name)
+    }
+    pub fn run(&self, args: &[&str]) -> Out {
+        self.run_on(&self.db, args)
+    }
+    pub fn run_on(&self, db: &Path, args: &[&str]) -> Out {
+        let out = Command::new(env!("CARGO_BIN_EXE_cuvette"))
+            .arg("--db")
+            .arg(db)
+            .args(args)
+            .env("CUVETTE_USER", "Test Runner")
+            .env_remove("CUVETTE_DB")
+            .output()
+            .unwrap();
+        Out {
+            code: out.status.code().unwrap_or(-1),
+            stdout: String::from_utf8_lossy(&out.stdout).to_string(),
+            stderr: String::from_utf8_lossy(&out.stderr).to_string(),
+        }
+    }
+    pub fn ok(&self, args: &[&str]) -> Out {
+        let o = self.run(args);
+        assert_eq!(o.code, 0, "cuvette {args:?} failed: {}{}", o.stderr, o.stdout);
+        o
+    }
+    pub fn counts(&self) -> Vec<(String, i64)> {
+        let c = rusqlite::Connection::open(&self.db).unwrap();
+        cuvette::store::row_counts(&c).unwrap()
+    }
+    /// A failing command: exit code 1, a one-line message containing `needle`, nothing changed.
+    pub fn refuses(&self, args: &[&str], needle: &str) {
+        let before = self.counts();
+        let o = self.run(args);
+        assert_eq!(
+            o.code, 1,
+            "expected exit 1 for {args:?}, got {}: {}{}",
+            o.code, o.stderr, o.stdout
+        );
+        assert!(
+            o.stderr.contains(needle),
+            "message for {args:?} lacks '{needle}': {}",
+            o.stderr
+        );
+        assert_eq!(o.stderr.trim().lines().count(), 1, "not one line: {}", o.stderr);
+        assert!(!o.stderr.contains("panicked"), "{}", o.stderr);
+        assert_eq!(self.counts(), before, "{args:?} changed the database");
+    }
+    pub fn write(&self, name: &str, text: &str) -> PathBuf {
+        let p = self.path(name);
+        std::fs::write(&p, text).unwrap();
+        p
+    }
+    /// A CdSe-like absorbance file: a Gaussian in energy at `peak_nm` on a rising background.
+    pub fn abs_file(&self, name: &str, peak_nm: f64) -> PathBuf {
+        let (x, y) = cuvette::demo::absorbance(
+            "CdSe",
+            peak_nm,
+            0.04,
+            0.1,
+            0.0005,
+            &mut cuvette::demo::Rng::new(peak_nm as u64),
+        );
+        self.write(name, &csv(&x, &y))
+    }
+    pub fn pl_file(&self, name: &str, peak_nm: f64, integral: f64) -> PathBuf {
+        let (x, y) =
+            cuvette::demo::photoluminescence("CdSe", peak_nm, 0.045, integral, 2.0, &mut cuvette::demo::Rng::new(3));
+        self.write(name, &csv(&x, &y))
+    }
+}
+
+pub fn csv(x: &[f64], y: &[f64]) -> String {
+    let mut s = String::from("Wavelength (nm),Absorbance\n");
+    for (a, b) in x.iter().zip(y) {
+        s.push_str(&format!("{a},{b}\n"));
+    }
+    s
+}
+
+pub fn s(p: &Path) -> &str {
+    p.to_str().unwrap()
+}
