@@ -468,9 +468,32 @@ fn decode_xydata(
                 }
             }
         }
-        // The DIF Y-check: after a line that ended in DIF form, this line's first ordinate
-        // repeats the previous line's last one and is not a new point.
-        if prev_ended_dif && !line_ys.is_empty() {
+        // The abscissa check: the line's X (in XFACTOR units) is the x of its first ordinate.
+        // After a line that ended in DIF form, that first ordinate is the Y-check value, which
+        // repeats the previous line's last point.
+        let check_line = prev_ended_dif && !line_ys.is_empty();
+        if !line_ys.is_empty() {
+            let index = if check_line {
+                ys.len().saturating_sub(1)
+            } else {
+                ys.len()
+            };
+            let expect = firstx + index as f64 * deltax;
+            let got = xv * xfactor;
+            if (got - expect).abs() > 0.5 * deltax.abs() + 1e-9 * expect.abs() {
+                return Err(spectrum_error(
+                    file,
+                    Some(*ln),
+                    &format!(
+                        "abscissa check failed: line gives x = {got}, point {} is at {expect}",
+                        index + 1
+                    ),
+                ));
+            }
+            xchecks += 1;
+        }
+        // The DIF Y-check itself.
+        if check_line {
             let expect = ys.last().copied().unwrap_or(f64::NAN);
             let got = line_ys[0];
             if (got - expect).abs() > 1e-9 * expect.abs().max(1.0) {
@@ -482,22 +505,6 @@ fn decode_xydata(
             }
             ychecks += 1;
             line_ys.remove(0);
-        }
-        // The abscissa check: the line's X (in XFACTOR units) must be the next point's x.
-        if !line_ys.is_empty() {
-            let expect = firstx + ys.len() as f64 * deltax;
-            let got = xv * xfactor;
-            if (got - expect).abs() > 0.5 * deltax.abs() + 1e-9 * expect.abs() {
-                return Err(spectrum_error(
-                    file,
-                    Some(*ln),
-                    &format!(
-                        "abscissa check failed: line gives x = {got}, point {} should be at {expect}",
-                        ys.len() + 1
-                    ),
-                ));
-            }
-            xchecks += 1;
         }
         ys.extend(line_ys);
         prev_ended_dif = ended_dif;

@@ -193,7 +193,7 @@ impl RawSpectrum {
         pts.sort_by(|a, b| a.0.total_cmp(&b.0));
         let lo = pts[0].0;
         let hi = pts[pts.len() - 1].0;
-        if hi < PLAUSIBLE_NM.0 || lo > PLAUSIBLE_NM.1 || (hi - lo) < 5.0 {
+        if lo < PLAUSIBLE_NM.0 || hi > PLAUSIBLE_NM.1 || (hi - lo) < 5.0 {
             return Err(spectrum_error(
                 file,
                 None,
