@@ -605,6 +605,42 @@ pub enum CalibCmd {
         #[arg(long)]
         json: bool,
     },
+    /// A lab's own sizing curve, D = c0 + c1 λ + c2 λ² + ... (λ in nm); use it as lab:NAME.
+    #[command(allow_negative_numbers = true)]
+    SetLabCurve {
+        name: String,
+        #[arg(long)]
+        material: String,
+        /// Comma-separated c0,c1,c2,...
+        #[arg(long, allow_hyphen_values = true)]
+        coeffs: String,
+        /// Diameter range it holds over, LOW..HIGH nm.
+        #[arg(long)]
+        range: String,
+        #[arg(long)]
+        source: String,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
+    /// A lab's own extinction power law ε = prefactor · D^exponent; use it as lab:NAME.
+    #[command(allow_negative_numbers = true)]
+    SetLabExtinction {
+        name: String,
+        #[arg(long)]
+        material: String,
+        #[arg(long)]
+        prefactor: f64,
+        #[arg(long)]
+        exponent: f64,
+        #[arg(long)]
+        source: String,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
     /// Bulk parameters for the effective-mass model.
     #[command(allow_negative_numbers = true)]
     SetBulk {

@@ -1293,13 +1293,24 @@ fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
             why,
             json: j,
         } => {
-            let (material, curve) = (material.clone(), curve.to_ascii_lowercase());
+            let (material, curve) = (
+                material.clone(),
+                if curve.starts_with("lab:") {
+                    curve.clone()
+                } else {
+                    curve.to_ascii_lowercase()
+                },
+            );
             change(&mut store, why, *j, &|tx, body| {
                 let core = core_of(tx, &material)?;
                 body.curves.insert(core.clone(), curve.clone());
                 // A curve that comes with its own extinction coefficients brings them along:
                 // the two calibrations of one paper belong together.
                 if extinction::model_for(&core, &curve).is_ok() {
+                    body.extinction.insert(core, curve.clone());
+                } else if let Some(name) = curve.strip_prefix("lab:")
+                    && body.lab_extinction.contains_key(name)
+                {
                     body.extinction.insert(core, curve.clone());
                 }
                 Ok(())
@@ -1311,7 +1322,14 @@ fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
             why,
             json: j,
         } => {
-            let (material, model) = (material.clone(), model.to_ascii_lowercase());
+            let (material, model) = (
+                material.clone(),
+                if model.starts_with("lab:") {
+                    model.clone()
+                } else {
+                    model.to_ascii_lowercase()
+                },
+            );
             change(&mut store, why, *j, &|tx, body| {
                 let core = core_of(tx, &material)?;
                 body.extinction.insert(core, model.clone());
@@ -1396,6 +1414,74 @@ fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
             };
             change(&mut store, why, *j, &|_, body| {
                 body.detector_correction = Some(d.clone());
+                Ok(())
+            })?;
+        }
+        CalibCmd::SetLabCurve {
+            name,
+            material,
+            coeffs,
+            range,
+            source,
+            why,
+            json: j,
+        } => {
+            let coefficients: Vec<f64> = coeffs
+                .split(',')
+                .map(|c| {
+                    c.trim()
+                        .parse::<f64>()
+                        .map_err(|_| anyhow!("coefficient '{c}' is not a number"))
+                })
+                .collect::<Result<_>>()?;
+            let (lo, hi) = range
+                .split_once("..")
+                .ok_or_else(|| anyhow!("--range should read LOW..HIGH"))?;
+            let valid_range_nm = [
+                lo.trim()
+                    .parse::<f64>()
+                    .map_err(|_| anyhow!("range low '{lo}' is not a number"))?,
+                hi.trim()
+                    .parse::<f64>()
+                    .map_err(|_| anyhow!("range high '{hi}' is not a number"))?,
+            ];
+            let (name, material, source) = (name.clone(), material.clone(), source.clone());
+            change(&mut store, why, *j, &|tx, body| {
+                let core = core_of(tx, &material)?;
+                body.lab_curves.insert(
+                    name.clone(),
+                    calibration::LabCurve {
+                        material: core,
+                        coefficients: coefficients.clone(),
+                        valid_range_nm,
+                        source: source.clone(),
+                    },
+                );
+                Ok(())
+            })?;
+        }
+        CalibCmd::SetLabExtinction {
+            name,
+            material,
+            prefactor,
+            exponent,
+            source,
+            why,
+            json: j,
+        } => {
+            let (name, material, source, a, b) =
+                (name.clone(), material.clone(), source.clone(), *prefactor, *exponent);
+            change(&mut store, why, *j, &|tx, body| {
+                let core = core_of(tx, &material)?;
+                body.lab_extinction.insert(
+                    name.clone(),
+                    calibration::LabExtinction {
+                        material: core,
+                        prefactor: a,
+                        exponent: b,
+                        source: source.clone(),
+                    },
+                );
                 Ok(())
             })?;
         }

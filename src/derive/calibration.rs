@@ -34,6 +34,26 @@ pub struct DetectorCorrection {
     pub factor: Vec<f64>,
 }
 
+/// A lab's own sizing curve (for example fitted to its own TEM sizes):
+/// D = Σ cᵢ λⁱ with λ in nm, valid over a diameter range. Its id is `lab:NAME`.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct LabCurve {
+    pub material: String,
+    pub coefficients: Vec<f64>,
+    pub valid_range_nm: [f64; 2],
+    pub source: String,
+}
+
+/// A lab's own extinction power law at the first exciton: ε = prefactor · D^exponent
+/// (M⁻¹cm⁻¹, D in nm). Its id is `lab:NAME`.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct LabExtinction {
+    pub material: String,
+    pub prefactor: f64,
+    pub exponent: f64,
+    pub source: String,
+}
+
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
 pub struct Calibration {
     /// Sizing curve id per core material.
@@ -47,6 +67,10 @@ pub struct Calibration {
     /// Bulk parameters for the effective-mass model, by core.
     pub bulk: BTreeMap<String, sizing::BulkParams>,
     pub analysis: AnalysisSettings,
+    #[serde(default)]
+    pub lab_curves: BTreeMap<String, LabCurve>,
+    #[serde(default)]
+    pub lab_extinction: BTreeMap<String, LabExtinction>,
 }
 
 impl Default for Calibration {
@@ -72,8 +96,23 @@ impl Default for Calibration {
             solvent_index: BTreeMap::new(),
             bulk,
             analysis: AnalysisSettings::default(),
+            lab_curves: BTreeMap::new(),
+            lab_extinction: BTreeMap::new(),
         }
     }
+}
+
+fn lab_diameter(c: &LabCurve, l: f64) -> f64 {
+    c.coefficients.iter().rev().fold(0.0, |acc, k| acc * l + k)
+}
+
+/// The wavelengths over which a lab curve gives diameters inside its range, if it ever does.
+fn lab_peak_span(c: &LabCurve) -> Option<(f64, f64)> {
+    let inside: Vec<f64> = (0..=3300)
+        .map(|i| 200.0 + i as f64)
+        .filter(|l| (c.valid_range_nm[0]..=c.valid_range_nm[1]).contains(&lab_diameter(c, *l)))
+        .collect();
+    Some((*inside.first()?, *inside.last()?))
 }
 
 impl Calibration {
@@ -85,11 +124,106 @@ impl Calibration {
             .or_else(|| solvents::refractive_index(solvent))
     }
 
+    /// Sizes with a shipped curve or one of the lab's own.
+    pub fn size(&self, curve_id: &str, core: &str, peak_nm: f64) -> Result<sizing::Sizing> {
+        let Some(name) = curve_id.strip_prefix("lab:") else {
+            return sizing::size(curve_id, core, peak_nm, self.bulk.get(core));
+        };
+        let c = self
+            .lab_curves
+            .get(name)
+            .ok_or_else(|| Error::Invalid(format!("no lab curve '{name}' in this calibration")))?;
+        if c.material != core {
+            return invalid(format!("lab curve '{name}' is for {}, not {core}", c.material));
+        }
+        let d = lab_diameter(c, peak_nm);
+        let slope = (lab_diameter(c, peak_nm + 0.5) - lab_diameter(c, peak_nm - 0.5)) / 1.0;
+        let mut warnings = Vec::new();
+        if !(c.valid_range_nm[0]..=c.valid_range_nm[1]).contains(&d) {
+            warnings.push(format!(
+                "diameter {d:.2} nm is outside {curve_id}'s range {:.1}-{:.1} nm: extrapolated",
+                c.valid_range_nm[0], c.valid_range_nm[1]
+            ));
+        }
+        Ok(sizing::Sizing {
+            diameter_nm: d,
+            edge_nm: None,
+            curve: curve_id.to_string(),
+            valid_range_nm: c.valid_range_nm,
+            slope,
+            warnings,
+        })
+    }
+
+    /// ε with a shipped model or the lab's own power law.
+    pub fn extinction(
+        &self,
+        model: &str,
+        core: &str,
+        d_nm: f64,
+        peak_nm: f64,
+        hwhm_ev: Option<f64>,
+    ) -> Result<extinction::Extinction> {
+        let Some(name) = model.strip_prefix("lab:") else {
+            return extinction::coefficient(model, core, d_nm, peak_nm, hwhm_ev);
+        };
+        let e = self
+            .lab_extinction
+            .get(name)
+            .ok_or_else(|| Error::Invalid(format!("no lab extinction '{name}' in this calibration")))?;
+        Ok(extinction::Extinction {
+            model: model.to_string(),
+            extinction_m1cm1: e.prefactor * d_nm.powf(e.exponent),
+            at_nm: peak_nm,
+            warnings: vec![],
+        })
+    }
+
     /// Refuses a calibration that cannot be right: a curve not made for its material, a
     /// non-monotonic curve, a non-positive extinction, a dye value outside (0, 1], a
     /// detector correction that is not a positive, increasing curve.
     pub fn validate(&self) -> Result<()> {
+        for (name, c) in &self.lab_curves {
+            if c.coefficients.is_empty() || c.coefficients.iter().any(|k| !k.is_finite()) {
+                return invalid(format!("lab curve '{name}' needs finite coefficients"));
+            }
+            if !(c.valid_range_nm[0] > 0.0 && c.valid_range_nm[0] < c.valid_range_nm[1]) {
+                return invalid(format!("lab curve '{name}' needs a range LOW..HIGH above zero"));
+            }
+            let (lo, hi) = lab_peak_span(c).ok_or_else(|| {
+                Error::Invalid(format!(
+                    "lab curve '{name}' gives no diameter inside its range between 200 and 3500 nm"
+                ))
+            })?;
+            let mut prev = lab_diameter(c, lo);
+            let mut l = lo;
+            while l < hi {
+                l = (l + 0.5).min(hi);
+                let d = lab_diameter(c, l);
+                if d < prev - 1e-9 {
+                    return invalid(format!(
+                        "lab curve '{name}' is not monotonic: diameter falls near {l:.0} nm"
+                    ));
+                }
+                prev = d;
+            }
+        }
+        for (name, e) in &self.lab_extinction {
+            if !(e.prefactor > 0.0) || !e.exponent.is_finite() {
+                return invalid(format!(
+                    "lab extinction '{name}' must have a positive prefactor (got {})",
+                    e.prefactor
+                ));
+            }
+        }
         for (core, curve) in &self.curves {
+            if let Some(name) = curve.strip_prefix("lab:") {
+                match self.lab_curves.get(name) {
+                    Some(c) if &c.material == core => continue,
+                    Some(c) => return invalid(format!("lab curve '{name}' is for {}, not {core}", c.material)),
+                    None => return invalid(format!("no lab curve '{name}'")),
+                }
+            }
             let c = sizing::Curve::parse(curve)?;
             if c != sizing::Curve::Brus && !c.materials().contains(&core.as_str()) {
                 return invalid(format!(
@@ -103,6 +237,13 @@ impl Calibration {
             sizing::check_monotonic(curve, core, self.bulk.get(core))?;
         }
         for (core, model) in &self.extinction {
+            if let Some(name) = model.strip_prefix("lab:") {
+                match self.lab_extinction.get(name) {
+                    Some(e) if &e.material == core => continue,
+                    Some(e) => return invalid(format!("lab extinction '{name}' is for {}, not {core}", e.material)),
+                    None => return invalid(format!("no lab extinction '{name}'")),
+                }
+            }
             extinction::model_for(core, model)?;
         }
         for (core, b) in &self.bulk {

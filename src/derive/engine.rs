@@ -43,6 +43,8 @@ fn relevant(cal: &Calibration, core: &str, solvent: &str, has_pl: bool) -> serde
         "curve": cal.curves.get(core),
         "extinction": cal.extinction.get(core),
         "bulk": cal.bulk.get(core),
+        "lab_curve": cal.curves.get(core).and_then(|c| c.strip_prefix("lab:")).and_then(|n| cal.lab_curves.get(n)),
+        "lab_extinction": cal.extinction.get(core).and_then(|c| c.strip_prefix("lab:")).and_then(|n| cal.lab_extinction.get(n)),
         "analysis": cal.analysis,
         "n": cal.refractive_index(solvent),
     });
@@ -174,7 +176,7 @@ pub fn compute(a: &AliquotRow, core: &str, spectra: &[SpectrumRow], cal: &Calibr
                             "none",
                             vec![format!("no sizing curve set for {core}")],
                         )),
-                        Some(curve) => match sizing::size(curve, core, peak, cal.bulk.get(core)) {
+                        Some(curve) => match cal.size(curve, core, peak) {
                             Err(e) => out.push(d("diameter_nm", None, "nm", curve, vec![e.to_string()])),
                             Ok(sz) => {
                                 let w = sz.warnings.clone();
@@ -197,7 +199,7 @@ pub fn compute(a: &AliquotRow, core: &str, spectra: &[SpectrumRow], cal: &Calibr
                                     vec![],
                                 ));
                                 if let Some(model) = cal.extinction.get(core) {
-                                    match extinction::coefficient(model, core, sz.diameter_nm, peak, r.hwhm_ev) {
+                                    match cal.extinction(model, core, sz.diameter_nm, peak, r.hwhm_ev) {
                                         Err(e) => out.push(d(
                                             "extinction_m1cm1",
                                             None,
