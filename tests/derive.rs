@@ -40,7 +40,7 @@ fn sizing_curves_reproduce_their_published_equations() {
     // Moreels et al., ACS Nano 3, 3023 (2009), Eq. 4: d = 4 nm gives E0 = 1.061381 eV = 1168.140 nm.
     close(sizing::moreels2009_gap_ev(4.0), 1.061_380_93, 1e-8);
     close(
-        sizing::size("moreels2009", "PbS", 1168.140_44, None)
+        sizing::size("moreels2009", "PbS", 1_168.140_44, None)
             .unwrap()
             .diameter_nm,
         4.0,
@@ -48,7 +48,7 @@ fn sizing_curves_reproduce_their_published_equations() {
     );
     // Moreels et al., Chem. Mater. 19, 6101 (2007): d = 5 nm gives E0 = 0.805704 eV = 1538.83 nm.
     close(
-        sizing::size("moreels2007", "PbSe", 1538.829_69, None)
+        sizing::size("moreels2007", "PbSe", 1_538.829_69, None)
             .unwrap()
             .diameter_nm,
         5.0,
