@@ -158,7 +158,7 @@ fn every_entity_round_trips_through_the_store() {
     st.write(|tx, who| model::save_recipe(tx, who, "r1", "CdSe", &[], &[], None))
         .unwrap();
     assert_eq!(model::recipe_view(&st.conn, rv).unwrap().reagents.len(), 1);
-    assert_eq!(model::recipe_version_id(&st.conn, "r1", None).unwrap() != rv, true);
+    assert_ne!(model::recipe_version_id(&st.conn, "r1", None).unwrap(), rv);
 }
 
 #[test]
