@@ -682,7 +682,7 @@ pub struct ExplainArgs {
 #[derive(Debug, Args)]
 pub struct FindArgs {
     /// The query, e.g. 'CdSe size:3.5..4 qy>50% stock'.
-    #[arg(num_args = 0.., trailing_var_arg = true, allow_hyphen_values = true)]
+    #[arg(num_args = 0..)]
     pub query: Vec<String>,
     #[arg(long)]
     pub json: bool,
