@@ -130,7 +130,7 @@ pub fn absorbance(core: &str, peak_nm: f64, sigma_ev: f64, a1: f64, noise: f64, 
         let v = a1 * gauss(e, e1, sigma_ev)
             + 0.45 * a1 * gauss(e, e1 + d2, sigma_ev * 1.3)
             + 0.8 * a1 * gauss(e, e1 + d3, sigma_ev * 2.0)
-            + a1 * 0.9 * rise * (1.0 + 1.2 * (e - e1).max(0.0))
+            + a1 * if core == "InP" { 1.6 } else { 0.9 } * rise * (1.0 + 1.5 * (e - e1).max(0.0))
             + 0.003 * (400.0 / l).powi(4)
             + noise * rng.normal();
         x.push(l);
@@ -222,7 +222,7 @@ fn growth_series(plan: &BatchPlan, final_peak: f64, rng: &mut Rng) -> Vec<Sample
     let minutes = [0.5, 1.0, 2.0, 4.0, 7.0, 10.0, 14.0, 20.0];
     let (span, sigma_min, tau): (f64, f64, f64) = match core.as_str() {
         "PbS" => (220.0, 0.045, 1.5),
-        "InP" => (45.0, 0.10, 6.0),
+        "InP" => (45.0, 0.075, 6.0),
         _ => (55.0, 0.036, 4.0),
     };
     let failed = plan.status == "failed";

@@ -4,7 +4,7 @@
 
 mod export;
 mod handover;
-mod plot;
+pub mod plot;
 
 pub use export::export;
 pub use handover::{HandoverReport, handover};

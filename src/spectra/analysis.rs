@@ -170,7 +170,6 @@ pub fn analyze_absorbance(t: &Trace, set: &AnalysisSettings) -> Result<AbsResult
     let order = set.smoothing_order.min(2 * half - 1);
     let s = savgol::filter(&u.y, half, order, 0, u.step_nm)?;
     let d1 = savgol::filter(&u.y, half, order.max(2), 1, u.step_nm)?;
-    let d2 = savgol::filter(&u.y, half, order.max(2), 2, u.step_nm)?;
     let noise = noise_of(&u.y, &s);
     let max_abs = t.y.iter().copied().fold(f64::MIN, f64::max);
     let smax = s.iter().copied().fold(f64::MIN, f64::max);
@@ -178,7 +177,7 @@ pub fn analyze_absorbance(t: &Trace, set: &AnalysisSettings) -> Result<AbsResult
     let mut warnings = Vec::new();
 
     // Resolved peaks: local maxima of the smooth, reddest first, with a real dip to the blue.
-    let mut found: Option<(f64, bool)> = None;
+    let mut resolved: Option<f64> = None;
     for i in (1..n - 1).rev() {
         if !(s[i] > s[i + 1] && s[i] >= s[i - 1] && s[i] > threshold) {
             continue;
@@ -198,32 +197,42 @@ pub fn analyze_absorbance(t: &Trace, set: &AnalysisSettings) -> Result<AbsResult
             } else {
                 i as f64
             };
-            found = Some((fi, false));
+            resolved = Some(fi);
             break;
         }
     }
-    if found.is_none() {
-        // A shoulder: the reddest significant minimum of the second derivative.
-        let c2 = savgol::coefficients(half, order.max(2), 2)?;
-        let d2_noise = noise * c2.iter().map(|c| c * c).sum::<f64>().sqrt() / u.step_nm.powi(2);
-        let region_max = (0..n)
-            .filter(|&i| s[i] > threshold)
-            .map(|i| d2[i].abs())
-            .fold(0.0, f64::max);
-        let thr2 = (5.0 * d2_noise).max(0.05 * region_max);
-        for i in (1..n - 1).rev() {
-            if d2[i] < d2[i - 1] && d2[i] <= d2[i + 1] && d2[i] < -thr2 && s[i] > threshold {
-                let denom = d2[i - 1] - 2.0 * d2[i] + d2[i + 1];
-                let off = if denom.abs() > 0.0 {
-                    0.5 * (d2[i - 1] - d2[i + 1]) / denom
-                } else {
-                    0.0
-                };
-                found = Some((i as f64 + off.clamp(-0.5, 0.5), true));
-                break;
-            }
+    // Shoulders: the reddest significant minimum of the second derivative, taken over a
+    // wider window because a second derivative amplifies noise. A shoulder redder than the
+    // reddest resolved maximum is the first exciton (the maximum is a higher transition).
+    let half2 = (2 * half).min((n.saturating_sub(1) / 6).max(2));
+    let d2 = savgol::filter(&u.y, half2, order.max(2), 2, u.step_nm)?;
+    let c2 = savgol::coefficients(half2, order.max(2), 2)?;
+    let d2_noise = noise * c2.iter().map(|c| c * c).sum::<f64>().sqrt() / u.step_nm.powi(2);
+    let region_max = (0..n)
+        .filter(|&i| s[i] > threshold)
+        .map(|i| d2[i].abs())
+        .fold(0.0, f64::max);
+    let thr2 = (6.0 * d2_noise).max(0.03 * region_max);
+    let mut shoulder_at: Option<f64> = None;
+    for i in (1..n - 1).rev() {
+        if d2[i] < d2[i - 1] && d2[i] <= d2[i + 1] && d2[i] < -thr2 && s[i] > threshold {
+            let denom = d2[i - 1] - 2.0 * d2[i] + d2[i + 1];
+            let off = if denom.abs() > 0.0 {
+                0.5 * (d2[i - 1] - d2[i + 1]) / denom
+            } else {
+                0.0
+            };
+            shoulder_at = Some(i as f64 + off.clamp(-0.5, 0.5));
+            break;
         }
     }
+    let separate = (2 * half2) as f64 + 10.0 / u.step_nm;
+    let found = match (resolved, shoulder_at) {
+        (Some(r), Some(sh)) if sh > r + separate => Some((sh, true)),
+        (Some(r), _) => Some((r, false)),
+        (None, Some(sh)) => Some((sh, true)),
+        (None, None) => None,
+    };
     let Some((fi, shoulder)) = found else {
         warnings.push("no excitonic feature found".into());
         if max_abs > set.saturation_abs {

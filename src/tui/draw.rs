@@ -1,0 +1,637 @@
+//! Drawing: pure functions of the app state onto a frame. Nothing here does I/O or changes
+//! state. Colour only where it carries meaning (errors, stale values, the selected row), and
+//! none at all when NO_COLOR is set.
+
+use super::app::{App, Mode, SortKey, View};
+use super::keys::Scope;
+use ratatui::Frame;
+use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::style::{Color, Modifier, Style};
+use ratatui::symbols::Marker;
+use ratatui::text::{Line, Span};
+use ratatui::widgets::{Axis, Block, Cell, Chart, Clear, Dataset, GraphType, Paragraph, Row, Table, TableState, Wrap};
+
+fn n(v: Option<f64>, d: usize) -> String {
+    v.map(|x| format!("{x:.d$}")).unwrap_or_else(|| "-".into())
+}
+
+struct Palette {
+    on: bool,
+}
+
+impl Palette {
+    fn sel(&self) -> Style {
+        if self.on {
+            Style::default().bg(Color::Blue).fg(Color::White)
+        } else {
+            Style::default().add_modifier(Modifier::REVERSED)
+        }
+    }
+    fn err(&self) -> Style {
+        if self.on {
+            Style::default().fg(Color::Red).add_modifier(Modifier::BOLD)
+        } else {
+            Style::default().add_modifier(Modifier::BOLD)
+        }
+    }
+    fn warn(&self) -> Style {
+        if self.on {
+            Style::default().fg(Color::Yellow)
+        } else {
+            Style::default().add_modifier(Modifier::ITALIC)
+        }
+    }
+    fn head(&self) -> Style {
+        Style::default().add_modifier(Modifier::BOLD)
+    }
+    fn trace(&self, i: usize, count: usize) -> Style {
+        if !self.on {
+            return Style::default();
+        }
+        let t = if count <= 1 { 0.0 } else { i as f64 / (count - 1) as f64 };
+        Style::default().fg(Color::Rgb((60.0 + 190.0 * t) as u8, 90, (230.0 - 190.0 * t) as u8))
+    }
+}
+
+pub fn draw(f: &mut Frame, app: &App) {
+    let p = Palette { on: app.colour };
+    let [top, body, status, footer] = Layout::vertical([
+        Constraint::Length(1),
+        Constraint::Min(5),
+        Constraint::Length(1),
+        Constraint::Length(1),
+    ])
+    .areas(f.area());
+    draw_tabs(f, app, top, &p);
+    match app.view {
+        View::Ledger => draw_ledger(f, app, body, &p),
+        View::Sheet => draw_sheet(f, app, body, &p),
+        View::Shelf => draw_shelf(f, app, body, &p),
+        View::Calibrations => draw_calibrations(f, app, body, &p),
+        View::Trail => draw_trail(f, app, body, &p),
+    }
+    draw_status(f, app, status, &p);
+    draw_footer(f, app, footer, &p);
+    match &app.mode {
+        Mode::Help => draw_help(f, app, &p),
+        Mode::Form(form) => draw_form(f, form, &p),
+        Mode::Picker(pk) => draw_picker(f, pk, &p),
+        _ => {}
+    }
+}
+
+fn draw_tabs(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
+    let names = [
+        ("1", "Ledger", View::Ledger),
+        ("2", "Shelf", View::Shelf),
+        ("3", "Calibrations", View::Calibrations),
+        ("4", "Trail", View::Trail),
+    ];
+    let mut spans = vec![Span::styled(" cuvette ", p.head())];
+    for (k, name, v) in names {
+        let on = app.view == v || (v == View::Ledger && app.view == View::Sheet);
+        let style = if on { p.sel() } else { Style::default() };
+        spans.push(Span::raw(" "));
+        spans.push(Span::styled(format!("{k} {name}"), style));
+    }
+    if let Some(path) = &app.db_path {
+        spans.push(Span::raw(format!(
+            "  {}",
+            path.file_name()
+                .map(|n| n.to_string_lossy().to_string())
+                .unwrap_or_default()
+        )));
+    }
+    f.render_widget(Paragraph::new(Line::from(spans)), area);
+}
+
+fn sort_mark(app: &App, k: SortKey, label: &str) -> String {
+    if app.sort == k {
+        format!("{label}{}", if app.sort_desc { "▼" } else { "▲" })
+    } else {
+        label.to_string()
+    }
+}
+
+fn draw_ledger(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
+    let [search, table] = Layout::vertical([Constraint::Length(1), Constraint::Min(3)]).areas(area);
+    let searching = matches!(app.mode, Mode::Search);
+    let mut line = vec![Span::styled("/ ", p.head()), Span::raw(app.query.clone())];
+    if searching {
+        line.push(Span::styled("▏", p.head()));
+    }
+    match &app.query_error {
+        Some(e) => line.push(Span::styled(format!("  {e}"), p.err())),
+        None => line.push(Span::raw(format!(
+            "  {} of {} batches",
+            app.hits.len(),
+            app.facts.len()
+        ))),
+    }
+    f.render_widget(Paragraph::new(Line::from(line)), search);
+    let header = Row::new(vec![
+        sort_mark(app, SortKey::Id, "id"),
+        sort_mark(app, SortKey::Date, "date"),
+        sort_mark(app, SortKey::Material, "material"),
+        sort_mark(app, SortKey::Peak, "peak"),
+        sort_mark(app, SortKey::Diameter, "D nm"),
+        sort_mark(app, SortKey::Qy, "QY"),
+        sort_mark(app, SortKey::Stock, "mL"),
+        "name".to_string(),
+    ])
+    .style(p.head());
+    // Only the rows that fit are built, so a lab of any size draws at once.
+    let visible = table.height.saturating_sub(1) as usize;
+    let start = app.selected.saturating_sub(visible.saturating_sub(1));
+    let rows = app.hits.iter().skip(start).take(visible.max(1)).map(|h| {
+        Row::new(vec![
+            h.id.to_string(),
+            h.started_at.get(..10).unwrap_or("").to_string(),
+            h.material.clone(),
+            n(h.first_exciton_nm, 1),
+            n(h.diameter_nm, 2),
+            n(h.qy, 2),
+            format!("{:.1}", h.stock_ml),
+            format!(
+                "{} {}",
+                h.name,
+                if h.status == "done" {
+                    String::new()
+                } else {
+                    format!("[{}]", h.status)
+                }
+            ),
+        ])
+    });
+    let widths = [
+        Constraint::Length(5),
+        Constraint::Length(10),
+        Constraint::Length(9),
+        Constraint::Length(7),
+        Constraint::Length(6),
+        Constraint::Length(5),
+        Constraint::Length(6),
+        Constraint::Min(10),
+    ];
+    let mut state = TableState::default().with_selected(Some(app.selected - start));
+    f.render_stateful_widget(
+        Table::new(rows, widths).header(header).row_highlight_style(p.sel()),
+        table,
+        &mut state,
+    );
+}
+
+fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
+    let Some(b) = &app.sheet else {
+        f.render_widget(Paragraph::new("no batch open"), area);
+        return;
+    };
+    let s = |k: &str| b[k].as_str().unwrap_or("").to_string();
+    let [head, mid, foot] =
+        Layout::vertical([Constraint::Length(2), Constraint::Min(6), Constraint::Length(4)]).areas(area);
+    let g = &b["growth"];
+    let head_text = vec![
+        Line::from(vec![
+            Span::styled(format!("Batch {} {}", b["id"], s("name")), p.head()),
+            Span::raw(format!("  {} · {} · {}", s("material"), s("status"), s("operator"))),
+        ]),
+        Line::from(format!(
+            "{} · growth: {} · {} nm/min{}",
+            b["recipe"]
+                .as_str()
+                .map(|r| format!("{r} v{}", b["recipe_version"]))
+                .unwrap_or_else(|| "no recipe".into()),
+            g["regime"].as_str().unwrap_or(""),
+            n(g["growth_rate_nm_per_min"].as_f64(), 3),
+            g["focusing_turn_min"]
+                .as_f64()
+                .map(|m| format!(" · turns at {m} min"))
+                .unwrap_or_default()
+        )),
+    ];
+    f.render_widget(Paragraph::new(head_text), head);
+    let [left, right] = Layout::horizontal([Constraint::Length(44), Constraint::Min(20)]).areas(mid);
+    let header = Row::new(vec!["min", "peak", "D nm", "σ/D%", "PL nm", "QY", "cal"]).style(p.head());
+    let rows: Vec<Row> = b["aliquots"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .map(|a| {
+            let stale = a["stale"].as_bool() == Some(true);
+            let cal = format!(
+                "{}{}",
+                a["curve"].as_str().map(|c| &c[..c.len().min(4)]).unwrap_or("-"),
+                a["calibration_version"]
+                    .as_i64()
+                    .map(|v| format!(" v{v}"))
+                    .unwrap_or_default()
+            );
+            let cells = vec![
+                Cell::from(
+                    a["minutes"]
+                        .as_f64()
+                        .map(|m| format!("{m}"))
+                        .unwrap_or_else(|| a["stage"].as_str().unwrap_or("").to_string()),
+                ),
+                Cell::from(format!(
+                    "{}{}",
+                    n(a["first_exciton_nm"].as_f64(), 1),
+                    if a["shoulder"].as_bool() == Some(true) { "s" } else { "" }
+                )),
+                Cell::from(n(a["diameter_nm"].as_f64(), 2)),
+                Cell::from(n(a["size_dispersion_pct"].as_f64(), 1)),
+                Cell::from(n(a["pl_peak_nm"].as_f64(), 1)),
+                Cell::from(n(a["qy"].as_f64(), 2)),
+                Cell::from(if stale { format!("{cal} STALE") } else { cal }),
+            ];
+            let r = Row::new(cells);
+            if stale { r.style(p.warn()) } else { r }
+        })
+        .collect();
+    let widths = [
+        Constraint::Length(5),
+        Constraint::Length(7),
+        Constraint::Length(5),
+        Constraint::Length(5),
+        Constraint::Length(6),
+        Constraint::Length(4),
+        Constraint::Min(6),
+    ];
+    f.render_widget(
+        Table::new(rows, widths)
+            .header(header)
+            .block(Block::bordered().title("growth series")),
+        left,
+    );
+    draw_chart(f, app, right, p);
+    let mut lines: Vec<Line> = Vec::new();
+    let vials: Vec<String> = b["vials"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .filter(|v| v["status"] != "disposed")
+        .map(|v| {
+            format!(
+                "{} {:.2} mL @ {}",
+                v["label"].as_str().unwrap_or(""),
+                v["volume_ml"].as_f64().unwrap_or(0.0),
+                v["location"].as_str().unwrap_or("")
+            )
+        })
+        .collect();
+    lines.push(Line::from(format!(
+        "vials: {}",
+        if vials.is_empty() {
+            "none".to_string()
+        } else {
+            vials.join("; ")
+        }
+    )));
+    for c in b["cautions"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .rev()
+        .take(3)
+        .collect::<Vec<_>>()
+        .into_iter()
+        .rev()
+    {
+        lines.push(Line::styled(format!("! {}", c.as_str().unwrap_or("")), p.warn()));
+    }
+    f.render_widget(Paragraph::new(lines).wrap(Wrap { trim: true }), foot);
+}
+
+fn draw_chart(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
+    let traces: Vec<(usize, &crate::report::plot::SeriesItem, &crate::spectra::Trace)> = app
+        .series
+        .iter()
+        .enumerate()
+        .filter_map(|(i, s)| if app.show_pl { s.pl.as_ref() } else { s.abs.as_ref() }.map(|t| (i, s, t)))
+        .collect();
+    let title = if app.show_pl {
+        "PL (p: absorbance)"
+    } else {
+        "absorbance (p: PL)"
+    };
+    if traces.is_empty() {
+        f.render_widget(
+            Paragraph::new("no spectra yet: a adds an aliquot").block(Block::bordered().title(title)),
+            area,
+        );
+        return;
+    }
+    // Decimate to the chart's resolution: a Braille cell holds 2 points across.
+    let width = (area.width as usize * 2).max(10);
+    let data: Vec<Vec<(f64, f64)>> = traces
+        .iter()
+        .map(|(_, _, t)| {
+            let step = (t.nm.len() / width).max(1);
+            t.nm.iter().zip(&t.y).step_by(step).map(|(a, b)| (*a, *b)).collect()
+        })
+        .collect();
+    let (mut x0, mut x1, mut y1) = (f64::MAX, f64::MIN, f64::MIN);
+    let mut y0 = 0.0f64;
+    for d in &data {
+        for (x, y) in d {
+            x0 = x0.min(*x);
+            x1 = x1.max(*x);
+            y0 = y0.min(*y);
+            y1 = y1.max(*y);
+        }
+    }
+    // The first-exciton marks: a short vertical tick at each peak.
+    let marks: Vec<Vec<(f64, f64)>> = traces
+        .iter()
+        .filter(|_| !app.show_pl)
+        .filter_map(|(_, s, t)| {
+            let pk = s.peak_nm?;
+            let a = crate::spectra::analysis::interpolate(t, pk)?;
+            Some((0..6).map(|k| (pk, a + (y1 - y0) * 0.02 * k as f64)).collect())
+        })
+        .collect();
+    let count = traces.len();
+    let mut sets: Vec<Dataset> = traces
+        .iter()
+        .zip(&data)
+        .map(|((i, s, _), d)| {
+            Dataset::default()
+                .name(s.label.clone())
+                .marker(Marker::Braille)
+                .graph_type(GraphType::Line)
+                .style(p.trace(*i, count))
+                .data(d)
+        })
+        .collect();
+    for m in &marks {
+        sets.push(
+            Dataset::default()
+                .marker(Marker::Dot)
+                .graph_type(GraphType::Scatter)
+                .style(p.head())
+                .data(m),
+        );
+    }
+    let chart = Chart::new(sets)
+        .block(Block::bordered().title(title))
+        .x_axis(
+            Axis::default()
+                .title("nm")
+                .bounds([x0, x1])
+                .labels([format!("{x0:.0}"), format!("{x1:.0}")]),
+        )
+        .y_axis(
+            Axis::default()
+                .bounds([y0, y1 * 1.05])
+                .labels([format!("{y0:.1}"), format!("{y1:.2}")]),
+        )
+        .hidden_legend_constraints((Constraint::Ratio(1, 2), Constraint::Ratio(1, 2)));
+    f.render_widget(chart, area);
+}
+
+fn draw_shelf(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
+    let header = Row::new(vec![
+        "location", "vial", "batch", "material", "mL", "µM", "nmol", "owner",
+    ])
+    .style(p.head());
+    let visible = area.height.saturating_sub(1) as usize;
+    let start = app.vial_selected.saturating_sub(visible.saturating_sub(1));
+    let rows = app.vials.iter().skip(start).take(visible.max(1)).map(|v| {
+        let low = v.volume_ml < crate::report::LOW_STOCK_ML;
+        let r = Row::new(vec![
+            v.location.clone(),
+            v.label.clone(),
+            v.batch_id.to_string(),
+            v.material.clone(),
+            format!("{:.2}{}", v.volume_ml, if low { " low" } else { "" }),
+            n(v.concentration_molar.map(|c| c * 1e6), 2),
+            n(v.concentration_molar.map(|c| c * v.volume_ml * 1e6), 1),
+            v.owner.clone().unwrap_or_default(),
+        ]);
+        if low { r.style(p.warn()) } else { r }
+    });
+    let widths = [
+        Constraint::Length(13),
+        Constraint::Length(16),
+        Constraint::Length(5),
+        Constraint::Length(9),
+        Constraint::Length(8),
+        Constraint::Length(6),
+        Constraint::Length(6),
+        Constraint::Min(6),
+    ];
+    let mut state = TableState::default().with_selected(if app.vials.is_empty() {
+        None
+    } else {
+        Some(app.vial_selected - start)
+    });
+    f.render_stateful_widget(
+        Table::new(rows, widths).header(header).row_highlight_style(p.sel()),
+        area,
+        &mut state,
+    );
+}
+
+fn draw_calibrations(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
+    let [list, detail] = Layout::vertical([Constraint::Percentage(45), Constraint::Min(4)]).areas(area);
+    let rows = app.calibrations.iter().rev().map(|c| {
+        let curves: Vec<String> = c.body.curves.iter().map(|(m, k)| format!("{m}:{k}")).collect();
+        Row::new(vec![
+            format!("v{}", c.version),
+            c.created_at.get(..10).unwrap_or("").to_string(),
+            c.created_by.clone(),
+            c.why.clone(),
+            curves.join(" "),
+        ])
+    });
+    let widths = [
+        Constraint::Length(4),
+        Constraint::Length(10),
+        Constraint::Length(14),
+        Constraint::Length(22),
+        Constraint::Min(10),
+    ];
+    f.render_widget(
+        Table::new(rows, widths)
+            .header(Row::new(vec!["ver", "date", "by", "why", "curves"]).style(p.head()))
+            .block(Block::bordered().title("calibration versions")),
+        list,
+    );
+    let mut lines = Vec::new();
+    match &app.preview {
+        None => lines.push(Line::from("p previews what a recompute would change; A applies it.")),
+        Some(r) => {
+            lines.push(Line::styled(
+                format!(
+                    "{} stale aliquots: {} values to recompute, {} change",
+                    r.stale_found, r.recomputed, r.changed
+                ),
+                p.head(),
+            ));
+            for m in r.largest_moves.iter().take(4) {
+                lines.push(Line::from(format!(
+                    "  aliquot {} (batch {}) {} {} → {}",
+                    m.aliquot_id,
+                    m.batch_id,
+                    m.quantity,
+                    n(m.old, 3),
+                    n(m.new, 3)
+                )));
+            }
+            for c in r.threshold_crossings.iter().take(3) {
+                lines.push(Line::styled(
+                    format!("  batch {} crosses {} {}", c.batch_id, c.field, c.threshold),
+                    p.warn(),
+                ));
+            }
+        }
+    }
+    f.render_widget(
+        Paragraph::new(lines).block(Block::bordered().title("recompute")),
+        detail,
+    );
+}
+
+fn draw_trail(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
+    let rows = app.trail.iter().take(area.height as usize).map(|r| {
+        Row::new(vec![
+            r.at.get(..16).unwrap_or("").replace('T', " "),
+            r.who.clone(),
+            r.entity.clone(),
+            r.entity_id.map(|i| i.to_string()).unwrap_or_default(),
+            r.action.clone(),
+        ])
+    });
+    let widths = [
+        Constraint::Length(16),
+        Constraint::Length(16),
+        Constraint::Length(12),
+        Constraint::Length(6),
+        Constraint::Min(8),
+    ];
+    f.render_widget(
+        Table::new(rows, widths).header(Row::new(vec!["when (UTC)", "who", "what", "id", "action"]).style(p.head())),
+        area,
+    );
+}
+
+fn draw_status(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
+    let line = if let Some((label, done, total)) = &app.progress {
+        Line::from(format!("{label}: {done}/{total}"))
+    } else if let Some((err, msg)) = &app.message {
+        Line::styled(msg.clone(), if *err { p.err() } else { Style::default() })
+    } else {
+        Line::from("")
+    };
+    f.render_widget(Paragraph::new(line), area);
+}
+
+fn draw_footer(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
+    let scope = match app.mode {
+        Mode::Search => None,
+        _ => Some(app.scope()),
+    };
+    let spans: Vec<Span> = match scope {
+        None => vec![Span::raw("type a query · Enter/Esc leave the search box")],
+        Some(s) => {
+            let mut v = Vec::new();
+            for (k, name) in app.keys.footer(s) {
+                v.push(Span::styled(k, p.head()));
+                v.push(Span::raw(format!(" {name}  ")));
+            }
+            if s == Scope::Sheet {
+                v.push(Span::styled("Esc", p.head()));
+                v.push(Span::raw(" back"));
+            }
+            v
+        }
+    };
+    f.render_widget(Paragraph::new(Line::from(spans)), area);
+}
+
+fn centred(area: Rect, w: u16, h: u16) -> Rect {
+    let w = w.min(area.width);
+    let h = h.min(area.height);
+    Rect {
+        x: area.x + (area.width - w) / 2,
+        y: area.y + (area.height - h) / 2,
+        width: w,
+        height: h,
+    }
+}
+
+fn draw_help(f: &mut Frame, app: &App, p: &Palette) {
+    let area = centred(f.area(), 72, 22);
+    f.render_widget(Clear, area);
+    let lines: Vec<Line> = app
+        .keys
+        .help()
+        .into_iter()
+        .map(|(scope, key, help)| {
+            Line::from(vec![
+                Span::styled(format!("{key:>7} "), p.head()),
+                Span::raw(format!("{help} ({scope})")),
+            ])
+        })
+        .collect();
+    f.render_widget(
+        Paragraph::new(lines).block(Block::bordered().title("keys · Esc or ? closes")),
+        area,
+    );
+}
+
+fn draw_form(f: &mut Frame, form: &super::app::Form, p: &Palette) {
+    let area = centred(f.area(), 70, form.fields.len() as u16 + 4);
+    f.render_widget(Clear, area);
+    let mut lines: Vec<Line> = form
+        .fields
+        .iter()
+        .enumerate()
+        .map(|(i, (label, value))| {
+            let focus = i == form.focus;
+            Line::from(vec![
+                Span::styled(format!("{label:>14}: "), p.head()),
+                Span::styled(
+                    format!("{value}{}", if focus { "▏" } else { "" }),
+                    if focus { p.sel() } else { Style::default() },
+                ),
+            ])
+        })
+        .collect();
+    lines.push(Line::from("Tab next field · Enter save · Esc cancel"));
+    f.render_widget(
+        Paragraph::new(lines).block(Block::bordered().title(form.title.clone())),
+        area,
+    );
+}
+
+fn draw_picker(f: &mut Frame, pk: &super::app::Picker, p: &Palette) {
+    let area = centred(f.area(), 74, 18);
+    f.render_widget(Clear, area);
+    let mut lines = vec![Line::from(format!("folder {}", pk.folder.display()))];
+    let visible = area.height.saturating_sub(5) as usize;
+    let start = pk.selected.saturating_sub(visible.saturating_sub(1));
+    for (i, file) in pk.files.iter().enumerate().skip(start).take(visible) {
+        let tag = if pk.abs.as_ref() == Some(file) {
+            "[abs] "
+        } else if pk.pl.as_ref() == Some(file) {
+            "[PL]  "
+        } else {
+            "      "
+        };
+        let name = file
+            .file_name()
+            .map(|n| n.to_string_lossy().to_string())
+            .unwrap_or_default();
+        let style = if i == pk.selected { p.sel() } else { Style::default() };
+        lines.push(Line::styled(format!("{tag}{name}"), style));
+    }
+    if pk.files.is_empty() {
+        lines.push(Line::from("no files here"));
+    }
+    lines.push(Line::from("Enter absorbance · p PL · Tab continue · Esc cancel"));
+    f.render_widget(
+        Paragraph::new(lines).block(Block::bordered().title("add aliquot: pick export files")),
+        area,
+    );
+}

@@ -1,0 +1,401 @@
+//! The one key table. Help, footer and dispatch all read it, so a binding cannot be documented
+//! in one place and behave differently in another. Users may rebind actions in a JSON file
+//! (`$CUVETTE_KEYS`, else `keys.json` in the platform's config folder for cuvette):
+//! `{"draw": "D", "search": "ctrl-f"}`.
+
+use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+use std::collections::BTreeMap;
+
+/// Everything a key can ask for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+pub enum Action {
+    Quit,
+    Help,
+    Search,
+    Ledger,
+    Shelf,
+    Calibrations,
+    Trail,
+    Up,
+    Down,
+    Open,
+    Back,
+    SortNext,
+    SortReverse,
+    NewBatch,
+    Repeat,
+    AddAliquot,
+    ImportFolder,
+    Watch,
+    NewVial,
+    Draw,
+    Move,
+    Dispose,
+    ToggleSpectrum,
+    ChangeCurve,
+    Preview,
+    Apply,
+}
+
+/// Where an action applies.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Scope {
+    Everywhere,
+    Ledger,
+    Sheet,
+    Shelf,
+    Calibrations,
+}
+
+pub struct Binding {
+    pub action: Action,
+    pub name: &'static str,
+    pub key: &'static str,
+    pub scope: Scope,
+    pub help: &'static str,
+    /// Shown in the footer of its scope.
+    pub footer: bool,
+}
+
+pub const DEFAULT_KEYS: &[Binding] = &[
+    Binding {
+        action: Action::Quit,
+        name: "quit",
+        key: "q",
+        scope: Scope::Everywhere,
+        help: "quit (Ctrl-C works everywhere)",
+        footer: true,
+    },
+    Binding {
+        action: Action::Help,
+        name: "help",
+        key: "?",
+        scope: Scope::Everywhere,
+        help: "show or hide this help",
+        footer: true,
+    },
+    Binding {
+        action: Action::Ledger,
+        name: "ledger",
+        key: "1",
+        scope: Scope::Everywhere,
+        help: "batch ledger",
+        footer: false,
+    },
+    Binding {
+        action: Action::Shelf,
+        name: "shelf",
+        key: "2",
+        scope: Scope::Everywhere,
+        help: "shelf of vials",
+        footer: false,
+    },
+    Binding {
+        action: Action::Calibrations,
+        name: "calibrations",
+        key: "3",
+        scope: Scope::Everywhere,
+        help: "calibrations and recompute",
+        footer: false,
+    },
+    Binding {
+        action: Action::Trail,
+        name: "trail",
+        key: "4",
+        scope: Scope::Everywhere,
+        help: "audit trail",
+        footer: false,
+    },
+    Binding {
+        action: Action::Up,
+        name: "up",
+        key: "up",
+        scope: Scope::Everywhere,
+        help: "move up (also k)",
+        footer: false,
+    },
+    Binding {
+        action: Action::Down,
+        name: "down",
+        key: "down",
+        scope: Scope::Everywhere,
+        help: "move down (also j)",
+        footer: false,
+    },
+    Binding {
+        action: Action::Back,
+        name: "back",
+        key: "esc",
+        scope: Scope::Everywhere,
+        help: "back, or close a form",
+        footer: false,
+    },
+    Binding {
+        action: Action::Search,
+        name: "search",
+        key: "/",
+        scope: Scope::Ledger,
+        help: "search with the query language",
+        footer: true,
+    },
+    Binding {
+        action: Action::Open,
+        name: "open",
+        key: "enter",
+        scope: Scope::Ledger,
+        help: "open the batch sheet",
+        footer: true,
+    },
+    Binding {
+        action: Action::SortNext,
+        name: "sort",
+        key: "s",
+        scope: Scope::Ledger,
+        help: "sort by the next column",
+        footer: true,
+    },
+    Binding {
+        action: Action::SortReverse,
+        name: "reverse",
+        key: "S",
+        scope: Scope::Ledger,
+        help: "reverse the sort",
+        footer: false,
+    },
+    Binding {
+        action: Action::NewBatch,
+        name: "new-batch",
+        key: "n",
+        scope: Scope::Ledger,
+        help: "log a new batch",
+        footer: true,
+    },
+    Binding {
+        action: Action::Repeat,
+        name: "repeat",
+        key: "r",
+        scope: Scope::Ledger,
+        help: "repeat the selected batch",
+        footer: false,
+    },
+    Binding {
+        action: Action::AddAliquot,
+        name: "add-aliquot",
+        key: "a",
+        scope: Scope::Sheet,
+        help: "add an aliquot from export files",
+        footer: true,
+    },
+    Binding {
+        action: Action::ImportFolder,
+        name: "import",
+        key: "i",
+        scope: Scope::Sheet,
+        help: "import a folder of exports as aliquots",
+        footer: false,
+    },
+    Binding {
+        action: Action::Watch,
+        name: "watch",
+        key: "w",
+        scope: Scope::Sheet,
+        help: "watch the export folder for new spectra",
+        footer: true,
+    },
+    Binding {
+        action: Action::NewVial,
+        name: "new-vial",
+        key: "v",
+        scope: Scope::Sheet,
+        help: "put product into a new vial",
+        footer: true,
+    },
+    Binding {
+        action: Action::ToggleSpectrum,
+        name: "spectrum",
+        key: "p",
+        scope: Scope::Sheet,
+        help: "plot absorbance or PL",
+        footer: true,
+    },
+    Binding {
+        action: Action::Draw,
+        name: "draw",
+        key: "d",
+        scope: Scope::Shelf,
+        help: "draw from the vial",
+        footer: true,
+    },
+    Binding {
+        action: Action::Move,
+        name: "move",
+        key: "m",
+        scope: Scope::Shelf,
+        help: "move the vial",
+        footer: true,
+    },
+    Binding {
+        action: Action::Dispose,
+        name: "dispose",
+        key: "x",
+        scope: Scope::Shelf,
+        help: "dispose of the vial",
+        footer: true,
+    },
+    Binding {
+        action: Action::ChangeCurve,
+        name: "change-curve",
+        key: "c",
+        scope: Scope::Calibrations,
+        help: "choose a sizing curve",
+        footer: true,
+    },
+    Binding {
+        action: Action::Preview,
+        name: "preview",
+        key: "p",
+        scope: Scope::Calibrations,
+        help: "preview what recompute would change",
+        footer: true,
+    },
+    Binding {
+        action: Action::Apply,
+        name: "apply",
+        key: "A",
+        scope: Scope::Calibrations,
+        help: "recompute now",
+        footer: true,
+    },
+];
+
+/// A parsed key: code and whether Ctrl is held.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Key {
+    pub code: KeyCode,
+    pub ctrl: bool,
+}
+
+pub fn parse_key(s: &str) -> Option<Key> {
+    let (ctrl, rest) = match s.strip_prefix("ctrl-") {
+        Some(r) => (true, r),
+        None => (false, s),
+    };
+    let code = match rest {
+        "enter" => KeyCode::Enter,
+        "esc" => KeyCode::Esc,
+        "up" => KeyCode::Up,
+        "down" => KeyCode::Down,
+        "tab" => KeyCode::Tab,
+        "left" => KeyCode::Left,
+        "right" => KeyCode::Right,
+        one if one.chars().count() == 1 => KeyCode::Char(one.chars().next()?),
+        _ => return None,
+    };
+    Some(Key { code, ctrl })
+}
+
+pub fn describe(k: &Key) -> String {
+    let base = match k.code {
+        KeyCode::Enter => "Enter".to_string(),
+        KeyCode::Esc => "Esc".to_string(),
+        KeyCode::Up => "↑".to_string(),
+        KeyCode::Down => "↓".to_string(),
+        KeyCode::Tab => "Tab".to_string(),
+        KeyCode::Left => "←".to_string(),
+        KeyCode::Right => "→".to_string(),
+        KeyCode::Char(c) => c.to_string(),
+        _ => "?".to_string(),
+    };
+    if k.ctrl { format!("Ctrl-{base}") } else { base }
+}
+
+/// The bindings in force: defaults with the user's overrides.
+pub struct KeyMap {
+    pub entries: Vec<(Key, &'static Binding)>,
+}
+
+impl KeyMap {
+    pub fn new(overrides: &BTreeMap<String, String>) -> Result<KeyMap, String> {
+        let mut entries = Vec::new();
+        for b in DEFAULT_KEYS {
+            let text = overrides.get(b.name).map(String::as_str).unwrap_or(b.key);
+            let key = parse_key(text).ok_or_else(|| format!("keys: '{text}' for {} is not a key", b.name))?;
+            entries.push((key, b));
+        }
+        for name in overrides.keys() {
+            if !DEFAULT_KEYS.iter().any(|b| b.name == name) {
+                return Err(format!("keys: no action called '{name}'"));
+            }
+        }
+        Ok(KeyMap { entries })
+    }
+
+    /// Reads the user's override file, if there is one.
+    pub fn load() -> Result<KeyMap, String> {
+        let path = std::env::var_os("CUVETTE_KEYS")
+            .map(std::path::PathBuf::from)
+            .or_else(|| {
+                let base = std::env::var_os("XDG_CONFIG_HOME")
+                    .map(std::path::PathBuf::from)
+                    .or_else(|| std::env::var_os("HOME").map(|h| std::path::PathBuf::from(h).join(".config")))?;
+                Some(base.join("cuvette").join("keys.json"))
+            });
+        let overrides = match path {
+            Some(p) if p.exists() => {
+                let text =
+                    std::fs::read_to_string(&p).map_err(|e| format!("keys: cannot read {}: {e}", p.display()))?;
+                serde_json::from_str(&text)
+                    .map_err(|e| format!("keys: {} is not a JSON object of action to key: {e}", p.display()))?
+            }
+            _ => BTreeMap::new(),
+        };
+        KeyMap::new(&overrides)
+    }
+
+    /// The action a key press asks for in a scope.
+    pub fn action(&self, ev: &KeyEvent, scope: Scope) -> Option<Action> {
+        let ctrl = ev.modifiers.contains(KeyModifiers::CONTROL);
+        let code = match ev.code {
+            KeyCode::Char('k') if !ctrl && !self.bound(KeyCode::Char('k'), scope) => KeyCode::Up,
+            KeyCode::Char('j') if !ctrl && !self.bound(KeyCode::Char('j'), scope) => KeyCode::Down,
+            c => c,
+        };
+        let want = Key { code, ctrl };
+        self.entries
+            .iter()
+            .find(|(k, b)| *k == want && (b.scope == scope || b.scope == Scope::Everywhere))
+            .map(|(_, b)| b.action)
+    }
+
+    fn bound(&self, code: KeyCode, scope: Scope) -> bool {
+        self.entries
+            .iter()
+            .any(|(k, b)| k.code == code && !k.ctrl && (b.scope == scope || b.scope == Scope::Everywhere))
+    }
+
+    /// (key, description) for the footer of a scope.
+    pub fn footer(&self, scope: Scope) -> Vec<(String, &'static str)> {
+        self.entries
+            .iter()
+            .filter(|(_, b)| b.footer && (b.scope == scope || b.scope == Scope::Everywhere))
+            .map(|(k, b)| (describe(k), b.name))
+            .collect()
+    }
+
+    /// (scope title, key, help) for the help overlay.
+    pub fn help(&self) -> Vec<(&'static str, String, &'static str)> {
+        self.entries
+            .iter()
+            .map(|(k, b)| {
+                let scope = match b.scope {
+                    Scope::Everywhere => "anywhere",
+                    Scope::Ledger => "ledger",
+                    Scope::Sheet => "batch sheet",
+                    Scope::Shelf => "shelf",
+                    Scope::Calibrations => "calibrations",
+                };
+                (scope, describe(k), b.help)
+            })
+            .collect()
+    }
+}
