@@ -211,7 +211,7 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     ];
     f.render_widget(Paragraph::new(head_text), head);
     let [left, right] = Layout::horizontal([Constraint::Length(44), Constraint::Min(20)]).areas(mid);
-    let header = Row::new(vec!["min", "peak", "D nm", "σ/D%", "PL nm", "QY", "cal"]).style(p.head());
+    let header = Row::new(vec!["min", "peak", "D nm", "σ/D", "PL", "QY", "curve"]).style(p.head());
     let rows: Vec<Row> = b["aliquots"]
         .as_array()
         .into_iter()
@@ -249,13 +249,13 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         })
         .collect();
     let widths = [
-        Constraint::Length(5),
-        Constraint::Length(7),
-        Constraint::Length(5),
-        Constraint::Length(5),
-        Constraint::Length(6),
         Constraint::Length(4),
-        Constraint::Min(6),
+        Constraint::Length(6),
+        Constraint::Length(5),
+        Constraint::Length(4),
+        Constraint::Length(5),
+        Constraint::Length(4),
+        Constraint::Min(8),
     ];
     f.render_widget(
         Table::new(rows, widths)
