@@ -561,23 +561,29 @@ fn centred(area: Rect, w: u16, h: u16) -> Rect {
 }
 
 fn draw_help(f: &mut Frame, app: &App, p: &Palette) {
-    let area = centred(f.area(), 72, 22);
+    let area = centred(f.area(), 80, 22);
     f.render_widget(Clear, area);
-    let lines: Vec<Line> = app
-        .keys
-        .help()
-        .into_iter()
-        .map(|(scope, key, help)| {
-            Line::from(vec![
-                Span::styled(format!("{key:>7} "), p.head()),
-                Span::raw(format!("{help} ({scope})")),
-            ])
-        })
-        .collect();
-    f.render_widget(
-        Paragraph::new(lines).block(Block::bordered().title("keys · Esc or ? closes")),
-        area,
-    );
+    let block = Block::bordered().title("keys · Esc or ? closes");
+    let inner = block.inner(area);
+    f.render_widget(block, area);
+    // Grouped by where they apply, in two columns so the whole table fits 80x24.
+    let mut lines: Vec<Line> = Vec::new();
+    let mut last = "";
+    for (scope, key, help) in app.keys.help() {
+        if scope != last {
+            lines.push(Line::styled(scope.to_string(), p.head()));
+            last = scope;
+        }
+        lines.push(Line::from(vec![
+            Span::styled(format!("{key:>6} "), p.head()),
+            Span::raw(help),
+        ]));
+    }
+    let half = lines.len().div_ceil(2);
+    let right = lines.split_off(half);
+    let [l, r] = Layout::horizontal([Constraint::Percentage(50), Constraint::Percentage(50)]).areas(inner);
+    f.render_widget(Paragraph::new(lines), l);
+    f.render_widget(Paragraph::new(right), r);
 }
 
 fn draw_form(f: &mut Frame, form: &super::app::Form, p: &Palette) {
