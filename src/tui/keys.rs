@@ -191,7 +191,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "import",
         key: "i",
         scope: Scope::Sheet,
-        help: "import a folder of exports as aliquots",
+        help: "import a folder of exports",
         footer: false,
     },
     Binding {
@@ -199,7 +199,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "watch",
         key: "w",
         scope: Scope::Sheet,
-        help: "watch the export folder for new spectra",
+        help: "watch a folder for new exports",
         footer: true,
     },
     Binding {
@@ -255,7 +255,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "preview",
         key: "p",
         scope: Scope::Calibrations,
-        help: "preview what recompute would change",
+        help: "preview the recompute",
         footer: true,
     },
     Binding {
