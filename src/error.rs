@@ -29,11 +29,35 @@ pub enum Error {
     #[error("query error at column {column}: {reason}")]
     Query { column: usize, reason: String },
     #[error("database: {0}")]
-    Sqlite(#[from] rusqlite::Error),
+    Sqlite(rusqlite::Error),
+    /// The disk or the file refused a write; nothing was written.
+    #[error("{0}")]
+    Storage(String),
     #[error("{0}")]
     Io(#[from] std::io::Error),
     #[error("json: {0}")]
     Json(#[from] serde_json::Error),
+}
+
+impl From<rusqlite::Error> for Error {
+    fn from(e: rusqlite::Error) -> Self {
+        use rusqlite::ErrorCode;
+        match e.sqlite_error_code() {
+            Some(ErrorCode::DiskFull) => {
+                Error::Storage("the disk holding the database is full: nothing was written".into())
+            }
+            Some(ErrorCode::ReadOnly) => Error::Storage("the database file is read-only: nothing was written".into()),
+            Some(ErrorCode::DatabaseBusy) | Some(ErrorCode::DatabaseLocked) => Error::Storage(
+                "the database stayed busy with another writer for 30 s: nothing was written; try again".into(),
+            ),
+            Some(ErrorCode::SystemIoFailure) => Error::Storage(
+                "disk I/O error on the database (is the disk full or failing?): nothing was written".into(),
+            ),
+            Some(ErrorCode::NotADatabase) => Error::Storage("the file is not a database (or it is corrupt)".into()),
+            Some(ErrorCode::CannotOpen) => Error::Storage(format!("cannot open the database: {e}")),
+            _ => Error::Sqlite(e),
+        }
+    }
 }
 
 pub type Result<T> = std::result::Result<T, Error>;

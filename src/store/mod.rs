@@ -55,6 +55,11 @@ impl Store {
             path: path.display().to_string(),
             reason: e.to_string(),
         })?;
+        if conn.is_readonly(rusqlite::DatabaseName::Main).unwrap_or(false) {
+            return Err(Error::Storage(
+                "the file is read-only: cuvette needs to write to it and to its folder (it keeps a write-ahead journal beside it); nothing was changed".into(),
+            ));
+        }
         let mut store = Store {
             conn,
             path: Some(path.to_path_buf()),
@@ -87,9 +92,12 @@ impl Store {
         let version: i64 = self
             .conn
             .query_row("PRAGMA user_version", [], |r| r.get(0))
-            .map_err(|e| Error::NotADatabase {
-                path: path_text.clone(),
-                reason: e.to_string(),
+            .map_err(|e| match e.sqlite_error_code() {
+                Some(rusqlite::ErrorCode::NotADatabase) => Error::NotADatabase {
+                    path: path_text.clone(),
+                    reason: e.to_string(),
+                },
+                _ => Error::from(e),
             })?;
         if version > SCHEMA_VERSION {
             return Err(Error::NewerSchema {
