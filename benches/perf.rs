@@ -11,7 +11,9 @@ use std::hint::black_box;
 use std::path::PathBuf;
 
 fn lab(batches: usize) -> PathBuf {
-    let dir = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("target").join("bench-labs");
+    let dir = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+        .join("target")
+        .join("bench-labs");
     std::fs::create_dir_all(&dir).expect("bench folder");
     let path = dir.join(format!("lab-{batches}.db"));
     if !path.exists() {
@@ -36,18 +38,29 @@ fn spectrum() -> Trace {
 fn analysis(c: &mut Criterion) {
     let t = spectrum();
     let set = AnalysisSettings::default();
-    c.bench_function("analyze one 601-point absorbance spectrum", |b| b.iter(|| analyze_absorbance(black_box(&t), &set)));
+    c.bench_function("analyze one 601-point absorbance spectrum", |b| {
+        b.iter(|| analyze_absorbance(black_box(&t), &set))
+    });
 }
 
 fn many_files(c: &mut Criterion) {
-    let dir = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("target").join("bench-files");
+    let dir = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+        .join("target")
+        .join("bench-files");
     std::fs::create_dir_all(&dir).expect("files folder");
     let n = 1000;
     let files: Vec<PathBuf> = (0..n)
         .map(|i| {
             let p = dir.join(format!("abs_{i:05}.csv"));
             if !p.exists() {
-                let (x, y) = cuvette::demo::absorbance("CdSe", 500.0 + (i % 100) as f64, 0.045, 0.3, 0.001, &mut cuvette::demo::Rng::new(i as u64));
+                let (x, y) = cuvette::demo::absorbance(
+                    "CdSe",
+                    500.0 + (i % 100) as f64,
+                    0.045,
+                    0.3,
+                    0.001,
+                    &mut cuvette::demo::Rng::new(i as u64),
+                );
                 let mut s = String::from("Wavelength (nm),Absorbance\n");
                 for (a, b) in x.iter().zip(&y) {
                     s.push_str(&format!("{a},{b:.6}\n"));
@@ -64,7 +77,9 @@ fn many_files(c: &mut Criterion) {
         b.iter(|| {
             cuvette::report::parallel_map(&files, 2, |p| {
                 let (raw, _) = cuvette::spectra::read_file(p, &ReadOptions::default()).expect("read");
-                analyze_absorbance(&raw.to_trace("f", None).expect("trace"), &set).expect("analyse").first_exciton_nm
+                analyze_absorbance(&raw.to_trace("f", None).expect("trace"), &set)
+                    .expect("analyse")
+                    .first_exciton_nm
             })
         })
     });
@@ -78,7 +93,9 @@ fn recompute(c: &mut Criterion) {
     g.bench_function("read every spectrum of a 6,000-aliquot lab", |b| {
         b.iter(|| {
             let conn = rusqlite::Connection::open(&path).expect("open");
-            let mut st = conn.prepare("SELECT data FROM spectrum WHERE kind = 'abs'").expect("prepare");
+            let mut st = conn
+                .prepare("SELECT data FROM spectrum WHERE kind = 'abs'")
+                .expect("prepare");
             let mut rows = st.query([]).expect("query");
             let mut n = 0usize;
             while let Some(r) = rows.next().expect("row") {
@@ -91,7 +108,8 @@ fn recompute(c: &mut Criterion) {
     g.bench_function("recompute --all (dry run) on a 6,000-aliquot lab", |b| {
         b.iter(|| {
             let mut st = Store::open(&path, "bench").expect("open");
-            st.read(|tx| cuvette::derive::engine::recompute(tx, true, true, |_, _| {})).expect("recompute")
+            st.read(|tx| cuvette::derive::engine::recompute(tx, true, true, |_, _| {}))
+                .expect("recompute")
         })
     });
     g.finish();
@@ -105,9 +123,13 @@ fn search(c: &mut Criterion) {
     let words = cuvette::search::parse("Halloway oleylamine").expect("parse");
     let mut g = c.benchmark_group("search 10,000 batches");
     g.bench_function("filters", |b| b.iter(|| cuvette::search::filter(black_box(&facts), &q)));
-    g.bench_function("fuzzy words", |b| b.iter(|| cuvette::search::filter(black_box(&facts), &words)));
+    g.bench_function("fuzzy words", |b| {
+        b.iter(|| cuvette::search::filter(black_box(&facts), &words))
+    });
     g.sample_size(10);
-    g.bench_function("load facts from the file", |b| b.iter(|| cuvette::search::load_facts(&st.conn).expect("facts")));
+    g.bench_function("load facts from the file", |b| {
+        b.iter(|| cuvette::search::load_facts(&st.conn).expect("facts"))
+    });
     g.finish();
 }
 
@@ -132,7 +154,11 @@ fn render(c: &mut Criterion) {
         let mut flip = false;
         b.iter(|| {
             flip = !flip;
-            app.query = if flip { "CdSe size:3..3.5".into() } else { "CdSe size:3..3.".into() };
+            app.query = if flip {
+                "CdSe size:3..3.5".into()
+            } else {
+                "CdSe size:3..3.".into()
+            };
             app.refilter();
             t.draw(|f| cuvette::tui::draw::draw(f, &app)).expect("draw");
         })

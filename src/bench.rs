@@ -82,6 +82,83 @@ pub fn new_spectrum(aliquot_id: Option<i64>, f: &SpectrumFile, raw: &RawSpectrum
     }
 }
 
+/// What measuring a vial's absorbance gave.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct VialMeasurement {
+    pub vial_id: i64,
+    pub spectrum_id: i64,
+    pub first_exciton_nm: Option<f64>,
+    pub diameter_nm: Option<f64>,
+    pub curve: Option<String>,
+    pub extinction_m1cm1: Option<f64>,
+    pub concentration_molar: Option<f64>,
+    pub calibration_version: i64,
+    pub warnings: Vec<String>,
+}
+
+/// Measures a vial: stores its absorbance spectrum with the vial and, where the spectrum gives
+/// a size and the material has an extinction model, sets the vial's concentration from it
+/// (Beer-Lambert with the dilution and path of the measurement). One transaction.
+pub fn measure_vial(store: &mut Store, vial: i64, abs: &Path, dilution: f64, path_cm: f64) -> Result<VialMeasurement> {
+    model::check_number("dilution factor", dilution, false)?;
+    model::check_number("path length (cm)", path_cm, false)?;
+    let (raw, sha) = read_checked(abs, None)?;
+    store.write(|tx, who| {
+        let v = model::get_vial(tx, vial)?;
+        if v.status == "disposed" {
+            return Err(Error::Invalid(format!("vial {} ({}) has been disposed of", v.id, v.label)));
+        }
+        let core = model::material_by_name(tx, &v.material)?.core;
+        let f = SpectrumFile { path: abs.to_path_buf(), kind: "abs", excitation_nm: None };
+        let mut ns = new_spectrum(None, &f, &raw, &sha);
+        ns.vial_id = Some(vial);
+        let sid = model::insert_spectrum(tx, who, &ns)?;
+        let cal = crate::derive::calibration::latest(tx)?;
+        let t = raw.to_trace(&abs.display().to_string(), None)?;
+        let r = crate::spectra::analysis::analyze_absorbance(&t, &cal.body.analysis)?;
+        let mut out = VialMeasurement {
+            vial_id: vial,
+            spectrum_id: sid,
+            first_exciton_nm: r.first_exciton_nm,
+            diameter_nm: None,
+            curve: None,
+            extinction_m1cm1: None,
+            concentration_molar: None,
+            calibration_version: cal.version,
+            warnings: r.warnings.clone(),
+        };
+        if let (Some(peak), Some(curve)) = (r.first_exciton_nm, cal.body.curves.get(&core)) {
+            let sz = cal.body.size(curve, &core, peak)?;
+            out.warnings.extend(sz.warnings.clone());
+            out.diameter_nm = Some(sz.diameter_nm);
+            out.curve = Some(sz.curve.clone());
+            if let Some(m) = cal.body.extinction.get(&core) {
+                let ex = cal.body.extinction(m, &core, sz.diameter_nm, peak, r.hwhm_ev)?;
+                let a_at = if (ex.at_nm - peak).abs() < 1e-9 { r.first_exciton_abs } else { crate::spectra::analysis::interpolate(&t, ex.at_nm) };
+                out.extinction_m1cm1 = Some(ex.extinction_m1cm1);
+                if let Some(a) = a_at {
+                    let c = crate::derive::extinction::concentration_molar(a, ex.extinction_m1cm1, path_cm, dilution)?;
+                    out.concentration_molar = Some(c);
+                    tx.execute("UPDATE vial SET concentration_molar = ?1 WHERE id = ?2", rusqlite::params![c, vial])?;
+                    crate::store::audit(
+                        tx,
+                        who,
+                        "vial",
+                        Some(vial),
+                        "measure",
+                        Some(&serde_json::json!({"concentration_molar": v.concentration_molar})),
+                        Some(&serde_json::json!({"concentration_molar": c, "spectrum_id": sid, "method": m, "curve": curve, "calibration_version": cal.version})),
+                    )?;
+                }
+            }
+        }
+        if out.concentration_molar.is_none() {
+            out.warnings.push("no concentration derived: the vial's concentration is unchanged".into());
+        }
+        Ok(out)
+    })
+}
+
 /// One aliquot's worth of files found in a folder.
 #[derive(Debug, Clone)]
 pub struct FolderGroup {

@@ -424,3 +424,40 @@ fn demo_builds_the_invented_lab_and_refuses_other_files() {
     assert!(o.stderr.contains("not a demo lab"), "{}", o.stderr);
     assert_eq!(std::fs::read(&other.db).unwrap(), before);
 }
+
+#[test]
+fn measuring_a_vial_sets_its_concentration_by_beer_lambert() {
+    let (lab, b) = lab_with_batch();
+    lab.ok(&[
+        "vial",
+        "new",
+        &b.to_string(),
+        "--ml",
+        "2",
+        "--location",
+        "Fridge A",
+        "--label",
+        "M1",
+    ]);
+    let f = lab.abs_file("vial.csv", 550.0);
+    let m = lab
+        .ok(&["vial", "measure", "M1", "--abs", s(&f), "--dilution", "5", "--json"])
+        .json();
+    let a = lab.ok(&["analyze", s(&f), "--kind", "abs", "--json"]).json();
+    let (peak, abs) = (
+        a["first_exciton_nm"].as_f64().unwrap(),
+        a["first_exciton_abs"].as_f64().unwrap(),
+    );
+    // Yu et al. 2003 (from memory): D from the CdSe polynomial, ε = 5857 D^2.65; c = A/(ε l) x 5.
+    let d = 1.6122e-9 * peak.powi(4) - 2.6575e-6 * peak.powi(3) + 1.6242e-3 * peak * peak - 0.4277 * peak + 41.57;
+    let c = abs / (5857.0 * d.powf(2.65)) * 5.0;
+    assert!(
+        (m["concentration_molar"].as_f64().unwrap() - c).abs() < 1e-9 * c.max(1e-12),
+        "{m}"
+    );
+    let shelf = lab.ok(&["shelf", "--json"]).json();
+    assert_eq!(shelf[0]["concentration_molar"], m["concentration_molar"]);
+    assert!((shelf[0]["nanomoles_left"].as_f64().unwrap() - c * 2.0 * 1e6).abs() < 1e-6);
+    lab.ok(&["vial", "dispose", "M1", "--why", "used up"]);
+    lab.refuses(&["vial", "measure", "M1", "--abs", s(&f)], "has been disposed of");
+}

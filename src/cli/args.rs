@@ -389,6 +389,19 @@ pub enum VialCmd {
         #[arg(long)]
         json: bool,
     },
+    /// Measure a vial's absorbance: the spectrum is kept with the vial and sets its concentration.
+    #[command(allow_negative_numbers = true)]
+    Measure {
+        vial: String,
+        #[arg(long)]
+        abs: PathBuf,
+        #[arg(long, default_value_t = 1.0)]
+        dilution: f64,
+        #[arg(long, default_value_t = 1.0)]
+        path_cm: f64,
+        #[arg(long)]
+        json: bool,
+    },
 }
 
 #[derive(Debug, Args)]

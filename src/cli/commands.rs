@@ -778,6 +778,29 @@ fn vial(cli: &Cli, c: &VialCmd) -> Result<()> {
             let v = store.write(|tx, who| model::dispose_vial(tx, who, id, why))?;
             print_vial(&v, *j)?;
         }
+        VialCmd::Measure {
+            vial,
+            abs,
+            dilution,
+            path_cm,
+            json: j,
+        } => {
+            let id = vial_id(&mut store, vial)?;
+            let m = bench::measure_vial(&mut store, id, abs, *dilution, *path_cm)?;
+            if *j {
+                json(&m)?;
+            } else {
+                line(&format!(
+                    "vial {id}: first exciton {} nm, D {} nm, concentration {}",
+                    num(m.first_exciton_nm, 1),
+                    num(m.diameter_nm, 2),
+                    molar(m.concentration_molar)
+                ))?;
+                for w in &m.warnings {
+                    line(&format!("  warning: {w}"))?;
+                }
+            }
+        }
         VialCmd::Show { vial, json: j } => {
             let (v, events) = store.read(|tx| {
                 let v = model::find_vial(tx, vial)?;
