@@ -32,6 +32,12 @@ pub struct Facts {
     pub concentration_molar: Option<f64>,
     #[serde(skip)]
     haystack: String,
+    /// The words of the haystack, as indices into a table shared by one load of facts, so a
+    /// free word is scored once per distinct word of the lab rather than once per batch.
+    #[serde(skip)]
+    tokens: Vec<u32>,
+    #[serde(skip)]
+    table: std::sync::Arc<Vec<String>>,
 }
 
 /// One search result.
@@ -141,6 +147,30 @@ pub fn load_facts(conn: &Connection) -> Result<Vec<Facts>> {
         )
         .to_lowercase();
     }
+    let mut table: Vec<String> = Vec::new();
+    let mut ids: HashMap<String, u32> = HashMap::new();
+    let mut per_fact: Vec<Vec<u32>> = Vec::with_capacity(facts.len());
+    for f in &facts {
+        let mut t: Vec<u32> = f
+            .haystack
+            .split(|c: char| !c.is_alphanumeric() && c != '-' && c != '/')
+            .filter(|w| !w.is_empty())
+            .map(|w| {
+                *ids.entry(w.to_string()).or_insert_with(|| {
+                    table.push(w.to_string());
+                    (table.len() - 1) as u32
+                })
+            })
+            .collect();
+        t.sort_unstable();
+        t.dedup();
+        per_fact.push(t);
+    }
+    let table = std::sync::Arc::new(table);
+    for (f, t) in facts.iter_mut().zip(per_fact) {
+        f.tokens = t;
+        f.table = table.clone();
+    }
     Ok(facts)
 }
 
@@ -185,24 +215,24 @@ fn allowed_typos(len: usize) -> usize {
     }
 }
 
-/// The score of a free word against a batch, or None when it does not match.
-fn word_score(matcher: &SkimMatcherV2, hay: &str, word: &str) -> Option<i64> {
-    if let Some(s) = matcher.fuzzy_match(hay, word) {
-        // Subsequence matches that scatter across the text are not meaningful for short words.
-        if hay.contains(word) || s >= (word.len() as i64) * 12 {
-            return Some(s);
-        }
+/// The score of a free word against one word of a batch's text, or None when it does not
+/// match: a substring ranks first, then a fuzzy subsequence (fuzzy-matcher), then a word within
+/// one or two typos.
+fn token_score(matcher: &SkimMatcherV2, token: &str, word: &str) -> Option<i64> {
+    if token.contains(word) {
+        return Some(1000 + 10 * word.len() as i64 - (token.len() as i64 - word.len() as i64));
+    }
+    if let Some(s) = matcher.fuzzy_match(token, word)
+        && s >= (word.len() as i64) * 12
+    {
+        return Some(s);
     }
     let k = allowed_typos(word.chars().count());
-    if k == 0 {
+    if k == 0 || token.len().abs_diff(word.len()) > k {
         return None;
     }
-    hay.split(|c: char| !c.is_alphanumeric() && c != '-' && c != '/')
-        .filter(|w| !w.is_empty())
-        .map(|w| edit_distance(w, word))
-        .min()
-        .filter(|&dist| dist <= k)
-        .map(|dist| 10 * word.len() as i64 / (dist as i64 + 1))
+    let dist = edit_distance(token, word);
+    (dist <= k).then(|| 10 * word.len() as i64 / (dist as i64 + 1))
 }
 
 fn text_matches(f: &Facts, field: Field, value: &str) -> bool {
@@ -225,6 +255,12 @@ fn text_matches(f: &Facts, field: Field, value: &str) -> bool {
 pub fn filter(facts: &[Facts], q: &Query) -> Vec<Hit> {
     let matcher = SkimMatcherV2::default();
     let words = q.words();
+    // Each free word scored once against every distinct word of the lab.
+    let table = facts.first().map(|f| f.table.clone()).unwrap_or_default();
+    let word_scores: Vec<Vec<Option<i64>>> = words
+        .iter()
+        .map(|w| table.iter().map(|t| token_score(&matcher, t, w)).collect())
+        .collect();
     let mut hits: Vec<Hit> = Vec::new();
     'outer: for f in facts {
         for c in &q.clauses {
@@ -272,8 +308,17 @@ pub fn filter(facts: &[Facts], q: &Query) -> Vec<Hit> {
             }
         }
         let mut score = 0;
-        for w in &words {
-            match word_score(&matcher, &f.haystack, w) {
+        for (w, scores) in words.iter().zip(&word_scores) {
+            // A quoted phrase is matched against the whole text.
+            let best = if w.contains(' ') {
+                f.haystack.contains(w).then_some(1000 + 10 * w.len() as i64)
+            } else {
+                f.tokens
+                    .iter()
+                    .filter_map(|&t| scores.get(t as usize).copied().flatten())
+                    .max()
+            };
+            match best {
                 Some(s) => score += s,
                 None => continue 'outer,
             }

@@ -104,8 +104,9 @@ fn noise_of(raw: &[f64], smooth: &[f64]) -> f64 {
     if r.is_empty() {
         return 0.0;
     }
-    r.sort_by(f64::total_cmp);
-    1.4826 * r[r.len() / 2]
+    let mid = r.len() / 2;
+    let (_, m, _) = r.select_nth_unstable_by(mid, f64::total_cmp);
+    1.4826 * *m
 }
 
 /// Where a sampled function crosses zero between i and i+1, as a fractional index.

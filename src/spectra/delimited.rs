@@ -72,9 +72,16 @@ pub fn read(file: &str, text: &str, opts: &ReadOptions) -> Result<RawSpectrum> {
         (Delim::Space, false),
         (Delim::Space, true),
     ];
+    // The reading is chosen on a sample of lines (the start and the end of the file); the whole
+    // file is then read under it, line by line, with every line checked.
+    let sample: Vec<&str> = if lines.len() > 120 {
+        lines[..60].iter().chain(&lines[lines.len() - 60..]).copied().collect()
+    } else {
+        lines.clone()
+    };
     let mut best: Option<(Delim, bool, usize)> = None;
     for (d, dc) in candidates {
-        let n = lines.iter().filter(|l| numeric_row(l, d, dc).is_some()).count();
+        let n = sample.iter().filter(|l| numeric_row(l, d, dc).is_some()).count();
         if n > 0 && best.is_none_or(|b| n > b.2) {
             best = Some((d, dc, n));
         }

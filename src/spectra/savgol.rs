@@ -75,6 +75,26 @@ fn solve(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Result<Vec<f64>> {
     Ok((0..n).map(|i| b[i] / a[i][i]).collect())
 }
 
+/// The weights for every evaluation point of a window (t = -half..=half), computed once per
+/// (half, order, deriv) and kept for the thread: analysis of many spectra reuses them.
+fn window_rows(half: usize, order: usize, deriv: usize) -> Result<std::rc::Rc<Vec<Vec<f64>>>> {
+    use std::cell::RefCell;
+    use std::collections::HashMap;
+    use std::rc::Rc;
+    thread_local! {
+        static CACHE: RefCell<HashMap<(usize, usize, usize), Rc<Vec<Vec<f64>>>>> = RefCell::new(HashMap::new());
+    }
+    if let Some(r) = CACHE.with(|c| c.borrow().get(&(half, order, deriv)).cloned()) {
+        return Ok(r);
+    }
+    let rows: Vec<Vec<f64>> = (0..=2 * half)
+        .map(|i| coefficients_at(half, order, deriv, i as f64 - half as f64))
+        .collect::<Result<_>>()?;
+    let rows = Rc::new(rows);
+    CACHE.with(|c| c.borrow_mut().insert((half, order, deriv), rows.clone()));
+    Ok(rows)
+}
+
 /// Applies the filter to evenly spaced data with spacing `dx`; returns the smoothed values
 /// (deriv 0) or the derivative in units of y per unit x.
 pub fn filter(y: &[f64], half: usize, order: usize, deriv: usize, dx: f64) -> Result<Vec<f64>> {
@@ -83,20 +103,23 @@ pub fn filter(y: &[f64], half: usize, order: usize, deriv: usize, dx: f64) -> Re
     if n < w {
         return invalid(format!("{n} points are fewer than the smoothing window of {w}"));
     }
-    let centre = coefficients(half, order, deriv)?;
-    let scale = dx.powi(deriv as i32);
+    let rows = window_rows(half, order, deriv)?;
+    let centre = &rows[half];
+    let scale = 1.0 / dx.powi(deriv as i32);
     let mut out = vec![0.0; n];
-    for i in half..n - half {
-        let s: f64 = centre.iter().zip(&y[i - half..=i + half]).map(|(c, v)| c * v).sum();
-        out[i] = s / scale;
+    for (i, o) in out.iter_mut().enumerate().take(n - half).skip(half) {
+        let win = &y[i - half..=i + half];
+        let mut acc = 0.0;
+        for k in 0..w {
+            acc += centre[k] * win[k];
+        }
+        *o = acc * scale;
     }
     for i in 0..half {
-        let t = i as f64 - half as f64;
-        let c = coefficients_at(half, order, deriv, t)?;
-        out[i] = c.iter().zip(&y[..w]).map(|(c, v)| c * v).sum::<f64>() / scale;
-        let j = n - 1 - i;
-        let c = coefficients_at(half, order, deriv, -t)?;
-        out[j] = c.iter().zip(&y[n - w..]).map(|(c, v)| c * v).sum::<f64>() / scale;
+        let c = &rows[i];
+        out[i] = c.iter().zip(&y[..w]).map(|(c, v)| c * v).sum::<f64>() * scale;
+        let c = &rows[2 * half - i];
+        out[n - 1 - i] = c.iter().zip(&y[n - w..]).map(|(c, v)| c * v).sum::<f64>() * scale;
     }
     Ok(out)
 }
