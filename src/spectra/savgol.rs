@@ -81,8 +81,9 @@ fn window_rows(half: usize, order: usize, deriv: usize) -> Result<std::rc::Rc<Ve
     use std::cell::RefCell;
     use std::collections::HashMap;
     use std::rc::Rc;
+    type Rows = Rc<Vec<Vec<f64>>>;
     thread_local! {
-        static CACHE: RefCell<HashMap<(usize, usize, usize), Rc<Vec<Vec<f64>>>>> = RefCell::new(HashMap::new());
+        static CACHE: RefCell<HashMap<(usize, usize, usize), Rows>> = RefCell::new(HashMap::new());
     }
     if let Some(r) = CACHE.with(|c| c.borrow().get(&(half, order, deriv)).cloned()) {
         return Ok(r);
