@@ -86,26 +86,56 @@ fn many_files(c: &mut Criterion) {
     g.finish();
 }
 
-fn recompute(c: &mut Criterion) {
-    let path = lab(2000);
-    let mut g = c.benchmark_group("recompute");
+/// A copy of a lab in which the CdSe curve has just been changed, so every CdSe value is stale.
+fn lab_after_curve_change(batches: usize) -> PathBuf {
+    let src = lab(batches);
+    let dst = src.with_file_name(format!("lab-{batches}-curve.db"));
+    if !dst.exists() {
+        let tmp = src.with_file_name(format!("lab-{batches}-curve.building"));
+        std::fs::copy(&src, &tmp).expect("copy");
+        let mut st = Store::open(&tmp, "bench").expect("open");
+        st.write(|tx, who| {
+            let mut body = cuvette::derive::calibration::latest(tx)?.body;
+            body.curves.insert("CdSe".into(), "jasieniak2009".into());
+            body.extinction.insert("CdSe".into(), "jasieniak2009".into());
+            cuvette::derive::calibration::save(tx, who, "bench: curve change", &body)?;
+            cuvette::derive::engine::mark_stale(tx)
+        })
+        .expect("change curve");
+        drop(st);
+        std::fs::rename(&tmp, &dst).expect("rename");
+    }
+    dst
+}
+
+fn read_all_spectra(path: &std::path::Path) -> usize {
+    let conn = rusqlite::Connection::open(path).expect("open");
+    let mut st = conn.prepare("SELECT data FROM spectrum").expect("prepare");
+    let mut rows = st.query([]).expect("query");
+    let mut n = 0usize;
+    while let Some(r) = rows.next().expect("row") {
+        let blob: Vec<u8> = r.get(0).expect("blob");
+        n += cuvette::store::decode_xy(&blob).expect("decode").0.len();
+    }
+    n
+}
+
+fn recompute_group(c: &mut Criterion, batches: usize, label: &str) {
+    let path = lab(batches);
+    let changed = lab_after_curve_change(batches);
+    let mut g = c.benchmark_group(format!("recompute, {label}"));
     g.sample_size(10);
-    g.bench_function("read every spectrum of a 6,000-aliquot lab", |b| {
+    g.bench_function("read every spectrum out of the database", |b| {
+        b.iter(|| read_all_spectra(&path))
+    });
+    g.bench_function("recompute after a curve change (dry run)", |b| {
         b.iter(|| {
-            let conn = rusqlite::Connection::open(&path).expect("open");
-            let mut st = conn
-                .prepare("SELECT data FROM spectrum WHERE kind = 'abs'")
-                .expect("prepare");
-            let mut rows = st.query([]).expect("query");
-            let mut n = 0usize;
-            while let Some(r) = rows.next().expect("row") {
-                let blob: Vec<u8> = r.get(0).expect("blob");
-                n += cuvette::store::decode_xy(&blob).expect("decode").0.len();
-            }
-            n
+            let mut st = Store::open(&changed, "bench").expect("open");
+            st.read(|tx| cuvette::derive::engine::recompute(tx, false, true, |_, _| {}))
+                .expect("recompute")
         })
     });
-    g.bench_function("recompute --all (dry run) on a 6,000-aliquot lab", |b| {
+    g.bench_function("recompute --all, spectra analysed again (dry run)", |b| {
         b.iter(|| {
             let mut st = Store::open(&path, "bench").expect("open");
             st.read(|tx| cuvette::derive::engine::recompute(tx, true, true, |_, _| {}))
@@ -113,6 +143,14 @@ fn recompute(c: &mut Criterion) {
         })
     });
     g.finish();
+}
+
+fn recompute(c: &mut Criterion) {
+    recompute_group(c, 2000, "6,000 aliquots");
+    // The 100,000-aliquot lab takes minutes to build; ask for it with CUVETTE_BENCH_BIG=1.
+    if std::env::var_os("CUVETTE_BENCH_BIG").is_some() {
+        recompute_group(c, 33_334, "100,000 aliquots");
+    }
 }
 
 fn search(c: &mut Criterion) {

@@ -537,3 +537,36 @@ fn size_and_qy_commands_print_the_contract_keys() {
     assert_eq!(o.code, 1);
     assert!(o.stderr.contains("unknown material"));
 }
+
+#[test]
+fn a_curve_change_keeps_the_spectral_values_and_moves_only_the_rest() {
+    let (lab, _, _) = logged_lab();
+    lab.ok(&["calib", "set-curve", "CdSe", "jasieniak2009", "--why", "test"]);
+    lab.ok(&["recompute"]);
+    let c = rusqlite::Connection::open(&lab.db).unwrap();
+    let superseded = |q: &str| -> i64 {
+        c.query_row(
+            "SELECT count(*) FROM derived_value WHERE quantity = ?1 AND superseded_at IS NOT NULL",
+            [q],
+            |r| r.get(0),
+        )
+        .unwrap()
+    };
+    assert_eq!(
+        superseded("first_exciton_nm"),
+        0,
+        "the peak is stage one: untouched by a curve change"
+    );
+    assert_eq!(superseded("diameter_nm"), 2);
+    // A change of analysis settings redoes stage one.
+    lab.ok(&[
+        "calib",
+        "set-analysis",
+        "--smoothing-nm",
+        "7",
+        "--why",
+        "narrower window",
+    ]);
+    let dry = lab.ok(&["recompute", "--dry-run", "--json"]).json();
+    assert_eq!(dry["aliquots_recomputed"], 2);
+}

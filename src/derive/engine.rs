@@ -109,6 +109,38 @@ pub fn trace_of(s: &SpectrumRow) -> Result<Trace> {
     raw.to_trace(&s.file_name, None)
 }
 
+/// The quantities that come from the spectra alone (under the analysis settings and, for PL,
+/// the detector correction). They are stage one: a change of sizing curve, extinction model or
+/// QY reference leaves them as they are, so a recompute need not read any spectrum again.
+pub const SPECTRAL: &[&str] = &[
+    "first_exciton_nm",
+    "first_exciton_abs",
+    "hwhm_nm",
+    "hwhm_mev",
+    "shoulder",
+    "abs_400nm",
+    "abs_at_excitation",
+    "pl_peak_nm",
+    "pl_fwhm_nm",
+    "pl_fwhm_mev",
+    "pl_integral",
+];
+
+/// The hash of what stage one depends on: the spectra and the analysis settings.
+pub fn analysis_hash(spectra: &[SpectrumMeta], cal: &Calibration) -> String {
+    let has_pl = spectra.iter().any(|s| s.kind == "pl");
+    let mut h = Sha256::new();
+    h.update("stage1|");
+    for s in spectra {
+        h.update(format!("{}|{}|{:?}|{}|", s.kind, s.sha256, s.excitation_nm, s.x_unit));
+    }
+    h.update(serde_json::json!({"analysis": cal.analysis}).to_string());
+    if has_pl {
+        h.update(serde_json::to_string(&cal.detector_correction).unwrap_or_default());
+    }
+    h.finalize().iter().take(16).map(|b| format!("{b:02x}")).collect()
+}
+
 /// Everything computed for an aliquot, with the intermediate analysis kept for `explain`.
 #[derive(Debug, Clone, Serialize)]
 pub struct Computation {
@@ -119,8 +151,12 @@ pub struct Computation {
     pub extinction: Option<extinction::Extinction>,
 }
 
-/// Computes an aliquot's derived values from its spectra under one calibration. Pure.
-pub fn compute(a: &AliquotRow, core: &str, spectra: &[SpectrumRow], cal: &Calibration) -> Computation {
+fn value_of(values: &[Derived], q: &str) -> Option<f64> {
+    values.iter().find(|v| v.quantity == q).and_then(|v| v.value)
+}
+
+/// Stage one: analyses the spectra. Pure.
+pub fn analyse(spectra: &[SpectrumRow], cal: &Calibration) -> (Vec<Derived>, Option<AbsResult>, Option<PlResult>) {
     let mut out = Vec::new();
     let set = &cal.analysis;
     let peak_method = format!(
@@ -129,16 +165,19 @@ pub fn compute(a: &AliquotRow, core: &str, spectra: &[SpectrumRow], cal: &Calibr
     );
     let abs_spec = spectra.iter().find(|s| s.kind == "abs");
     let pl_spec = spectra.iter().find(|s| s.kind == "pl");
-    let mut abs_trace = None;
     let mut abs_res = None;
-    let mut sizing_res = None;
-    let mut ext_res = None;
+    let mut abs_trace = None;
     if let Some(s) = abs_spec {
         match trace_of(s).and_then(|t| analysis::analyze_absorbance(&t, set).map(|r| (t, r))) {
             Err(e) => out.push(d("first_exciton_nm", None, "nm", &peak_method, vec![e.to_string()])),
             Ok((t, r)) => {
-                let w = r.warnings.clone();
-                out.push(d("first_exciton_nm", r.first_exciton_nm, "nm", &peak_method, w.clone()));
+                out.push(d(
+                    "first_exciton_nm",
+                    r.first_exciton_nm,
+                    "nm",
+                    &peak_method,
+                    r.warnings.clone(),
+                ));
                 out.push(d(
                     "first_exciton_abs",
                     r.first_exciton_abs,
@@ -167,98 +206,13 @@ pub fn compute(a: &AliquotRow, core: &str, spectra: &[SpectrumRow], cal: &Calibr
                     &peak_method,
                     vec![],
                 ));
-                if let Some(peak) = r.first_exciton_nm {
-                    match cal.curves.get(core) {
-                        None => out.push(d(
-                            "diameter_nm",
-                            None,
-                            "nm",
-                            "none",
-                            vec![format!("no sizing curve set for {core}")],
-                        )),
-                        Some(curve) => match cal.size(curve, core, peak) {
-                            Err(e) => out.push(d("diameter_nm", None, "nm", curve, vec![e.to_string()])),
-                            Ok(sz) => {
-                                let w = sz.warnings.clone();
-                                out.push(d("diameter_nm", Some(sz.diameter_nm), "nm", &sz.curve, w));
-                                if let Some(e) = sz.edge_nm {
-                                    out.push(d("edge_nm", Some(e), "nm", &sz.curve, vec![]));
-                                }
-                                // σ from HWHM through the curve's slope, assuming a Gaussian
-                                // (σ = HWHM / √(2 ln 2)); an upper bound, since the width also
-                                // holds homogeneous broadening (common practice).
-                                let disp = r
-                                    .hwhm_nm
-                                    .filter(|_| sz.slope.is_finite())
-                                    .map(|h| 100.0 * sz.slope.abs() * h / (2.0f64.ln() * 2.0).sqrt() / sz.diameter_nm);
-                                out.push(d(
-                                    "size_dispersion_pct",
-                                    disp,
-                                    "%",
-                                    &format!("{}: σ/D from HWHM x dD/dλ (upper bound)", sz.curve),
-                                    vec![],
-                                ));
-                                if let Some(model) = cal.extinction.get(core) {
-                                    match cal.extinction(model, core, sz.diameter_nm, peak, r.hwhm_ev) {
-                                        Err(e) => out.push(d(
-                                            "extinction_m1cm1",
-                                            None,
-                                            "M^-1 cm^-1",
-                                            model,
-                                            vec![e.to_string()],
-                                        )),
-                                        Ok(ex) => {
-                                            let a_at = if (ex.at_nm - peak).abs() < 1e-9 {
-                                                r.first_exciton_abs
-                                            } else {
-                                                analysis::interpolate(&t, ex.at_nm)
-                                            };
-                                            out.push(d(
-                                                "extinction_m1cm1",
-                                                Some(ex.extinction_m1cm1),
-                                                "M^-1 cm^-1",
-                                                &format!("{model} at {:.0} nm", ex.at_nm),
-                                                ex.warnings.clone(),
-                                            ));
-                                            let (c, w) = match a_at {
-                                                Some(av) => match extinction::concentration_molar(
-                                                    av,
-                                                    ex.extinction_m1cm1,
-                                                    a.path_cm,
-                                                    a.dilution_factor,
-                                                ) {
-                                                    Ok(c) => (Some(c), vec![]),
-                                                    Err(e) => (None, vec![e.to_string()]),
-                                                },
-                                                None => (
-                                                    None,
-                                                    vec![format!("no absorbance measured at {:.0} nm", ex.at_nm)],
-                                                ),
-                                            };
-                                            out.push(d(
-                                                "concentration_molar",
-                                                c,
-                                                "M",
-                                                &format!("Beer-Lambert with {model}, undiluted"),
-                                                w,
-                                            ));
-                                            ext_res = Some(ex);
-                                        }
-                                    }
-                                } else {
-                                    out.push(d(
-                                        "concentration_molar",
-                                        None,
-                                        "M",
-                                        "none",
-                                        vec![format!("no extinction model for {core}")],
-                                    ));
-                                }
-                                sizing_res = Some(sz);
-                            }
-                        },
-                    }
-                }
+                out.push(d(
+                    "abs_400nm",
+                    analysis::interpolate(&t, 400.0),
+                    "absorbance",
+                    "interpolated at 400 nm",
+                    vec![],
+                ));
                 abs_trace = Some(t);
                 abs_res = Some(r);
             }
@@ -266,6 +220,16 @@ pub fn compute(a: &AliquotRow, core: &str, spectra: &[SpectrumRow], cal: &Calibr
     }
     let mut pl_res = None;
     if let Some(s) = pl_spec {
+        if let Some(ex) = s.excitation_nm {
+            let a_ex = abs_trace.as_ref().and_then(|t| analysis::interpolate(t, ex));
+            out.push(d(
+                "abs_at_excitation",
+                a_ex,
+                "absorbance",
+                &format!("interpolated at {ex} nm"),
+                vec![],
+            ));
+        }
         let traced = trace_of(s).and_then(|t| match &cal.detector_correction {
             Some(c) => analysis::apply_correction(
                 &t,
@@ -287,31 +251,155 @@ pub fn compute(a: &AliquotRow, core: &str, spectra: &[SpectrumRow], cal: &Calibr
                 out.push(d("pl_fwhm_nm", p.pl_fwhm_nm, "nm", &method, vec![]));
                 out.push(d("pl_fwhm_mev", p.pl_fwhm_mev, "meV", &method, vec![]));
                 out.push(d("pl_integral", Some(p.pl_integral), "counts nm", &method, vec![]));
-                if let (Some(ab), Some(pp)) = (abs_res.as_ref().and_then(|r| r.first_exciton_nm), p.pl_peak_nm) {
-                    let (_, mev) = analysis::stokes_shift(ab, pp);
-                    out.push(d(
-                        "stokes_shift_mev",
-                        Some(mev),
-                        "meV",
-                        "first exciton minus PL peak",
-                        vec![],
-                    ));
-                }
-                out.push(qy_value(a, s, abs_trace.as_ref(), &p, cal));
                 pl_res = Some(p);
             }
         }
     }
+    (out, abs_res, pl_res)
+}
+
+/// Stage two: sizes, extinction, concentration, Stokes shift and quantum yield from the stage-one
+/// numbers and the calibration. Pure and cheap: no spectrum is needed.
+pub fn derive_values(
+    a: &AliquotRow,
+    core: &str,
+    metas: &[SpectrumMeta],
+    stage1: &[Derived],
+    cal: &Calibration,
+) -> (Vec<Derived>, Option<sizing::Sizing>, Option<extinction::Extinction>) {
+    let mut out = Vec::new();
+    let mut sizing_res = None;
+    let mut ext_res = None;
+    let peak = value_of(stage1, "first_exciton_nm");
+    if let Some(peak) = peak {
+        match cal.curves.get(core) {
+            None => out.push(d(
+                "diameter_nm",
+                None,
+                "nm",
+                "none",
+                vec![format!("no sizing curve set for {core}")],
+            )),
+            Some(curve) => match cal.size(curve, core, peak) {
+                Err(e) => out.push(d("diameter_nm", None, "nm", curve, vec![e.to_string()])),
+                Ok(sz) => {
+                    out.push(d(
+                        "diameter_nm",
+                        Some(sz.diameter_nm),
+                        "nm",
+                        &sz.curve,
+                        sz.warnings.clone(),
+                    ));
+                    if let Some(e) = sz.edge_nm {
+                        out.push(d("edge_nm", Some(e), "nm", &sz.curve, vec![]));
+                    }
+                    // σ from HWHM through the curve's slope, assuming a Gaussian (σ = HWHM /
+                    // √(2 ln 2)); an upper bound, since the width also holds homogeneous
+                    // broadening (common practice).
+                    let disp = value_of(stage1, "hwhm_nm")
+                        .filter(|_| sz.slope.is_finite())
+                        .map(|h| 100.0 * sz.slope.abs() * h / (2.0f64.ln() * 2.0).sqrt() / sz.diameter_nm);
+                    out.push(d(
+                        "size_dispersion_pct",
+                        disp,
+                        "%",
+                        &format!("{}: σ/D from HWHM x dD/dλ (upper bound)", sz.curve),
+                        vec![],
+                    ));
+                    let hwhm_ev = value_of(stage1, "hwhm_mev").map(|m| m / 1000.0);
+                    if let Some(model) = cal.extinction.get(core) {
+                        match cal.extinction(model, core, sz.diameter_nm, peak, hwhm_ev) {
+                            Err(e) => out.push(d("extinction_m1cm1", None, "M^-1 cm^-1", model, vec![e.to_string()])),
+                            Ok(ex) => {
+                                let a_at = if (ex.at_nm - peak).abs() < 1e-9 {
+                                    value_of(stage1, "first_exciton_abs")
+                                } else if (ex.at_nm - 400.0).abs() < 1e-9 {
+                                    value_of(stage1, "abs_400nm")
+                                } else {
+                                    None
+                                };
+                                out.push(d(
+                                    "extinction_m1cm1",
+                                    Some(ex.extinction_m1cm1),
+                                    "M^-1 cm^-1",
+                                    &format!("{model} at {:.0} nm", ex.at_nm),
+                                    ex.warnings.clone(),
+                                ));
+                                let (c, w) = match a_at {
+                                    Some(av) => match extinction::concentration_molar(
+                                        av,
+                                        ex.extinction_m1cm1,
+                                        a.path_cm,
+                                        a.dilution_factor,
+                                    ) {
+                                        Ok(c) => (Some(c), vec![]),
+                                        Err(e) => (None, vec![e.to_string()]),
+                                    },
+                                    None => (None, vec![format!("no absorbance measured at {:.0} nm", ex.at_nm)]),
+                                };
+                                out.push(d(
+                                    "concentration_molar",
+                                    c,
+                                    "M",
+                                    &format!("Beer-Lambert with {model}, undiluted"),
+                                    w,
+                                ));
+                                ext_res = Some(ex);
+                            }
+                        }
+                    } else {
+                        out.push(d(
+                            "concentration_molar",
+                            None,
+                            "M",
+                            "none",
+                            vec![format!("no extinction model for {core}")],
+                        ));
+                    }
+                    sizing_res = Some(sz);
+                }
+            },
+        }
+    }
+    let pl_meta = metas.iter().find(|m| m.kind == "pl");
+    if let (Some(ab), Some(pp)) = (peak, value_of(stage1, "pl_peak_nm")) {
+        let (_, mev) = analysis::stokes_shift(ab, pp);
+        out.push(d(
+            "stokes_shift_mev",
+            Some(mev),
+            "meV",
+            "first exciton minus PL peak",
+            vec![],
+        ));
+    }
+    if let (Some(pl), Some(integral)) = (pl_meta, value_of(stage1, "pl_integral")) {
+        out.push(qy_value(
+            a,
+            pl.excitation_nm,
+            value_of(stage1, "abs_at_excitation"),
+            integral,
+            cal,
+        ));
+    }
+    (out, sizing_res, ext_res)
+}
+
+/// Computes an aliquot's derived values from its spectra under one calibration. Pure.
+pub fn compute(a: &AliquotRow, core: &str, spectra: &[SpectrumRow], cal: &Calibration) -> Computation {
+    let (mut values, absorbance, pl) = analyse(spectra, cal);
+    let metas: Vec<SpectrumMeta> = spectra.iter().map(SpectrumMeta::from).collect();
+    let (more, sizing, extinction) = derive_values(a, core, &metas, &values, cal);
+    values.extend(more);
     Computation {
-        values: out,
-        absorbance: abs_res,
-        pl: pl_res,
-        sizing: sizing_res,
-        extinction: ext_res,
+        values,
+        absorbance,
+        pl,
+        sizing,
+        extinction,
     }
 }
 
-fn qy_value(a: &AliquotRow, pl: &SpectrumRow, abs: Option<&Trace>, p: &PlResult, cal: &Calibration) -> Derived {
+fn qy_value(a: &AliquotRow, excitation: Option<f64>, a_ex: Option<f64>, integral: f64, cal: &Calibration) -> Derived {
     let method = "relative, single point (Brouwer 2011)";
     let Some(r) = &cal.qy_reference else {
         return d(
@@ -322,7 +410,7 @@ fn qy_value(a: &AliquotRow, pl: &SpectrumRow, abs: Option<&Trace>, p: &PlResult,
             vec!["no QY reference in the calibration (cuvette calib set-reference)".into()],
         );
     };
-    let Some(ex) = pl.excitation_nm else {
+    let Some(ex) = excitation else {
         return d(
             "qy",
             None,
@@ -331,7 +419,7 @@ fn qy_value(a: &AliquotRow, pl: &SpectrumRow, abs: Option<&Trace>, p: &PlResult,
             vec!["the PL spectrum has no excitation wavelength".into()],
         );
     };
-    let Some(a_ex) = abs.and_then(|t| analysis::interpolate(t, ex)) else {
+    let Some(a_ex) = a_ex else {
         return d(
             "qy",
             None,
@@ -349,7 +437,7 @@ fn qy_value(a: &AliquotRow, pl: &SpectrumRow, abs: Option<&Trace>, p: &PlResult,
             vec!["no refractive index for a solvent".into()],
         );
     };
-    match qy::single_point(p.pl_integral, a_ex, r.integral, r.abs_at_excitation, r.qy, n, nr) {
+    match qy::single_point(integral, a_ex, r.integral, r.abs_at_excitation, r.qy, n, nr) {
         Err(e) => d("qy", None, "fraction", method, vec![e.to_string()]),
         Ok(q) => {
             let mut w = q.warnings;
@@ -368,6 +456,11 @@ fn qy_value(a: &AliquotRow, pl: &SpectrumRow, abs: Option<&Trace>, p: &PlResult,
             )
         }
     }
+}
+
+/// The hash a stored value of `quantity` should carry.
+fn expected_hash<'a>(quantity: &str, stage1: &'a str, full: &'a str) -> &'a str {
+    if SPECTRAL.contains(&quantity) { stage1 } else { full }
 }
 
 /// A stored derived value.
@@ -449,6 +542,7 @@ fn apply(
     tx: &Connection,
     aliquot_id: i64,
     version: i64,
+    stage1_hash: &str,
     hash: &str,
     new: &[Derived],
     old: &[StoredValue],
@@ -457,15 +551,24 @@ fn apply(
     let mut changed = 0;
     let old_by: HashMap<&str, &StoredValue> = old.iter().map(|o| (o.quantity.as_str(), o)).collect();
     for v in new {
-        let w = serde_json::to_string(&v.warnings)?;
+        let hash = expected_hash(&v.quantity, stage1_hash, hash);
         match old_by.get(v.quantity.as_str()) {
+            Some(o)
+                if same(o.value, v.value)
+                    && o.method == v.method
+                    && o.inputs_hash == hash
+                    && o.calibration_version == version
+                    && !o.stale
+                    && o.warnings == v.warnings => {}
             Some(o) if same(o.value, v.value) && o.method == v.method => {
+                let w = serde_json::to_string(&v.warnings)?;
                 tx.prepare_cached(
                     "UPDATE derived_value SET inputs_hash = ?1, calibration_version = ?2, computed_at = ?3, stale = 0, warnings = ?4 WHERE id = ?5",
                 )?
                 .execute(params![hash, version, t, w, o.id])?;
             }
             other => {
+                let w = serde_json::to_string(&v.warnings)?;
                 if let Some(o) = other {
                     tx.prepare_cached("UPDATE derived_value SET superseded_at = ?1 WHERE id = ?2")?
                         .execute(params![t, o.id])?;
@@ -513,9 +616,10 @@ pub fn derive_aliquot(tx: &Connection, aliquot_id: i64) -> Result<Vec<Derived>> 
     let spectra = crate::store::model::spectra_of_aliquot(tx, aliquot_id)?;
     let metas: Vec<SpectrumMeta> = spectra.iter().map(SpectrumMeta::from).collect();
     let hash = inputs_hash(&a, &batch.core, &metas, &cal);
+    let stage1 = analysis_hash(&metas, &cal);
     let comp = compute(&a, &batch.core, &spectra, &cal);
     let old = current_values(tx, aliquot_id)?;
-    apply(tx, aliquot_id, version, &hash, &comp.values, &old)?;
+    apply(tx, aliquot_id, version, &stage1, &hash, &comp.values, &old)?;
     Ok(comp.values)
 }
 
@@ -614,22 +718,53 @@ pub fn recompute(
         }
         let metas = spectrum_metas(conn, a.id)?;
         let hash = inputs_hash(&a, &core, &metas, cal);
+        let stage1 = analysis_hash(&metas, cal);
         let old = current_values(conn, a.id)?;
-        let stale = (old.is_empty() && !metas.is_empty()) || old.iter().any(|o| o.inputs_hash != hash);
+        let stale = (old.is_empty() && !metas.is_empty())
+            || old
+                .iter()
+                .any(|o| o.inputs_hash != expected_hash(&o.quantity, &stage1, &hash));
         if stale {
             report.stale_found += 1;
         }
         if !stale && !all {
             continue;
         }
-        let spectra = crate::store::model::spectra_of_aliquot(conn, a.id)?;
-        let comp = compute(&a, &core, &spectra, cal);
+        // Stage one is kept when the spectra and the analysis settings are unchanged: then no
+        // spectrum is read at all. `--all` redoes both stages.
+        let spectral: Vec<&StoredValue> = old.iter().filter(|o| SPECTRAL.contains(&o.quantity.as_str())).collect();
+        let stage1_current = !all && !spectral.is_empty() && spectral.iter().all(|o| o.inputs_hash == stage1);
+        let values: Vec<Derived> = if stage1_current {
+            let mut v: Vec<Derived> = spectral
+                .iter()
+                .map(|o| Derived {
+                    quantity: o.quantity.clone(),
+                    value: o.value,
+                    unit: o.unit.clone(),
+                    method: o.method.clone(),
+                    warnings: o.warnings.clone(),
+                })
+                .collect();
+            let (more, _, _) = derive_values(&a, &core, &metas, &v, cal);
+            v.extend(more);
+            v
+        } else {
+            let spectra = crate::store::model::spectra_of_aliquot(conn, a.id)?;
+            compute(&a, &core, &spectra, cal).values
+        };
+        let comp = Computation {
+            values,
+            absorbance: None,
+            pl: None,
+            sizing: None,
+            extinction: None,
+        };
         report.aliquots_recomputed += 1;
         report.recomputed += comp.values.len();
         let n_changed = if dry_run {
             count_changes(&comp.values, &old)
         } else {
-            apply(conn, a.id, version, &hash, &comp.values, &old)?
+            apply(conn, a.id, version, &stage1, &hash, &comp.values, &old)?
         };
         report.changed += n_changed;
         if n_changed > 0 {
@@ -732,10 +867,16 @@ pub fn mark_stale(tx: &Connection) -> Result<usize> {
         if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
             e.insert(calibration::get(tx, version)?.body);
         }
-        let hash = inputs_hash(&a, &core, &spectrum_metas(tx, a.id)?, &cals[&version]);
+        let metas = spectrum_metas(tx, a.id)?;
+        let hash = inputs_hash(&a, &core, &metas, &cals[&version]);
+        let stage1 = analysis_hash(&metas, &cals[&version]);
+        let spectral = SPECTRAL.iter().map(|q| format!("'{q}'")).collect::<Vec<_>>().join(",");
         n += tx
-            .prepare_cached("UPDATE derived_value SET stale = (inputs_hash <> ?1) WHERE aliquot_id = ?2 AND superseded_at IS NULL AND stale <> (inputs_hash <> ?1)")?
-            .execute(params![hash, a.id])?;
+            .prepare_cached(&format!(
+                "UPDATE derived_value SET stale = NOT (inputs_hash = CASE WHEN quantity IN ({spectral}) THEN ?3 ELSE ?1 END)
+                 WHERE aliquot_id = ?2 AND superseded_at IS NULL AND stale <> NOT (inputs_hash = CASE WHEN quantity IN ({spectral}) THEN ?3 ELSE ?1 END)"
+            ))?
+            .execute(params![hash, a.id, stage1])?;
     }
     Ok(n)
 }

@@ -97,6 +97,8 @@ pub fn explain(conn: &Connection, aliquot_id: i64) -> Result<Value> {
         "shoulder",
         "hwhm_nm",
         "hwhm_mev",
+        "abs_400nm",
+        "abs_at_excitation",
         "diameter_nm",
         "edge_nm",
         "size_dispersion_pct",
