@@ -24,6 +24,7 @@ fn every_entity_round_trips_through_the_store() {
     let out = st
         .write(|tx, who| {
             model::add_person(tx, who, "tester", Some("t@example.invalid"))?;
+            model::add_material(tx, who, "ZnSe/ZnS", "ZnSe", Some("ZnS"))?;
             let loc = model::add_location(tx, who, "Glovebox 1", "glovebox", Some("shelf B"))?;
             model::add_reagent(tx, who, "test reagent", Some("X2"), None, &["H302".into()], false)?;
             let (_, rv) = model::save_recipe(
@@ -116,6 +117,9 @@ fn every_entity_round_trips_through_the_store() {
         .unwrap();
     let (rv, b, child, a, sp, v, _loc) = out;
     let c = &st.conn;
+    let m = model::material_by_name(c, "znse/zns").unwrap();
+    assert_eq!((m.core.as_str(), m.shell.as_deref()), ("ZnSe", Some("ZnS")));
+    assert_eq!(model::list_people(c).unwrap()[0].email.as_deref(), Some("t@example.invalid"));
     let r = model::recipe_view(c, rv).unwrap();
     assert_eq!(
         (
@@ -393,6 +397,19 @@ fn bad_input_is_refused_with_one_line_and_no_change() {
     );
     lab.ok(&["vial", "dispose", "V9", "--why", "aggregated"]);
     lab.refuses(&["vial", "draw", "V9", "--ml", "0.1"], "has been disposed of");
+    lab.refuses(&["batch", "list", "--status", "cooking"], "unknown status 'cooking'");
+    lab.refuses(&["batch", "list", "--material", "Unobtainium"], "unknown material");
+    lab.refuses(&["shelf", "--low", "-1"], "--low must be a volume of zero or more");
+    lab.refuses(&["log", "--limit", "0"], "--limit must be 1 or more");
+    lab.refuses(&["vial", "show", "NOPE"], "vial NOPE not found");
+    lab.refuses(&["recipe", "show", "no such recipe"], "recipe 'no such recipe' not found");
+    lab.refuses(&["batch", "edit", &bs, "--product-aliquot", "999"], "is not an aliquot of batch");
+    lab.refuses(&["batch", "edit", &bs, "--pin-calibration", "99"], "calibration version 99 not found");
+    let dir = lab.path("a-folder");
+    std::fs::create_dir(&dir).unwrap();
+    let o = lab.run_on(&dir, &["init"]);
+    assert_eq!(o.code, 1);
+    assert!(o.stderr.contains("is a folder"), "{}", o.stderr);
     // Usage errors exit 2.
     let o = lab.run(&["batch", "new", "--name", "x"]);
     assert_eq!(o.code, 2, "{}", o.stderr);

@@ -225,3 +225,51 @@ fn a_bench_session_driven_by_keys_lands_in_the_database() {
     let ev = model::vial_events(&st.conn, v[0].id).unwrap();
     assert_eq!(ev.last().unwrap().why.as_deref(), Some("TEM"));
 }
+
+#[test]
+fn forms_and_the_file_picker_render_and_watching_a_folder_logs_new_exports() {
+    let lab = Lab::new();
+    lab.ok(&["init"]);
+    let exports = lab.path("exports");
+    std::fs::create_dir(&exports).unwrap();
+    let (x, y) = cuvette::demo::absorbance("CdSe", 540.0, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(1));
+    std::fs::write(exports.join("abs_01min.csv"), csv(&x, &y)).unwrap();
+    let store = Store::open(&lab.db, "Test Runner").unwrap();
+    let mut app = App::new(store, keys::KeyMap::new(&Default::default()).unwrap());
+    app.export_dir = exports.clone();
+    press(&mut app, KeyCode::Char('n'));
+    let s = screen(&app);
+    assert!(s.contains("New batch") && s.contains("material: CdSe"), "{s}");
+    press(&mut app, KeyCode::Tab);
+    typ(&mut app, "Watched");
+    press(&mut app, KeyCode::Enter);
+    press(&mut app, KeyCode::Char('a'));
+    let s = screen(&app);
+    assert!(s.contains("pick export files") && s.contains("abs_01min.csv"), "{s}");
+    press(&mut app, KeyCode::Esc);
+    // Watch for a few seconds; a file that appears meanwhile becomes an aliquot.
+    press(&mut app, KeyCode::Char('w'));
+    assert!(screen(&app).contains("Watch a folder"));
+    press(&mut app, KeyCode::Tab);
+    press(&mut app, KeyCode::Tab);
+    for _ in 0..3 {
+        press(&mut app, KeyCode::Backspace);
+    }
+    typ(&mut app, "4");
+    press(&mut app, KeyCode::Enter);
+    assert!(app.message.as_ref().is_some_and(|m| m.1.contains("watching")), "{:?}", app.message);
+    std::thread::sleep(std::time::Duration::from_millis(300));
+    let (x, y) = cuvette::demo::absorbance("CdSe", 552.0, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(2));
+    std::fs::write(exports.join("abs_07min.csv"), csv(&x, &y)).unwrap();
+    let start = std::time::Instant::now();
+    while app.busy && start.elapsed().as_secs() < 15 {
+        app.poll_workers();
+        std::thread::sleep(std::time::Duration::from_millis(100));
+    }
+    assert!(app.message.as_ref().is_some_and(|m| m.1.contains("1 aliquots added")), "{:?}", app.message);
+    let st = Store::open(&lab.db, "check").unwrap();
+    let b = model::list_batches(&st.conn).unwrap();
+    let al = model::aliquots_of(&st.conn, b[0].id).unwrap();
+    assert_eq!(al.len(), 1);
+    assert_eq!(al[0].minutes, Some(7.0), "minutes taken from the file name");
+}

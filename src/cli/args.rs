@@ -405,6 +405,7 @@ pub enum VialCmd {
 }
 
 #[derive(Debug, Args)]
+#[command(allow_negative_numbers = true)]
 pub struct ShelfArgs {
     /// Include disposed vials.
     #[arg(long)]
@@ -417,6 +418,7 @@ pub struct ShelfArgs {
 }
 
 #[derive(Debug, Args)]
+#[command(allow_negative_numbers = true)]
 pub struct LogArgs {
     #[arg(long)]
     pub entity: Option<String>,

@@ -42,6 +42,9 @@ fn db_path(cli: &Cli) -> PathBuf {
 
 fn open(cli: &Cli) -> Result<Store> {
     let path = db_path(cli);
+    if path.is_dir() {
+        bail!("{} is a folder; give the database file (for example {}/lab.db)", path.display(), path.display());
+    }
     if let Some(dir) = path.parent()
         && !dir.as_os_str().is_empty()
         && !dir.exists()
@@ -830,6 +833,11 @@ fn vial(cli: &Cli, c: &VialCmd) -> Result<()> {
 }
 
 fn shelf(cli: &Cli, a: &ShelfArgs) -> Result<()> {
+    if let Some(l) = a.low
+        && !(l >= 0.0)
+    {
+        bail!("--low must be a volume of zero or more mL, got {l}");
+    }
     let mut store = open(cli)?;
     let vials = store.read(|tx| model::list_vials(tx, a.all))?;
     let vials: Vec<_> = vials
@@ -868,6 +876,9 @@ fn shelf(cli: &Cli, a: &ShelfArgs) -> Result<()> {
 }
 
 fn log(cli: &Cli, a: &LogArgs) -> Result<()> {
+    if a.limit < 1 {
+        bail!("--limit must be 1 or more, got {}", a.limit);
+    }
     let mut store = open(cli)?;
     let rows = store.read(|tx| model::audit_log(tx, a.entity.as_deref(), a.limit))?;
     if a.json {
