@@ -119,7 +119,10 @@ fn every_entity_round_trips_through_the_store() {
     let c = &st.conn;
     let m = model::material_by_name(c, "znse/zns").unwrap();
     assert_eq!((m.core.as_str(), m.shell.as_deref()), ("ZnSe", Some("ZnS")));
-    assert_eq!(model::list_people(c).unwrap()[0].email.as_deref(), Some("t@example.invalid"));
+    assert_eq!(
+        model::list_people(c).unwrap()[0].email.as_deref(),
+        Some("t@example.invalid")
+    );
     let r = model::recipe_view(c, rv).unwrap();
     assert_eq!(
         (
@@ -402,9 +405,18 @@ fn bad_input_is_refused_with_one_line_and_no_change() {
     lab.refuses(&["shelf", "--low", "-1"], "--low must be a volume of zero or more");
     lab.refuses(&["log", "--limit", "0"], "--limit must be 1 or more");
     lab.refuses(&["vial", "show", "NOPE"], "vial NOPE not found");
-    lab.refuses(&["recipe", "show", "no such recipe"], "recipe 'no such recipe' not found");
-    lab.refuses(&["batch", "edit", &bs, "--product-aliquot", "999"], "is not an aliquot of batch");
-    lab.refuses(&["batch", "edit", &bs, "--pin-calibration", "99"], "calibration version 99 not found");
+    lab.refuses(
+        &["recipe", "show", "no such recipe"],
+        "recipe 'no such recipe' not found",
+    );
+    lab.refuses(
+        &["batch", "edit", &bs, "--product-aliquot", "999"],
+        "is not an aliquot of batch",
+    );
+    lab.refuses(
+        &["batch", "edit", &bs, "--pin-calibration", "99"],
+        "calibration version 99 not found",
+    );
     let dir = lab.path("a-folder");
     std::fs::create_dir(&dir).unwrap();
     let o = lab.run_on(&dir, &["init"]);

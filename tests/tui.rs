@@ -257,7 +257,11 @@ fn forms_and_the_file_picker_render_and_watching_a_folder_logs_new_exports() {
     }
     typ(&mut app, "4");
     press(&mut app, KeyCode::Enter);
-    assert!(app.message.as_ref().is_some_and(|m| m.1.contains("watching")), "{:?}", app.message);
+    assert!(
+        app.message.as_ref().is_some_and(|m| m.1.contains("watching")),
+        "{:?}",
+        app.message
+    );
     std::thread::sleep(std::time::Duration::from_millis(300));
     let (x, y) = cuvette::demo::absorbance("CdSe", 552.0, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(2));
     std::fs::write(exports.join("abs_07min.csv"), csv(&x, &y)).unwrap();
@@ -266,7 +270,11 @@ fn forms_and_the_file_picker_render_and_watching_a_folder_logs_new_exports() {
         app.poll_workers();
         std::thread::sleep(std::time::Duration::from_millis(100));
     }
-    assert!(app.message.as_ref().is_some_and(|m| m.1.contains("1 aliquots added")), "{:?}", app.message);
+    assert!(
+        app.message.as_ref().is_some_and(|m| m.1.contains("1 aliquots added")),
+        "{:?}",
+        app.message
+    );
     let st = Store::open(&lab.db, "check").unwrap();
     let b = model::list_batches(&st.conn).unwrap();
     let al = model::aliquots_of(&st.conn, b[0].id).unwrap();

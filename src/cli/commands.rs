@@ -43,7 +43,11 @@ fn db_path(cli: &Cli) -> PathBuf {
 fn open(cli: &Cli) -> Result<Store> {
     let path = db_path(cli);
     if path.is_dir() {
-        bail!("{} is a folder; give the database file (for example {}/lab.db)", path.display(), path.display());
+        bail!(
+            "{} is a folder; give the database file (for example {}/lab.db)",
+            path.display(),
+            path.display()
+        );
     }
     if let Some(dir) = path.parent()
         && !dir.as_os_str().is_empty()

@@ -61,6 +61,11 @@ fn relevant(cal: &Calibration, core: &str, solvent: &str, has_pl: bool) -> serde
 /// The hash of everything an aliquot's derived values depend on.
 pub fn inputs_hash(a: &AliquotRow, core: &str, spectra: &[SpectrumMeta], cal: &Calibration) -> String {
     let has_pl = spectra.iter().any(|s| s.kind == "pl");
+    inputs_hash_with(a, core, spectra, &relevant(cal, core, &a.solvent, has_pl).to_string())
+}
+
+/// As [`inputs_hash`], with the calibration part already rendered (recompute caches it).
+fn inputs_hash_with(a: &AliquotRow, core: &str, spectra: &[SpectrumMeta], relevant: &str) -> String {
     let mut h = Sha256::new();
     h.update(format!(
         "v1|{core}|{}|{}|{}|",
@@ -71,7 +76,7 @@ pub fn inputs_hash(a: &AliquotRow, core: &str, spectra: &[SpectrumMeta], cal: &C
     for s in spectra {
         h.update(format!("{}|{}|{:?}|{}|", s.kind, s.sha256, s.excitation_nm, s.x_unit));
     }
-    h.update(relevant(cal, core, &a.solvent, has_pl).to_string());
+    h.update(relevant);
     h.finalize().iter().take(16).map(|b| format!("{b:02x}")).collect()
 }
 
@@ -129,15 +134,24 @@ pub const SPECTRAL: &[&str] = &[
 /// The hash of what stage one depends on: the spectra and the analysis settings.
 pub fn analysis_hash(spectra: &[SpectrumMeta], cal: &Calibration) -> String {
     let has_pl = spectra.iter().any(|s| s.kind == "pl");
+    analysis_hash_with(spectra, &analysis_part(cal, has_pl))
+}
+
+fn analysis_part(cal: &Calibration, has_pl: bool) -> String {
+    let mut s = serde_json::json!({"analysis": cal.analysis}).to_string();
+    if has_pl {
+        s.push_str(&serde_json::to_string(&cal.detector_correction).unwrap_or_default());
+    }
+    s
+}
+
+fn analysis_hash_with(spectra: &[SpectrumMeta], part: &str) -> String {
     let mut h = Sha256::new();
     h.update("stage1|");
     for s in spectra {
         h.update(format!("{}|{}|{:?}|{}|", s.kind, s.sha256, s.excitation_nm, s.x_unit));
     }
-    h.update(serde_json::json!({"analysis": cal.analysis}).to_string());
-    if has_pl {
-        h.update(serde_json::to_string(&cal.detector_correction).unwrap_or_default());
-    }
+    h.update(part);
     h.finalize().iter().take(16).map(|b| format!("{b:02x}")).collect()
 }
 
@@ -687,125 +701,178 @@ pub fn recompute(
     let thresholds = search_thresholds(conn)?;
     let products = product_aliquots(conn)?;
     let mut moves: Vec<Move> = Vec::new();
-    let mut st = conn.prepare(
-        "SELECT a.id, a.batch_id, a.minutes, a.stage, a.dilution_factor, a.path_cm, a.solvent, a.taken_at,
-                m.core, COALESCE(b.pinned_calibration, ?1)
-         FROM aliquot a JOIN batch b ON b.id = a.batch_id JOIN material m ON m.id = b.material_id ORDER BY a.id",
-    )?;
-    let mut rows = st.query([latest])?;
+    // Aliquots are taken in chunks of ids; each chunk's spectrum metadata and current values are
+    // read in two range queries, so memory stays bounded and no query runs per aliquot.
+    const CHUNK: i64 = 2000;
+    let mut relevant_cache: HashMap<(i64, String, String, bool), String> = HashMap::new();
+    let mut analysis_cache: HashMap<(i64, bool), String> = HashMap::new();
     let mut done = 0usize;
-    while let Some(r) = rows.next()? {
-        let a = AliquotRow {
-            id: r.get(0)?,
-            batch_id: r.get(1)?,
-            minutes: r.get(2)?,
-            stage: r.get(3)?,
-            dilution_factor: r.get(4)?,
-            path_cm: r.get(5)?,
-            solvent: r.get(6)?,
-            taken_at: r.get(7)?,
+    let mut after = 0i64;
+    loop {
+        let chunk: Vec<(AliquotRow, String, i64)> = {
+            let mut st = conn.prepare_cached(
+                "SELECT a.id, a.batch_id, a.minutes, a.stage, a.dilution_factor, a.path_cm, a.solvent, a.taken_at,
+                        m.core, COALESCE(b.pinned_calibration, ?1)
+                 FROM aliquot a JOIN batch b ON b.id = a.batch_id JOIN material m ON m.id = b.material_id
+                 WHERE a.id > ?2 ORDER BY a.id LIMIT ?3",
+            )?;
+            let rows = st.query_map(params![latest, after, CHUNK], |r| {
+                Ok((
+                    AliquotRow {
+                        id: r.get(0)?,
+                        batch_id: r.get(1)?,
+                        minutes: r.get(2)?,
+                        stage: r.get(3)?,
+                        dilution_factor: r.get(4)?,
+                        path_cm: r.get(5)?,
+                        solvent: r.get(6)?,
+                        taken_at: r.get(7)?,
+                    },
+                    r.get(8)?,
+                    r.get(9)?,
+                ))
+            })?;
+            rows.collect::<rusqlite::Result<_>>()?
         };
-        let core: String = r.get(8)?;
-        let version: i64 = r.get(9)?;
-        if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
-            e.insert(calibration::get(conn, version)?.body);
-        }
-        let cal = &cals[&version];
-        report.aliquots_considered += 1;
-        done += 1;
-        if done.is_multiple_of(256) {
-            progress(done, total as usize);
-        }
-        let metas = spectrum_metas(conn, a.id)?;
-        let hash = inputs_hash(&a, &core, &metas, cal);
-        let stage1 = analysis_hash(&metas, cal);
-        let old = current_values(conn, a.id)?;
-        let stale = (old.is_empty() && !metas.is_empty())
-            || old
-                .iter()
-                .any(|o| o.inputs_hash != expected_hash(&o.quantity, &stage1, &hash));
-        if stale {
-            report.stale_found += 1;
-        }
-        if !stale && !all {
-            continue;
-        }
-        // Stage one is kept when the spectra and the analysis settings are unchanged: then no
-        // spectrum is read at all. `--all` redoes both stages.
-        let spectral: Vec<&StoredValue> = old.iter().filter(|o| SPECTRAL.contains(&o.quantity.as_str())).collect();
-        let stage1_current = !all && !spectral.is_empty() && spectral.iter().all(|o| o.inputs_hash == stage1);
-        let values: Vec<Derived> = if stage1_current {
-            let mut v: Vec<Derived> = spectral
-                .iter()
-                .map(|o| Derived {
-                    quantity: o.quantity.clone(),
-                    value: o.value,
-                    unit: o.unit.clone(),
-                    method: o.method.clone(),
-                    warnings: o.warnings.clone(),
-                })
-                .collect();
-            let (more, _, _) = derive_values(&a, &core, &metas, &v, cal);
-            v.extend(more);
-            v
-        } else {
-            let spectra = crate::store::model::spectra_of_aliquot(conn, a.id)?;
-            compute(&a, &core, &spectra, cal).values
+        let (Some(first), Some(last)) = (chunk.first(), chunk.last()) else {
+            break;
         };
-        let comp = Computation {
-            values,
-            absorbance: None,
-            pl: None,
-            sizing: None,
-            extinction: None,
-        };
-        report.aliquots_recomputed += 1;
-        report.recomputed += comp.values.len();
-        let n_changed = if dry_run {
-            count_changes(&comp.values, &old)
-        } else {
-            apply(conn, a.id, version, &stage1, &hash, &comp.values, &old)?
-        };
-        report.changed += n_changed;
-        if n_changed > 0 {
-            for v in &comp.values {
-                let o = old.iter().find(|o| o.quantity == v.quantity).and_then(|o| o.value);
-                if same(o, v.value) {
-                    continue;
-                }
-                let rel = match (o, v.value) {
-                    (Some(x), Some(y)) if x != 0.0 => Some((y - x) / x.abs()),
-                    _ => None,
-                };
-                if products.contains(&a.id) {
-                    for (field, q, t) in &thresholds {
-                        if q == &v.quantity
-                            && let (Some(x), Some(y)) = (o, v.value)
-                            && (x - t) * (y - t) < 0.0
-                        {
-                            report.threshold_crossings.push(Crossing {
-                                batch_id: a.batch_id,
-                                field: field.clone(),
-                                threshold: *t,
-                                old: o,
-                                new: v.value,
-                            });
+        let (lo, hi) = (first.0.id, last.0.id);
+        after = hi;
+        let mut metas_by: HashMap<i64, Vec<SpectrumMeta>> = HashMap::new();
+        {
+            let mut st = conn.prepare_cached(
+                "SELECT aliquot_id, kind, sha256, excitation_nm, x_unit FROM spectrum INDEXED BY spectrum_meta WHERE aliquot_id BETWEEN ?1 AND ?2 ORDER BY aliquot_id, id",
+            )?;
+            let mut rows = st.query(params![lo, hi])?;
+            while let Some(r) = rows.next()? {
+                metas_by.entry(r.get(0)?).or_default().push(SpectrumMeta {
+                    kind: r.get(1)?,
+                    sha256: r.get(2)?,
+                    excitation_nm: r.get(3)?,
+                    x_unit: r.get(4)?,
+                });
+            }
+        }
+        // The staleness check needs only each current value's quantity and hash; full rows are
+        // read only for the aliquots that are stale.
+        let mut hashes_by: HashMap<i64, Vec<(String, String)>> = HashMap::new();
+        {
+            let mut st = conn.prepare_cached(
+                "SELECT aliquot_id, quantity, inputs_hash FROM derived_value WHERE superseded_at IS NULL AND aliquot_id BETWEEN ?1 AND ?2",
+            )?;
+            let mut rows = st.query(params![lo, hi])?;
+            while let Some(r) = rows.next()? {
+                hashes_by.entry(r.get(0)?).or_default().push((r.get(1)?, r.get(2)?));
+            }
+        }
+        for (a, core, version) in chunk {
+            if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
+                e.insert(calibration::get(conn, version)?.body);
+            }
+            let cal = &cals[&version];
+            report.aliquots_considered += 1;
+            done += 1;
+            if done.is_multiple_of(256) {
+                progress(done, total as usize);
+            }
+            let metas = metas_by.remove(&a.id).unwrap_or_default();
+            let has_pl = metas.iter().any(|s| s.kind == "pl");
+            let rel = relevant_cache
+                .entry((version, core.clone(), a.solvent.to_ascii_lowercase(), has_pl))
+                .or_insert_with(|| relevant(cal, &core, &a.solvent, has_pl).to_string());
+            let hash = inputs_hash_with(&a, &core, &metas, rel);
+            let part = analysis_cache
+                .entry((version, has_pl))
+                .or_insert_with(|| analysis_part(cal, has_pl));
+            let stage1 = analysis_hash_with(&metas, part);
+            let hashes = hashes_by.remove(&a.id).unwrap_or_default();
+            let stale = (hashes.is_empty() && !metas.is_empty())
+                || hashes.iter().any(|(q, h)| h != expected_hash(q, &stage1, &hash));
+            if stale {
+                report.stale_found += 1;
+            }
+            if !stale && !all {
+                continue;
+            }
+            let old = current_values(conn, a.id)?;
+            // Stage one is kept when the spectra and the analysis settings are unchanged: then no
+            // spectrum is read at all. `--all` redoes both stages.
+            let spectral: Vec<&StoredValue> = old.iter().filter(|o| SPECTRAL.contains(&o.quantity.as_str())).collect();
+            let stage1_current = !all && !spectral.is_empty() && spectral.iter().all(|o| o.inputs_hash == stage1);
+            let values: Vec<Derived> = if stage1_current {
+                let mut v: Vec<Derived> = spectral
+                    .iter()
+                    .map(|o| Derived {
+                        quantity: o.quantity.clone(),
+                        value: o.value,
+                        unit: o.unit.clone(),
+                        method: o.method.clone(),
+                        warnings: o.warnings.clone(),
+                    })
+                    .collect();
+                let (more, _, _) = derive_values(&a, &core, &metas, &v, cal);
+                v.extend(more);
+                v
+            } else {
+                let spectra = crate::store::model::spectra_of_aliquot(conn, a.id)?;
+                compute(&a, &core, &spectra, cal).values
+            };
+            let comp = Computation {
+                values,
+                absorbance: None,
+                pl: None,
+                sizing: None,
+                extinction: None,
+            };
+            report.aliquots_recomputed += 1;
+            report.recomputed += comp.values.len();
+            let n_changed = if dry_run {
+                count_changes(&comp.values, &old)
+            } else {
+                apply(conn, a.id, version, &stage1, &hash, &comp.values, &old)?
+            };
+            report.changed += n_changed;
+            if n_changed > 0 {
+                for v in &comp.values {
+                    let o = old.iter().find(|o| o.quantity == v.quantity).and_then(|o| o.value);
+                    if same(o, v.value) {
+                        continue;
+                    }
+                    let rel = match (o, v.value) {
+                        (Some(x), Some(y)) if x != 0.0 => Some((y - x) / x.abs()),
+                        _ => None,
+                    };
+                    if products.contains(&a.id) {
+                        for (field, q, t) in &thresholds {
+                            if q == &v.quantity
+                                && let (Some(x), Some(y)) = (o, v.value)
+                                && (x - t) * (y - t) < 0.0
+                            {
+                                report.threshold_crossings.push(Crossing {
+                                    batch_id: a.batch_id,
+                                    field: field.clone(),
+                                    threshold: *t,
+                                    old: o,
+                                    new: v.value,
+                                });
+                            }
                         }
                     }
-                }
-                if ["diameter_nm", "concentration_molar", "qy", "first_exciton_nm"].contains(&v.quantity.as_str()) {
-                    moves.push(Move {
-                        aliquot_id: a.id,
-                        batch_id: a.batch_id,
-                        quantity: v.quantity.clone(),
-                        old: o,
-                        new: v.value,
-                        relative_change: rel,
-                    });
-                    // Keep only the largest moves so memory stays bounded.
-                    if moves.len() > 200 {
-                        sort_moves(&mut moves);
-                        moves.truncate(20);
+                    if ["diameter_nm", "concentration_molar", "qy", "first_exciton_nm"].contains(&v.quantity.as_str()) {
+                        moves.push(Move {
+                            aliquot_id: a.id,
+                            batch_id: a.batch_id,
+                            quantity: v.quantity.clone(),
+                            old: o,
+                            new: v.value,
+                            relative_change: rel,
+                        });
+                        // Keep only the largest moves so memory stays bounded.
+                        if moves.len() > 200 {
+                            sort_moves(&mut moves);
+                            moves.truncate(20);
+                        }
                     }
                 }
             }
@@ -828,7 +895,7 @@ fn sort_moves(m: &mut [Move]) {
 
 fn spectrum_metas(conn: &Connection, aliquot_id: i64) -> Result<Vec<SpectrumMeta>> {
     let mut st = conn
-        .prepare_cached("SELECT kind, sha256, excitation_nm, x_unit FROM spectrum WHERE aliquot_id = ?1 ORDER BY id")?;
+        .prepare_cached("SELECT kind, sha256, excitation_nm, x_unit FROM spectrum INDEXED BY spectrum_meta WHERE aliquot_id = ?1 ORDER BY id")?;
     let rows = st.query_map([aliquot_id], |r| {
         Ok(SpectrumMeta {
             kind: r.get(0)?,

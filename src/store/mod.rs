@@ -20,6 +20,10 @@ pub const MIGRATIONS: &[(&str, &str)] = &[
         "0003_search_threshold",
         include_str!("../../schema/0003_search_threshold.sql"),
     ),
+    (
+        "0004_spectrum_meta_index",
+        include_str!("../../schema/0004_spectrum_meta_index.sql"),
+    ),
 ];
 
 /// The schema version this build writes.
