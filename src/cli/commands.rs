@@ -68,6 +68,10 @@ fn open(cli: &Cli) -> Result<Store> {
 
 pub fn dispatch(cli: Cli) -> Result<ExitCode> {
     let Some(cmd) = &cli.cmd else {
+        use std::io::IsTerminal;
+        if !std::io::stdout().is_terminal() || !std::io::stdin().is_terminal() {
+            bail!("the terminal UI needs a terminal; for scripts use a command (see `cuvette --help`)");
+        }
         let mut store = open(&cli)?;
         crate::tui::run(&mut store)?;
         return Ok(ExitCode::SUCCESS);

@@ -717,20 +717,7 @@ pub fn recompute(
                  WHERE a.id > ?2 ORDER BY a.id LIMIT ?3",
             )?;
             let rows = st.query_map(params![latest, after, CHUNK], |r| {
-                Ok((
-                    AliquotRow {
-                        id: r.get(0)?,
-                        batch_id: r.get(1)?,
-                        minutes: r.get(2)?,
-                        stage: r.get(3)?,
-                        dilution_factor: r.get(4)?,
-                        path_cm: r.get(5)?,
-                        solvent: r.get(6)?,
-                        taken_at: r.get(7)?,
-                    },
-                    r.get(8)?,
-                    r.get(9)?,
-                ))
+                Ok((crate::store::model::aliquot_from(r)?, r.get(8)?, r.get(9)?))
             })?;
             rows.collect::<rusqlite::Result<_>>()?
         };
@@ -919,16 +906,7 @@ pub fn mark_stale(tx: &Connection) -> Result<usize> {
     let mut rows = st.query([latest])?;
     let mut n = 0;
     while let Some(r) = rows.next()? {
-        let a = AliquotRow {
-            id: r.get(0)?,
-            batch_id: r.get(1)?,
-            minutes: r.get(2)?,
-            stage: r.get(3)?,
-            dilution_factor: r.get(4)?,
-            path_cm: r.get(5)?,
-            solvent: r.get(6)?,
-            taken_at: r.get(7)?,
-        };
+        let a = crate::store::model::aliquot_from(r)?;
         let core: String = r.get(8)?;
         let version: i64 = r.get(9)?;
         if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {

@@ -74,8 +74,8 @@ pub fn read(file: &str, text: &str, opts: &ReadOptions) -> Result<RawSpectrum> {
     ];
     // The reading is chosen on a sample of lines (the start and the end of the file); the whole
     // file is then read under it, line by line, with every line checked.
-    let sample: Vec<&str> = if lines.len() > 120 {
-        lines[..60].iter().chain(&lines[lines.len() - 60..]).copied().collect()
+    let sample: Vec<&str> = if lines.len() > 60 {
+        lines[..30].iter().chain(&lines[lines.len() - 30..]).copied().collect()
     } else {
         lines.clone()
     };

@@ -747,7 +747,8 @@ pub struct AliquotRow {
 
 const ALIQUOT_COLS: &str = "id, batch_id, minutes, stage, dilution_factor, path_cm, solvent, taken_at";
 
-fn aliquot_from(r: &Row) -> rusqlite::Result<AliquotRow> {
+/// Maps the first eight columns of a row (in `ALIQUOT_COLS` order) to an aliquot.
+pub fn aliquot_from(r: &Row) -> rusqlite::Result<AliquotRow> {
     Ok(AliquotRow {
         id: r.get(0)?,
         batch_id: r.get(1)?,
