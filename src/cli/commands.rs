@@ -156,7 +156,16 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
 }
 
 fn demo(cli: &Cli, a: &DemoArgs) -> Result<ExitCode> {
-    let path = db_path(cli);
+    // Without --db the demo goes to its own file beside the default lab, never into it.
+    let path = match &cli.db {
+        Some(p) => p.clone(),
+        None => default_db_path().with_file_name("demo.db"),
+    };
+    let cli = &Cli {
+        db: Some(path.clone()),
+        actor: cli.actor.clone(),
+        cmd: None,
+    };
     crate::demo::prepare_file(&path)?;
     let mut store = open(cli)?;
     let progress = Progress::new("demo", false);
