@@ -13,6 +13,7 @@ pub mod demo;
 pub mod derive;
 pub mod error;
 pub mod hazards;
+pub mod par;
 pub mod report;
 pub mod search;
 pub mod spectra;

@@ -683,6 +683,18 @@ pub const THRESHOLD_FIELDS: &[(&str, &str)] = &[
     ("conc", "concentration_molar"),
 ];
 
+/// One stale aliquot on its way through a recompute.
+struct Work {
+    a: AliquotRow,
+    core: String,
+    version: i64,
+    stage1: String,
+    hash: String,
+    old: Vec<StoredValue>,
+    values: Option<Vec<Derived>>,
+    spectra: Vec<SpectrumRow>,
+}
+
 /// Recomputes stale values (all with `all`); a dry run only reports. Streams aliquots so
 /// memory stays bounded whatever the size of the lab. `progress` gets (done, total).
 pub fn recompute(
@@ -753,6 +765,9 @@ pub fn recompute(
                 hashes_by.entry(r.get(0)?).or_default().push((r.get(1)?, r.get(2)?));
             }
         }
+        // Pass one, in order: what is stale, and what each stale aliquot needs.
+        let mut work: Vec<Work> = Vec::new();
+        let mut candidates: Vec<(AliquotRow, String, i64, String, String, Vec<SpectrumMeta>)> = Vec::new();
         for (a, core, version) in chunk {
             if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
                 e.insert(calibration::get(conn, version)?.body);
@@ -782,12 +797,35 @@ pub fn recompute(
             if !stale && !all {
                 continue;
             }
-            let old = current_values(conn, a.id)?;
+            candidates.push((a, core, version, stage1, hash, metas));
+        }
+        // When most of a chunk is stale, its current values and spectra are read in one range
+        // query each; when few are, one small query per stale aliquot reads less.
+        let many = candidates.len() * 5 > CHUNK as usize * 3;
+        let mut olds_by: HashMap<i64, Vec<StoredValue>> = HashMap::new();
+        if many {
+            let mut st = conn.prepare_cached(&format!(
+                "SELECT {VALUE_COLS} FROM derived_value WHERE superseded_at IS NULL AND aliquot_id BETWEEN ?1 AND ?2 ORDER BY aliquot_id, id"
+            ))?;
+            let rows = st.query_map(params![lo, hi], value_from)?;
+            for v in rows {
+                let v = v?;
+                olds_by.entry(v.aliquot_id).or_default().push(v);
+            }
+        }
+        let mut spectra_by: Option<HashMap<i64, Vec<SpectrumRow>>> = None;
+        for (a, core, version, stage1, hash, metas) in candidates {
+            let cal = &cals[&version];
+            let old = if many {
+                olds_by.remove(&a.id).unwrap_or_default()
+            } else {
+                current_values(conn, a.id)?
+            };
             // Stage one is kept when the spectra and the analysis settings are unchanged: then no
             // spectrum is read at all. `--all` redoes both stages.
             let spectral: Vec<&StoredValue> = old.iter().filter(|o| SPECTRAL.contains(&o.quantity.as_str())).collect();
             let stage1_current = !all && !spectral.is_empty() && spectral.iter().all(|o| o.inputs_hash == stage1);
-            let values: Vec<Derived> = if stage1_current {
+            let (values, spectra) = if stage1_current {
                 let mut v: Vec<Derived> = spectral
                     .iter()
                     .map(|o| Derived {
@@ -800,13 +838,56 @@ pub fn recompute(
                     .collect();
                 let (more, _, _) = derive_values(&a, &core, &metas, &v, cal);
                 v.extend(more);
-                v
+                (Some(v), Vec::new())
+            } else if many {
+                if spectra_by.is_none() {
+                    spectra_by = Some(crate::store::model::spectra_of_aliquots_in(conn, lo, hi)?);
+                }
+                (
+                    None,
+                    spectra_by.as_mut().and_then(|m| m.remove(&a.id)).unwrap_or_default(),
+                )
             } else {
-                let spectra = crate::store::model::spectra_of_aliquot(conn, a.id)?;
-                compute(&a, &core, &spectra, cal).values
+                (None, crate::store::model::spectra_of_aliquot(conn, a.id)?)
             };
-            let comp = Computation {
+            work.push(Work {
+                a,
+                core,
+                version,
+                stage1,
+                hash,
+                old,
                 values,
+                spectra,
+            });
+        }
+        // Pass two: the spectral analysis, the costly part, on every core.
+        let workers = std::thread::available_parallelism()
+            .map(|n| n.get())
+            .unwrap_or(1)
+            .min(8);
+        let todo: Vec<usize> = (0..work.len()).filter(|&i| work[i].values.is_none()).collect();
+        let computed: Vec<Vec<Derived>> = crate::par::parallel_map(&todo, workers, |&i| {
+            let w = &work[i];
+            compute(&w.a, &w.core, &w.spectra, &cals[&w.version]).values
+        });
+        for (i, v) in todo.into_iter().zip(computed) {
+            work[i].values = Some(v);
+            work[i].spectra = Vec::new();
+        }
+        // Pass three, in order: write (or, in a dry run, count) and report.
+        for w in work {
+            let Work {
+                a,
+                version,
+                stage1,
+                hash,
+                old,
+                values,
+                ..
+            } = w;
+            let comp = Computation {
+                values: values.unwrap_or_default(),
                 absorbance: None,
                 pl: None,
                 sizing: None,

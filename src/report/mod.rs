@@ -53,30 +53,7 @@ pub fn product_concentration(conn: &Connection, batch_id: i64) -> Result<Option<
     Ok(growth::product_of(&b, &series).and_then(|p| p.concentration_molar))
 }
 
-/// Maps `f` over `items` on `workers` threads, keeping the order.
-pub fn parallel_map<T: Sync, R: Send>(items: &[T], workers: usize, f: impl Fn(&T) -> R + Sync) -> Vec<R> {
-    use std::sync::Mutex;
-    use std::sync::atomic::{AtomicUsize, Ordering};
-    let next = AtomicUsize::new(0);
-    let out: Mutex<Vec<Option<R>>> = Mutex::new((0..items.len()).map(|_| None).collect());
-    std::thread::scope(|s| {
-        for _ in 0..workers.max(1).min(items.len().max(1)) {
-            s.spawn(|| {
-                loop {
-                    let i = next.fetch_add(1, Ordering::Relaxed);
-                    if i >= items.len() {
-                        break;
-                    }
-                    let r = f(&items[i]);
-                    if let Ok(mut o) = out.lock() {
-                        o[i] = Some(r);
-                    }
-                }
-            });
-        }
-    });
-    out.into_inner().unwrap_or_default().into_iter().flatten().collect()
-}
+pub use crate::par::parallel_map;
 
 /// Each derived value of an aliquot with where it came from: spectrum, peak, curve and its
 /// version and source, diameter, extinction, concentration; and the superseded history.

@@ -971,6 +971,26 @@ pub fn spectra_of_aliquot(conn: &Connection, aliquot_id: i64) -> Result<Vec<Spec
     rows.into_iter().map(with_data).collect()
 }
 
+/// The spectra of the aliquots with ids in `lo..=hi`, grouped by aliquot, in one query.
+pub fn spectra_of_aliquots_in(
+    conn: &Connection,
+    lo: i64,
+    hi: i64,
+) -> Result<std::collections::HashMap<i64, Vec<SpectrumRow>>> {
+    let mut st = conn.prepare_cached(&format!(
+        "SELECT {SPECTRUM_COLS} FROM spectrum WHERE aliquot_id BETWEEN ?1 AND ?2 ORDER BY aliquot_id, id"
+    ))?;
+    let rows = st.query_map(params![lo, hi], spectrum_from)?;
+    let mut out: std::collections::HashMap<i64, Vec<SpectrumRow>> = std::collections::HashMap::new();
+    for r in rows {
+        let s = with_data(r?)?;
+        if let Some(a) = s.aliquot_id {
+            out.entry(a).or_default().push(s);
+        }
+    }
+    Ok(out)
+}
+
 pub fn get_spectrum(conn: &Connection, id: i64) -> Result<SpectrumRow> {
     let raw = conn
         .query_row(
