@@ -330,6 +330,24 @@ fn draw_chart(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
             t.nm.iter().zip(&t.y).step_by(step).map(|(a, b)| (*a, *b)).collect()
         })
         .collect();
+    // Absorbance is shown around the first excitons (from 150 nm to the blue of the bluest to
+    // 120 nm to the red of the reddest), where the growth shows; PL over its whole range.
+    let peaks: Vec<f64> = traces.iter().filter_map(|(_, s, _)| s.peak_nm).collect();
+    let window = if app.show_pl || peaks.is_empty() {
+        None
+    } else {
+        let lo = peaks.iter().copied().fold(f64::MAX, f64::min) - 150.0;
+        let hi = peaks.iter().copied().fold(f64::MIN, f64::max) + 120.0;
+        Some((lo, hi))
+    };
+    let data: Vec<Vec<(f64, f64)>> = data
+        .into_iter()
+        .map(|d| {
+            d.into_iter()
+                .filter(|(x, _)| window.is_none_or(|(lo, hi)| *x >= lo && *x <= hi))
+                .collect()
+        })
+        .collect();
     let (mut x0, mut x1, mut y1) = (f64::MAX, f64::MIN, f64::MIN);
     let mut y0 = 0.0f64;
     for d in &data {
@@ -339,6 +357,13 @@ fn draw_chart(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
             y0 = y0.min(*y);
             y1 = y1.max(*y);
         }
+    }
+    if x0 >= x1 {
+        f.render_widget(
+            Paragraph::new("no data in range").block(Block::bordered().title(title)),
+            area,
+        );
+        return;
     }
     // The first-exciton marks: a short vertical tick at each peak.
     let marks: Vec<Vec<(f64, f64)>> = traces
