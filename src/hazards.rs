@@ -7,6 +7,9 @@
 pub const SDS_NOTICE: &str =
     "Hazards listed are a reminder only: follow each reagent's safety data sheet and your lab's own safety rules.";
 
+/// The same caution where a screen has one short line for it.
+pub const SDS_NOTICE_SHORT: &str = "A reminder only: follow each reagent's SDS and your lab's safety rules.";
+
 /// (code, statement text, GHS pictogram).
 pub const STATEMENTS: &[(&str, &str, &str)] = &[
     ("H225", "Highly flammable liquid and vapour", "GHS02 flame"),

@@ -287,18 +287,34 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
             vials.join("; ")
         }
     )));
-    for c in b["cautions"]
+    // The recipe's reagents with their GHS statements, compactly, then the standing notice.
+    let hazards: Vec<String> = b["recipe_detail"]["reagents"]
         .as_array()
         .into_iter()
         .flatten()
-        .rev()
-        .take(3)
-        .collect::<Vec<_>>()
-        .into_iter()
-        .rev()
-    {
-        lines.push(Line::styled(format!("! {}", c.as_str().unwrap_or("")), p.warn()));
+        .filter(|g| g["ghs_hazards"].as_array().is_some_and(|h| !h.is_empty()))
+        .map(|g| {
+            let codes: Vec<&str> = g["ghs_hazards"]
+                .as_array()
+                .into_iter()
+                .flatten()
+                .filter_map(|h| h.as_str())
+                .collect();
+            format!(
+                "{}{} {}",
+                g["reagent"].as_str().unwrap_or(""),
+                if g["pyrophoric"] == true { " (pyrophoric)" } else { "" },
+                codes.join(" ")
+            )
+        })
+        .collect();
+    if !hazards.is_empty() {
+        lines.push(Line::styled(format!("! {}", hazards.join(" · ")), p.warn()));
     }
+    lines.push(Line::styled(
+        format!("! {}", crate::hazards::SDS_NOTICE_SHORT),
+        p.warn(),
+    ));
     f.render_widget(Paragraph::new(lines).wrap(Wrap { trim: true }), foot);
 }
 
