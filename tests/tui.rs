@@ -68,8 +68,8 @@ fn every_view_renders_its_content_at_80x24() {
         "{s}"
     );
     assert!(
-        s.contains("safety data sheet") || s.contains("Cadmium"),
-        "cautions shown: {s}"
+        s.contains("cadmium oxide H330") && s.contains("SDS"),
+        "hazards and the SDS notice shown: {s}"
     );
     assert!(s.contains("yu20 v2"), "curve and calibration version shown: {s}");
     press(&mut app, KeyCode::Char('p'));
