@@ -37,7 +37,7 @@ pub fn check_number(field: &str, v: f64, allow_zero: bool) -> Result<f64> {
 pub fn person_id(conn: &Connection, name: &str) -> Result<i64> {
     conn.query_row("SELECT id FROM person WHERE name = ?1", [name], |r| r.get(0))
         .optional()?
-        .ok_or_else(|| not_found("person", format!("'{name}' (add them with `cuvette person add`)")))
+        .ok_or_else(|| Error::Invalid(format!("unknown person '{name}' (add them with `cuvette person add`)")))
 }
 
 pub fn add_person(tx: &Connection, who: &str, name: &str, email: Option<&str>) -> Result<i64> {
