@@ -330,3 +330,44 @@ fn a_full_disk_gets_a_clear_message_and_loses_nothing() {
     assert_eq!(aliquots(&after) - aliquots(&before), spectra(&after) - spectra(&before));
     assert_eq!(lab.run_on(&db, &["check", "--json"]).json()["ok"], true);
 }
+
+#[test]
+fn a_manifest_imports_each_batch_whole_or_not_at_all() {
+    let lab = Lab::new();
+    lab.ok(&["init"]);
+    for n in ["A", "B"] {
+        lab.ok(&["batch", "new", "--material", "CdSe", "--name", n]);
+    }
+    for (dir, good) in [("a", true), ("b", false)] {
+        let d = lab.path(dir);
+        std::fs::create_dir(&d).unwrap();
+        for i in 0..3 {
+            let (x, y) = cuvette::demo::absorbance(
+                "CdSe",
+                530.0 + 5.0 * i as f64,
+                0.04,
+                0.1,
+                0.0005,
+                &mut cuvette::demo::Rng::new(i),
+            );
+            std::fs::write(d.join(format!("abs_{i:02}min.csv")), csv(&x, &y)).unwrap();
+        }
+        if !good {
+            std::fs::write(d.join("abs_09min.csv"), "nm,A\n400,0.1\n401,broken\n").unwrap();
+        }
+    }
+    let m = lab.write("manifest.csv", "batch_id,folder,dilution\n1,a,20\n2,b,20\n");
+    let o = lab.run(&["import-manifest", s(&m), "--json"]);
+    assert_eq!(o.code, 1, "{}", o.stderr);
+    assert!(
+        o.stderr.contains("batch 2") && o.stderr.contains("non-numeric cell 'broken'"),
+        "{}",
+        o.stderr
+    );
+    assert_eq!(scalar(&lab, "SELECT count(*) FROM aliquot WHERE batch_id = 1"), 3);
+    assert_eq!(scalar(&lab, "SELECT count(*) FROM aliquot WHERE batch_id = 2"), 0);
+    assert_eq!(
+        scalar(&lab, "SELECT CAST(min(dilution_factor) AS INTEGER) FROM aliquot"),
+        20
+    );
+}

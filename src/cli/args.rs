@@ -87,6 +87,8 @@ pub enum Cmd {
     Restore(RestoreArgs),
     /// Import a folder of spectrum exports into a batch as aliquots, all or nothing.
     Import(ImportArgs),
+    /// Import many batches' folders from a CSV manifest; each batch all or nothing.
+    ImportManifest(ManifestArgs),
 }
 
 #[derive(Debug, Args)]
@@ -761,6 +763,15 @@ pub struct ImportArgs {
     pub solvent: String,
     #[arg(long)]
     pub excitation_nm: Option<f64>,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct ManifestArgs {
+    /// CSV with a header: batch_id, folder, and optionally dilution, path_cm, solvent,
+    /// excitation_nm. Folders are relative to the manifest.
+    pub manifest: PathBuf,
     #[arg(long)]
     pub json: bool,
 }

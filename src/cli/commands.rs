@@ -151,6 +151,7 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
         }
         Cmd::Restore(a) => restore(&cli, &a.file)?,
         Cmd::Import(a) => import(&cli, a)?,
+        Cmd::ImportManifest(a) => return import_manifest(&cli, a),
     }
     Ok(ExitCode::SUCCESS)
 }
@@ -1772,4 +1773,70 @@ fn import(cli: &Cli, a: &ImportArgs) -> Result<()> {
     line(&format!("imported {} aliquots into batch {}", ids.len(), a.batch_id))?;
     let _ = output::num(None, 0);
     Ok(())
+}
+
+#[derive(serde::Deserialize)]
+struct ManifestRow {
+    batch_id: i64,
+    folder: String,
+    dilution: Option<f64>,
+    path_cm: Option<f64>,
+    solvent: Option<String>,
+    excitation_nm: Option<f64>,
+}
+
+fn import_manifest(cli: &Cli, a: &ManifestArgs) -> Result<ExitCode> {
+    let text = std::fs::read_to_string(&a.manifest).with_context(|| format!("cannot read {}", a.manifest.display()))?;
+    let mut rdr = csv::ReaderBuilder::new()
+        .trim(csv::Trim::All)
+        .from_reader(text.as_bytes());
+    let mut rows = Vec::new();
+    for (i, r) in rdr.deserialize::<ManifestRow>().enumerate() {
+        rows.push(r.map_err(|e| anyhow!("{} row {}: {e}", a.manifest.display(), i + 2))?);
+    }
+    let base = a.manifest.parent().map(Path::to_path_buf).unwrap_or_default();
+    let mut store = open(cli)?;
+    let progress = Progress::new("import", a.json);
+    let mut results = Vec::new();
+    let mut failed = false;
+    for (i, r) in rows.iter().enumerate() {
+        let folder = base.join(&r.folder);
+        let template = model::NewAliquot {
+            batch_id: r.batch_id,
+            minutes: None,
+            stage: None,
+            dilution_factor: r.dilution.unwrap_or(1.0),
+            path_cm: r.path_cm.unwrap_or(1.0),
+            solvent: r.solvent.clone().unwrap_or_else(|| "hexane".into()),
+            taken_at: None,
+        };
+        match bench::import_folder(&mut store, r.batch_id, &folder, &template, r.excitation_nm, |_, _| {}) {
+            Ok(ids) => {
+                results.push(json!({"batch_id": r.batch_id, "folder": folder.display().to_string(), "aliquots": ids}))
+            }
+            Err(e) => {
+                failed = true;
+                eprintln!(
+                    "cuvette: batch {} ({}): {e}; nothing imported for it",
+                    r.batch_id,
+                    folder.display()
+                );
+                results.push(
+                    json!({"batch_id": r.batch_id, "folder": folder.display().to_string(), "error": e.to_string()}),
+                );
+            }
+        }
+        progress.tick(i + 1, rows.len());
+    }
+    if a.json {
+        json(&results)?;
+    } else {
+        for r in &results {
+            match r["aliquots"].as_array() {
+                Some(ids) => line(&format!("batch {}: {} aliquots", r["batch_id"], ids.len()))?,
+                None => line(&format!("batch {}: not imported", r["batch_id"]))?,
+            }
+        }
+    }
+    Ok(if failed { ExitCode::from(1) } else { ExitCode::SUCCESS })
 }
