@@ -238,7 +238,8 @@ fn growth_series(plan: &BatchPlan, final_peak: f64, rng: &mut Rng) -> Vec<Sample
     for (i, &t) in minutes.iter().enumerate().take(n) {
         let peak = final_peak - span * (-(t / tau)).exp() * if failed { 0.5 } else { 1.0 };
         let u = (t - turn) / turn;
-        let mut sigma = sigma_min * (1.0 + if u < 0.0 { 1.2 } else { 0.5 } * u * u) * rng.range(0.97, 1.03);
+        let growth = if u < 0.0 { 1.2 * u * u } else { (0.5 * u * u).min(0.8) };
+        let mut sigma = sigma_min * (1.0 + growth) * rng.range(0.97, 1.03);
         if failed {
             sigma *= 2.2;
         }

@@ -95,7 +95,7 @@ pub fn interpolate(t: &Trace, nm: f64) -> Option<f64> {
 fn half_window(u: &Uniform, s: &AnalysisSettings) -> usize {
     let want = (s.smoothing_nm / u.step_nm / 2.0).round() as usize;
     let cap = (u.y.len().saturating_sub(1) / 6).max(2);
-    want.clamp((s.smoothing_order / 2 + 1).max(2), cap.max(2))
+    want.clamp((s.smoothing_order / 2 + 1).max(3).min(cap.max(2)), cap.max(2))
 }
 
 /// Robust noise: 1.4826 x the median absolute deviation of the residual from the smooth.
@@ -174,7 +174,7 @@ pub fn analyze_absorbance(t: &Trace, set: &AnalysisSettings) -> Result<AbsResult
     let noise = noise_of(&u.y, &s);
     let max_abs = t.y.iter().copied().fold(f64::MIN, f64::max);
     let smax = s.iter().copied().fold(f64::MIN, f64::max);
-    let threshold = (8.0 * noise).max(0.01 * smax).max(1e-3);
+    let threshold = (10.0 * noise).max(0.03 * smax).max(1e-3);
     let mut warnings = Vec::new();
 
     // Resolved peaks: local maxima of the smooth, reddest first, with a real dip to the blue.
@@ -213,7 +213,7 @@ pub fn analyze_absorbance(t: &Trace, set: &AnalysisSettings) -> Result<AbsResult
         .filter(|&i| s[i] > threshold)
         .map(|i| d2[i].abs())
         .fold(0.0, f64::max);
-    let thr2 = (6.0 * d2_noise).max(0.03 * region_max);
+    let thr2 = (6.0 * d2_noise).max(0.01 * region_max);
     let mut shoulder_at: Option<f64> = None;
     for i in (1..n - 1).rev() {
         if d2[i] < d2[i - 1] && d2[i] <= d2[i + 1] && d2[i] < -thr2 && s[i] > threshold {
