@@ -169,7 +169,15 @@ fn handover_is_all_or_nothing() {
     let counts = lab.counts();
     let out = lab.path("pack");
     let mut store = cuvette::store::Store::open(&lab.db, "Test Runner").unwrap();
-    let e = cuvette::report::handover(&mut store, "Wren Halloway", "Juno Achterberg", &out, Some(2)).unwrap_err();
+    let e = cuvette::report::handover(
+        &mut store,
+        "Wren Halloway",
+        "Juno Achterberg",
+        &out,
+        Some(2),
+        &mut |_, _| {},
+    )
+    .unwrap_err();
     assert!(e.to_string().contains("stopped after 2 vials"));
     drop(store);
     assert_eq!(lab.counts(), counts, "a failed handover changes nothing");

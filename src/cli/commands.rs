@@ -1705,7 +1705,8 @@ fn handover(cli: &Cli, a: &HandoverArgs) -> Result<()> {
             a.to.replace(' ', "_")
         ))
     });
-    let r = crate::report::handover(&mut store, &a.from, &a.to, &out, None)?;
+    let p = Progress::new("handover", a.json);
+    let r = crate::report::handover(&mut store, &a.from, &a.to, &out, None, &mut |d, t| p.tick(d, t))?;
     if a.json {
         return json(&r);
     }

@@ -44,6 +44,7 @@ pub fn handover(
     to: &str,
     out: &Path,
     fail_after_vials: Option<usize>,
+    progress: &mut dyn FnMut(usize, usize),
 ) -> Result<HandoverReport> {
     if out.exists() && std::fs::read_dir(out).map(|mut d| d.next().is_some()).unwrap_or(true) {
         return invalid(format!(
@@ -117,7 +118,7 @@ pub fn handover(
         }
         pack_batches.sort();
         std::fs::create_dir_all(&tmp).map_err(|e| Error::Invalid(format!("cannot create {}: {e}", tmp.display())))?;
-        let files = write_pack(tx, &tmp, from, to, &vial_ids, &pack_batches)?;
+        let files = write_pack(tx, &tmp, from, to, &vial_ids, &pack_batches, progress)?;
         Ok((vial_ids.len(), batch_ids.len(), files))
     });
     match result {
@@ -155,6 +156,7 @@ fn write_pack(
     to: &str,
     vial_ids: &[i64],
     batch_ids: &[i64],
+    progress: &mut dyn FnMut(usize, usize),
 ) -> Result<Vec<String>> {
     let vials: Vec<model::VialRow> = vial_ids
         .iter()
@@ -215,7 +217,8 @@ fn write_pack(
         html.push_str("<p>No vials.</p>");
     }
     let mut labels = String::from("<h2 id=\"labels\">Vial labels</h2><div class=\"labels\">");
-    for b in batch_ids {
+    for (done, b) in batch_ids.iter().enumerate() {
+        progress(done, batch_ids.len());
         let detail = super::batch_detail(tx, *b)?;
         let batch = model::get_batch(tx, *b)?;
         let _ = write!(
@@ -361,6 +364,7 @@ fn write_pack(
         }
         html.push_str("</ul></section>");
     }
+    progress(batch_ids.len(), batch_ids.len());
     labels.push_str("</div>");
     html.push_str(&labels);
     html.push_str("</body></html>");
