@@ -753,31 +753,16 @@ pub fn recompute(
                 });
             }
         }
-        // The staleness check needs only each current value's quantity and hash; full rows are
-        // read only for the aliquots that are stale.
-        let mut hashes_by: HashMap<i64, Vec<(String, String)>> = HashMap::new();
-        {
-            let mut st = conn.prepare_cached(
-                "SELECT aliquot_id, quantity, inputs_hash FROM derived_value WHERE superseded_at IS NULL AND aliquot_id BETWEEN ?1 AND ?2",
-            )?;
-            let mut rows = st.query(params![lo, hi])?;
-            while let Some(r) = rows.next()? {
-                hashes_by.entry(r.get(0)?).or_default().push((r.get(1)?, r.get(2)?));
-            }
-        }
-        // Pass one, in order: what is stale, and what each stale aliquot needs.
-        let mut work: Vec<Work> = Vec::new();
-        let mut candidates: Vec<(AliquotRow, String, i64, String, String, Vec<SpectrumMeta>)> = Vec::new();
+        // Pass one, in order: each aliquot's expected hashes; then one streaming pass over the
+        // chunk's current values compares hashes in place (no row is copied), which finds the
+        // stale aliquots; full rows are read only for those.
+        let mut expected: Vec<(AliquotRow, String, i64, String, String, Vec<SpectrumMeta>)> =
+            Vec::with_capacity(chunk.len());
         for (a, core, version) in chunk {
             if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
                 e.insert(calibration::get(conn, version)?.body);
             }
             let cal = &cals[&version];
-            report.aliquots_considered += 1;
-            done += 1;
-            if done.is_multiple_of(256) {
-                progress(done, total as usize);
-            }
             let metas = metas_by.remove(&a.id).unwrap_or_default();
             let has_pl = metas.iter().any(|s| s.kind == "pl");
             let rel = relevant_cache
@@ -788,16 +773,43 @@ pub fn recompute(
                 .entry((version, has_pl))
                 .or_insert_with(|| analysis_part(cal, has_pl));
             let stage1 = analysis_hash_with(&metas, part);
-            let hashes = hashes_by.remove(&a.id).unwrap_or_default();
-            let stale = (hashes.is_empty() && !metas.is_empty())
-                || hashes.iter().any(|(q, h)| h != expected_hash(q, &stage1, &hash));
+            expected.push((a, core, version, stage1, hash, metas));
+        }
+        let index: HashMap<i64, usize> = expected.iter().enumerate().map(|(i, e)| (e.0.id, i)).collect();
+        let mut has_values = vec![false; expected.len()];
+        let mut stale_rows = vec![false; expected.len()];
+        {
+            let mut st = conn.prepare_cached(
+                "SELECT aliquot_id, quantity, inputs_hash FROM derived_value WHERE superseded_at IS NULL AND aliquot_id BETWEEN ?1 AND ?2",
+            )?;
+            let mut rows = st.query(params![lo, hi])?;
+            while let Some(r) = rows.next()? {
+                let id: i64 = r.get(0)?;
+                let Some(&i) = index.get(&id) else { continue };
+                has_values[i] = true;
+                if !stale_rows[i] {
+                    let q = r.get_ref(1)?.as_str().unwrap_or("");
+                    let h = r.get_ref(2)?.as_str().unwrap_or("");
+                    stale_rows[i] = h != expected_hash(q, &expected[i].3, &expected[i].4);
+                }
+            }
+        }
+        let mut work: Vec<Work> = Vec::new();
+        let mut candidates: Vec<(AliquotRow, String, i64, String, String, Vec<SpectrumMeta>)> = Vec::new();
+        for (i, e) in expected.into_iter().enumerate() {
+            report.aliquots_considered += 1;
+            done += 1;
+            if done.is_multiple_of(256) {
+                progress(done, total as usize);
+            }
+            let stale = (!has_values[i] && !e.5.is_empty()) || stale_rows[i];
             if stale {
                 report.stale_found += 1;
             }
             if !stale && !all {
                 continue;
             }
-            candidates.push((a, core, version, stage1, hash, metas));
+            candidates.push(e);
         }
         // When most of a chunk is stale, its current values and spectra are read in one range
         // query each; when few are, one small query per stale aliquot reads less.
