@@ -311,3 +311,28 @@ fn plot_and_export_write_real_files() {
     let v: Value = serde_json::from_str(&std::fs::read_to_string(dir.join("cuvette-export.json")).unwrap()).unwrap();
     assert_eq!(v["batches"].as_array().unwrap().len(), d.batches.len());
 }
+
+#[test]
+fn recipe_stats_are_the_mean_and_spread_of_product_values() {
+    let d = demo();
+    let recipe = "CdSe hot injection (oleate/TOP-Se)";
+    let v = d.lab.ok(&["recipe", "stats", recipe, "--json"]).json();
+    let diam: Vec<f64> = d
+        .batches
+        .iter()
+        .filter(|b| b["recipe"] == recipe && b["status"] != "failed")
+        .filter_map(|b| prod(b, "diameter_nm"))
+        .collect();
+    let mean = diam.iter().sum::<f64>() / diam.len() as f64;
+    let sd = (diam.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (diam.len() - 1) as f64).sqrt();
+    assert_eq!(v["diameter_nm"]["n"], diam.len());
+    assert!((v["diameter_nm"]["mean"].as_f64().unwrap() - mean).abs() < 1e-9);
+    assert!((v["diameter_nm"]["sd"].as_f64().unwrap() - sd).abs() < 1e-9);
+    assert_eq!(
+        v["failed"].as_u64().unwrap() as usize,
+        d.batches
+            .iter()
+            .filter(|b| b["recipe"] == recipe && b["status"] == "failed")
+            .count()
+    );
+}

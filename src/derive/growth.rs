@@ -249,3 +249,73 @@ pub fn recipe_stats(conn: &Connection, recipe_version_id: i64) -> Result<RecipeS
         failed,
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn point(id: i64, minutes: f64, d: f64, disp: f64) -> AliquotSummary {
+        AliquotSummary {
+            id,
+            minutes: Some(minutes),
+            diameter_nm: Some(d),
+            size_dispersion_pct: Some(disp),
+            ..Default::default()
+        }
+    }
+
+    // The focusing/defocusing picture of Peng, Wickham & Alivisatos (1998): the dispersion falls
+    // while the crystals grow fast, then rises once the growth slows (Ostwald ripening).
+    #[test]
+    fn focusing_then_defocusing_turns_at_the_narrowest_point() {
+        let s = vec![
+            point(1, 1.0, 2.0, 12.0),
+            point(2, 3.0, 2.6, 8.0),
+            point(3, 6.0, 3.0, 6.5),
+            point(4, 10.0, 3.2, 9.0),
+        ];
+        let g = growth(&s);
+        assert_eq!(g.regime, "focusing then defocusing");
+        assert_eq!(g.focusing_turn_min, Some(6.0));
+        assert!(
+            (g.growth_rate_nm_per_min.unwrap() - 0.05).abs() < 1e-12,
+            "last step: 0.2 nm in 4 min"
+        );
+        let f = growth(&s[..3]);
+        assert_eq!(f.regime, "focusing");
+        assert_eq!(growth(&s[..2]).regime, "too few points");
+    }
+
+    #[test]
+    fn the_product_is_the_marked_aliquot_else_the_last_timed_one() {
+        let s = vec![
+            point(1, 1.0, 2.0, 12.0),
+            point(2, 5.0, 2.6, 8.0),
+            AliquotSummary {
+                id: 3,
+                stage: Some("washed".into()),
+                ..Default::default()
+            },
+        ];
+        let mut b = crate::store::model::BatchRow {
+            id: 1,
+            name: "b".into(),
+            material: "CdSe".into(),
+            core: "CdSe".into(),
+            recipe: None,
+            recipe_version: None,
+            recipe_version_id: None,
+            operator: None,
+            started_at: String::new(),
+            status: "done".into(),
+            parent_batch_id: None,
+            parent_relation: None,
+            pinned_calibration: None,
+            product_aliquot_id: None,
+            notes: String::new(),
+        };
+        assert_eq!(product_of(&b, &s).map(|a| a.id), Some(2));
+        b.product_aliquot_id = Some(3);
+        assert_eq!(product_of(&b, &s).map(|a| a.id), Some(3));
+    }
+}
