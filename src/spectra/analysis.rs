@@ -202,31 +202,45 @@ pub fn analyze_absorbance(t: &Trace, set: &AnalysisSettings) -> Result<AbsResult
             break;
         }
     }
-    // Shoulders: the reddest significant minimum of the second derivative, taken over a
-    // wider window because a second derivative amplifies noise. A shoulder redder than the
-    // reddest resolved maximum is the first exciton (the maximum is a higher transition).
-    let half2 = (2 * half).min((n.saturating_sub(1) / 6).max(2));
-    let d2 = savgol::filter(&u.y, half2, order.max(2), 2, u.step_nm)?;
-    let c2 = savgol::coefficients(half2, order.max(2), 2)?;
-    let d2_noise = noise * c2.iter().map(|c| c * c).sum::<f64>().sqrt() / u.step_nm.powi(2);
-    let region_max = (0..n)
-        .filter(|&i| s[i] > threshold)
-        .map(|i| d2[i].abs())
-        .fold(0.0, f64::max);
-    let thr2 = (6.0 * d2_noise).max(0.01 * region_max);
-    let mut shoulder_at: Option<f64> = None;
-    for i in (1..n - 1).rev() {
-        if d2[i] < d2[i - 1] && d2[i] <= d2[i + 1] && d2[i] < -thr2 && s[i] > threshold {
-            let denom = d2[i - 1] - 2.0 * d2[i] + d2[i + 1];
-            let off = if denom.abs() > 0.0 {
-                0.5 * (d2[i - 1] - d2[i + 1]) / denom
-            } else {
-                0.0
-            };
-            shoulder_at = Some(i as f64 + off.clamp(-0.5, 0.5));
-            break;
+    // Shoulders: the reddest significant minimum of the second derivative. A second derivative
+    // amplifies noise, and a broad exciton (InP, or a wide size distribution) only shows at a
+    // window as wide as itself, so it is sought at three widths and the reddest significant
+    // minimum at any of them counts. A shoulder redder than the reddest resolved maximum is
+    // the first exciton (the maximum is then a higher transition).
+    let cap2 = (n.saturating_sub(1) / 6).max(2);
+    let mut shoulder_at: Option<(f64, usize)> = None;
+    let mut widths: Vec<usize> = [2 * half, 5 * half, 10 * half].iter().map(|w| (*w).min(cap2)).collect();
+    widths.dedup();
+    for half2 in widths {
+        let d2 = savgol::filter(&u.y, half2, order.max(2), 2, u.step_nm)?;
+        let c2 = savgol::coefficients(half2, order.max(2), 2)?;
+        let d2_noise = noise * c2.iter().map(|c| c * c).sum::<f64>().sqrt() / u.step_nm.powi(2);
+        let region_max = (0..n)
+            .filter(|&i| s[i] > threshold)
+            .map(|i| d2[i].abs())
+            .fold(0.0, f64::max);
+        let thr2 = (6.0 * d2_noise).max(0.01 * region_max);
+        // Near the ends a wide window sees past the data; only its full-window points count.
+        for i in (half2.max(1)..n.saturating_sub(half2.max(1))).rev() {
+            if d2[i] < d2[i - 1] && d2[i] <= d2[i + 1] && d2[i] < -thr2 && s[i] > threshold {
+                let denom = d2[i - 1] - 2.0 * d2[i] + d2[i + 1];
+                let off = if denom.abs() > 0.0 {
+                    0.5 * (d2[i - 1] - d2[i + 1]) / denom
+                } else {
+                    0.0
+                };
+                let at = i as f64 + off.clamp(-0.5, 0.5);
+                if shoulder_at.is_none_or(|(p, _)| at > p) {
+                    shoulder_at = Some((at, half2));
+                }
+                break;
+            }
         }
     }
+    let (shoulder_at, half2) = match shoulder_at {
+        Some((p, h)) => (Some(p), h),
+        None => (None, 2 * half),
+    };
     let separate = (2 * half2) as f64 + 10.0 / u.step_nm;
     let found = match (resolved, shoulder_at) {
         (Some(r), Some(sh)) if sh > r + separate => Some((sh, true)),
