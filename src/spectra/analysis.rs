@@ -109,9 +109,8 @@ fn noise_of(raw: &[f64], smooth: &[f64]) -> f64 {
     1.4826 * *m
 }
 
-/// Where a sampled function crosses zero between i and i+1, as a fractional index.
-fn zero_crossing(d: &[f64], i: usize) -> f64 {
-    let (a, b) = (d[i], d[i + 1]);
+/// Where a sampled function with values a at i and b at i+1 crosses zero, as a fractional index.
+fn zero_crossing(a: f64, b: f64, i: usize) -> f64 {
     if a == b { i as f64 } else { i as f64 + a / (a - b) }
 }
 
@@ -170,7 +169,8 @@ pub fn analyze_absorbance(t: &Trace, set: &AnalysisSettings) -> Result<AbsResult
     let half = half_window(&u, set);
     let order = set.smoothing_order.min(2 * half - 1);
     let s = savgol::filter(&u.y, half, order, 0, u.step_nm)?;
-    let d1 = savgol::filter(&u.y, half, order.max(2), 1, u.step_nm)?;
+    // The first derivative is needed only at candidate maxima, so it is taken point by point.
+    let d1 = |i: usize| savgol::at(&u.y, half, order.max(2), 1, u.step_nm, i).unwrap_or(0.0);
     let noise = noise_of(&u.y, &s);
     let max_abs = t.y.iter().copied().fold(f64::MIN, f64::max);
     let smax = s.iter().copied().fold(f64::MIN, f64::max);
@@ -191,10 +191,10 @@ pub fn analyze_absorbance(t: &Trace, set: &AnalysisSettings) -> Result<AbsResult
         let red_min = s[i..].iter().copied().fold(f64::MAX, f64::min);
         let red_drop = s[i] - red_min;
         if (v == 0 || dip > (3.0 * noise).max(0.002 * s[i])) && red_drop > (3.0 * noise).max(0.02 * s[i]) {
-            let fi = if d1[i] > 0.0 && i + 1 < n && d1[i + 1] <= 0.0 {
-                zero_crossing(&d1, i)
-            } else if i > 0 && d1[i - 1] > 0.0 && d1[i] <= 0.0 {
-                zero_crossing(&d1, i - 1)
+            let fi = if d1(i) > 0.0 && i + 1 < n && d1(i + 1) <= 0.0 {
+                zero_crossing(d1(i), d1(i + 1), i)
+            } else if i > 0 && d1(i - 1) > 0.0 && d1(i) <= 0.0 {
+                zero_crossing(d1(i - 1), d1(i), i - 1)
             } else {
                 i as f64
             };
@@ -204,12 +204,12 @@ pub fn analyze_absorbance(t: &Trace, set: &AnalysisSettings) -> Result<AbsResult
     }
     // Shoulders: the reddest significant minimum of the second derivative. A second derivative
     // amplifies noise, and a broad exciton (InP, or a wide size distribution) only shows at a
-    // window as wide as itself, so it is sought at three widths and the reddest significant
+    // window as wide as itself, so it is sought at two widths and the reddest significant
     // minimum at any of them counts. A shoulder redder than the reddest resolved maximum is
     // the first exciton (the maximum is then a higher transition).
     let cap2 = (n.saturating_sub(1) / 6).max(2);
     let mut shoulder_at: Option<(f64, usize)> = None;
-    let mut widths: Vec<usize> = [2 * half, 5 * half, 10 * half].iter().map(|w| (*w).min(cap2)).collect();
+    let mut widths: Vec<usize> = [2 * half, 5 * half].iter().map(|w| (*w).min(cap2)).collect();
     widths.dedup();
     for half2 in widths {
         let d2 = savgol::filter(&u.y, half2, order.max(2), 2, u.step_nm)?;
@@ -429,7 +429,8 @@ pub fn analyze_pl(t: &Trace, set: &AnalysisSettings) -> Result<PlResult> {
     let half = half_window(&u, set);
     let order = set.smoothing_order.min(2 * half - 1);
     let s = savgol::filter(&u.y, half, order, 0, u.step_nm)?;
-    let d1 = savgol::filter(&u.y, half, order.max(2), 1, u.step_nm)?;
+    // The first derivative is needed only at candidate maxima, so it is taken point by point.
+    let d1 = |i: usize| savgol::at(&u.y, half, order.max(2), 1, u.step_nm, i).unwrap_or(0.0);
     let noise = noise_of(&u.y, &s);
     let mut warnings = Vec::new();
     let (imax, smax) = s
@@ -453,10 +454,10 @@ pub fn analyze_pl(t: &Trace, set: &AnalysisSettings) -> Result<PlResult> {
             warnings,
         });
     }
-    let fi = if imax + 1 < s.len() && d1[imax] > 0.0 && d1[imax + 1] <= 0.0 {
-        zero_crossing(&d1, imax)
-    } else if imax > 0 && d1[imax - 1] > 0.0 && d1[imax] <= 0.0 {
-        zero_crossing(&d1, imax - 1)
+    let fi = if imax + 1 < s.len() && d1(imax) > 0.0 && d1(imax + 1) <= 0.0 {
+        zero_crossing(d1(imax), d1(imax + 1), imax)
+    } else if imax > 0 && d1(imax - 1) > 0.0 && d1(imax) <= 0.0 {
+        zero_crossing(d1(imax - 1), d1(imax), imax - 1)
     } else {
         imax as f64
     };

@@ -48,7 +48,7 @@ pub fn coefficients_at(half: usize, order: usize, deriv: usize, t: f64) -> Resul
 
 /// The tables' centred weights.
 pub fn coefficients(half: usize, order: usize, deriv: usize) -> Result<Vec<f64>> {
-    coefficients_at(half, order, deriv, 0.0)
+    Ok(window_rows(half, order, deriv)?[half].clone())
 }
 
 fn solve(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Result<Vec<f64>> {
@@ -96,6 +96,44 @@ fn window_rows(half: usize, order: usize, deriv: usize) -> Result<std::rc::Rc<Ve
     Ok(rows)
 }
 
+/// A dot product with four running sums, so the compiler can keep several multiply-adds in
+/// flight; the order of summation differs from a plain loop only by rounding.
+fn dot(a: &[f64], b: &[f64]) -> f64 {
+    let mut acc = [0.0f64; 4];
+    let (ca, ra) = a.split_at(a.len() - a.len() % 4);
+    let (cb, rb) = b.split_at(ca.len());
+    for (x, y) in ca.chunks_exact(4).zip(cb.chunks_exact(4)) {
+        acc[0] += x[0] * y[0];
+        acc[1] += x[1] * y[1];
+        acc[2] += x[2] * y[2];
+        acc[3] += x[3] * y[3];
+    }
+    let mut t = (acc[0] + acc[1]) + (acc[2] + acc[3]);
+    for (x, y) in ra.iter().zip(rb) {
+        t += x * y;
+    }
+    t
+}
+
+/// The filter's output at one index only: for derivatives needed at a few candidate points.
+pub fn at(y: &[f64], half: usize, order: usize, deriv: usize, dx: f64, i: usize) -> Result<f64> {
+    let n = y.len();
+    let w = 2 * half + 1;
+    if n < w || i >= n {
+        return invalid(format!("index {i} is outside {n} points or the window of {w}"));
+    }
+    let rows = window_rows(half, order, deriv)?;
+    let scale = 1.0 / dx.powi(deriv as i32);
+    let v = if i < half {
+        dot(&rows[i], &y[..w])
+    } else if i + half >= n {
+        dot(&rows[2 * half - (n - 1 - i)], &y[n - w..])
+    } else {
+        dot(&rows[half], &y[i - half..=i + half])
+    };
+    Ok(v * scale)
+}
+
 /// Applies the filter to evenly spaced data with spacing `dx`; returns the smoothed values
 /// (deriv 0) or the derivative in units of y per unit x.
 pub fn filter(y: &[f64], half: usize, order: usize, deriv: usize, dx: f64) -> Result<Vec<f64>> {
@@ -109,12 +147,7 @@ pub fn filter(y: &[f64], half: usize, order: usize, deriv: usize, dx: f64) -> Re
     let scale = 1.0 / dx.powi(deriv as i32);
     let mut out = vec![0.0; n];
     for (i, o) in out.iter_mut().enumerate().take(n - half).skip(half) {
-        let win = &y[i - half..=i + half];
-        let mut acc = 0.0;
-        for k in 0..w {
-            acc += centre[k] * win[k];
-        }
-        *o = acc * scale;
+        *o = dot(centre, &y[i - half..=i + half]) * scale;
     }
     for i in 0..half {
         let c = &rows[i];
