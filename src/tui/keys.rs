@@ -399,3 +399,44 @@ impl KeyMap {
             .collect()
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crossterm::event::KeyEvent;
+
+    #[test]
+    fn overrides_rebind_and_the_footer_follows() {
+        let mut o = BTreeMap::new();
+        o.insert("draw".to_string(), "D".to_string());
+        let k = KeyMap::new(&o).unwrap();
+        let ev = |c| KeyEvent::new(KeyCode::Char(c), KeyModifiers::NONE);
+        assert_eq!(k.action(&ev('D'), Scope::Shelf), Some(Action::Draw));
+        assert_eq!(k.action(&ev('d'), Scope::Shelf), None);
+        assert!(
+            k.footer(Scope::Shelf)
+                .iter()
+                .any(|(key, name)| key == "D" && *name == "draw")
+        );
+        assert!(
+            k.help()
+                .iter()
+                .any(|(_, key, help)| key == "D" && help.contains("draw"))
+        );
+        // Scopes keep keys apart: p plots in the sheet and previews in calibrations.
+        let d = KeyMap::new(&BTreeMap::new()).unwrap();
+        assert_eq!(d.action(&ev('p'), Scope::Sheet), Some(Action::ToggleSpectrum));
+        assert_eq!(d.action(&ev('p'), Scope::Calibrations), Some(Action::Preview));
+        assert_eq!(d.action(&ev('j'), Scope::Ledger), Some(Action::Down));
+    }
+
+    #[test]
+    fn bad_overrides_are_named() {
+        let mut o = BTreeMap::new();
+        o.insert("teleport".to_string(), "t".to_string());
+        assert!(KeyMap::new(&o).err().unwrap().contains("no action called 'teleport'"));
+        let mut o = BTreeMap::new();
+        o.insert("draw".to_string(), "ctrl-".to_string());
+        assert!(KeyMap::new(&o).err().unwrap().contains("is not a key"));
+    }
+}
