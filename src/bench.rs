@@ -19,12 +19,8 @@ pub struct SpectrumFile {
 }
 
 /// Reads and checks a file for import: it must read and be a plausible UV-Vis-NIR spectrum.
-pub fn read_checked(path: &Path, x_unit: Option<&str>) -> Result<(RawSpectrum, String)> {
-    let opts = ReadOptions {
-        x_unit: x_unit.map(String::from),
-        ..Default::default()
-    };
-    let (raw, sha) = spectra::read_file(path, &opts)?;
+pub fn read_checked(path: &Path, opts: &ReadOptions) -> Result<(RawSpectrum, String)> {
+    let (raw, sha) = spectra::read_file(path, opts)?;
     raw.to_trace(&path.display().to_string(), None)?;
     Ok((raw, sha))
 }
@@ -34,7 +30,7 @@ pub fn add_aliquot(
     store: &mut Store,
     a: &NewAliquot,
     files: &[SpectrumFile],
-    x_unit: Option<&str>,
+    opts: &ReadOptions,
 ) -> Result<growth::AliquotSummary> {
     if files.is_empty() {
         return Err(Error::Invalid(
@@ -49,7 +45,7 @@ pub fn add_aliquot(
                 f.path.display()
             )));
         }
-        read.push((f, read_checked(&f.path, x_unit)?));
+        read.push((f, read_checked(&f.path, opts)?));
     }
     store.write(|tx, who| {
         let id = model::insert_aliquot(tx, who, a)?;
@@ -102,7 +98,7 @@ pub struct VialMeasurement {
 pub fn measure_vial(store: &mut Store, vial: i64, abs: &Path, dilution: f64, path_cm: f64) -> Result<VialMeasurement> {
     model::check_number("dilution factor", dilution, false)?;
     model::check_number("path length (cm)", path_cm, false)?;
-    let (raw, sha) = read_checked(abs, None)?;
+    let (raw, sha) = read_checked(abs, &ReadOptions::default())?;
     store.write(|tx, who| {
         let v = model::get_vial(tx, vial)?;
         if v.status == "disposed" {
@@ -271,7 +267,7 @@ pub fn import_folder(
                     f.path.display()
                 )));
             }
-            files.push((f.clone(), read_checked(&f.path, None)?));
+            files.push((f.clone(), read_checked(&f.path, &ReadOptions::default())?));
         }
         read.push((g, files));
     }

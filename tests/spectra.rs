@@ -490,3 +490,40 @@ proptest! {
         let _ = analyze_pl(&t, &AnalysisSettings::default());
     }
 }
+
+#[test]
+fn the_user_can_name_the_columns_and_the_block() {
+    let lab = Lab::new();
+    // nm, a reference channel, then the sample: the sample is column 3.
+    let (x, y) = cuvette::demo::absorbance("CdSe", 560.0, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(4));
+    let text: String = std::iter::once("nm;reference;sample\n".to_string())
+        .chain(x.iter().zip(&y).map(|(a, b)| format!("{a};0.01;{b}\n")))
+        .collect();
+    let f = lab.write("three.csv", &text);
+    let wrong = lab.run(&["analyze", s(&f), "--kind", "abs", "--json"]);
+    let v: serde_json::Value = serde_json::from_str(wrong.stdout.trim()).unwrap();
+    assert!(v["first_exciton_nm"].is_null(), "column 2 is flat: {v}");
+    let o = lab.ok(&["analyze", s(&f), "--kind", "abs", "--y-col", "3", "--json"]);
+    let v: serde_json::Value = serde_json::from_str(o.stdout.trim()).unwrap();
+    assert!((v["first_exciton_nm"].as_f64().unwrap() - 560.0).abs() < 1.5, "{v}");
+    lab.ok(&["init"]);
+    lab.ok(&["batch", "new", "--material", "CdSe", "--name", "cols"]);
+    let a = lab
+        .ok(&[
+            "aliquot",
+            "add",
+            "1",
+            "--abs",
+            s(&f),
+            "--y-col",
+            "3",
+            "--minutes",
+            "1",
+            "--json",
+        ])
+        .json();
+    assert!((a["first_exciton_nm"].as_f64().unwrap() - 560.0).abs() < 1.5, "{a}");
+    let m = lab.write("m.jdx", include_str!("data/multi.jdx"));
+    let r = lab.ok(&["read", s(&m), "--block", "washed", "--json"]).json();
+    assert_eq!(r["title"], "washed");
+}

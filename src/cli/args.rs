@@ -318,6 +318,15 @@ pub struct AliquotAddArgs {
     /// x unit of the files when they do not say (nm, eV, 1/cm).
     #[arg(long)]
     pub x_unit: Option<String>,
+    /// Column of x in delimited files (from 1).
+    #[arg(long)]
+    pub x_col: Option<usize>,
+    /// Column of y in delimited files (from 1).
+    #[arg(long)]
+    pub y_col: Option<usize>,
+    /// JCAMP-DX block to read: number (from 1) or title.
+    #[arg(long)]
+    pub block: Option<String>,
     #[arg(long)]
     pub json: bool,
 }
@@ -456,6 +465,15 @@ pub struct AnalyzeArgs {
     pub dilution: f64,
     #[arg(long)]
     pub x_unit: Option<String>,
+    /// Column of x in delimited files (from 1).
+    #[arg(long)]
+    pub x_col: Option<usize>,
+    /// Column of y in delimited files (from 1).
+    #[arg(long)]
+    pub y_col: Option<usize>,
+    /// JCAMP-DX block to read: number (from 1) or title.
+    #[arg(long)]
+    pub block: Option<String>,
     #[arg(long)]
     pub json: bool,
 }

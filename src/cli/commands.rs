@@ -664,7 +664,13 @@ fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
                 solvent: a.solvent.clone(),
                 taken_at: None,
             };
-            let s = bench::add_aliquot(&mut store, &na, &files, a.x_unit.as_deref())?;
+            let opts = ReadOptions {
+                x_col: a.x_col,
+                y_col: a.y_col,
+                x_unit: a.x_unit.clone(),
+                block: a.block.clone(),
+            };
+            let s = bench::add_aliquot(&mut store, &na, &files, &opts)?;
             if a.json {
                 json(&s)?;
             } else {
@@ -939,8 +945,10 @@ pub fn analyze_one(path: &Path, a: &AnalyzeArgs, cal: &calibration::Calibration)
     let file = path.display().to_string();
     let result = (|| -> crate::Result<Value> {
         let opts = ReadOptions {
+            x_col: a.x_col,
+            y_col: a.y_col,
             x_unit: a.x_unit.clone(),
-            ..Default::default()
+            block: a.block.clone(),
         };
         let (raw, _) = spectra::read_file(path, &opts)?;
         let t = raw.to_trace(&file, None)?;

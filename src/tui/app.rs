@@ -616,7 +616,7 @@ impl App {
                     solvent: f.get("solvent"),
                     taken_at: None,
                 };
-                let s = bench::add_aliquot(&mut self.store, &a, &files, None).map_err(e)?;
+                let s = bench::add_aliquot(&mut self.store, &a, &files, &Default::default()).map_err(e)?;
                 self.open_sheet(batch).map_err(e)?;
                 Ok(format!(
                     "aliquot {}: first exciton {} nm, D {} nm ({})",
@@ -849,7 +849,7 @@ impl App {
                         kind: "abs",
                         excitation_nm: None,
                     };
-                    match bench::add_aliquot(&mut store, &a, &[f], None) {
+                    match bench::add_aliquot(&mut store, &a, &[f], &Default::default()) {
                         Ok(s) => {
                             added += 1;
                             let _ = tx.send(Note::Progress {
