@@ -277,6 +277,8 @@ pub struct BatchEditArgs {
     pub json: bool,
 }
 
+// Parsed once per run: the size of a variant does not matter here.
+#[allow(clippy::large_enum_variant)]
 #[derive(Debug, Subcommand)]
 pub enum AliquotCmd {
     Add(AliquotAddArgs),
