@@ -15,6 +15,14 @@ fn n(v: Option<f64>, d: usize) -> String {
     v.map(|x| format!("{x:.d$}")).unwrap_or_else(|| "-".into())
 }
 
+/// A number readable at any scale: small ones (concentrations in M) in scientific form.
+fn g(v: Option<f64>) -> String {
+    match v {
+        Some(x) if x != 0.0 && x.abs() < 0.01 => format!("{x:.3e}"),
+        other => n(other, 3),
+    }
+}
+
 struct Palette {
     on: bool,
 }
@@ -511,12 +519,15 @@ fn draw_calibrations(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
             ));
             for m in r.largest_moves.iter().take(4) {
                 lines.push(Line::from(format!(
-                    "  aliquot {} (batch {}) {} {} → {}",
+                    "  aliquot {} (batch {}) {} {} → {}{}",
                     m.aliquot_id,
                     m.batch_id,
                     m.quantity,
-                    n(m.old, 3),
-                    n(m.new, 3)
+                    g(m.old),
+                    g(m.new),
+                    m.relative_change
+                        .map(|r| format!(" ({:+.0} %)", r * 100.0))
+                        .unwrap_or_default()
                 )));
             }
             for c in r.threshold_crossings.iter().take(3) {
