@@ -96,8 +96,7 @@ fn lab_after_curve_change(batches: usize) -> PathBuf {
         let mut st = Store::open(&tmp, "bench").expect("open");
         st.write(|tx, who| {
             let mut body = cuvette::derive::calibration::latest(tx)?.body;
-            body.curves.insert("CdSe".into(), "jasieniak2009".into());
-            body.extinction.insert("CdSe".into(), "jasieniak2009".into());
+            body.set_curve("CdSe", "jasieniak2009");
             cuvette::derive::calibration::save(tx, who, "bench: curve change", &body)?;
             cuvette::derive::engine::mark_stale(tx)
         })

@@ -102,54 +102,60 @@ pub fn measure_vial(store: &mut Store, vial: i64, abs: &Path, dilution: f64, pat
     store.write(|tx, who| {
         let v = model::get_vial(tx, vial)?;
         if v.status == "disposed" {
-            return Err(Error::Invalid(format!("vial {} ({}) has been disposed of", v.id, v.label)));
+            return Err(Error::Invalid(format!(
+                "vial {} ({}) has been disposed of",
+                v.id, v.label
+            )));
         }
         let core = model::material_by_name(tx, &v.material)?.core;
-        let f = SpectrumFile { path: abs.to_path_buf(), kind: "abs", excitation_nm: None };
+        let f = SpectrumFile {
+            path: abs.to_path_buf(),
+            kind: "abs",
+            excitation_nm: None,
+        };
         let mut ns = new_spectrum(None, &f, &raw, &sha);
         ns.vial_id = Some(vial);
         let sid = model::insert_spectrum(tx, who, &ns)?;
         let cal = crate::derive::calibration::latest(tx)?;
         let t = raw.to_trace(&abs.display().to_string(), None)?;
-        let r = crate::spectra::analysis::analyze_absorbance(&t, &cal.body.analysis)?;
+        let (r, values) = engine::derive_from_trace(&t, &core, dilution, path_cm, &cal.body)?;
+        let get = |q: &str| engine::find_value(&values, q);
+        let diameter = get("diameter_nm").filter(|d| d.value.is_some());
         let mut out = VialMeasurement {
             vial_id: vial,
             spectrum_id: sid,
             first_exciton_nm: r.first_exciton_nm,
-            diameter_nm: None,
-            curve: None,
-            extinction_m1cm1: None,
-            concentration_molar: None,
+            diameter_nm: diameter.and_then(|d| d.value),
+            curve: diameter.map(|d| d.method.clone()),
+            extinction_m1cm1: get("extinction_m1cm1").and_then(|d| d.value),
+            concentration_molar: get("concentration_molar").and_then(|d| d.value),
             calibration_version: cal.version,
             warnings: r.warnings.clone(),
         };
-        if let (Some(peak), Some(curve)) = (r.first_exciton_nm, cal.body.curves.get(&core)) {
-            let sz = cal.body.size(curve, &core, peak)?;
-            out.warnings.extend(sz.warnings.clone());
-            out.diameter_nm = Some(sz.diameter_nm);
-            out.curve = Some(sz.curve.clone());
-            if let Some(m) = cal.body.extinction.get(&core) {
-                let ex = cal.body.extinction(m, &core, sz.diameter_nm, peak, r.hwhm_ev)?;
-                let a_at = if (ex.at_nm - peak).abs() < 1e-9 { r.first_exciton_abs } else { crate::spectra::analysis::interpolate(&t, ex.at_nm) };
-                out.extinction_m1cm1 = Some(ex.extinction_m1cm1);
-                if let Some(a) = a_at {
-                    let c = crate::derive::extinction::concentration_molar(a, ex.extinction_m1cm1, path_cm, dilution)?;
-                    out.concentration_molar = Some(c);
-                    tx.execute("UPDATE vial SET concentration_molar = ?1 WHERE id = ?2", rusqlite::params![c, vial])?;
-                    crate::store::audit(
-                        tx,
-                        who,
-                        "vial",
-                        Some(vial),
-                        "measure",
-                        Some(&serde_json::json!({"concentration_molar": v.concentration_molar})),
-                        Some(&serde_json::json!({"concentration_molar": c, "spectrum_id": sid, "method": m, "curve": curve, "calibration_version": cal.version})),
-                    )?;
-                }
-            }
+        for q in ["diameter_nm", "extinction_m1cm1", "concentration_molar"] {
+            out.warnings
+                .extend(get(q).map(|d| d.warnings.clone()).unwrap_or_default());
+        }
+        if let Some(c) = out.concentration_molar {
+            tx.execute(
+                "UPDATE vial SET concentration_molar = ?1 WHERE id = ?2",
+                rusqlite::params![c, vial],
+            )?;
+            crate::store::audit(
+                tx,
+                who,
+                "vial",
+                Some(vial),
+                "measure",
+                Some(&serde_json::json!({"concentration_molar": v.concentration_molar})),
+                Some(&serde_json::json!({"concentration_molar": c, "spectrum_id": sid,
+                    "method": get("concentration_molar").map(|d| d.method.clone()),
+                    "curve": out.curve, "calibration_version": cal.version})),
+            )?;
         }
         if out.concentration_molar.is_none() {
-            out.warnings.push("no concentration derived: the vial's concentration is unchanged".into());
+            out.warnings
+                .push("no concentration derived: the vial's concentration is unchanged".into());
         }
         Ok(out)
     })

@@ -4,7 +4,7 @@
 use super::args::*;
 use super::output::{self, Progress, json, json_line, line, molar, num};
 use crate::bench::{self, SpectrumFile};
-use crate::derive::{calibration, engine, extinction, growth, qy, sizing, solvents, yields};
+use crate::derive::{calibration, engine, growth, qy, sizing, solvents, yields};
 use crate::spectra::{self, ReadOptions, analysis};
 use crate::store::{Store, model};
 use anyhow::{Context, Result, anyhow, bail};
@@ -954,7 +954,9 @@ pub fn analyze_one(path: &Path, a: &AnalyzeArgs, cal: &calibration::Calibration)
         let t = raw.to_trace(&file, None)?;
         match a.kind {
             Kind::Abs | Kind::Ple => {
-                let r = analysis::analyze_absorbance(&t, &cal.analysis)?;
+                // The same two stages an aliquot of the lab goes through.
+                let core = a.material.as_deref().map(|m| m.split('/').next().unwrap_or(m));
+                let (r, values) = engine::derive_from_trace(&t, core.unwrap_or(""), a.dilution, a.path_cm, cal)?;
                 let mut v = json!({
                     "file": file,
                     "first_exciton_nm": r.first_exciton_nm,
@@ -964,46 +966,17 @@ pub fn analyze_one(path: &Path, a: &AnalyzeArgs, cal: &calibration::Calibration)
                     "shoulder": r.shoulder,
                     "warnings": r.warnings,
                 });
-                if let (Some(m), Some(peak)) = (&a.material, r.first_exciton_nm) {
-                    let core = m.split('/').next().unwrap_or(m).to_string();
-                    let curve = a.curve.clone().or_else(|| cal.curves.get(&core).cloned());
-                    let mut warnings: Vec<String> = r.warnings.clone();
-                    if let Some(curve) = curve {
-                        match sizing::size(&curve, &core, peak, cal.bulk.get(&core)) {
-                            Ok(sz) => {
-                                v["diameter_nm"] = json!(sz.diameter_nm);
-                                v["curve"] = json!(sz.curve);
-                                warnings.extend(sz.warnings.clone());
-                                let model = if a.curve.is_some() && extinction::model_for(&core, &curve).is_ok() {
-                                    Some(curve.clone())
-                                } else {
-                                    cal.extinction.get(&core).cloned()
-                                };
-                                if let Some(model) = model
-                                    && let Ok(ex) =
-                                        extinction::coefficient(&model, &core, sz.diameter_nm, peak, r.hwhm_ev)
-                                {
-                                    let a_at = if (ex.at_nm - peak).abs() < 1e-9 {
-                                        r.first_exciton_abs
-                                    } else {
-                                        analysis::interpolate(&t, ex.at_nm)
-                                    };
-                                    v["extinction_m1cm1"] = json!(ex.extinction_m1cm1);
-                                    v["concentration_molar"] = json!(a_at.and_then(|av| {
-                                        extinction::concentration_molar(av, ex.extinction_m1cm1, a.path_cm, a.dilution)
-                                            .ok()
-                                    }));
-                                } else {
-                                    v["extinction_m1cm1"] = Value::Null;
-                                    v["concentration_molar"] = Value::Null;
-                                    warnings.push(format!("no extinction model for {core}"));
-                                }
-                            }
-                            Err(e) => warnings.push(e.to_string()),
-                        }
-                    } else {
-                        warnings.push(format!("no sizing curve for {core}"));
+                if a.material.is_some() {
+                    let get = |q: &str| engine::find_value(&values, q);
+                    let mut warnings = r.warnings.clone();
+                    for q in ["diameter_nm", "extinction_m1cm1", "concentration_molar"] {
+                        warnings.extend(get(q).map(|d| d.warnings.clone()).unwrap_or_default());
                     }
+                    let diameter = get("diameter_nm").filter(|d| d.value.is_some());
+                    v["diameter_nm"] = json!(diameter.and_then(|d| d.value));
+                    v["curve"] = json!(diameter.map(|d| d.method.clone()));
+                    v["extinction_m1cm1"] = json!(get("extinction_m1cm1").and_then(|d| d.value));
+                    v["concentration_molar"] = json!(get("concentration_molar").and_then(|d| d.value));
                     v["warnings"] = json!(warnings);
                 }
                 Ok(v)
@@ -1039,7 +1012,11 @@ fn analyze(a: &AnalyzeArgs) -> Result<ExitCode> {
         bail!("--path-cm must be above zero and --dilution at least 1");
     }
     let files = expand(&a.paths)?;
-    let cal = calibration::Calibration::default();
+    // Stateless: the shipped calibration, with the curve asked for.
+    let mut cal = calibration::Calibration::default();
+    if let (Some(m), Some(c)) = (&a.material, &a.curve) {
+        cal.set_curve(m.split('/').next().unwrap_or(m), c);
+    }
     let workers = std::thread::available_parallelism()
         .map(|n| n.get())
         .unwrap_or(2)
@@ -1280,13 +1257,7 @@ fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
                   j: bool,
                   f: &dyn Fn(&rusqlite::Connection, &mut calibration::Calibration) -> crate::Result<()>|
      -> Result<()> {
-        let (v, stale) = store.write(|tx, who| {
-            let mut body = calibration::latest(tx)?.body;
-            f(tx, &mut body)?;
-            let v = calibration::save(tx, who, why, &body)?;
-            let stale = engine::mark_stale(tx)?;
-            Ok((v, stale))
-        })?;
+        let (v, stale) = store.write(|tx, who| engine::change_calibration(tx, who, why, f))?;
         if j {
             json(&json!({"version": v, "marked_stale": stale}))
         } else {
@@ -1353,26 +1324,8 @@ fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
             why,
             json: j,
         } => {
-            let (material, curve) = (
-                material.clone(),
-                if curve.starts_with("lab:") {
-                    curve.clone()
-                } else {
-                    curve.to_ascii_lowercase()
-                },
-            );
             change(&mut store, why, *j, &|tx, body| {
-                let core = core_of(tx, &material)?;
-                body.curves.insert(core.clone(), curve.clone());
-                // A curve that comes with its own extinction coefficients brings them along:
-                // the two calibrations of one paper belong together.
-                if extinction::model_for(&core, &curve).is_ok() {
-                    body.extinction.insert(core, curve.clone());
-                } else if let Some(name) = curve.strip_prefix("lab:")
-                    && body.lab_extinction.contains_key(name)
-                {
-                    body.extinction.insert(core, curve.clone());
-                }
+                body.set_curve(&core_of(tx, material)?, curve);
                 Ok(())
             })?;
         }

@@ -124,6 +124,25 @@ impl Calibration {
             .or_else(|| solvents::refractive_index(solvent))
     }
 
+    /// Chooses the sizing curve for a core. A curve that comes with its own extinction
+    /// coefficients (the same paper, or a lab extinction law of the same name) brings them
+    /// along: the two calibrations of one source belong together.
+    pub fn set_curve(&mut self, core: &str, curve: &str) {
+        let curve = if curve.starts_with("lab:") {
+            curve.to_string()
+        } else {
+            curve.to_ascii_lowercase()
+        };
+        let paired = extinction::model_for(core, &curve).is_ok()
+            || curve
+                .strip_prefix("lab:")
+                .is_some_and(|n| self.lab_extinction.contains_key(n));
+        if paired {
+            self.extinction.insert(core.to_string(), curve.clone());
+        }
+        self.curves.insert(core.to_string(), curve);
+    }
+
     /// Sizes with a shipped curve or one of the lab's own.
     pub fn size(&self, curve_id: &str, core: &str, peak_nm: f64) -> Result<sizing::Sizing> {
         let Some(name) = curve_id.strip_prefix("lab:") else {

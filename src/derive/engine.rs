@@ -166,67 +166,94 @@ pub struct Computation {
 }
 
 fn value_of(values: &[Derived], q: &str) -> Option<f64> {
-    values.iter().find(|v| v.quantity == q).and_then(|v| v.value)
+    find_value(values, q).and_then(|v| v.value)
+}
+
+fn peak_method(cal: &Calibration) -> String {
+    format!(
+        "first exciton: Savitzky-Golay {} nm order {}; local maximum, else second-derivative minimum",
+        cal.analysis.smoothing_nm, cal.analysis.smoothing_order
+    )
+}
+
+/// Stage one of an absorbance trace: the spectral values it gives.
+pub fn absorbance_values(t: &Trace, cal: &Calibration) -> Result<(Vec<Derived>, AbsResult)> {
+    let r = analysis::analyze_absorbance(t, &cal.analysis)?;
+    let m = peak_method(cal);
+    let width = "low-energy side half width at half maximum";
+    let v = vec![
+        d("first_exciton_nm", r.first_exciton_nm, "nm", &m, r.warnings.clone()),
+        d(
+            "first_exciton_abs",
+            r.first_exciton_abs,
+            "absorbance",
+            "smoothed, scattering background removed",
+            vec![],
+        ),
+        d("hwhm_nm", r.hwhm_nm, "nm", width, vec![]),
+        d("hwhm_mev", r.hwhm_ev.map(|h| h * 1000.0), "meV", width, vec![]),
+        d(
+            "shoulder",
+            r.first_exciton_nm.map(|_| if r.shoulder { 1.0 } else { 0.0 }),
+            "flag",
+            &m,
+            vec![],
+        ),
+        d(
+            "abs_400nm",
+            analysis::interpolate(t, 400.0),
+            "absorbance",
+            "interpolated at 400 nm",
+            vec![],
+        ),
+    ];
+    Ok((v, r))
+}
+
+/// Both stages for a lone absorbance trace (a file not in the lab, or a vial's own
+/// measurement), as an aliquot with this dilution and path would get them.
+pub fn derive_from_trace(
+    t: &Trace,
+    core: &str,
+    dilution_factor: f64,
+    path_cm: f64,
+    cal: &Calibration,
+) -> Result<(AbsResult, Vec<Derived>)> {
+    let (mut values, r) = absorbance_values(t, cal)?;
+    let a = AliquotRow {
+        id: 0,
+        batch_id: 0,
+        minutes: None,
+        stage: None,
+        dilution_factor,
+        path_cm,
+        solvent: "hexane".into(),
+        taken_at: String::new(),
+    };
+    let (more, _, _) = derive_values(&a, core, &[], &values, cal);
+    values.extend(more);
+    Ok((r, values))
+}
+
+/// The value of one quantity in a list of derived values.
+pub fn find_value<'a>(values: &'a [Derived], quantity: &str) -> Option<&'a Derived> {
+    values.iter().find(|v| v.quantity == quantity)
 }
 
 /// Stage one: analyses the spectra. Pure.
 pub fn analyse(spectra: &[SpectrumRow], cal: &Calibration) -> (Vec<Derived>, Option<AbsResult>, Option<PlResult>) {
     let mut out = Vec::new();
     let set = &cal.analysis;
-    let peak_method = format!(
-        "first exciton: Savitzky-Golay {} nm order {}; local maximum, else second-derivative minimum",
-        set.smoothing_nm, set.smoothing_order
-    );
+    let peak_method = peak_method(cal);
     let abs_spec = spectra.iter().find(|s| s.kind == "abs");
     let pl_spec = spectra.iter().find(|s| s.kind == "pl");
     let mut abs_res = None;
     let mut abs_trace = None;
     if let Some(s) = abs_spec {
-        match trace_of(s).and_then(|t| analysis::analyze_absorbance(&t, set).map(|r| (t, r))) {
+        match trace_of(s).and_then(|t| absorbance_values(&t, cal).map(|(v, r)| (t, v, r))) {
             Err(e) => out.push(d("first_exciton_nm", None, "nm", &peak_method, vec![e.to_string()])),
-            Ok((t, r)) => {
-                out.push(d(
-                    "first_exciton_nm",
-                    r.first_exciton_nm,
-                    "nm",
-                    &peak_method,
-                    r.warnings.clone(),
-                ));
-                out.push(d(
-                    "first_exciton_abs",
-                    r.first_exciton_abs,
-                    "absorbance",
-                    "smoothed, scattering background removed",
-                    vec![],
-                ));
-                out.push(d(
-                    "hwhm_nm",
-                    r.hwhm_nm,
-                    "nm",
-                    "low-energy side half width at half maximum",
-                    vec![],
-                ));
-                out.push(d(
-                    "hwhm_mev",
-                    r.hwhm_ev.map(|h| h * 1000.0),
-                    "meV",
-                    "low-energy side half width at half maximum",
-                    vec![],
-                ));
-                out.push(d(
-                    "shoulder",
-                    r.first_exciton_nm.map(|_| if r.shoulder { 1.0 } else { 0.0 }),
-                    "flag",
-                    &peak_method,
-                    vec![],
-                ));
-                out.push(d(
-                    "abs_400nm",
-                    analysis::interpolate(&t, 400.0),
-                    "absorbance",
-                    "interpolated at 400 nm",
-                    vec![],
-                ));
+            Ok((t, v, r)) => {
+                out.extend(v);
                 abs_trace = Some(t);
                 abs_res = Some(r);
             }
@@ -985,6 +1012,20 @@ fn spectrum_metas(conn: &Connection, aliquot_id: i64) -> Result<Vec<SpectrumMeta
         })
     })?;
     Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+/// Changes the latest calibration with `f`, saves it as a new version (validated; refused with
+/// nothing changed if wrong) and marks the values it makes stale. Returns (version, stale count).
+pub fn change_calibration(
+    tx: &Connection,
+    who: &str,
+    why: &str,
+    f: &dyn Fn(&Connection, &mut Calibration) -> Result<()>,
+) -> Result<(i64, usize)> {
+    let mut body = calibration::latest(tx)?.body;
+    f(tx, &mut body)?;
+    let v = calibration::save(tx, who, why, &body)?;
+    Ok((v, mark_stale(tx)?))
 }
 
 /// Marks current values whose inputs no longer match as stale (cheap: no spectrum is read).

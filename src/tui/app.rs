@@ -693,13 +693,10 @@ impl App {
                     .store
                     .write(|tx, who| {
                         let core = model::material_by_name(tx, &m)?.core;
-                        let mut body = calibration::latest(tx)?.body;
-                        body.curves.insert(core.clone(), c.clone());
-                        if crate::derive::extinction::model_for(&core, &c).is_ok() {
-                            body.extinction.insert(core, c.clone());
-                        }
-                        let v = calibration::save(tx, who, &why, &body)?;
-                        engine::mark_stale(tx)?;
+                        let (v, _) = engine::change_calibration(tx, who, &why, &|_, body| {
+                            body.set_curve(&core, &c);
+                            Ok(())
+                        })?;
                         Ok(v)
                     })
                     .map_err(e)?;
