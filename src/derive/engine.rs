@@ -710,6 +710,128 @@ pub const THRESHOLD_FIELDS: &[(&str, &str)] = &[
     ("conc", "concentration_molar"),
 ];
 
+/// Aliquots are taken in chunks of ids, so memory stays bounded and no query runs per aliquot.
+const CHUNK: i64 = 2000;
+
+/// One chunk of aliquots with the hashes their values should carry now, and what their stored
+/// values say: whether they have any, whether any hash differs, whether any is flagged stale.
+struct Chunk {
+    lo: i64,
+    hi: i64,
+    /// (aliquot, core, calibration version, stage-one hash, full hash, spectrum metadata).
+    expected: Vec<(AliquotRow, String, i64, String, String, Vec<SpectrumMeta>)>,
+    has_values: Vec<bool>,
+    stale_rows: Vec<bool>,
+    flagged: Vec<bool>,
+}
+
+/// Walks the lab's aliquots chunk by chunk for recompute and for stale marking: three range
+/// queries a chunk (aliquots, spectrum metadata from the covering index, current value hashes
+/// compared in place), with the calibration parts of the hashes rendered once per version.
+struct Scanner {
+    latest: i64,
+    after: i64,
+    cals: BTreeMap<i64, Calibration>,
+    relevant_cache: HashMap<(i64, String, String, bool), String>,
+    analysis_cache: HashMap<(i64, bool), String>,
+}
+
+impl Scanner {
+    fn new(conn: &Connection) -> Result<Scanner> {
+        Ok(Scanner {
+            latest: calibration::latest(conn)?.version,
+            after: 0,
+            cals: BTreeMap::new(),
+            relevant_cache: HashMap::new(),
+            analysis_cache: HashMap::new(),
+        })
+    }
+
+    fn next_chunk(&mut self, conn: &Connection) -> Result<Option<Chunk>> {
+        let chunk: Vec<(AliquotRow, String, i64)> = {
+            let mut st = conn.prepare_cached(
+                "SELECT a.id, a.batch_id, a.minutes, a.stage, a.dilution_factor, a.path_cm, a.solvent, a.taken_at,
+                        m.core, COALESCE(b.pinned_calibration, ?1)
+                 FROM aliquot a JOIN batch b ON b.id = a.batch_id JOIN material m ON m.id = b.material_id
+                 WHERE a.id > ?2 ORDER BY a.id LIMIT ?3",
+            )?;
+            let rows = st.query_map(params![self.latest, self.after, CHUNK], |r| {
+                Ok((crate::store::model::aliquot_from(r)?, r.get(8)?, r.get(9)?))
+            })?;
+            rows.collect::<rusqlite::Result<_>>()?
+        };
+        let (Some(first), Some(last)) = (chunk.first(), chunk.last()) else {
+            return Ok(None);
+        };
+        let (lo, hi) = (first.0.id, last.0.id);
+        self.after = hi;
+        let mut metas_by: HashMap<i64, Vec<SpectrumMeta>> = HashMap::new();
+        {
+            let mut st = conn.prepare_cached(
+                "SELECT aliquot_id, kind, sha256, excitation_nm, x_unit FROM spectrum INDEXED BY spectrum_meta WHERE aliquot_id BETWEEN ?1 AND ?2 ORDER BY aliquot_id, id",
+            )?;
+            let mut rows = st.query(params![lo, hi])?;
+            while let Some(r) = rows.next()? {
+                metas_by.entry(r.get(0)?).or_default().push(SpectrumMeta {
+                    kind: r.get(1)?,
+                    sha256: r.get(2)?,
+                    excitation_nm: r.get(3)?,
+                    x_unit: r.get(4)?,
+                });
+            }
+        }
+        let mut expected = Vec::with_capacity(chunk.len());
+        for (a, core, version) in chunk {
+            if let std::collections::btree_map::Entry::Vacant(e) = self.cals.entry(version) {
+                e.insert(calibration::get(conn, version)?.body);
+            }
+            let cal = &self.cals[&version];
+            let metas = metas_by.remove(&a.id).unwrap_or_default();
+            let has_pl = metas.iter().any(|s| s.kind == "pl");
+            let rel = self
+                .relevant_cache
+                .entry((version, core.clone(), a.solvent.to_ascii_lowercase(), has_pl))
+                .or_insert_with(|| relevant(cal, &core, &a.solvent, has_pl).to_string());
+            let hash = inputs_hash_with(&a, &core, &metas, rel);
+            let part = self
+                .analysis_cache
+                .entry((version, has_pl))
+                .or_insert_with(|| analysis_part(cal, has_pl));
+            let stage1 = analysis_hash_with(&metas, part);
+            expected.push((a, core, version, stage1, hash, metas));
+        }
+        let index: HashMap<i64, usize> = expected.iter().enumerate().map(|(i, e)| (e.0.id, i)).collect();
+        let mut has_values = vec![false; expected.len()];
+        let mut stale_rows = vec![false; expected.len()];
+        let mut flagged = vec![false; expected.len()];
+        {
+            let mut st = conn.prepare_cached(
+                "SELECT aliquot_id, quantity, inputs_hash, stale FROM derived_value WHERE superseded_at IS NULL AND aliquot_id BETWEEN ?1 AND ?2",
+            )?;
+            let mut rows = st.query(params![lo, hi])?;
+            while let Some(r) = rows.next()? {
+                let id: i64 = r.get(0)?;
+                let Some(&i) = index.get(&id) else { continue };
+                has_values[i] = true;
+                flagged[i] |= r.get::<_, bool>(3)?;
+                if !stale_rows[i] {
+                    let q = r.get_ref(1)?.as_str().unwrap_or("");
+                    let h = r.get_ref(2)?.as_str().unwrap_or("");
+                    stale_rows[i] = h != expected_hash(q, &expected[i].3, &expected[i].4);
+                }
+            }
+        }
+        Ok(Some(Chunk {
+            lo,
+            hi,
+            expected,
+            has_values,
+            stale_rows,
+            flagged,
+        }))
+    }
+}
+
 /// One stale aliquot on its way through a recompute.
 struct Work {
     a: AliquotRow,
@@ -735,92 +857,21 @@ pub fn recompute(
         ..Default::default()
     };
     let total: i64 = conn.query_row("SELECT count(*) FROM aliquot", [], |r| r.get(0))?;
-    let latest = calibration::latest(conn)?.version;
-    let mut cals: BTreeMap<i64, Calibration> = BTreeMap::new();
     let thresholds = search_thresholds(conn)?;
     let products = product_aliquots(conn)?;
     let mut moves: Vec<Move> = Vec::new();
-    // Aliquots are taken in chunks of ids; each chunk's spectrum metadata and current values are
-    // read in two range queries, so memory stays bounded and no query runs per aliquot.
-    const CHUNK: i64 = 2000;
-    let mut relevant_cache: HashMap<(i64, String, String, bool), String> = HashMap::new();
-    let mut analysis_cache: HashMap<(i64, bool), String> = HashMap::new();
+    let mut scan = Scanner::new(conn)?;
     let mut done = 0usize;
-    let mut after = 0i64;
-    loop {
-        let chunk: Vec<(AliquotRow, String, i64)> = {
-            let mut st = conn.prepare_cached(
-                "SELECT a.id, a.batch_id, a.minutes, a.stage, a.dilution_factor, a.path_cm, a.solvent, a.taken_at,
-                        m.core, COALESCE(b.pinned_calibration, ?1)
-                 FROM aliquot a JOIN batch b ON b.id = a.batch_id JOIN material m ON m.id = b.material_id
-                 WHERE a.id > ?2 ORDER BY a.id LIMIT ?3",
-            )?;
-            let rows = st.query_map(params![latest, after, CHUNK], |r| {
-                Ok((crate::store::model::aliquot_from(r)?, r.get(8)?, r.get(9)?))
-            })?;
-            rows.collect::<rusqlite::Result<_>>()?
-        };
-        let (Some(first), Some(last)) = (chunk.first(), chunk.last()) else {
-            break;
-        };
-        let (lo, hi) = (first.0.id, last.0.id);
-        after = hi;
-        let mut metas_by: HashMap<i64, Vec<SpectrumMeta>> = HashMap::new();
-        {
-            let mut st = conn.prepare_cached(
-                "SELECT aliquot_id, kind, sha256, excitation_nm, x_unit FROM spectrum INDEXED BY spectrum_meta WHERE aliquot_id BETWEEN ?1 AND ?2 ORDER BY aliquot_id, id",
-            )?;
-            let mut rows = st.query(params![lo, hi])?;
-            while let Some(r) = rows.next()? {
-                metas_by.entry(r.get(0)?).or_default().push(SpectrumMeta {
-                    kind: r.get(1)?,
-                    sha256: r.get(2)?,
-                    excitation_nm: r.get(3)?,
-                    x_unit: r.get(4)?,
-                });
-            }
-        }
-        // Pass one, in order: each aliquot's expected hashes; then one streaming pass over the
-        // chunk's current values compares hashes in place (no row is copied), which finds the
-        // stale aliquots; full rows are read only for those.
-        let mut expected: Vec<(AliquotRow, String, i64, String, String, Vec<SpectrumMeta>)> =
-            Vec::with_capacity(chunk.len());
-        for (a, core, version) in chunk {
-            if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
-                e.insert(calibration::get(conn, version)?.body);
-            }
-            let cal = &cals[&version];
-            let metas = metas_by.remove(&a.id).unwrap_or_default();
-            let has_pl = metas.iter().any(|s| s.kind == "pl");
-            let rel = relevant_cache
-                .entry((version, core.clone(), a.solvent.to_ascii_lowercase(), has_pl))
-                .or_insert_with(|| relevant(cal, &core, &a.solvent, has_pl).to_string());
-            let hash = inputs_hash_with(&a, &core, &metas, rel);
-            let part = analysis_cache
-                .entry((version, has_pl))
-                .or_insert_with(|| analysis_part(cal, has_pl));
-            let stage1 = analysis_hash_with(&metas, part);
-            expected.push((a, core, version, stage1, hash, metas));
-        }
-        let index: HashMap<i64, usize> = expected.iter().enumerate().map(|(i, e)| (e.0.id, i)).collect();
-        let mut has_values = vec![false; expected.len()];
-        let mut stale_rows = vec![false; expected.len()];
-        {
-            let mut st = conn.prepare_cached(
-                "SELECT aliquot_id, quantity, inputs_hash FROM derived_value WHERE superseded_at IS NULL AND aliquot_id BETWEEN ?1 AND ?2",
-            )?;
-            let mut rows = st.query(params![lo, hi])?;
-            while let Some(r) = rows.next()? {
-                let id: i64 = r.get(0)?;
-                let Some(&i) = index.get(&id) else { continue };
-                has_values[i] = true;
-                if !stale_rows[i] {
-                    let q = r.get_ref(1)?.as_str().unwrap_or("");
-                    let h = r.get_ref(2)?.as_str().unwrap_or("");
-                    stale_rows[i] = h != expected_hash(q, &expected[i].3, &expected[i].4);
-                }
-            }
-        }
+    while let Some(chunk) = scan.next_chunk(conn)? {
+        let Chunk {
+            lo,
+            hi,
+            expected,
+            has_values,
+            stale_rows,
+            ..
+        } = chunk;
+        let cals = &scan.cals;
         let mut work: Vec<Work> = Vec::new();
         let mut candidates: Vec<(AliquotRow, String, i64, String, String, Vec<SpectrumMeta>)> = Vec::new();
         for (i, e) in expected.into_iter().enumerate() {
@@ -1000,20 +1051,6 @@ fn sort_moves(m: &mut [Move]) {
     });
 }
 
-fn spectrum_metas(conn: &Connection, aliquot_id: i64) -> Result<Vec<SpectrumMeta>> {
-    let mut st = conn
-        .prepare_cached("SELECT kind, sha256, excitation_nm, x_unit FROM spectrum INDEXED BY spectrum_meta WHERE aliquot_id = ?1 ORDER BY id")?;
-    let rows = st.query_map([aliquot_id], |r| {
-        Ok(SpectrumMeta {
-            kind: r.get(0)?,
-            sha256: r.get(1)?,
-            excitation_nm: r.get(2)?,
-            x_unit: r.get(3)?,
-        })
-    })?;
-    Ok(rows.collect::<rusqlite::Result<_>>()?)
-}
-
 /// Changes the latest calibration with `f`, saves it as a new version (validated; refused with
 /// nothing changed if wrong) and marks the values it makes stale. Returns (version, stale count).
 pub fn change_calibration(
@@ -1030,32 +1067,20 @@ pub fn change_calibration(
 
 /// Marks current values whose inputs no longer match as stale (cheap: no spectrum is read).
 pub fn mark_stale(tx: &Connection) -> Result<usize> {
-    let latest = calibration::latest(tx)?.version;
-    let mut cals: BTreeMap<i64, Calibration> = BTreeMap::new();
-    let mut st = tx.prepare(
-        "SELECT a.id, a.batch_id, a.minutes, a.stage, a.dilution_factor, a.path_cm, a.solvent, a.taken_at,
-                m.core, COALESCE(b.pinned_calibration, ?1)
-         FROM aliquot a JOIN batch b ON b.id = a.batch_id JOIN material m ON m.id = b.material_id ORDER BY a.id",
-    )?;
-    let mut rows = st.query([latest])?;
+    let spectral = SPECTRAL.iter().map(|q| format!("'{q}'")).collect::<Vec<_>>().join(",");
+    let sql = format!(
+        "UPDATE derived_value SET stale = NOT (inputs_hash = CASE WHEN quantity IN ({spectral}) THEN ?3 ELSE ?1 END)
+         WHERE aliquot_id = ?2 AND superseded_at IS NULL AND stale <> NOT (inputs_hash = CASE WHEN quantity IN ({spectral}) THEN ?3 ELSE ?1 END)"
+    );
+    let mut scan = Scanner::new(tx)?;
     let mut n = 0;
-    while let Some(r) = rows.next()? {
-        let a = crate::store::model::aliquot_from(r)?;
-        let core: String = r.get(8)?;
-        let version: i64 = r.get(9)?;
-        if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
-            e.insert(calibration::get(tx, version)?.body);
+    while let Some(c) = scan.next_chunk(tx)? {
+        // Only aliquots with a differing hash or a flag already set can change.
+        for (i, (a, _, _, stage1, hash, _)) in c.expected.iter().enumerate() {
+            if c.stale_rows[i] || c.flagged[i] {
+                n += tx.prepare_cached(&sql)?.execute(params![hash, a.id, stage1])?;
+            }
         }
-        let metas = spectrum_metas(tx, a.id)?;
-        let hash = inputs_hash(&a, &core, &metas, &cals[&version]);
-        let stage1 = analysis_hash(&metas, &cals[&version]);
-        let spectral = SPECTRAL.iter().map(|q| format!("'{q}'")).collect::<Vec<_>>().join(",");
-        n += tx
-            .prepare_cached(&format!(
-                "UPDATE derived_value SET stale = NOT (inputs_hash = CASE WHEN quantity IN ({spectral}) THEN ?3 ELSE ?1 END)
-                 WHERE aliquot_id = ?2 AND superseded_at IS NULL AND stale <> NOT (inputs_hash = CASE WHEN quantity IN ({spectral}) THEN ?3 ELSE ?1 END)"
-            ))?
-            .execute(params![hash, a.id, stage1])?;
     }
     Ok(n)
 }
