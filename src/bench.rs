@@ -75,6 +75,8 @@ pub fn new_spectrum(aliquot_id: Option<i64>, f: &SpectrumFile, raw: &RawSpectrum
         sha256: sha.to_string(),
         excitation_nm: f.excitation_nm,
         instrument: None,
+        dilution_factor: None,
+        path_cm: None,
     }
 }
 

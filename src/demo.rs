@@ -403,6 +403,8 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                         file_name: format!("{base}_abs_{tag}.csv"),
                         excitation_nm: None,
                         instrument: None,
+                        dilution_factor: None,
+                        path_cm: None,
                     },
                 )?;
                 if let Some(target_qy) = s.qy {
@@ -440,6 +442,8 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                             file_name: format!("{base}_pl_{tag}.csv"),
                             excitation_nm: Some(qref.excitation_nm),
                             instrument: Some(r#"{"slit_nm": 2, "integration_s": 0.5}"#.into()),
+                            dilution_factor: None,
+                            path_cm: None,
                         },
                     )?;
                 }

@@ -33,6 +33,9 @@ pub enum Error {
     /// The disk or the file refused a write; nothing was written.
     #[error("{0}")]
     Storage(String),
+    /// The lab was restored or its file replaced while this process had it open.
+    #[error("{0}")]
+    Replaced(String),
     #[error("{0}")]
     Io(#[from] std::io::Error),
     #[error("json: {0}")]

@@ -95,6 +95,8 @@ fn every_entity_round_trips_through_the_store() {
                     sha256: "ab".into(),
                     excitation_nm: None,
                     instrument: None,
+                    dilution_factor: None,
+                    path_cm: None,
                 },
             )?;
             let v = model::insert_vial(

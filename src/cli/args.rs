@@ -11,11 +11,16 @@ use std::path::PathBuf;
 )]
 pub struct Cli {
     /// The lab database (default: $CUVETTE_DB, else lab.db in the platform's data directory).
-    #[arg(long, global = true, env = "CUVETTE_DB")]
+    /// An empty value counts as not given.
+    #[arg(long, global = true)]
     pub db: Option<PathBuf>,
-    /// Who the writes are attributed to (default: $CUVETTE_USER, else the login name).
-    #[arg(long = "as", global = true, env = "CUVETTE_USER", value_name = "PERSON")]
+    /// Who the writes are attributed to (default: $CUVETTE_USER, else the name set with
+    /// `cuvette whoami --set`, else the login name).
+    #[arg(long = "as", global = true, value_name = "PERSON")]
     pub actor: Option<String>,
+    /// Let a write create the lab file when it does not exist yet (reads never create one).
+    #[arg(long, global = true)]
+    pub create: bool,
     #[command(subcommand)]
     pub cmd: Option<Cmd>,
 }
@@ -79,8 +84,14 @@ pub enum Cmd {
     Plot(PlotArgs),
     /// Export every batch, aliquot and current derived value.
     Export(ExportArgs),
-    /// Check the database: SQLite integrity, foreign keys and cuvette's own invariants.
-    Check(JsonFlag),
+    /// Check the database: SQLite integrity, foreign keys, cuvette's own invariants, spectrum
+    /// data hashes, the audit log, and a sample of derived values recomputed.
+    Check(CheckArgs),
+    /// Move a spectrum to another aliquot (a file logged against the wrong one).
+    #[command(subcommand)]
+    Spectrum(SpectrumCmd),
+    /// Who cuvette attributes your writes to; `--set NAME` remembers a name for this account.
+    Whoami(WhoamiArgs),
     /// Copy the database through SQLite's online backup.
     Backup(BackupArgs),
     /// Replace the database with a backup (the replaced file is kept).
@@ -89,6 +100,39 @@ pub enum Cmd {
     Import(ImportArgs),
     /// Import many batches' folders from a CSV manifest; each batch all or nothing.
     ImportManifest(ManifestArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct CheckArgs {
+    /// Recompute every derived value, not a sample, and compare.
+    #[arg(long)]
+    pub deep: bool,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum SpectrumCmd {
+    /// Move a spectrum to another aliquot; both aliquots are recomputed.
+    Move {
+        spectrum: i64,
+        /// The aliquot it belongs to.
+        #[arg(long = "to")]
+        to_aliquot: i64,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
+}
+
+#[derive(Debug, Args)]
+pub struct WhoamiArgs {
+    /// Remember NAME as who you are (for this OS account).
+    #[arg(long)]
+    pub set: Option<String>,
+    #[arg(long)]
+    pub json: bool,
 }
 
 #[derive(Debug, Args)]
@@ -208,6 +252,22 @@ pub enum BatchCmd {
         #[arg(long)]
         json: bool,
     },
+    /// Void a batch logged by mistake: it stays in the record, marked, and counts for nothing.
+    Void {
+        id: i64,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
+    /// Undo a batch's void.
+    Reinstate {
+        id: i64,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
 }
 
 #[derive(Debug, Args)]
@@ -287,6 +347,42 @@ pub enum AliquotCmd {
         #[arg(long)]
         json: bool,
     },
+    /// Void an aliquot: it stays in the record, marked, and is left out of the growth series,
+    /// product values, search, plots and the pack.
+    Void {
+        id: i64,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
+    /// Undo an aliquot's void.
+    Reinstate {
+        id: i64,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
+    /// Correct an aliquot's logged facts; what depends on them is recomputed.
+    #[command(allow_negative_numbers = true)]
+    Edit {
+        id: i64,
+        #[arg(long)]
+        minutes: Option<f64>,
+        #[arg(long)]
+        stage: Option<String>,
+        #[arg(long)]
+        dilution: Option<f64>,
+        #[arg(long)]
+        path_cm: Option<f64>,
+        #[arg(long)]
+        solvent: Option<String>,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
 }
 
 #[derive(Debug, Args, Clone)]
@@ -329,6 +425,12 @@ pub struct AliquotAddArgs {
     /// JCAMP-DX block to read: number (from 1) or title.
     #[arg(long)]
     pub block: Option<String>,
+    /// Log a file whose SHA-256 is already in the batch (refused otherwise).
+    #[arg(long)]
+    pub again: bool,
+    /// Keep a file as the kind given even when its header or values say otherwise.
+    #[arg(long)]
+    pub kind_as_is: bool,
     #[arg(long)]
     pub json: bool,
 }
@@ -391,6 +493,14 @@ pub enum VialCmd {
         json: bool,
     },
     Dispose {
+        vial: String,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
+    /// Put a disposed vial back (a disposal logged by mistake).
+    Reinstate {
         vial: String,
         #[arg(long)]
         why: String,
@@ -783,6 +893,12 @@ pub struct ImportArgs {
     pub solvent: String,
     #[arg(long)]
     pub excitation_nm: Option<f64>,
+    /// Import files whose SHA-256 is already in the batch (skipped and reported otherwise).
+    #[arg(long)]
+    pub again: bool,
+    /// Keep each file as the kind its name gives even when its header or values say otherwise.
+    #[arg(long)]
+    pub kind_as_is: bool,
     #[arg(long)]
     pub json: bool,
 }

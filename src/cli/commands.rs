@@ -2,6 +2,7 @@
 //! live here.
 
 use super::args::*;
+use super::identity;
 use super::output::{self, Progress, json, json_line, line, molar, num};
 use crate::bench::{self, SpectrumFile};
 use crate::derive::{calibration, engine, growth, qy, sizing, solvents, yields};
@@ -28,19 +29,57 @@ pub fn default_db_path() -> PathBuf {
     base.join("cuvette").join("lab.db")
 }
 
-fn actor(cli: &Cli) -> String {
-    cli.actor
-        .clone()
-        .or_else(|| std::env::var("USER").ok())
-        .or_else(|| std::env::var("USERNAME").ok())
-        .unwrap_or_else(|| "unknown".into())
-}
-
 fn db_path(cli: &Cli) -> PathBuf {
-    cli.db.clone().unwrap_or_else(default_db_path)
+    cli.db
+        .clone()
+        .filter(|p| !p.as_os_str().is_empty())
+        .or_else(|| {
+            std::env::var_os("CUVETTE_DB")
+                .filter(|v| !v.is_empty())
+                .map(PathBuf::from)
+        })
+        .unwrap_or_else(default_db_path)
 }
 
-fn open(cli: &Cli) -> Result<Store> {
+fn with_path(path: &Path, e: crate::Error) -> anyhow::Error {
+    let msg = e.to_string();
+    if msg.contains(&path.display().to_string()) {
+        anyhow!("{msg}")
+    } else {
+        anyhow!("{}: {msg}", path.display())
+    }
+}
+
+fn report_migration(store: &Store, path: &Path) {
+    if let Some(b) = &store.migrated_backup {
+        eprintln!(
+            "cuvette: migrated {}; the previous file is kept at {}",
+            path.display(),
+            b.display()
+        );
+    }
+}
+
+/// Opens the lab for a command that only reads: it must exist, and nothing is changed.
+fn open_read(cli: &Cli) -> Result<Store> {
+    let path = db_path(cli);
+    Store::open_read(&path, &identity::for_read(cli.actor.as_deref())).map_err(|e| with_path(&path, e))
+}
+
+/// Opens the lab for a command that writes: it must exist unless `--create` is given.
+fn open_write(cli: &Cli) -> Result<Store> {
+    if cli.create {
+        return open_create(cli);
+    }
+    let path = db_path(cli);
+    let who = identity::for_write(cli.actor.as_deref())?;
+    let store = Store::open_existing(&path, &who).map_err(|e| with_path(&path, e))?;
+    report_migration(&store, &path);
+    Ok(store)
+}
+
+/// Opens the lab, creating the file (and its folder) when missing: init, demo, `--create`.
+fn open_create(cli: &Cli) -> Result<Store> {
     let path = db_path(cli);
     if path.is_dir() {
         bail!(
@@ -49,21 +88,25 @@ fn open(cli: &Cli) -> Result<Store> {
             path.display()
         );
     }
+    let who = identity::for_write(cli.actor.as_deref())?;
     if let Some(dir) = path.parent()
         && !dir.as_os_str().is_empty()
         && !dir.exists()
     {
         std::fs::create_dir_all(dir).with_context(|| format!("cannot create {}", dir.display()))?;
     }
-    let store = Store::open(&path, &actor(cli)).map_err(|e| anyhow!("{}: {e}", path.display()))?;
-    if let Some(b) = &store.migrated_backup {
-        eprintln!(
-            "cuvette: migrated {}; the previous file is kept at {}",
-            path.display(),
-            b.display()
-        );
-    }
+    let store = Store::open(&path, &who).map_err(|e| with_path(&path, e))?;
+    report_migration(&store, &path);
     Ok(store)
+}
+
+/// Opens for writing or for reading, as the subcommand needs.
+fn open_for(cli: &Cli, writes: bool) -> Result<Store> {
+    if writes { open_write(cli) } else { open_read(cli) }
+}
+
+fn rederive(tx: &rusqlite::Connection, aliquot_id: i64) -> crate::Result<()> {
+    engine::after_correction(tx, aliquot_id)
 }
 
 pub fn dispatch(cli: Cli) -> Result<ExitCode> {
@@ -72,15 +115,19 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
         if !std::io::stdout().is_terminal() || !std::io::stdin().is_terminal() {
             bail!("the terminal UI needs a terminal; for scripts use a command (see `cuvette --help`)");
         }
-        let mut store = open(&cli)?;
-        crate::tui::run(&mut store)?;
+        let store = match open_write(&cli) {
+            Ok(s) => s,
+            Err(_) if db_path(&cli).exists() => open_read(&cli)?,
+            Err(e) => return Err(e),
+        };
+        crate::tui::run(store)?;
         return Ok(ExitCode::SUCCESS);
     };
     match cmd {
         Cmd::Init => {
             let path = db_path(&cli);
             let existed = path.exists();
-            open(&cli)?;
+            open_create(&cli)?;
             line(&format!(
                 "{} {}",
                 if existed { "opened existing lab" } else { "created lab" },
@@ -125,7 +172,7 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
         Cmd::Find(a) => return find(&cli, a),
         Cmd::Handover(a) => handover(&cli, a)?,
         Cmd::Plot(a) => {
-            let mut store = open(&cli)?;
+            let mut store = open_read(&cli)?;
             let svg = store.read(|tx| crate::report::plot_batch_svg(tx, a.batch))?;
             match &a.out {
                 Some(p) => {
@@ -136,18 +183,62 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
             }
         }
         Cmd::Export(a) => {
-            let mut store = open(&cli)?;
+            let mut store = open_read(&cli)?;
             let written =
                 store.read(|tx| crate::report::export(tx, a.format == ExportFormat::Json, a.out.as_deref()))?;
             for w in written {
                 line(&w)?;
             }
         }
-        Cmd::Check(a) => return check(&cli, a.json),
+        Cmd::Check(a) => return check(&cli, a),
         Cmd::Backup(a) => {
-            let store = open(&cli)?;
+            let store = open_read(&cli)?;
             store.backup_to(&a.out)?;
             line(&format!("backed up {} to {}", db_path(&cli).display(), a.out.display()))?;
+        }
+        Cmd::Spectrum(SpectrumCmd::Move {
+            spectrum,
+            to_aliquot,
+            why,
+            json: j,
+        }) => {
+            let mut store = open_write(&cli)?;
+            let (from, to) = store.write(|tx, who| {
+                let (from, to) = model::move_spectrum(tx, who, *spectrum, *to_aliquot, why)?;
+                rederive(tx, from)?;
+                rederive(tx, to)?;
+                Ok((from, to))
+            })?;
+            if *j {
+                json(&json!({"spectrum_id": spectrum, "from_aliquot": from, "to_aliquot": to}))?;
+            } else {
+                line(&format!(
+                    "spectrum {spectrum} moved from aliquot {from} to aliquot {to}; both recomputed"
+                ))?;
+            }
+        }
+        Cmd::Whoami(a) => {
+            if let Some(n) = &a.set {
+                let p = identity::remember(n)?;
+                line(&format!(
+                    "cuvette will attribute your writes to '{}' (kept in {})",
+                    n.trim(),
+                    p.display()
+                ))?;
+            } else {
+                let id = identity::resolve(cli.actor.as_deref());
+                if a.json {
+                    json(&id)?;
+                } else {
+                    match &id.name {
+                        Some(n) => line(&format!("{n} (from {})", id.from))?,
+                        None => {
+                            line("nobody: set a name with `cuvette whoami --set NAME`")?;
+                            return Ok(ExitCode::from(1));
+                        }
+                    }
+                }
+            }
         }
         Cmd::Restore(a) => restore(&cli, &a.file)?,
         Cmd::Import(a) => import(&cli, a)?,
@@ -165,15 +256,16 @@ fn demo(cli: &Cli, a: &DemoArgs) -> Result<ExitCode> {
     let cli = &Cli {
         db: Some(path.clone()),
         actor: cli.actor.clone(),
+        create: true,
         cmd: None,
     };
     crate::demo::prepare_file(&path)?;
-    let mut store = open(cli)?;
+    let mut store = open_create(cli)?;
     let progress = Progress::new("demo", false);
     let n = crate::demo::build(&mut store, a.scale, |d, t| progress.tick(d, t))?;
     use std::io::IsTerminal;
     if !a.no_ui && std::io::stdout().is_terminal() && std::io::stdin().is_terminal() {
-        crate::tui::run(&mut store)?;
+        crate::tui::run(store)?;
     } else {
         line(&format!("built the demo lab ({n} batches) in {}", path.display()))?;
     }
@@ -181,7 +273,7 @@ fn demo(cli: &Cli, a: &DemoArgs) -> Result<ExitCode> {
 }
 
 fn person(cli: &Cli, c: &PersonCmd) -> Result<()> {
-    let mut store = open(cli)?;
+    let mut store = open_for(cli, matches!(c, PersonCmd::Add { .. }))?;
     match c {
         PersonCmd::Add { name, email } => {
             let id = store.write(|tx, who| model::add_person(tx, who, name, email.as_deref()))?;
@@ -202,7 +294,7 @@ fn person(cli: &Cli, c: &PersonCmd) -> Result<()> {
 }
 
 fn material(cli: &Cli, c: &MaterialCmd) -> Result<()> {
-    let mut store = open(cli)?;
+    let mut store = open_for(cli, matches!(c, MaterialCmd::Add { .. }))?;
     match c {
         MaterialCmd::Add { name, core, shell } => {
             let id = store.write(|tx, who| model::add_material(tx, who, name, core, shell.as_deref()))?;
@@ -233,7 +325,7 @@ fn material(cli: &Cli, c: &MaterialCmd) -> Result<()> {
 }
 
 fn reagent(cli: &Cli, c: &ReagentCmd) -> Result<()> {
-    let mut store = open(cli)?;
+    let mut store = open_for(cli, matches!(c, ReagentCmd::Add { .. }))?;
     match c {
         ReagentCmd::Add {
             name,
@@ -358,7 +450,7 @@ fn print_recipe(r: &model::RecipeView) -> Result<()> {
 }
 
 fn recipe(cli: &Cli, c: &RecipeCmd) -> Result<()> {
-    let mut store = open(cli)?;
+    let mut store = open_for(cli, matches!(c, RecipeCmd::New { .. }))?;
     match c {
         RecipeCmd::New {
             name,
@@ -436,7 +528,7 @@ fn recipe(cli: &Cli, c: &RecipeCmd) -> Result<()> {
 }
 
 fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
-    let mut store = open(cli)?;
+    let mut store = open_for(cli, !matches!(c, BatchCmd::List(_) | BatchCmd::Show { .. }))?;
     match c {
         BatchCmd::New(a) => {
             let nb = model::NewBatch {
@@ -553,6 +645,34 @@ fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
                 line(&format!("batch {}: {} repeats batch {id}", row.id, row.name))?
             }
         }
+        BatchCmd::Void { id, why, json: j } => {
+            let row = store.write(|tx, who| {
+                let r = model::void_batch(tx, who, *id, why)?;
+                engine::refresh_vials(tx, Some(*id), false)?;
+                Ok(r)
+            })?;
+            if *j {
+                json(&row)?
+            } else {
+                line(&format!(
+                    "batch {} is void: {}",
+                    row.id,
+                    row.void_why.clone().unwrap_or_default()
+                ))?
+            }
+        }
+        BatchCmd::Reinstate { id, why, json: j } => {
+            let row = store.write(|tx, who| {
+                let r = model::reinstate_batch(tx, who, *id, why)?;
+                engine::refresh_vials(tx, Some(*id), false)?;
+                Ok(r)
+            })?;
+            if *j {
+                json(&row)?
+            } else {
+                line(&format!("batch {} is reinstated", row.id))?
+            }
+        }
     }
     Ok(())
 }
@@ -624,7 +744,7 @@ fn print_batch(v: &Value) -> Result<()> {
 }
 
 fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
-    let mut store = open(cli)?;
+    let mut store = open_for(cli, !matches!(c, AliquotCmd::Show { .. }))?;
     match c {
         AliquotCmd::Add(a) => {
             if a.minutes.is_some() && a.stage.is_some() {
@@ -689,6 +809,63 @@ fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
                 }
             }
         }
+        AliquotCmd::Void { id, why, json: j } | AliquotCmd::Reinstate { id, why, json: j } => {
+            let voiding = matches!(c, AliquotCmd::Void { .. });
+            let row = store.write(|tx, who| {
+                let r = if voiding {
+                    model::void_aliquot(tx, who, *id, why)?
+                } else {
+                    model::reinstate_aliquot(tx, who, *id, why)?
+                };
+                rederive(tx, *id)?;
+                Ok(r)
+            })?;
+            if *j {
+                json(&row)?;
+            } else if voiding {
+                line(&format!(
+                    "aliquot {} of batch {} is void ({}); the batch's values no longer use it",
+                    row.id,
+                    row.batch_id,
+                    why.trim()
+                ))?;
+            } else {
+                line(&format!("aliquot {} of batch {} is reinstated", row.id, row.batch_id))?;
+            }
+        }
+        AliquotCmd::Edit {
+            id,
+            minutes,
+            stage,
+            dilution,
+            path_cm,
+            solvent,
+            why,
+            json: j,
+        } => {
+            let e = model::AliquotEdit {
+                minutes: *minutes,
+                stage: stage.clone(),
+                dilution_factor: *dilution,
+                path_cm: *path_cm,
+                solvent: solvent.clone(),
+            };
+            let s = store.write(|tx, who| {
+                let row = model::edit_aliquot(tx, who, *id, &e, why)?;
+                rederive(tx, *id)?;
+                growth::aliquot_summary(tx, &row)
+            })?;
+            if *j {
+                json(&s)?;
+            } else {
+                line(&format!(
+                    "aliquot {} corrected: D {} nm, conc {}",
+                    s.id,
+                    num(s.diameter_nm, 2),
+                    molar(s.concentration_molar)
+                ))?;
+            }
+        }
         AliquotCmd::Show { id, json: j } => {
             let s = store.read(|tx| {
                 let a = model::get_aliquot(tx, *id)?;
@@ -705,7 +882,7 @@ fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
 }
 
 fn location(cli: &Cli, c: &LocationCmd) -> Result<()> {
-    let mut store = open(cli)?;
+    let mut store = open_for(cli, matches!(c, LocationCmd::Add { .. }))?;
     match c {
         LocationCmd::Add { name, kind, position } => {
             let id = store.write(|tx, who| model::add_location(tx, who, name, kind, position.as_deref()))?;
@@ -747,7 +924,7 @@ fn print_vial(v: &model::VialRow, j: bool) -> Result<()> {
 }
 
 fn vial(cli: &Cli, c: &VialCmd) -> Result<()> {
-    let mut store = open(cli)?;
+    let mut store = open_for(cli, !matches!(c, VialCmd::Show { .. }))?;
     match c {
         VialCmd::New {
             batch_id,
@@ -803,6 +980,11 @@ fn vial(cli: &Cli, c: &VialCmd) -> Result<()> {
         VialCmd::Dispose { vial, why, json: j } => {
             let id = vial_id(&mut store, vial)?;
             let v = store.write(|tx, who| model::dispose_vial(tx, who, id, why))?;
+            print_vial(&v, *j)?;
+        }
+        VialCmd::Reinstate { vial, why, json: j } => {
+            let id = vial_id(&mut store, vial)?;
+            let v = store.write(|tx, who| model::reinstate_vial(tx, who, id, why))?;
             print_vial(&v, *j)?;
         }
         VialCmd::Measure {
@@ -862,7 +1044,7 @@ fn shelf(cli: &Cli, a: &ShelfArgs) -> Result<()> {
     {
         bail!("--low must be a volume of zero or more mL, got {l}");
     }
-    let mut store = open(cli)?;
+    let mut store = open_read(cli)?;
     let vials = store.read(|tx| model::list_vials(tx, a.all))?;
     let vials: Vec<_> = vials
         .into_iter()
@@ -903,7 +1085,7 @@ fn log(cli: &Cli, a: &LogArgs) -> Result<()> {
     if a.limit < 1 {
         bail!("--limit must be 1 or more, got {}", a.limit);
     }
-    let mut store = open(cli)?;
+    let mut store = open_read(cli)?;
     let rows = store.read(|tx| model::audit_log(tx, a.entity.as_deref(), a.limit))?;
     if a.json {
         return json(&rows);
@@ -1251,7 +1433,10 @@ fn core_of(tx: &rusqlite::Connection, material: &str) -> crate::Result<String> {
 }
 
 fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
-    let mut store = open(cli)?;
+    let mut store = open_for(
+        cli,
+        !matches!(c, CalibCmd::List(_) | CalibCmd::History(_) | CalibCmd::Show { .. }),
+    )?;
     let change = |store: &mut Store,
                   why: &str,
                   j: bool,
@@ -1527,7 +1712,7 @@ fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
 }
 
 fn recompute(cli: &Cli, a: &RecomputeArgs) -> Result<()> {
-    let mut store = open(cli)?;
+    let mut store = open_for(cli, !a.dry_run)?;
     let progress = Progress::new("recompute", a.json);
     let report = if a.dry_run {
         store.read(|tx| engine::recompute(tx, a.all, true, |d, t| progress.tick(d, t)))?
@@ -1585,7 +1770,7 @@ fn recompute(cli: &Cli, a: &RecomputeArgs) -> Result<()> {
 }
 
 fn explain(cli: &Cli, a: &ExplainArgs) -> Result<()> {
-    let mut store = open(cli)?;
+    let mut store = open_read(cli)?;
     let v = store.read(|tx| crate::report::explain(tx, a.aliquot))?;
     if a.json {
         return json(&v);
@@ -1628,11 +1813,14 @@ fn explain(cli: &Cli, a: &ExplainArgs) -> Result<()> {
 
 fn find(cli: &Cli, a: &FindArgs) -> Result<ExitCode> {
     let q = a.query.join(" ");
-    let mut store = open(cli)?;
+    let mut store = open_read(cli)?;
     let parsed = crate::search::parse(&q)?;
     let hits = store.read(|tx| crate::search::run(tx, &parsed))?;
-    // Remember the numeric bounds people search by, for recompute previews.
-    let _ = store.write(|tx, _| crate::search::record_thresholds(tx, &parsed));
+    // Remember the numeric bounds people search by, for recompute previews; queued beside the
+    // lab, since a search takes no write lock (the next write files them).
+    if let Some(p) = &store.path {
+        crate::store::search_bounds::queue(p, &crate::search::bounds_of(&parsed));
+    }
     if a.json {
         json(&hits)?;
     } else {
@@ -1658,7 +1846,7 @@ fn find(cli: &Cli, a: &FindArgs) -> Result<ExitCode> {
 }
 
 fn handover(cli: &Cli, a: &HandoverArgs) -> Result<()> {
-    let mut store = open(cli)?;
+    let mut store = open_write(cli)?;
     let out = a.out.clone().unwrap_or_else(|| {
         PathBuf::from(format!(
             "handover-{}-to-{}",
@@ -1682,16 +1870,30 @@ fn handover(cli: &Cli, a: &HandoverArgs) -> Result<()> {
     Ok(())
 }
 
-fn check(cli: &Cli, j: bool) -> Result<ExitCode> {
-    let mut store = open(cli)?;
-    let problems = store.read(|tx| crate::store::check::check(tx))?;
-    if j {
-        json(&json!({"ok": problems.is_empty(), "problems": problems}))?;
+fn check(cli: &Cli, a: &CheckArgs) -> Result<ExitCode> {
+    let mut store = open_read(cli)?;
+    let (problems, checked) = store.read(|tx| {
+        let mut p = crate::store::check::check(tx)?;
+        let (n, more) = engine::verify_values(tx, a.deep)?;
+        p.extend(more);
+        Ok((p, n))
+    })?;
+    if a.json {
+        json(
+            &json!({"ok": problems.is_empty(), "problems": problems, "aliquots_recomputed": checked, "deep": a.deep}),
+        )?;
     } else if problems.is_empty() {
-        line("ok: integrity, foreign keys and cuvette's invariants hold")?;
+        line(&format!(
+            "ok: integrity, foreign keys, cuvette's invariants, spectrum data hashes and the audit log hold; {checked} aliquots recomputed{} agree",
+            if a.deep {
+                " (all)"
+            } else {
+                " (a sample; --deep for all)"
+            }
+        ))?;
     } else {
         for p in &problems {
-            line(&format!("problem: {p}"))?;
+            line(&format!("problem ({}): {}", p.kind, p.detail))?;
         }
     }
     Ok(if problems.is_empty() {
@@ -1703,19 +1905,26 @@ fn check(cli: &Cli, j: bool) -> Result<ExitCode> {
 
 fn restore(cli: &Cli, file: &Path) -> Result<()> {
     let target = db_path(cli);
-    let kept = crate::store::check::restore(file, &target)?;
+    let r = if target.exists() {
+        let mut store = open_write(cli)?;
+        crate::store::backup::restore(&mut store, file)?
+    } else {
+        let who = identity::for_write(cli.actor.as_deref())?;
+        crate::store::backup::restore_new(file, &target, &who)?
+    };
     line(&format!(
         "restored {} from {}{}",
-        target.display(),
-        file.display(),
-        kept.map(|k| format!("; the replaced file is kept at {}", k.display()))
+        r.lab,
+        r.restored_from,
+        r.replaced_kept_at
+            .map(|k| format!("; the content it replaced is kept at {k}"))
             .unwrap_or_default()
     ))?;
     Ok(())
 }
 
 fn import(cli: &Cli, a: &ImportArgs) -> Result<()> {
-    let mut store = open(cli)?;
+    let mut store = open_write(cli)?;
     let template = model::NewAliquot {
         batch_id: a.batch_id,
         minutes: None,
@@ -1757,7 +1966,7 @@ fn import_manifest(cli: &Cli, a: &ManifestArgs) -> Result<ExitCode> {
         rows.push(r.map_err(|e| anyhow!("{} row {}: {e}", a.manifest.display(), i + 2))?);
     }
     let base = a.manifest.parent().map(Path::to_path_buf).unwrap_or_default();
-    let mut store = open(cli)?;
+    let mut store = open_write(cli)?;
     let progress = Progress::new("import", a.json);
     let mut results = Vec::new();
     let mut failed = false;

@@ -5,6 +5,7 @@
 
 mod args;
 mod commands;
+mod identity;
 mod output;
 
 pub use args::Cli;

@@ -10,9 +10,10 @@ use super::{extinction, qy, sizing};
 use crate::error::Result;
 use crate::spectra::analysis::{self, AbsResult, PlResult};
 use crate::spectra::{RawSpectrum, Trace};
-use crate::store::model::{AliquotRow, SpectrumRow};
+use crate::store::check::Problem;
+use crate::store::model::{AliquotRow, SpectrumRow, StoredVialConcentration, VialConcentration};
 use crate::store::now;
-use rusqlite::{Connection, params};
+use rusqlite::{Connection, OptionalExtension, params};
 use serde::Serialize;
 use sha2::{Digest, Sha256};
 use std::collections::{BTreeMap, HashMap};
@@ -229,6 +230,8 @@ pub fn derive_from_trace(
         path_cm,
         solvent: "hexane".into(),
         taken_at: String::new(),
+        voided: false,
+        void_why: None,
     };
     let (more, _, _) = derive_values(&a, core, &[], &values, cal);
     values.extend(more);
@@ -697,6 +700,9 @@ pub struct RecomputeReport {
     pub stale_found: usize,
     pub largest_moves: Vec<Move>,
     pub threshold_crossings: Vec<Crossing>,
+    /// Vial concentrations (measured or estimated) looked at, and how many changed.
+    pub vials_considered: usize,
+    pub vials_changed: usize,
 }
 
 /// The search fields a threshold can be about, and the derived quantity behind each.
@@ -751,12 +757,12 @@ impl Scanner {
         let chunk: Vec<(AliquotRow, String, i64)> = {
             let mut st = conn.prepare_cached(
                 "SELECT a.id, a.batch_id, a.minutes, a.stage, a.dilution_factor, a.path_cm, a.solvent, a.taken_at,
-                        m.core, COALESCE(b.pinned_calibration, ?1)
+                        a.voided_at, a.void_why, m.core, COALESCE(b.pinned_calibration, ?1)
                  FROM aliquot a JOIN batch b ON b.id = a.batch_id JOIN material m ON m.id = b.material_id
                  WHERE a.id > ?2 ORDER BY a.id LIMIT ?3",
             )?;
             let rows = st.query_map(params![self.latest, self.after, CHUNK], |r| {
-                Ok((crate::store::model::aliquot_from(r)?, r.get(8)?, r.get(9)?))
+                Ok((crate::store::model::aliquot_from(r)?, r.get(10)?, r.get(11)?))
             })?;
             rows.collect::<rusqlite::Result<_>>()?
         };
@@ -1040,6 +1046,9 @@ pub fn recompute(
     sort_moves(&mut moves);
     moves.truncate(10);
     report.largest_moves = moves;
+    let (considered, changed) = refresh_vials(conn, None, dry_run)?;
+    report.vials_considered = considered;
+    report.vials_changed = changed;
     Ok(report)
 }
 
@@ -1065,6 +1074,201 @@ pub fn change_calibration(
     Ok((v, mark_stale(tx)?))
 }
 
+/// What a vial concentration estimated from its batch's product aliquot should be now.
+fn vial_estimate(conn: &Connection, batch_id: i64) -> Result<Option<VialConcentration>> {
+    let product: Option<i64> = conn
+        .query_row(
+            "SELECT aliquot_id FROM batch_product WHERE batch_id = ?1",
+            [batch_id],
+            |r| r.get(0),
+        )
+        .optional()?
+        .flatten();
+    let Some(aid) = product else { return Ok(None) };
+    let Some(v) = current_values(conn, aid)?
+        .into_iter()
+        .find(|v| v.quantity == "concentration_molar")
+    else {
+        return Ok(None);
+    };
+    let mut warnings = vec![
+        "an estimate: the reaction aliquot's concentration, not a measurement of this vial's washed, redispersed product (measure it with `cuvette vial measure`)".to_string(),
+    ];
+    warnings.extend(v.warnings.clone());
+    Ok(Some(VialConcentration {
+        source: "estimate".into(),
+        spectrum_id: None,
+        aliquot_id: Some(aid),
+        value: v.value,
+        method: format!("estimate from product aliquot {aid}: {}", v.method),
+        calibration_version: Some(v.calibration_version),
+        inputs_hash: format!("{}|{}", v.id, v.inputs_hash),
+        warnings,
+    }))
+}
+
+/// The hash a measured vial concentration depends on: its spectrum, the cuvette it was
+/// measured in, the material and the calibration parts that size and count it.
+fn vial_measure_hash(sha256: &str, x_unit: &str, dilution: f64, path_cm: f64, core: &str, cal: &Calibration) -> String {
+    let mut h = Sha256::new();
+    h.update(format!("vial|{core}|{sha256}|{x_unit}|{dilution}|{path_cm}|"));
+    h.update(relevant(cal, core, "hexane", false).to_string());
+    h.finalize().iter().take(16).map(|b| format!("{b:02x}")).collect()
+}
+
+/// A vial's concentration from its own absorbance spectrum under one calibration version.
+pub fn vial_measured(
+    spectrum: &SpectrumRow,
+    core: &str,
+    dilution: f64,
+    path_cm: f64,
+    version: i64,
+    cal: &Calibration,
+) -> Result<(AbsResult, Vec<Derived>, VialConcentration)> {
+    let t = trace_of(spectrum)?;
+    let (r, values) = derive_from_trace(&t, core, dilution, path_cm, cal)?;
+    let conc = find_value(&values, "concentration_molar");
+    let mut warnings = r.warnings.clone();
+    for q in ["diameter_nm", "extinction_m1cm1", "concentration_molar"] {
+        warnings.extend(find_value(&values, q).map(|d| d.warnings.clone()).unwrap_or_default());
+    }
+    let c = VialConcentration {
+        source: "measured".into(),
+        spectrum_id: Some(spectrum.id),
+        aliquot_id: None,
+        value: conc.and_then(|c| c.value),
+        method: format!(
+            "measured: spectrum {} ({}), dilution {dilution}, path {path_cm} cm; {}",
+            spectrum.id,
+            spectrum.file_name,
+            conc.map(|c| c.method.clone())
+                .unwrap_or_else(|| "no concentration".into())
+        ),
+        calibration_version: Some(version),
+        inputs_hash: vial_measure_hash(&spectrum.sha256, &spectrum.x_unit, dilution, path_cm, core, cal),
+        warnings,
+    };
+    Ok((r, values, c))
+}
+
+/// What a vial's derived concentration should be now, given its current row.
+fn vial_expected(
+    conn: &Connection,
+    row: &StoredVialConcentration,
+    cals: &mut BTreeMap<i64, Calibration>,
+) -> Result<Option<VialConcentration>> {
+    let vial = crate::store::model::get_vial(conn, row.vial_id)?;
+    match row.c.source.as_str() {
+        "estimate" => vial_estimate(conn, vial.batch_id),
+        "measured" => {
+            let Some(sid) = row.c.spectrum_id else { return Ok(None) };
+            let s = crate::store::model::vial_spectrum(conn, sid)?;
+            let core = crate::store::model::get_batch(conn, vial.batch_id)?.core;
+            let version = effective_calibration_version(conn, vial.batch_id)?;
+            if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
+                e.insert(calibration::get(conn, version)?.body);
+            }
+            let cal = &cals[&version];
+            let (_, _, c) = vial_measured(
+                &s,
+                &core,
+                s.dilution_factor.unwrap_or(1.0),
+                s.path_cm.unwrap_or(1.0),
+                version,
+                cal,
+            )?;
+            Ok(Some(c))
+        }
+        _ => Ok(None),
+    }
+}
+
+/// Recomputes the measured and estimated vial concentrations (of one batch, or all); a dry run
+/// only counts. Returns (considered, changed).
+pub fn refresh_vials(conn: &Connection, batch: Option<i64>, dry_run: bool) -> Result<(usize, usize)> {
+    let mut cals = BTreeMap::new();
+    let (mut considered, mut changed) = (0, 0);
+    for row in crate::store::model::derived_vial_concentrations(conn)? {
+        if let Some(b) = batch
+            && crate::store::model::get_vial(conn, row.vial_id)?.batch_id != b
+        {
+            continue;
+        }
+        considered += 1;
+        let expected = vial_expected(conn, &row, &mut cals)?;
+        let Some(new) = expected else {
+            // The estimate has nothing to follow any more (its product was voided): say so.
+            if row.c.source == "estimate" && !row.stale {
+                if !dry_run {
+                    crate::store::model::flag_vial_concentration(conn, row.id, true)?;
+                }
+                changed += 1;
+            }
+            continue;
+        };
+        if new != row.c || row.stale {
+            changed += 1;
+            if !dry_run {
+                crate::store::model::set_vial_concentration(conn, row.vial_id, &new)?;
+            }
+        }
+    }
+    Ok((considered, changed))
+}
+
+/// Flags vial concentrations whose inputs moved (a calibration change, a recomputed or voided
+/// product aliquot). Returns how many flags changed.
+pub fn mark_vials_stale(tx: &Connection) -> Result<usize> {
+    let mut n = 0;
+    let latest = calibration::latest(tx)?.version;
+    let mut cals: BTreeMap<i64, Calibration> = BTreeMap::new();
+    for row in crate::store::model::derived_vial_concentrations(tx)? {
+        let vial = crate::store::model::get_vial(tx, row.vial_id)?;
+        let stale = match row.c.source.as_str() {
+            "estimate" => match vial_estimate(tx, vial.batch_id)? {
+                None => true,
+                Some(e) => {
+                    let src_stale: bool = tx
+                        .query_row(
+                            "SELECT stale FROM derived_value WHERE aliquot_id = ?1 AND quantity = 'concentration_molar' AND superseded_at IS NULL",
+                            [e.aliquot_id.unwrap_or(0)],
+                            |r| r.get(0),
+                        )
+                        .optional()?
+                        .unwrap_or(false);
+                    e.inputs_hash != row.c.inputs_hash || src_stale
+                }
+            },
+            _ => {
+                let Some(sid) = row.c.spectrum_id else { continue };
+                let (sha, x_unit, dil, path): (String, String, Option<f64>, Option<f64>) = tx.query_row(
+                    "SELECT sha256, x_unit, dilution_factor, path_cm FROM spectrum WHERE id = ?1",
+                    [sid],
+                    |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?)),
+                )?;
+                let b = crate::store::model::get_batch(tx, vial.batch_id)?;
+                let version = b.pinned_calibration.unwrap_or(latest);
+                if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
+                    e.insert(calibration::get(tx, version)?.body);
+                }
+                let h = vial_measure_hash(
+                    &sha,
+                    &x_unit,
+                    dil.unwrap_or(1.0),
+                    path.unwrap_or(1.0),
+                    &b.core,
+                    &cals[&version],
+                );
+                h != row.c.inputs_hash || row.c.calibration_version != Some(version)
+            }
+        };
+        if crate::store::model::flag_vial_concentration(tx, row.id, stale)? {
+            n += 1;
+        }
+    }
+    Ok(n)
+}
+
 /// Marks current values whose inputs no longer match as stale (cheap: no spectrum is read).
 pub fn mark_stale(tx: &Connection) -> Result<usize> {
     let spectral = SPECTRAL.iter().map(|q| format!("'{q}'")).collect::<Vec<_>>().join(",");
@@ -1082,7 +1286,7 @@ pub fn mark_stale(tx: &Connection) -> Result<usize> {
             }
         }
     }
-    Ok(n)
+    Ok(n + mark_vials_stale(tx)?)
 }
 
 /// (field, quantity, threshold) pairs people have searched by.
@@ -1099,13 +1303,9 @@ pub fn search_thresholds(conn: &Connection) -> Result<Vec<(String, String, f64)>
     Ok(out)
 }
 
-/// Each batch's product aliquot: the one marked, else the last of the growth series.
+/// Each batch's product aliquot, by the one rule (the `batch_product` view of schema 0005).
 pub fn product_aliquots(conn: &Connection) -> Result<std::collections::HashSet<i64>> {
-    let mut st = conn.prepare(
-        "SELECT COALESCE(b.product_aliquot_id,
-                 (SELECT a.id FROM aliquot a WHERE a.batch_id = b.id ORDER BY a.minutes IS NULL, a.minutes DESC, a.id DESC LIMIT 1))
-         FROM batch b",
-    )?;
+    let mut st = conn.prepare("SELECT aliquot_id FROM batch_product")?;
     let rows = st.query_map([], |r| r.get::<_, Option<i64>>(0))?;
     let mut out = std::collections::HashSet::new();
     for r in rows {
@@ -1114,4 +1314,97 @@ pub fn product_aliquots(conn: &Connection) -> Result<std::collections::HashSet<i
         }
     }
     Ok(out)
+}
+
+/// After a correction to an aliquot (a void, a reinstatement, an edit, a spectrum moved): its
+/// values are derived again from what it holds now, and the vials whose concentration is
+/// estimated from its batch's product follow. Inside the caller's transaction.
+pub fn after_correction(tx: &Connection, aliquot_id: i64) -> Result<()> {
+    let a = crate::store::model::get_aliquot(tx, aliquot_id)?;
+    derive_aliquot(tx, aliquot_id)?;
+    refresh_vials(tx, Some(a.batch_id), false)?;
+    Ok(())
+}
+
+/// How many aliquots `check` recomputes when not asked to go deep.
+pub const CHECK_SAMPLE: usize = 200;
+
+/// Recomputes a sample of aliquots (every one with `deep`) and the derived vial concentrations
+/// from their stored inputs, and reports every current value that is not flagged stale yet
+/// differs from what its inputs give now. Returns (aliquots checked, problems).
+pub fn verify_values(conn: &Connection, deep: bool) -> Result<(usize, Vec<Problem>)> {
+    let ids: Vec<i64> = {
+        let mut st = conn.prepare("SELECT id FROM aliquot ORDER BY id")?;
+        st.query_map([], |r| r.get(0))?.collect::<rusqlite::Result<_>>()?
+    };
+    let step = if deep || ids.len() <= CHECK_SAMPLE {
+        1
+    } else {
+        ids.len().div_ceil(CHECK_SAMPLE)
+    };
+    let mut problems = Vec::new();
+    let mut checked = 0;
+    let mut cals: BTreeMap<i64, Calibration> = BTreeMap::new();
+    for id in ids.iter().step_by(step) {
+        let a = crate::store::model::get_aliquot(conn, *id)?;
+        let old = current_values(conn, a.id)?;
+        let Some(version) = old.iter().filter(|o| !o.stale).map(|o| o.calibration_version).max() else {
+            continue;
+        };
+        checked += 1;
+        let core = crate::store::model::get_batch(conn, a.batch_id)?.core;
+        if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
+            e.insert(calibration::get(conn, version)?.body);
+        }
+        let cal = &cals[&version];
+        let spectra = crate::store::model::spectra_of_aliquot(conn, a.id)?;
+        let metas: Vec<SpectrumMeta> = spectra.iter().map(SpectrumMeta::from).collect();
+        let hash = inputs_hash(&a, &core, &metas, cal);
+        let stage1 = analysis_hash(&metas, cal);
+        let comp = compute(&a, &core, &spectra, cal);
+        for o in old.iter().filter(|o| !o.stale && o.calibration_version == version) {
+            if o.inputs_hash != expected_hash(&o.quantity, &stage1, &hash) {
+                problems.push(Problem::new(
+                    "derived_value",
+                    format!(
+                        "aliquot {} {}: its inputs changed but the value is not marked stale",
+                        a.id, o.quantity
+                    ),
+                ));
+                continue;
+            }
+            let now = find_value(&comp.values, &o.quantity).and_then(|v| v.value);
+            if !same(o.value, now) {
+                problems.push(Problem::new(
+                    "derived_value",
+                    format!(
+                        "aliquot {} {} is stored as {} but its inputs give {} (calibration v{version})",
+                        a.id,
+                        o.quantity,
+                        o.value.map(|v| format!("{v}")).unwrap_or("none".into()),
+                        now.map(|v| format!("{v}")).unwrap_or("none".into())
+                    ),
+                ));
+            }
+        }
+    }
+    for row in crate::store::model::derived_vial_concentrations(conn)? {
+        if row.stale {
+            continue;
+        }
+        if let Some(e) = vial_expected(conn, &row, &mut cals)?
+            && (!same(e.value, row.c.value) || e.inputs_hash != row.c.inputs_hash)
+        {
+            problems.push(Problem::new(
+                "derived_value",
+                format!(
+                    "vial {} concentration is stored as {} but its inputs give {}, and it is not marked stale",
+                    row.vial_id,
+                    row.c.value.map(|v| format!("{v}")).unwrap_or("none".into()),
+                    e.value.map(|v| format!("{v}")).unwrap_or("none".into())
+                ),
+            ));
+        }
+    }
+    Ok((checked, problems))
 }

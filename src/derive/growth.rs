@@ -37,6 +37,9 @@ pub struct AliquotSummary {
     /// The calibration version behind `diameter_nm` (or the newest of the values).
     pub calibration_version: Option<i64>,
     pub stale: bool,
+    /// A voided aliquot stays in the record but counts for nothing (growth, product, search).
+    pub voided: bool,
+    pub void_why: Option<String>,
     pub warnings: Vec<String>,
     pub spectra: Vec<SpectrumBrief>,
 }
@@ -59,6 +62,8 @@ pub fn aliquot_summary(conn: &Connection, a: &model::AliquotRow) -> Result<Aliqu
         dilution_factor: a.dilution_factor,
         path_cm: a.path_cm,
         solvent: a.solvent.clone(),
+        voided: a.voided,
+        void_why: a.void_why.clone(),
         ..Default::default()
     };
     for v in &vals {
@@ -119,9 +124,9 @@ pub struct Growth {
     pub focusing_turn_min: Option<f64>,
 }
 
-/// The growth picture from the timed aliquots.
+/// The growth picture from the timed aliquots that are not void.
 pub fn growth(series: &[AliquotSummary]) -> Growth {
-    let timed: Vec<&AliquotSummary> = series.iter().filter(|a| a.minutes.is_some()).collect();
+    let timed: Vec<&AliquotSummary> = series.iter().filter(|a| a.minutes.is_some() && !a.voided).collect();
     let dpts: Vec<(f64, f64)> = timed
         .iter()
         .filter_map(|a| Some((a.minutes?, a.diameter_nm?)))
@@ -166,14 +171,18 @@ pub fn growth(series: &[AliquotSummary]) -> Growth {
 
 /// The product aliquot of a batch: the one marked, else the last of the growth series, else
 /// the last logged.
+/// Void aliquots never count (the same rule as the `batch_product` view of schema 0005).
 pub fn product_of<'a>(batch: &model::BatchRow, series: &'a [AliquotSummary]) -> Option<&'a AliquotSummary> {
+    if batch.voided {
+        return None;
+    }
     if let Some(id) = batch.product_aliquot_id
-        && let Some(a) = series.iter().find(|a| a.id == id)
+        && let Some(a) = series.iter().find(|a| a.id == id && !a.voided)
     {
         return Some(a);
     }
-    series
-        .iter()
+    let live = || series.iter().filter(|a| !a.voided);
+    live()
         .filter(|a| a.minutes.is_some())
         .max_by(|a, b| {
             a.minutes
@@ -181,7 +190,7 @@ pub fn product_of<'a>(batch: &model::BatchRow, series: &'a [AliquotSummary]) -> 
                 .total_cmp(&b.minutes.unwrap_or(0.0))
                 .then(a.id.cmp(&b.id))
         })
-        .or_else(|| series.iter().max_by_key(|a| a.id))
+        .or_else(|| live().max_by_key(|a| a.id))
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -313,6 +322,8 @@ mod tests {
             pinned_calibration: None,
             product_aliquot_id: None,
             notes: String::new(),
+            voided: false,
+            void_why: None,
         };
         assert_eq!(product_of(&b, &s).map(|a| a.id), Some(2));
         b.product_aliquot_id = Some(3);

@@ -155,7 +155,8 @@ pub fn cautions(r: &model::RecipeView) -> Vec<String> {
 /// The full record of a batch as `batch show --json` prints it.
 pub fn batch_detail(tx: &rusqlite::Connection, id: i64) -> crate::Result<Value> {
     let b = model::get_batch(tx, id)?;
-    let series: Vec<growth::AliquotSummary> = model::aliquots_of(tx, id)?
+    // The whole record, voided aliquots marked; growth and product leave them out.
+    let series: Vec<growth::AliquotSummary> = model::all_aliquots_of(tx, id)?
         .iter()
         .map(|a| growth::aliquot_summary(tx, a))
         .collect::<crate::Result<_>>()?;

@@ -36,3 +36,16 @@ pub fn record_thresholds(tx: &Connection, q: &Query) -> Result<()> {
     }
     Ok(())
 }
+
+/// The numeric bounds of a query as (field, value) pairs, for the remembered search bounds.
+pub fn bounds_of(q: &Query) -> Vec<(String, f64)> {
+    let mut out = Vec::new();
+    for c in &q.clauses {
+        if let Clause::Numeric { field, lo, hi, .. } = c {
+            for v in [lo, hi].into_iter().flatten() {
+                out.push((field.name().to_string(), *v));
+            }
+        }
+    }
+    out
+}

@@ -1,11 +1,28 @@
-//! Checking a lab file and restoring one from a backup. `check` runs SQLite's integrity and
-//! foreign-key checks and cuvette's own invariants; `restore` checks a backup before it
-//! replaces anything and keeps the file it replaces.
+//! Checking a lab file: SQLite's integrity and foreign-key checks, cuvette's own invariants,
+//! the stored data of every spectrum against its SHA-256, the audit log's guard triggers and the
+//! continuity of its ids. (Whether derived values still follow from their inputs is asked of
+//! the engine, which knows how they are computed.)
 
-use super::{SCHEMA_VERSION, check_is_sqlite};
-use crate::error::{Error, Result};
-use rusqlite::{Connection, OpenFlags};
-use std::path::{Path, PathBuf};
+use crate::error::Result;
+use rusqlite::Connection;
+use serde::Serialize;
+
+/// One thing wrong with a lab.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct Problem {
+    /// integrity, foreign_key, invariant, spectrum_data, audit_log, derived_value
+    pub kind: String,
+    pub detail: String,
+}
+
+impl Problem {
+    pub fn new(kind: &str, detail: impl Into<String>) -> Problem {
+        Problem {
+            kind: kind.into(),
+            detail: detail.into(),
+        }
+    }
+}
 
 fn strings(conn: &Connection, sql: &str) -> Result<Vec<String>> {
     let mut st = conn.prepare(sql)?;
@@ -13,106 +30,137 @@ fn strings(conn: &Connection, sql: &str) -> Result<Vec<String>> {
     Ok(rows.collect::<rusqlite::Result<_>>()?)
 }
 
-/// Every problem found, in words; empty when the file is sound.
-pub fn check(conn: &Connection) -> Result<Vec<String>> {
+/// Every problem found; empty when the file is sound.
+pub fn check(conn: &Connection) -> Result<Vec<Problem>> {
     let mut p = Vec::new();
     for r in strings(conn, "PRAGMA integrity_check")? {
         if r != "ok" {
-            p.push(format!("integrity: {r}"));
+            p.push(Problem::new("integrity", r));
         }
     }
     let mut st = conn.prepare("PRAGMA foreign_key_check")?;
     let fk = st.query_map([], |r| {
         Ok(format!(
-            "foreign key: {} row {} points at a missing {}",
+            "{} row {} points at a missing {}",
             r.get::<_, String>(0)?,
-            r.get::<_, i64>(1)?,
+            r.get::<_, Option<i64>>(1)?.unwrap_or(0),
             r.get::<_, String>(2)?
         ))
     })?;
     for f in fk {
-        p.push(f?);
+        p.push(Problem::new("foreign_key", f?));
     }
-    let checks: &[(&str, &str)] = &[
-        ("SELECT 'vial ' || id || ' (' || label || ') holds ' || volume_ml || ' mL, below zero' FROM vial WHERE volume_ml < 0", ""),
-        ("SELECT 'vial ' || id || ' holds more than it started with' FROM vial WHERE volume_ml > initial_ml + 1e-9", ""),
-        ("SELECT 'vial ' || id || ' is marked empty but holds ' || volume_ml || ' mL' FROM vial WHERE status = 'empty' AND volume_ml > 1e-9", ""),
-        ("SELECT 'vial ' || v.id || ': events add up to ' || (v.initial_ml - COALESCE(SUM(e.amount_ml), 0)) || ' mL, the vial says ' || v.volume_ml
+    let checks: &[&str] = &[
+        "SELECT 'vial ' || id || ' (' || label || ') holds ' || volume_ml || ' mL, below zero' FROM vial WHERE volume_ml < 0",
+        "SELECT 'vial ' || id || ' holds more than it started with' FROM vial WHERE volume_ml > initial_ml + 1e-9",
+        "SELECT 'vial ' || id || ' is marked empty but holds ' || volume_ml || ' mL' FROM vial WHERE status = 'empty' AND volume_ml > 1e-9",
+        "SELECT 'vial ' || v.id || ': events add up to ' || (v.initial_ml - COALESCE(SUM(e.amount_ml), 0)) || ' mL, the vial says ' || v.volume_ml
           FROM vial v LEFT JOIN vial_event e ON e.vial_id = v.id AND e.kind = 'draw' GROUP BY v.id
-          HAVING abs(v.initial_ml - COALESCE(SUM(e.amount_ml), 0) - v.volume_ml) > 1e-6", ""),
-        ("SELECT 'derived value ' || d.id || ' names calibration version ' || d.calibration_version || ', which does not exist'
-          FROM derived_value d LEFT JOIN calibration c ON c.version = d.calibration_version WHERE c.version IS NULL", ""),
-        ("SELECT 'derived value ' || d.id || ' belongs to aliquot ' || d.aliquot_id || ', which has no spectrum'
-          FROM derived_value d WHERE NOT EXISTS (SELECT 1 FROM spectrum s WHERE s.aliquot_id = d.aliquot_id)", ""),
-        ("SELECT 'aliquot ' || a.id || ' belongs to batch ' || a.batch_id || ', which does not exist'
-          FROM aliquot a LEFT JOIN batch b ON b.id = a.batch_id WHERE b.id IS NULL", ""),
-        ("SELECT 'aliquot ' || a.id || ' has no spectrum' FROM aliquot a WHERE NOT EXISTS (SELECT 1 FROM spectrum s WHERE s.aliquot_id = a.id)", ""),
-        ("SELECT 'aliquot ' || aliquot_id || ' has ' || count(*) || ' current values of ' || quantity
-          FROM derived_value WHERE superseded_at IS NULL GROUP BY aliquot_id, quantity HAVING count(*) > 1", ""),
-        ("SELECT 'spectrum ' || id || ' data is ' || length(data) || ' bytes for ' || npoints || ' points' FROM spectrum WHERE length(data) <> npoints * 16", ""),
-        ("SELECT 'audit row ' || id || ' is dated before the row ahead of it' FROM
-          (SELECT id, at, LAG(at) OVER (ORDER BY id) AS prev FROM audit_log) WHERE at < prev", ""),
+          HAVING abs(v.initial_ml - COALESCE(SUM(e.amount_ml), 0) - v.volume_ml) > 1e-6",
+        "SELECT 'derived value ' || d.id || ' names calibration version ' || d.calibration_version || ', which does not exist'
+          FROM derived_value d LEFT JOIN calibration c ON c.version = d.calibration_version WHERE c.version IS NULL",
+        "SELECT 'derived value ' || d.id || ' belongs to aliquot ' || d.aliquot_id || ', which has no spectrum'
+          FROM derived_value d WHERE d.superseded_at IS NULL AND NOT EXISTS (SELECT 1 FROM spectrum s WHERE s.aliquot_id = d.aliquot_id)",
+        "SELECT 'aliquot ' || a.id || ' belongs to batch ' || a.batch_id || ', which does not exist'
+          FROM aliquot a LEFT JOIN batch b ON b.id = a.batch_id WHERE b.id IS NULL",
+        "SELECT 'aliquot ' || a.id || ' has no spectrum' FROM aliquot a
+          WHERE a.voided_at IS NULL AND NOT EXISTS (SELECT 1 FROM spectrum s WHERE s.aliquot_id = a.id)",
+        "SELECT 'aliquot ' || aliquot_id || ' has ' || count(*) || ' current values of ' || quantity
+          FROM derived_value WHERE superseded_at IS NULL GROUP BY aliquot_id, quantity HAVING count(*) > 1",
+        "SELECT 'vial ' || vial_id || ' has ' || count(*) || ' current concentrations'
+          FROM vial_concentration WHERE superseded_at IS NULL GROUP BY vial_id HAVING count(*) > 1",
+        "SELECT 'spectrum ' || id || ' data is ' || length(data) || ' bytes for ' || npoints || ' points' FROM spectrum WHERE length(data) <> npoints * 16",
     ];
-    for (sql, _) in checks {
-        p.extend(strings(conn, sql)?);
+    for sql in checks {
+        p.extend(strings(conn, sql)?.into_iter().map(|d| Problem::new("invariant", d)));
     }
+    p.extend(spectrum_data(conn)?);
+    p.extend(audit_log(conn)?);
     Ok(p)
 }
 
-/// Replaces `target` with the backup `file`, after checking that the backup is a sound cuvette
-/// database this version can read. The replaced file is renamed, not deleted.
-pub fn restore(file: &Path, target: &Path) -> Result<Option<PathBuf>> {
-    check_is_sqlite(file)?;
-    {
-        let c =
-            Connection::open_with_flags(file, OpenFlags::SQLITE_OPEN_READ_ONLY).map_err(|e| Error::NotADatabase {
-                path: file.display().to_string(),
-                reason: e.to_string(),
-            })?;
-        let v: i64 = c.query_row("PRAGMA user_version", [], |r| r.get(0))?;
-        if v == 0 {
-            return Err(Error::NotADatabase {
-                path: file.display().to_string(),
-                reason: "it has no cuvette schema".into(),
-            });
-        }
-        if v > SCHEMA_VERSION {
-            return Err(Error::NewerSchema {
-                found: v,
-                supported: SCHEMA_VERSION,
-            });
-        }
-        let problems = check(&c)?;
-        if !problems.is_empty() {
-            return Err(Error::Invalid(format!(
-                "{} fails its check: {}",
-                file.display(),
-                problems.join("; ")
-            )));
+/// Each spectrum's stored data against the SHA-256 recorded when it was stored.
+fn spectrum_data(conn: &Connection) -> Result<Vec<Problem>> {
+    let mut out = Vec::new();
+    let mut st = conn.prepare("SELECT id, data, data_sha256, file_name FROM spectrum ORDER BY id")?;
+    let mut rows = st.query([])?;
+    while let Some(r) = rows.next()? {
+        let id: i64 = r.get(0)?;
+        let data = r.get_ref(1)?.as_blob().unwrap_or(&[]);
+        let stored: Option<String> = r.get(2)?;
+        let file: String = r.get(3)?;
+        match stored {
+            None => out.push(Problem::new(
+                "spectrum_data",
+                format!("spectrum {id} ({file}) has no stored data hash"),
+            )),
+            Some(h) if h != crate::spectra::sha256_hex(data) => out.push(Problem::new(
+                "spectrum_data",
+                format!("spectrum {id} ({file}): its data no longer match the SHA-256 stored with them"),
+            )),
+            Some(_) => {}
         }
     }
-    let tmp = target.with_extension("restoring");
-    std::fs::copy(file, &tmp).map_err(|e| Error::Invalid(format!("cannot copy {}: {e}", file.display())))?;
-    let kept = if target.exists() {
-        let stamp = chrono::Utc::now().format("%Y%m%dT%H%M%S");
-        let mut name = target.file_name().unwrap_or_default().to_os_string();
-        name.push(format!(".replaced-{stamp}"));
-        let k = target.with_file_name(name);
-        std::fs::rename(target, &k)?;
-        for ext in ["-wal", "-shm"] {
-            let mut side = target.as_os_str().to_os_string();
-            side.push(ext);
-            let side = PathBuf::from(side);
-            if side.exists() {
-                let mut ks = k.as_os_str().to_os_string();
-                ks.push(ext);
-                std::fs::rename(&side, PathBuf::from(ks))?;
-            }
+    Ok(out)
+}
+
+/// The audit log's guards exist and its ids run without a gap.
+fn audit_log(conn: &Connection) -> Result<Vec<Problem>> {
+    let mut out = Vec::new();
+    for t in ["audit_no_update", "audit_no_delete"] {
+        let n: i64 = conn.query_row(
+            "SELECT count(*) FROM sqlite_master WHERE type = 'trigger' AND name = ?1 AND tbl_name = 'audit_log'",
+            [t],
+            |r| r.get(0),
+        )?;
+        if n == 0 {
+            out.push(Problem::new(
+                "audit_log",
+                format!("the trigger {t} that keeps the audit log append-only is missing"),
+            ));
         }
-        Some(k)
-    } else {
-        None
-    };
-    std::fs::rename(&tmp, target)?;
-    Ok(kept)
+    }
+    let (count, max): (i64, Option<i64>) = conn.query_row("SELECT count(*), max(id) FROM audit_log", [], |r| {
+        Ok((r.get(0)?, r.get(1)?))
+    })?;
+    let max = max.unwrap_or(0);
+    let seq: Option<i64> = conn
+        .query_row("SELECT seq FROM sqlite_sequence WHERE name = 'audit_log'", [], |r| {
+            r.get(0)
+        })
+        .ok();
+    if count != max {
+        let gaps = strings(
+            conn,
+            "SELECT (a.id + 1) || CASE WHEN n.id - 1 > a.id + 1 THEN '-' || (n.id - 1) ELSE '' END FROM audit_log a
+               JOIN audit_log n ON n.id = (SELECT min(id) FROM audit_log WHERE id > a.id)
+              WHERE n.id > a.id + 1 LIMIT 5",
+        )?;
+        out.push(Problem::new(
+            "audit_log",
+            format!(
+                "the audit log has {count} rows but ids reach {max}: rows are missing{}",
+                if gaps.is_empty() {
+                    String::new()
+                } else {
+                    format!(" (ids {})", gaps.join(", "))
+                }
+            ),
+        ));
+    }
+    if let Some(s) = seq
+        && s > max
+    {
+        out.push(Problem::new(
+            "audit_log",
+            format!("the audit log's last rows are missing: ids were given up to {s}, the last row is {max}"),
+        ));
+    }
+    let before: Vec<String> = strings(
+        conn,
+        "SELECT 'audit row ' || id || ' is dated before the row ahead of it' FROM
+          (SELECT id, at, LAG(at) OVER (ORDER BY id) AS prev FROM audit_log) WHERE at < prev LIMIT 20",
+    )?;
+    out.extend(before.into_iter().map(|d| Problem::new("audit_log", d)));
+    Ok(out)
 }

@@ -4,8 +4,10 @@
 //! from a newer cuvette is refused untouched, an existing file is copied aside before it is
 //! migrated, and every write goes through one transaction together with its audit row.
 
+pub mod backup;
 pub mod check;
 pub mod model;
+pub mod search_bounds;
 
 use crate::error::{Error, Result};
 use rusqlite::{Connection, OpenFlags, Transaction, TransactionBehavior, params};
@@ -24,6 +26,10 @@ pub const MIGRATIONS: &[(&str, &str)] = &[
         "0004_spectrum_meta_index",
         include_str!("../../schema/0004_spectrum_meta_index.sql"),
     ),
+    (
+        "0005_corrections_and_provenance",
+        include_str!("../../schema/0005_corrections_and_provenance.sql"),
+    ),
 ];
 
 /// The schema version this build writes.
@@ -40,26 +46,125 @@ pub struct Store {
     pub actor: String,
     /// Set when opening migrated an existing file: where its backup copy went.
     pub migrated_backup: Option<PathBuf>,
+    /// Opened for reading only: writes are refused before they start.
+    pub read_only: bool,
+    /// The file's identity when it was opened (device, inode), to notice a file swapped under us.
+    file_id: Option<(u64, u64)>,
+    /// The lab's generation when it was opened; a restore gives the lab a new one.
+    generation: Option<String>,
 }
 
 const SQLITE_MAGIC: &[u8] = b"SQLite format 3\0";
 
+/// The application id cuvette writes into the SQLite header ("CUVT"), so a file of another
+/// application is told apart whatever its user_version says.
+pub const APPLICATION_ID: i64 = 0x4355_5654;
+
+/// The tables every cuvette lab has had since schema version 1: a file without an application
+/// id is taken as a lab only when it has all of them.
+const CUVETTE_TABLES: &[&str] = &[
+    "aliquot",
+    "audit_log",
+    "batch",
+    "calibration",
+    "derived_value",
+    "spectrum",
+    "vial",
+];
+
+/// The lab_meta key holding the lab's generation; `restore` sets a new one.
+pub const GENERATION_KEY: &str = "lab_generation";
+
+/// How a database is opened.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Access {
+    /// Create the file when missing (init, demo, library callers).
+    Create,
+    /// The file must exist; open it for writing.
+    Write,
+    /// The file must exist; open it for reading only, never changing it.
+    Read,
+}
+
+/// The (device, inode) of a file, read from its metadata: no file handle is opened, so no lock
+/// SQLite holds on it can be dropped (closing any handle on a database file drops the
+/// process's POSIX locks on it: SQLite's documented pitfall).
+pub fn file_identity(path: &Path) -> Option<(u64, u64)> {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::MetadataExt;
+        std::fs::metadata(path).ok().map(|m| (m.dev(), m.ino()))
+    }
+    #[cfg(not(unix))]
+    {
+        let _ = path;
+        None
+    }
+}
+
+fn missing_lab(path: &Path) -> Error {
+    Error::Invalid(format!(
+        "no lab at {}: create one with `cuvette init` (or give the right --db)",
+        path.display()
+    ))
+}
+
 impl Store {
     /// Opens (creating if needed) the database at `path` and migrates it.
     pub fn open(path: &Path, actor: &str) -> Result<Store> {
-        let existed = path.exists() && std::fs::metadata(path)?.len() > 0;
-        if existed {
-            check_is_sqlite(path)?;
+        Store::open_with(path, actor, Access::Create)
+    }
+
+    /// Opens an existing lab for writing; a missing file is refused, not created.
+    pub fn open_existing(path: &Path, actor: &str) -> Result<Store> {
+        Store::open_with(path, actor, Access::Write)
+    }
+
+    /// Opens an existing lab for reading: nothing in the file or beside it is changed (no
+    /// migration, no journal-mode change). A file that cannot be written (permissions, an
+    /// immutable flag, read-only media) reads as well as any other. A lab of an older schema is
+    /// copied into memory and migrated there, so the file stays as it is.
+    pub fn open_read(path: &Path, actor: &str) -> Result<Store> {
+        Store::open_with(path, actor, Access::Read)
+    }
+
+    fn open_with(path: &Path, actor: &str, access: Access) -> Result<Store> {
+        let path_text = path.display().to_string();
+        let meta = std::fs::metadata(path);
+        let existed = matches!(&meta, Ok(m) if m.len() > 0);
+        if let Ok(m) = &meta
+            && m.is_dir()
+        {
+            return Err(Error::Invalid(format!(
+                "{path_text} is a folder; give the database file (for example {path_text}/lab.db)"
+            )));
         }
-        let conn = Connection::open_with_flags(
-            path,
-            OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_CREATE | OpenFlags::SQLITE_OPEN_NO_MUTEX,
-        )
-        .map_err(|e| Error::NotADatabase {
-            path: path.display().to_string(),
-            reason: e.to_string(),
-        })?;
-        if conn.is_readonly(rusqlite::DatabaseName::Main).unwrap_or(false) {
+        if access != Access::Create && meta.is_err() {
+            return Err(missing_lab(path));
+        }
+        if access != Access::Create && !existed {
+            return Err(Error::NotADatabase {
+                path: path_text,
+                reason: "the file is empty".into(),
+            });
+        }
+        let conn = match access {
+            Access::Read => open_read_only(path)?,
+            _ => {
+                let flags = if access == Access::Create {
+                    OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_CREATE
+                } else {
+                    OpenFlags::SQLITE_OPEN_READ_WRITE
+                };
+                Connection::open_with_flags(path, flags | OpenFlags::SQLITE_OPEN_NO_MUTEX).map_err(|e| {
+                    Error::NotADatabase {
+                        path: path_text.clone(),
+                        reason: e.to_string(),
+                    }
+                })?
+            }
+        };
+        if access != Access::Read && conn.is_readonly(rusqlite::DatabaseName::Main).unwrap_or(false) {
             return Err(Error::Storage(
                 "the file is read-only: cuvette needs to write to it and to its folder (it keeps a write-ahead journal beside it); nothing was changed".into(),
             ));
@@ -69,8 +174,22 @@ impl Store {
             path: Some(path.to_path_buf()),
             actor: actor.to_string(),
             migrated_backup: None,
+            read_only: access == Access::Read,
+            file_id: file_identity(path),
+            generation: None,
         };
-        store.setup(existed)?;
+        let version = store.identify(existed)?;
+        if access == Access::Read {
+            store.conn.busy_timeout(BUSY_TIMEOUT)?;
+            if version < SCHEMA_VERSION {
+                store.migrate_in_memory(version)?;
+            }
+            store.generation = model::meta_get(&store.conn, GENERATION_KEY)?;
+        } else {
+            store.setup(existed, version)?;
+            store.generation = model::meta_get(&store.conn, GENERATION_KEY)?;
+            crate::derive::calibration::ensure_initial(&mut store)?;
+        }
         Ok(store)
     }
 
@@ -82,46 +201,110 @@ impl Store {
             path: None,
             actor: actor.to_string(),
             migrated_backup: None,
+            read_only: false,
+            file_id: None,
+            generation: None,
         };
-        store.setup(false)?;
+        let version = store.identify(false)?;
+        store.setup(false, version)?;
+        crate::derive::calibration::ensure_initial(&mut store)?;
         Ok(store)
     }
 
-    fn setup(&mut self, existed: bool) -> Result<()> {
+    /// Another connection to the same lab for a background job of this process: same file,
+    /// same access, same actor and generation; no file is touched outside SQLite and nothing is
+    /// migrated (SQLite keeps its locks right between connections of one process).
+    pub fn sibling(&self) -> Result<Store> {
+        let path = self
+            .path
+            .clone()
+            .ok_or_else(|| Error::Invalid("background work needs a database file".into()))?;
+        let conn = if self.read_only {
+            open_read_only(&path)?
+        } else {
+            Connection::open_with_flags(
+                &path,
+                OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_NO_MUTEX,
+            )?
+        };
+        conn.busy_timeout(BUSY_TIMEOUT)?;
+        conn.pragma_update(None, "foreign_keys", "ON")?;
+        Ok(Store {
+            conn,
+            path: Some(path),
+            actor: self.actor.clone(),
+            migrated_backup: None,
+            read_only: self.read_only,
+            file_id: self.file_id,
+            generation: self.generation.clone(),
+        })
+    }
+
+    /// Reads what the file is, through SQLite only: refuses a non-SQLite file, another
+    /// application's file and a newer cuvette's; returns the schema version.
+    fn identify(&self, existed: bool) -> Result<i64> {
         let path_text = self
             .path
             .as_ref()
             .map(|p| p.display().to_string())
             .unwrap_or_else(|| ":memory:".into());
+        let not_db = |e: rusqlite::Error| match e.sqlite_error_code() {
+            Some(rusqlite::ErrorCode::NotADatabase) => Error::NotADatabase {
+                path: path_text.clone(),
+                reason: "it is not an SQLite file".into(),
+            },
+            _ => Error::from(e),
+        };
         let version: i64 = self
             .conn
             .query_row("PRAGMA user_version", [], |r| r.get(0))
-            .map_err(|e| match e.sqlite_error_code() {
-                Some(rusqlite::ErrorCode::NotADatabase) => Error::NotADatabase {
-                    path: path_text.clone(),
-                    reason: e.to_string(),
-                },
-                _ => Error::from(e),
-            })?;
+            .map_err(not_db)?;
+        let app_id: i64 = self
+            .conn
+            .query_row("PRAGMA application_id", [], |r| r.get(0))
+            .map_err(not_db)?;
+        if !existed {
+            return Ok(version);
+        }
+        let foreign = |reason: String| Error::NotADatabase {
+            path: path_text.clone(),
+            reason,
+        };
+        if app_id != 0 && app_id != APPLICATION_ID {
+            return Err(foreign(format!(
+                "an SQLite file of another application (application id {app_id:#x}); nothing was changed"
+            )));
+        }
+        if app_id == 0 {
+            let tables: Vec<String> = {
+                let mut st = self
+                    .conn
+                    .prepare("SELECT name FROM sqlite_master WHERE type = 'table'")?;
+                let rows = st.query_map([], |r| r.get::<_, String>(0))?;
+                rows.collect::<rusqlite::Result<_>>()?
+            };
+            let is_lab = CUVETTE_TABLES.iter().all(|t| tables.iter().any(|n| n == t));
+            if version == 0 && !tables.is_empty() || version > 0 && !is_lab {
+                return Err(foreign(format!(
+                    "an SQLite file without cuvette's tables (user_version {version}); nothing was changed"
+                )));
+            }
+        }
         if version > SCHEMA_VERSION {
             return Err(Error::NewerSchema {
                 found: version,
                 supported: SCHEMA_VERSION,
             });
         }
-        if existed && version == 0 {
-            let tables: i64 =
-                self.conn
-                    .query_row("SELECT count(*) FROM sqlite_master WHERE type='table'", [], |r| {
-                        r.get(0)
-                    })?;
-            if tables > 0 {
-                return Err(Error::NotADatabase {
-                    path: path_text,
-                    reason: "an SQLite file with tables but no cuvette schema version".into(),
-                });
-            }
-        }
+        Ok(version)
+    }
+
+    fn setup(&mut self, existed: bool, version: i64) -> Result<()> {
+        let path_text = self
+            .path
+            .as_ref()
+            .map(|p| p.display().to_string())
+            .unwrap_or_else(|| ":memory:".into());
         self.conn.busy_timeout(BUSY_TIMEOUT)?;
         self.conn.pragma_update(None, "foreign_keys", "ON")?;
         if self.path.is_some() {
@@ -139,8 +322,19 @@ impl Store {
             }
             self.migrate(version)?;
         }
-        crate::derive::calibration::ensure_initial(self)?;
         Ok(())
+    }
+
+    /// A read of an older lab: the file is copied into memory and migrated there.
+    fn migrate_in_memory(&mut self, version: i64) -> Result<()> {
+        let mut mem = Connection::open_in_memory()?;
+        {
+            let b = rusqlite::backup::Backup::new(&self.conn, &mut mem)?;
+            b.run_to_completion(1024, Duration::from_millis(0), None)?;
+        }
+        self.conn = mem;
+        self.conn.pragma_update(None, "foreign_keys", "ON")?;
+        self.migrate(version)
     }
 
     fn backup_before_migration(&self, version: i64) -> Result<PathBuf> {
@@ -149,10 +343,8 @@ impl Store {
         let mut name = path.file_name().unwrap_or_default().to_os_string();
         name.push(format!(".v{version}-{stamp}.bak"));
         let dest = path.with_file_name(name);
-        self.conn
-            .backup(rusqlite::DatabaseName::Main, &dest, None)
-            .map_err(|e| Error::Invalid(format!("could not back up before migrating: {e}")))?;
-        Ok(dest)
+        backup::write_new_copy(&self.conn, &dest)
+            .map_err(|e| Error::Invalid(format!("could not back up before migrating: {e}")))
     }
 
     fn migrate(&mut self, from: i64) -> Result<()> {
@@ -161,6 +353,7 @@ impl Store {
             tx.execute_batch(sql)?;
             tx.pragma_update(None, "user_version", (i + 1) as i64)?;
         }
+        after_migration(&tx, from)?;
         tx.commit()?;
         Ok(())
     }
@@ -169,10 +362,25 @@ impl Store {
     /// failed command leaves the database exactly as it was. IMMEDIATE takes the write lock at
     /// the start, so two writers queue on the busy timeout instead of failing on upgrade.
     pub fn write<T>(&mut self, f: impl FnOnce(&Transaction, &str) -> Result<T>) -> Result<T> {
+        if self.read_only {
+            return Err(Error::Storage(
+                "this lab is open read-only (the file or its folder cannot be written): nothing was written".into(),
+            ));
+        }
         let actor = self.actor.clone();
+        let (path, file_id, generation) = (self.path.clone(), self.file_id, self.generation.clone());
         let tx = self.conn.transaction_with_behavior(TransactionBehavior::Immediate)?;
+        // Checked under the write lock, so a restore cannot slip in between.
+        check_still_ours(path.as_deref(), file_id, generation.as_deref(), &tx)?;
+        let pending = match &path {
+            Some(p) => search_bounds::fold(&tx, p)?,
+            None => None,
+        };
         let out = f(&tx, &actor)?;
         tx.commit()?;
+        if let Some(p) = pending {
+            search_bounds::clear(&p);
+        }
         Ok(out)
     }
 
@@ -185,18 +393,128 @@ impl Store {
     }
 
     /// Copies the whole database to `dest` through SQLite's online backup, consistent even
-    /// while another process writes.
+    /// while another process writes. The copy is written beside `dest` under a temporary name
+    /// and linked into place only when whole, so a full disk or a kill leaves no half file.
     pub fn backup_to(&self, dest: &Path) -> Result<()> {
-        if dest.exists() {
+        if let (Some(p), Some(d)) = (&self.path, file_identity(dest))
+            && file_identity(p) == Some(d)
+        {
+            return Err(Error::Invalid(format!(
+                "{} is the lab itself; choose a new file",
+                dest.display()
+            )));
+        }
+        if std::fs::symlink_metadata(dest).is_ok() {
             return Err(Error::Invalid(format!(
                 "{} already exists; choose a new file",
                 dest.display()
             )));
         }
-        self.conn
-            .backup(rusqlite::DatabaseName::Main, dest, None)
-            .map_err(|e| Error::Invalid(format!("backup to {} failed: {e}", dest.display())))
+        backup::write_new_copy(&self.conn, dest).map(|_| ())
     }
+}
+
+/// Refuses to write when the file at the lab's path is no longer the one that was opened, or
+/// when the lab was restored from a backup since: writing on would put work where nobody looks.
+fn check_still_ours(
+    path: Option<&Path>,
+    file_id: Option<(u64, u64)>,
+    generation: Option<&str>,
+    tx: &Connection,
+) -> Result<()> {
+    if let Some(path) = path
+        && file_id.is_some()
+        && file_identity(path) != file_id
+    {
+        return Err(Error::Replaced(format!(
+            "{} is no longer the file this cuvette opened (it was moved or replaced); reopen it: nothing was written",
+            path.display()
+        )));
+    }
+    let current = model::meta_get(tx, GENERATION_KEY)?;
+    if current.as_deref() != generation {
+        let when = model::meta_get(tx, "restored_at")?.unwrap_or_default();
+        return Err(Error::Replaced(format!(
+            "the lab was restored from a backup{} while this cuvette had it open; reopen it: nothing was written",
+            if when.is_empty() {
+                String::new()
+            } else {
+                format!(" at {when}")
+            }
+        )));
+    }
+    Ok(())
+}
+
+/// A `file:` URI for SQLite with the characters URIs reserve escaped.
+fn file_uri(path: &Path, query: &str) -> String {
+    let abs = std::path::absolute(path).unwrap_or_else(|_| path.to_path_buf());
+    let mut out = String::from("file:");
+    for b in abs.to_string_lossy().bytes() {
+        match b {
+            b'?' | b'#' | b'%' => out.push_str(&format!("%{b:02X}")),
+            _ => out.push(b as char),
+        }
+    }
+    // Bytes above 0x7f were pushed as Latin-1 chars; rebuild them as UTF-8 percent escapes.
+    let out: String = out
+        .chars()
+        .flat_map(|c| {
+            if (c as u32) > 0x7f {
+                let mut buf = [0u8; 4];
+                c.encode_utf8(&mut buf)
+                    .bytes()
+                    .map(|b| format!("%{b:02X}"))
+                    .collect::<Vec<_>>()
+            } else {
+                vec![c.to_string()]
+            }
+        })
+        .collect();
+    format!("{out}?{query}")
+}
+
+/// Opens a lab for reading without changing it. First as an ordinary read-only connection
+/// (which sees other processes' work in the write-ahead log); where that cannot work because
+/// nothing beside the file can be written (read-only media, an immutable file with no shared
+/// memory file yet), as an immutable file, which SQLite reads with no locks and no side files.
+fn open_read_only(path: &Path) -> Result<Connection> {
+    let flags = OpenFlags::SQLITE_OPEN_READ_ONLY | OpenFlags::SQLITE_OPEN_URI | OpenFlags::SQLITE_OPEN_NO_MUTEX;
+    let not_db = |e: rusqlite::Error| Error::NotADatabase {
+        path: path.display().to_string(),
+        reason: e.to_string(),
+    };
+    let try_open = |query: &str| -> rusqlite::Result<Connection> {
+        let c = Connection::open_with_flags(file_uri(path, query), flags)?;
+        c.query_row("SELECT count(*) FROM sqlite_master", [], |r| r.get::<_, i64>(0))?;
+        Ok(c)
+    };
+    match try_open("mode=ro") {
+        Ok(c) => Ok(c),
+        Err(e) if e.sqlite_error_code() == Some(rusqlite::ErrorCode::NotADatabase) => Err(Error::NotADatabase {
+            path: path.display().to_string(),
+            reason: "it is not an SQLite file".into(),
+        }),
+        Err(_) => try_open("mode=ro&immutable=1").map_err(not_db),
+    }
+}
+
+/// Work a migration needs beyond SQL: the stored data hash of every spectrum written before
+/// version 5 (SQLite has no SHA-256 of its own).
+fn after_migration(tx: &Connection, from: i64) -> Result<()> {
+    if from < 5 {
+        let mut st = tx.prepare("SELECT id, data FROM spectrum WHERE data_sha256 IS NULL")?;
+        let rows: Vec<(i64, Vec<u8>)> = st
+            .query_map([], |r| Ok((r.get(0)?, r.get(1)?)))?
+            .collect::<rusqlite::Result<_>>()?;
+        for (id, data) in rows {
+            tx.execute(
+                "UPDATE spectrum SET data_sha256 = ?1 WHERE id = ?2",
+                params![crate::spectra::sha256_hex(&data), id],
+            )?;
+        }
+    }
+    Ok(())
 }
 
 /// Refuses a file that is not SQLite before SQLite gets to touch it.
@@ -295,6 +613,7 @@ pub fn row_counts(conn: &Connection) -> Result<Vec<(String, i64)>> {
         "location",
         "vial",
         "vial_event",
+        "vial_concentration",
         "calibration",
         "derived_value",
         "audit_log",

@@ -32,6 +32,27 @@ pub fn check_number(field: &str, v: f64, allow_zero: bool) -> Result<f64> {
     Ok(v)
 }
 
+/// As [`check_number`], and no larger than `max`: a finite but absurd figure (1e308 mL) is a
+/// typing slip, not a measurement.
+pub fn check_bounded(field: &str, v: f64, allow_zero: bool, max: f64, unit: &str) -> Result<f64> {
+    check_number(field, v, allow_zero)?;
+    if v > max {
+        return invalid(format!(
+            "{field} of {v} {unit} is beyond any plausible value (at most {max} {unit})"
+        ));
+    }
+    Ok(v)
+}
+
+/// A reason for a correction: required, one line, not blank.
+pub fn check_reason(why: &str) -> Result<&str> {
+    let w = why.trim();
+    if w.is_empty() {
+        return invalid("a correction needs a reason (--why)");
+    }
+    Ok(w)
+}
+
 // ---------------------------------------------------------------- people
 
 pub fn person_id(conn: &Connection, name: &str) -> Result<i64> {
@@ -477,11 +498,14 @@ pub struct BatchRow {
     pub pinned_calibration: Option<i64>,
     pub product_aliquot_id: Option<i64>,
     pub notes: String,
+    /// A voided batch stays in the record, marked, and is left out of search and the pack.
+    pub voided: bool,
+    pub void_why: Option<String>,
 }
 
 const BATCH_SELECT: &str = "SELECT b.id, b.name, m.name, m.core, r.name, rv.version, b.recipe_version_id, p.name,
     b.started_at, b.status, b.parent_batch_id, b.parent_relation, b.pinned_calibration,
-    b.product_aliquot_id, b.notes
+    b.product_aliquot_id, b.notes, b.voided_at, b.void_why
   FROM batch b JOIN material m ON m.id = b.material_id
   LEFT JOIN recipe_version rv ON rv.id = b.recipe_version_id
   LEFT JOIN recipe r ON r.id = rv.recipe_id
@@ -504,6 +528,8 @@ fn batch_from(r: &Row) -> rusqlite::Result<BatchRow> {
         pinned_calibration: r.get(12)?,
         product_aliquot_id: r.get(13)?,
         notes: r.get(14)?,
+        voided: r.get::<_, Option<String>>(15)?.is_some(),
+        void_why: r.get(16)?,
     })
 }
 
@@ -743,11 +769,16 @@ pub struct AliquotRow {
     pub path_cm: f64,
     pub solvent: String,
     pub taken_at: String,
+    /// A voided aliquot stays in the record but counts for nothing.
+    pub voided: bool,
+    pub void_why: Option<String>,
 }
 
-const ALIQUOT_COLS: &str = "id, batch_id, minutes, stage, dilution_factor, path_cm, solvent, taken_at";
+/// The aliquot columns, in the order [`aliquot_from`] maps them.
+pub const ALIQUOT_COLS: &str =
+    "id, batch_id, minutes, stage, dilution_factor, path_cm, solvent, taken_at, voided_at, void_why";
 
-/// Maps the first eight columns of a row (in `ALIQUOT_COLS` order) to an aliquot.
+/// Maps the first ten columns of a row (in `ALIQUOT_COLS` order) to an aliquot.
 pub fn aliquot_from(r: &Row) -> rusqlite::Result<AliquotRow> {
     Ok(AliquotRow {
         id: r.get(0)?,
@@ -758,6 +789,8 @@ pub fn aliquot_from(r: &Row) -> rusqlite::Result<AliquotRow> {
         path_cm: r.get(5)?,
         solvent: r.get(6)?,
         taken_at: r.get(7)?,
+        voided: r.get::<_, Option<String>>(8)?.is_some(),
+        void_why: r.get(9)?,
     })
 }
 
@@ -840,8 +873,18 @@ pub fn get_aliquot(conn: &Connection, id: i64) -> Result<AliquotRow> {
     .ok_or_else(|| not_found("aliquot", id))
 }
 
+/// The aliquots of a batch that count: voided ones are left out (growth, product, plots, pack).
 pub fn aliquots_of(conn: &Connection, batch_id: i64) -> Result<Vec<AliquotRow>> {
-    let mut st = conn.prepare(&format!(
+    let mut st = conn.prepare_cached(&format!(
+        "SELECT {ALIQUOT_COLS} FROM aliquot WHERE batch_id = ?1 AND voided_at IS NULL ORDER BY minutes IS NULL, minutes, id"
+    ))?;
+    let rows = st.query_map([batch_id], aliquot_from)?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+/// Every aliquot of a batch, voided ones included (the record as logged).
+pub fn all_aliquots_of(conn: &Connection, batch_id: i64) -> Result<Vec<AliquotRow>> {
+    let mut st = conn.prepare_cached(&format!(
         "SELECT {ALIQUOT_COLS} FROM aliquot WHERE batch_id = ?1 ORDER BY minutes IS NULL, minutes, id"
     ))?;
     let rows = st.query_map([batch_id], aliquot_from)?;
@@ -861,6 +904,9 @@ pub struct NewSpectrum {
     pub sha256: String,
     pub excitation_nm: Option<f64>,
     pub instrument: Option<String>,
+    /// For a vial's own measurement: the dilution and path of its cuvette.
+    pub dilution_factor: Option<f64>,
+    pub path_cm: Option<f64>,
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -880,6 +926,8 @@ pub struct SpectrumRow {
     pub sha256: String,
     pub excitation_nm: Option<f64>,
     pub instrument: Option<String>,
+    pub dilution_factor: Option<f64>,
+    pub path_cm: Option<f64>,
 }
 
 pub fn insert_spectrum(tx: &Connection, who: &str, s: &NewSpectrum) -> Result<i64> {
@@ -895,10 +943,12 @@ pub fn insert_spectrum(tx: &Connection, who: &str, s: &NewSpectrum) -> Result<i6
     if let Some(e) = s.excitation_nm {
         check_number("excitation wavelength (nm)", e, false)?;
     }
+    let data = encode_xy(&s.x, &s.y);
+    let data_sha = crate::spectra::sha256_hex(&data);
     tx.execute(
         "INSERT INTO spectrum (aliquot_id, vial_id, kind, x_unit, y_unit, npoints, data, file_name, sha256,
-                               excitation_nm, instrument, created_at)
-         VALUES (?1,?2,?3,?4,?5,?6,?7,?8,?9,?10,?11,?12)",
+                               excitation_nm, instrument, created_at, data_sha256, dilution_factor, path_cm)
+         VALUES (?1,?2,?3,?4,?5,?6,?7,?8,?9,?10,?11,?12,?13,?14,?15)",
         params![
             s.aliquot_id,
             s.vial_id,
@@ -906,12 +956,15 @@ pub fn insert_spectrum(tx: &Connection, who: &str, s: &NewSpectrum) -> Result<i6
             s.x_unit,
             s.y_unit,
             s.x.len() as i64,
-            encode_xy(&s.x, &s.y),
+            data,
             s.file_name,
             s.sha256,
             s.excitation_nm,
             s.instrument,
-            now()
+            now(),
+            data_sha,
+            s.dilution_factor,
+            s.path_cm
         ],
     )?;
     let id = tx.last_insert_rowid();
@@ -930,8 +983,7 @@ pub fn insert_spectrum(tx: &Connection, who: &str, s: &NewSpectrum) -> Result<i6
     Ok(id)
 }
 
-const SPECTRUM_COLS: &str =
-    "id, aliquot_id, vial_id, kind, x_unit, y_unit, npoints, data, file_name, sha256, excitation_nm, instrument";
+const SPECTRUM_COLS: &str = "id, aliquot_id, vial_id, kind, x_unit, y_unit, npoints, data, file_name, sha256, excitation_nm, instrument, dilution_factor, path_cm";
 
 fn spectrum_from(r: &Row) -> rusqlite::Result<(SpectrumRow, Vec<u8>)> {
     Ok((
@@ -949,6 +1001,8 @@ fn spectrum_from(r: &Row) -> rusqlite::Result<(SpectrumRow, Vec<u8>)> {
             sha256: r.get(9)?,
             excitation_nm: r.get(10)?,
             instrument: r.get(11)?,
+            dilution_factor: r.get(12)?,
+            path_cm: r.get(13)?,
         },
         r.get(7)?,
     ))
@@ -1091,14 +1145,23 @@ pub struct VialRow {
     pub solvent: String,
     pub owner: Option<String>,
     pub status: String,
+    /// The vial's current concentration (of its own solution), with where it came from.
     pub concentration_molar: Option<f64>,
     pub created_at: String,
+    /// measured, estimate, entered or recorded (see `VialConcentration`); None when unknown.
+    pub concentration_source: Option<String>,
+    pub concentration_method: Option<String>,
+    pub concentration_stale: bool,
+    /// The calibration version behind the concentration (None for entered figures).
+    pub calibration_version: Option<i64>,
 }
 
 const VIAL_SELECT: &str = "SELECT v.id, v.label, v.batch_id, b.name, m.name, l.name, v.position, v.volume_ml,
-    v.initial_ml, v.solvent, p.name, v.status, v.concentration_molar, v.created_at
+    v.initial_ml, v.solvent, p.name, v.status, c.value, v.created_at, c.source, c.method, COALESCE(c.stale, 0),
+    c.calibration_version
   FROM vial v JOIN batch b ON b.id = v.batch_id JOIN material m ON m.id = b.material_id
-  JOIN location l ON l.id = v.location_id LEFT JOIN person p ON p.id = v.owner_id";
+  JOIN location l ON l.id = v.location_id LEFT JOIN person p ON p.id = v.owner_id
+  LEFT JOIN vial_concentration c ON c.vial_id = v.id AND c.superseded_at IS NULL";
 
 fn vial_from(r: &Row) -> rusqlite::Result<VialRow> {
     Ok(VialRow {
@@ -1116,6 +1179,10 @@ fn vial_from(r: &Row) -> rusqlite::Result<VialRow> {
         status: r.get(11)?,
         concentration_molar: r.get(12)?,
         created_at: r.get(13)?,
+        concentration_source: r.get(14)?,
+        concentration_method: r.get(15)?,
+        concentration_stale: r.get(16)?,
+        calibration_version: r.get(17)?,
     })
 }
 
@@ -1134,9 +1201,12 @@ pub struct NewVial {
 
 pub fn insert_vial(tx: &Connection, who: &str, v: &NewVial) -> Result<i64> {
     let batch = get_batch(tx, v.batch_id)?;
-    check_number("volume (mL)", v.volume_ml, true)?;
+    if batch.voided {
+        return invalid(format!("batch {} is voided; reinstate it first", batch.id));
+    }
+    check_bounded("volume", v.volume_ml, false, 10_000.0, "mL")?;
     if let Some(c) = v.concentration_molar {
-        check_number("concentration (M)", c, true)?;
+        check_bounded("concentration", c, true, 10.0, "M")?;
     }
     let loc = location_by_name(tx, &v.location)?;
     let owner = match &v.owner {
@@ -1176,11 +1246,27 @@ pub fn insert_vial(tx: &Connection, who: &str, v: &NewVial) -> Result<i64> {
             loc.id,
             v.position,
             owner,
-            v.concentration_molar,
+            Option::<f64>::None,
             created
         ],
     )?;
     let id = tx.last_insert_rowid();
+    if let Some(c) = v.concentration_molar {
+        set_vial_concentration(
+            tx,
+            id,
+            &VialConcentration {
+                source: "entered".into(),
+                spectrum_id: None,
+                aliquot_id: None,
+                value: Some(c),
+                method: format!("entered by {who}"),
+                calibration_version: None,
+                inputs_hash: String::new(),
+                warnings: vec![],
+            },
+        )?;
+    }
     tx.execute(
         "INSERT INTO vial_event (vial_id, kind, amount_ml, to_location_id, who, why, at) VALUES (?1,'create',?2,?3,?4,NULL,?5)",
         params![id, v.volume_ml, loc.id, who, created],
@@ -1413,4 +1499,387 @@ pub fn meta_set(tx: &Connection, who: &str, key: &str, value: &str) -> Result<()
         Some(&json!({key: value})),
     )?;
     Ok(())
+}
+
+// ---------------------------------------------------------------- vial concentrations
+
+/// A vial concentration with its provenance, as written (see schema 0005).
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct VialConcentration {
+    pub source: String,
+    pub spectrum_id: Option<i64>,
+    pub aliquot_id: Option<i64>,
+    pub value: Option<f64>,
+    pub method: String,
+    pub calibration_version: Option<i64>,
+    pub inputs_hash: String,
+    pub warnings: Vec<String>,
+}
+
+/// A stored vial concentration row.
+#[derive(Debug, Clone, Serialize)]
+pub struct StoredVialConcentration {
+    pub id: i64,
+    pub vial_id: i64,
+    #[serde(flatten)]
+    pub c: VialConcentration,
+    pub computed_at: String,
+    pub stale: bool,
+}
+
+const VIAL_CONC_COLS: &str = "id, vial_id, source, spectrum_id, aliquot_id, value, method, calibration_version, inputs_hash, warnings, computed_at, stale";
+
+fn vial_conc_from(r: &Row) -> rusqlite::Result<StoredVialConcentration> {
+    let w: String = r.get(9)?;
+    Ok(StoredVialConcentration {
+        id: r.get(0)?,
+        vial_id: r.get(1)?,
+        c: VialConcentration {
+            source: r.get(2)?,
+            spectrum_id: r.get(3)?,
+            aliquot_id: r.get(4)?,
+            value: r.get(5)?,
+            method: r.get(6)?,
+            calibration_version: r.get(7)?,
+            inputs_hash: r.get(8)?,
+            warnings: serde_json::from_str(&w).unwrap_or_default(),
+        },
+        computed_at: r.get(10)?,
+        stale: r.get(11)?,
+    })
+}
+
+/// The current concentration row of a vial.
+pub fn current_vial_concentration(conn: &Connection, vial_id: i64) -> Result<Option<StoredVialConcentration>> {
+    Ok(conn
+        .query_row(
+            &format!("SELECT {VIAL_CONC_COLS} FROM vial_concentration WHERE vial_id = ?1 AND superseded_at IS NULL"),
+            [vial_id],
+            vial_conc_from,
+        )
+        .optional()?)
+}
+
+/// Every vial's current concentration whose value can follow a calibration (measured or
+/// estimated), for recompute and stale marking.
+pub fn derived_vial_concentrations(conn: &Connection) -> Result<Vec<StoredVialConcentration>> {
+    let mut st = conn.prepare(&format!(
+        "SELECT {VIAL_CONC_COLS} FROM vial_concentration WHERE superseded_at IS NULL AND source IN ('measured','estimate') ORDER BY vial_id"
+    ))?;
+    let rows = st.query_map([], vial_conc_from)?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+/// Writes a vial's concentration: an unchanged one is re-stamped, a changed one supersedes the
+/// current row (kept as history). Returns whether the value changed. Audited by the caller's
+/// action (measure, new vial, recompute).
+pub fn set_vial_concentration(tx: &Connection, vial_id: i64, c: &VialConcentration) -> Result<bool> {
+    if let Some(v) = c.value {
+        check_bounded("concentration", v, true, 10.0, "M")?;
+    }
+    let t = now();
+    let w = serde_json::to_string(&c.warnings)?;
+    if let Some(old) = current_vial_concentration(tx, vial_id)? {
+        if old.c == *c {
+            if old.stale {
+                tx.execute(
+                    "UPDATE vial_concentration SET stale = 0, computed_at = ?1 WHERE id = ?2",
+                    params![t, old.id],
+                )?;
+            }
+            return Ok(false);
+        }
+        tx.execute(
+            "UPDATE vial_concentration SET superseded_at = ?1 WHERE id = ?2",
+            params![t, old.id],
+        )?;
+    }
+    tx.execute(
+        "INSERT INTO vial_concentration (vial_id, source, spectrum_id, aliquot_id, value, method, calibration_version, inputs_hash, warnings, computed_at)
+         VALUES (?1,?2,?3,?4,?5,?6,?7,?8,?9,?10)",
+        params![vial_id, c.source, c.spectrum_id, c.aliquot_id, c.value, c.method, c.calibration_version, c.inputs_hash, w, t],
+    )?;
+    Ok(true)
+}
+
+/// Flags a vial's current concentration stale (or not); bookkeeping, not audited.
+pub fn flag_vial_concentration(tx: &Connection, id: i64, stale: bool) -> Result<bool> {
+    Ok(tx.execute(
+        "UPDATE vial_concentration SET stale = ?1 WHERE id = ?2 AND stale <> ?1",
+        params![stale, id],
+    )? > 0)
+}
+
+/// The absorbance spectrum a vial was last measured with.
+pub fn vial_spectrum(conn: &Connection, spectrum_id: i64) -> Result<SpectrumRow> {
+    get_spectrum(conn, spectrum_id)
+}
+
+// ---------------------------------------------------------------- corrections
+
+/// What an aliquot edit may change; None leaves a field as it is.
+#[derive(Debug, Clone, Default)]
+pub struct AliquotEdit {
+    pub minutes: Option<f64>,
+    pub stage: Option<String>,
+    pub dilution_factor: Option<f64>,
+    pub path_cm: Option<f64>,
+    pub solvent: Option<String>,
+}
+
+/// Voids an aliquot: it stays in the record, marked, and counts for nothing.
+pub fn void_aliquot(tx: &Connection, who: &str, id: i64, why: &str) -> Result<AliquotRow> {
+    let why = check_reason(why)?;
+    let before = get_aliquot(tx, id)?;
+    if before.voided {
+        return invalid(format!(
+            "aliquot {id} is already void ({})",
+            before.void_why.unwrap_or_default()
+        ));
+    }
+    tx.execute(
+        "UPDATE aliquot SET voided_at = ?1, void_why = ?2 WHERE id = ?3",
+        params![now(), why, id],
+    )?;
+    let after = get_aliquot(tx, id)?;
+    audit(
+        tx,
+        who,
+        "aliquot",
+        Some(id),
+        "void",
+        Some(&serde_json::to_value(&before)?),
+        Some(&serde_json::to_value(&after)?),
+    )?;
+    Ok(after)
+}
+
+/// Undoes a void.
+pub fn reinstate_aliquot(tx: &Connection, who: &str, id: i64, why: &str) -> Result<AliquotRow> {
+    let why = check_reason(why)?;
+    let before = get_aliquot(tx, id)?;
+    if !before.voided {
+        return invalid(format!("aliquot {id} is not void"));
+    }
+    let has_spectrum: bool = tx
+        .query_row("SELECT 1 FROM spectrum WHERE aliquot_id = ?1 LIMIT 1", [id], |_| Ok(()))
+        .optional()?
+        .is_some();
+    if !has_spectrum {
+        return invalid(format!("aliquot {id} has no spectrum left; move one back to it first"));
+    }
+    tx.execute(
+        "UPDATE aliquot SET voided_at = NULL, void_why = NULL WHERE id = ?1",
+        [id],
+    )?;
+    let after = get_aliquot(tx, id)?;
+    audit(
+        tx,
+        who,
+        "aliquot",
+        Some(id),
+        "reinstate",
+        Some(&serde_json::to_value(&before)?),
+        Some(&json!({"row": serde_json::to_value(&after)?, "why": why})),
+    )?;
+    Ok(after)
+}
+
+/// Changes the logged facts of an aliquot; the caller re-derives its values.
+pub fn edit_aliquot(tx: &Connection, who: &str, id: i64, e: &AliquotEdit, why: &str) -> Result<AliquotRow> {
+    let why = check_reason(why)?;
+    let before = get_aliquot(tx, id)?;
+    if e.minutes.is_none()
+        && e.stage.is_none()
+        && e.dilution_factor.is_none()
+        && e.path_cm.is_none()
+        && e.solvent.is_none()
+    {
+        return invalid("nothing to change: give --minutes, --stage, --dilution, --path-cm or --solvent");
+    }
+    if let Some(m) = e.minutes {
+        check_bounded("minutes", m, true, 100_000.0, "min")?;
+    }
+    if let Some(d) = e.dilution_factor {
+        check_bounded("dilution factor", d, false, 1e6, "x")?;
+        if d < 1.0 {
+            return invalid(format!(
+                "dilution factor {d} is below 1; it is the factor by which the aliquot was diluted"
+            ));
+        }
+    }
+    if let Some(p) = e.path_cm {
+        check_bounded("path length", p, false, 100.0, "cm")?;
+    }
+    if let Some(s) = &e.solvent
+        && crate::derive::solvents::refractive_index(s).is_none()
+    {
+        return invalid(format!(
+            "unknown solvent '{s}' (known: {})",
+            crate::derive::solvents::names().join(", ")
+        ));
+    }
+    // A timed aliquot given a stage (or the reverse) keeps exactly one of the two.
+    let (minutes, stage) = match (e.minutes, &e.stage) {
+        (Some(m), Some(s)) if !s.is_empty() => {
+            return invalid(format!("give either --minutes ({m}) or --stage ({s}), not both"));
+        }
+        (Some(m), _) => (Some(m), None),
+        (None, Some(s)) if !s.trim().is_empty() => (None, Some(s.trim().to_string())),
+        (None, Some(_)) => return invalid("a stage cannot be empty"),
+        (None, None) => (before.minutes, before.stage.clone()),
+    };
+    tx.execute(
+        "UPDATE aliquot SET minutes = ?1, stage = ?2, dilution_factor = ?3, path_cm = ?4, solvent = ?5 WHERE id = ?6",
+        params![
+            minutes,
+            stage,
+            e.dilution_factor.unwrap_or(before.dilution_factor),
+            e.path_cm.unwrap_or(before.path_cm),
+            e.solvent.clone().unwrap_or(before.solvent.clone()),
+            id
+        ],
+    )?;
+    let after = get_aliquot(tx, id)?;
+    audit(
+        tx,
+        who,
+        "aliquot",
+        Some(id),
+        "edit",
+        Some(&serde_json::to_value(&before)?),
+        Some(&json!({"row": serde_json::to_value(&after)?, "why": why})),
+    )?;
+    Ok(after)
+}
+
+/// Moves a spectrum to another aliquot (of any batch). Returns (from, to) aliquot ids; the
+/// caller re-derives both. An aliquot left without spectra is voided, since it holds nothing.
+pub fn move_spectrum(tx: &Connection, who: &str, spectrum_id: i64, to_aliquot: i64, why: &str) -> Result<(i64, i64)> {
+    let why = check_reason(why)?;
+    let s = get_spectrum(tx, spectrum_id)?;
+    let Some(from) = s.aliquot_id else {
+        return invalid(format!(
+            "spectrum {spectrum_id} belongs to vial {}, not an aliquot",
+            s.vial_id.unwrap_or(0)
+        ));
+    };
+    if from == to_aliquot {
+        return invalid(format!(
+            "spectrum {spectrum_id} already belongs to aliquot {to_aliquot}"
+        ));
+    }
+    let target = get_aliquot(tx, to_aliquot)?;
+    if target.voided {
+        return invalid(format!("aliquot {to_aliquot} is void; reinstate it first"));
+    }
+    let clash: Option<i64> = tx
+        .query_row(
+            "SELECT id FROM spectrum WHERE aliquot_id = ?1 AND kind = ?2",
+            params![to_aliquot, s.kind],
+            |r| r.get(0),
+        )
+        .optional()?;
+    if let Some(c) = clash {
+        return invalid(format!(
+            "aliquot {to_aliquot} already has a {} spectrum ({c}); move or void that one first",
+            s.kind
+        ));
+    }
+    tx.execute(
+        "UPDATE spectrum SET aliquot_id = ?1 WHERE id = ?2",
+        params![to_aliquot, spectrum_id],
+    )?;
+    audit(
+        tx,
+        who,
+        "spectrum",
+        Some(spectrum_id),
+        "move",
+        Some(&json!({"aliquot_id": from})),
+        Some(&json!({"aliquot_id": to_aliquot, "why": why})),
+    )?;
+    let left: i64 = tx.query_row("SELECT count(*) FROM spectrum WHERE aliquot_id = ?1", [from], |r| {
+        r.get(0)
+    })?;
+    if left == 0 && !get_aliquot(tx, from)?.voided {
+        void_aliquot(
+            tx,
+            who,
+            from,
+            &format!("its last spectrum ({spectrum_id}) moved to aliquot {to_aliquot}: {why}"),
+        )?;
+    }
+    Ok((from, to_aliquot))
+}
+
+/// Voids a batch: it stays in the record, marked, and is left out of search, the shelf's
+/// product values and the pack; its vials stay on the shelf until disposed.
+pub fn void_batch(tx: &Connection, who: &str, id: i64, why: &str) -> Result<BatchRow> {
+    let why = check_reason(why)?;
+    let before = get_batch(tx, id)?;
+    if before.voided {
+        return invalid(format!("batch {id} is already void"));
+    }
+    tx.execute(
+        "UPDATE batch SET voided_at = ?1, void_why = ?2 WHERE id = ?3",
+        params![now(), why, id],
+    )?;
+    let after = get_batch(tx, id)?;
+    audit(
+        tx,
+        who,
+        "batch",
+        Some(id),
+        "void",
+        Some(&serde_json::to_value(&before)?),
+        Some(&serde_json::to_value(&after)?),
+    )?;
+    Ok(after)
+}
+
+/// Undoes a batch void.
+pub fn reinstate_batch(tx: &Connection, who: &str, id: i64, why: &str) -> Result<BatchRow> {
+    let why = check_reason(why)?;
+    let before = get_batch(tx, id)?;
+    if !before.voided {
+        return invalid(format!("batch {id} is not void"));
+    }
+    tx.execute("UPDATE batch SET voided_at = NULL, void_why = NULL WHERE id = ?1", [id])?;
+    let after = get_batch(tx, id)?;
+    audit(
+        tx,
+        who,
+        "batch",
+        Some(id),
+        "reinstate",
+        Some(&serde_json::to_value(&before)?),
+        Some(&json!({"row": serde_json::to_value(&after)?, "why": why})),
+    )?;
+    Ok(after)
+}
+
+/// Puts a disposed vial back on the shelf, as it was before its disposal.
+pub fn reinstate_vial(tx: &Connection, who: &str, id: i64, why: &str) -> Result<VialRow> {
+    let why = check_reason(why)?;
+    let v = get_vial(tx, id)?;
+    if v.status != "disposed" {
+        return invalid(format!("vial {} ({}) is not disposed of", v.id, v.label));
+    }
+    let status = if v.volume_ml > VOLUME_EPS_ML { "in_use" } else { "empty" };
+    tx.execute("UPDATE vial SET status = ?1 WHERE id = ?2", params![status, id])?;
+    tx.execute(
+        "INSERT INTO vial_event (vial_id, kind, who, why, at) VALUES (?1,'reinstate',?2,?3,?4)",
+        params![id, who, why, now()],
+    )?;
+    audit(
+        tx,
+        who,
+        "vial",
+        Some(id),
+        "reinstate",
+        Some(&json!({"status": v.status})),
+        Some(&json!({"status": status, "why": why})),
+    )?;
+    get_vial(tx, id)
 }

@@ -723,8 +723,7 @@ impl App {
     }
 
     fn worker_store(&self) -> Result<Store, String> {
-        let path = self.db_path.clone().ok_or("background work needs a database file")?;
-        Store::open(&path, &self.store.actor).map_err(|e| e.to_string())
+        self.store.sibling().map_err(|e| e.to_string())
     }
 
     fn spawn_recompute(&mut self, dry_run: bool) {

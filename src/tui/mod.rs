@@ -11,15 +11,14 @@ use crate::store::Store;
 use crossterm::event::{self, Event, KeyEventKind};
 use std::time::Duration;
 
-/// Runs the UI on an open store until the user quits.
-pub fn run(store: &mut Store) -> Result<()> {
+/// Runs the UI on the store it is given until the user quits. The UI opens no connection of
+/// its own: background jobs use siblings of this store (see `Store::sibling`).
+pub fn run(store: Store) -> Result<()> {
     let keys = keys::KeyMap::load().map_err(Error::Invalid)?;
-    let path = store
-        .path
-        .clone()
-        .ok_or_else(|| Error::Invalid("the UI needs a database file".into()))?;
-    let own = Store::open(&path, &store.actor)?;
-    let mut app = app::App::new(own, keys);
+    if store.path.is_none() {
+        return Err(Error::Invalid("the UI needs a database file".into()));
+    }
+    let mut app = app::App::new(store, keys);
     let mut terminal = ratatui::try_init()?;
     let result = event_loop(&mut terminal, &mut app);
     ratatui::restore();
