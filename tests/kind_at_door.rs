@@ -545,3 +545,25 @@ fn delimited_headers_and_preamble_lines_state_the_quantity() {
     let raw = read("p.csv", &csv("", "20 s", &ys, 1.0));
     assert_eq!(raw.y_unit.as_deref(), Some("20 s"));
 }
+
+#[test]
+fn file_names_suggest_a_kind_only_when_they_agree() {
+    use cuvette::spectra::quantity::kind_from_name;
+    for (name, want) in [
+        ("abs_05min.csv", Some(ABS)),
+        ("abs05min.csv", Some(ABS)),
+        ("Run 1 UV-Vis.csv", Some(ABS)),
+        ("cdse_uvvis_t5.txt", Some(ABS)),
+        ("pl_05min.csv", Some(PL)),
+        ("pl5.csv", Some(PL)),
+        ("Run 2 FL emission.csv", Some(PL)),
+        ("ple_washed.csv", Some(PLE)),
+        ("excitation_540nm.csv", Some(PLE)),
+        // "sample" holds the letters "ple" but is no PLE.
+        ("sample_05min.csv", None),
+        ("aliquot_07.csv", None),
+        ("abs_and_pl_05min.csv", None),
+    ] {
+        assert_eq!(kind_from_name(name), want, "{name}");
+    }
+}

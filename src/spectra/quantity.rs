@@ -219,7 +219,7 @@ fn parse_label(label: &str) -> Option<(Parsed, Option<SpectrumKind>)> {
         Parsed::Known(YQuantity::CountsPerSecond)
     } else if has(&["counts", "count", "cts", "adu"]) {
         Parsed::Known(YQuantity::Counts)
-    } else if has(&["intensity", "signal"]) || hint.is_some() {
+    } else if has(&["intensity"]) || hint.is_some() {
         Parsed::Known(YQuantity::ArbitraryIntensity)
     } else {
         // Bare "a.u." or "arbitrary units" is left unknown on purpose: absorbance is exported
