@@ -151,6 +151,7 @@ pub fn read(file: &str, text: &str, opts: &ReadOptions) -> Result<RawSpectrum> {
     validate_xy(file, &x, &y, Some(&line_numbers))?;
     let header_x = header.as_ref().and_then(|h| h.get(x_col - 1).cloned());
     let header_y = header.as_ref().and_then(|h| h.get(y_col - 1).cloned());
+    let y_unit = choose_y_unit(header_y, preamble_y_unit(&lines[..first_data]), &mut warnings);
     let x_unit = match &opts.x_unit {
         Some(u) => u.clone(),
         None => header_x.as_deref().and_then(unit_from_header).unwrap_or_else(|| {
@@ -166,12 +167,66 @@ pub fn read(file: &str, text: &str, opts: &ReadOptions) -> Result<RawSpectrum> {
         format: format!("delimited ({})", delim.name()),
         title: None,
         x_unit,
-        y_unit: header_y,
+        y_unit,
         x,
         y,
         checks: Vec::new(),
         warnings,
     })
+}
+
+/// Preamble keys that state the y quantity ("YUnits: counts", "Y axis = %T"), compared without
+/// case, spaces or punctuation.
+const Y_UNIT_KEYS: &[&str] = &[
+    "yunits",
+    "yunit",
+    "yaxis",
+    "yaxisunit",
+    "yaxisunits",
+    "yaxistitle",
+    "ylabel",
+    "ytitle",
+    "ordinate",
+    "ordinateunit",
+    "ordinateunits",
+    "ordinatemode",
+    "datamode",
+    "photometricmode",
+    "measurementmode",
+];
+
+/// The y quantity a preamble line states, if one does: the first `key: value` (or `=`, tab,
+/// comma, semicolon) line whose key is a y-unit key and whose value names a quantity.
+fn preamble_y_unit(preamble: &[&str]) -> Option<String> {
+    preamble.iter().find_map(|line| {
+        let (key, value) = line.split_once([':', '=', '\t', ',', ';'])?;
+        let key: String = key
+            .chars()
+            .filter(|c| c.is_alphanumeric())
+            .flat_map(char::to_lowercase)
+            .collect();
+        let value = value.trim().trim_matches([',', ';', '"']).trim();
+        (Y_UNIT_KEYS.contains(&key.as_str()) && super::quantity::names_a_quantity(value)).then(|| value.to_string())
+    })
+}
+
+/// The y column's header when it names a quantity, else a preamble line's, else the header as
+/// it is (a time such as "20 s" is kept as the file gave it). A preamble that disagrees with a
+/// header that names a quantity is reported.
+fn choose_y_unit(header_y: Option<String>, preamble: Option<String>, warnings: &mut Vec<String>) -> Option<String> {
+    let header_names = header_y.as_deref().is_some_and(super::quantity::names_a_quantity);
+    match (header_y, preamble) {
+        (Some(h), Some(p)) if header_names => {
+            if !super::quantity::same_quantity(&h, &p) {
+                warnings.push(format!(
+                    "the preamble states y as '{p}' but the y column header says '{h}'; the header was used"
+                ));
+            }
+            Some(h)
+        }
+        (_, Some(p)) => Some(p),
+        (h, None) => h,
+    }
 }
 
 /// "Wavelength (nm)", "Energy [eV]", "Wavenumber / cm-1" and the like.

@@ -7,6 +7,7 @@
 pub mod analysis;
 pub mod delimited;
 pub mod jcamp;
+pub mod quantity;
 pub mod savgol;
 
 use crate::error::{Error, Result};
@@ -175,7 +176,8 @@ pub struct Trace {
 pub const PLAUSIBLE_NM: (f64, f64) = (150.0, 3500.0);
 
 impl RawSpectrum {
-    /// Converts to nm, ascending; transmittance becomes absorbance. Refuses x ranges that are
+    /// Converts to nm, ascending; a stated transmittance or reflectance becomes absorbance (as
+    /// `quantity::to_absorbance` defines it). Refuses x ranges that are
     /// not UV-Vis-NIR (values in metres, an infrared file) with a message naming the range.
     pub fn to_trace(&self, file: &str, unit_override: Option<&str>) -> Result<Trace> {
         let unit_name = unit_override.unwrap_or(&self.x_unit);
@@ -203,24 +205,9 @@ impl RawSpectrum {
                 ),
             ));
         }
-        let transmittance = self
-            .y_unit
-            .as_deref()
-            .map(|u| u.to_ascii_lowercase().contains("transmit"))
-            .unwrap_or(false);
-        let percent = transmittance && pts.iter().any(|p| p.1 > 1.5);
         let nm = pts.iter().map(|p| p.0).collect();
-        let y = pts
-            .iter()
-            .map(|p| {
-                if transmittance {
-                    let t = if percent { p.1 / 100.0 } else { p.1 };
-                    -(t.max(1e-6)).log10()
-                } else {
-                    p.1
-                }
-            })
-            .collect();
+        let stated_y: Vec<f64> = pts.iter().map(|p| p.1).collect();
+        let y = quantity::y_as_analysed(self.y_unit.as_deref(), &stated_y);
         Ok(Trace { nm, y })
     }
 }
