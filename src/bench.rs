@@ -5,10 +5,19 @@
 
 use crate::derive::{engine, growth};
 use crate::error::{Error, Result};
-use crate::spectra::{self, RawSpectrum, ReadOptions};
+use crate::spectra::{self, RawSpectrum, ReadOptions, quantity};
 use crate::store::Store;
 use crate::store::model::{self, NewAliquot, NewSpectrum};
 use std::path::{Path, PathBuf};
+
+/// What the user said about files that the door would stop.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Door {
+    /// Log a file whose SHA-256 is already in the batch.
+    pub again: bool,
+    /// Keep a file as the kind given even when its header or values say otherwise.
+    pub kind_as_is: bool,
+}
 
 /// A spectrum file to attach, with its kind.
 #[derive(Debug, Clone)]
@@ -25,12 +34,48 @@ pub fn read_checked(path: &Path, opts: &ReadOptions) -> Result<(RawSpectrum, Str
     Ok((raw, sha))
 }
 
+/// Reads a file to be logged as `kind` and puts it through the door: a file whose own header
+/// or values say it is something else is refused (unless `kind_as_is`), %T and reflectance are
+/// taken as absorbance when the file says so, absurd and non-finite values never pass. The
+/// returned spectrum carries the y unit analysis must read it with.
+pub fn read_for_logging(
+    path: &Path,
+    opts: &ReadOptions,
+    kind: &str,
+    kind_as_is: bool,
+) -> Result<(RawSpectrum, String)> {
+    let (mut raw, sha) = read_checked(path, opts)?;
+    let k = quantity::SpectrumKind::parse(kind)
+        .ok_or_else(|| Error::Invalid(format!("unknown spectrum kind '{kind}' (abs, pl, ple)")))?;
+    match quantity::admit(&path.display().to_string(), &raw, k, kind_as_is).into_result()? {
+        quantity::Verdict::Accept { y_unit, warnings } | quantity::Verdict::Convert { y_unit, warnings, .. } => {
+            raw.y_unit = y_unit;
+            raw.warnings.extend(warnings);
+        }
+        quantity::Verdict::Refuse { message, .. } => return Err(Error::Invalid(message)),
+    }
+    Ok((raw, sha))
+}
+
+/// Refuses a file whose bytes are already logged in the batch (a folder imported twice, the
+/// same export picked again), naming where it is; `again` lets it through.
+fn refuse_duplicate(tx: &rusqlite::Connection, batch_id: i64, path: &Path, sha: &str) -> Result<()> {
+    if let Some((sid, aid)) = model::spectrum_in_batch(tx, batch_id, sha)? {
+        return Err(Error::Invalid(format!(
+            "{} is already logged in batch {batch_id} (spectrum {sid} of aliquot {aid}, same SHA-256); give --again to log it twice",
+            path.display()
+        )));
+    }
+    Ok(())
+}
+
 /// Logs one aliquot with its spectra and derives its values. Returns the summary.
 pub fn add_aliquot(
     store: &mut Store,
     a: &NewAliquot,
     files: &[SpectrumFile],
     opts: &ReadOptions,
+    door: &Door,
 ) -> Result<growth::AliquotSummary> {
     if files.is_empty() {
         return Err(Error::Invalid(
@@ -45,9 +90,14 @@ pub fn add_aliquot(
                 f.path.display()
             )));
         }
-        read.push((f, read_checked(&f.path, opts)?));
+        read.push((f, read_for_logging(&f.path, opts, f.kind, door.kind_as_is)?));
     }
     store.write(|tx, who| {
+        if !door.again {
+            for (f, (_, sha)) in &read {
+                refuse_duplicate(tx, a.batch_id, &f.path, sha)?;
+            }
+        }
         let id = model::insert_aliquot(tx, who, a)?;
         for (f, (raw, sha)) in &read {
             model::insert_spectrum(tx, who, &new_spectrum(Some(id), f, raw, sha))?;
@@ -100,7 +150,7 @@ pub struct VialMeasurement {
 pub fn measure_vial(store: &mut Store, vial: i64, abs: &Path, dilution: f64, path_cm: f64) -> Result<VialMeasurement> {
     model::check_number("dilution factor", dilution, false)?;
     model::check_number("path length (cm)", path_cm, false)?;
-    let (raw, sha) = read_checked(abs, &ReadOptions::default())?;
+    let (raw, sha) = read_for_logging(abs, &ReadOptions::default(), "abs", false)?;
     store.write(|tx, who| {
         let v = model::get_vial(tx, vial)?;
         if v.status == "disposed" {
@@ -117,10 +167,13 @@ pub fn measure_vial(store: &mut Store, vial: i64, abs: &Path, dilution: f64, pat
         };
         let mut ns = new_spectrum(None, &f, &raw, &sha);
         ns.vial_id = Some(vial);
+        ns.dilution_factor = Some(dilution);
+        ns.path_cm = Some(path_cm);
         let sid = model::insert_spectrum(tx, who, &ns)?;
-        let cal = crate::derive::calibration::latest(tx)?;
-        let t = raw.to_trace(&abs.display().to_string(), None)?;
-        let (r, values) = engine::derive_from_trace(&t, &core, dilution, path_cm, &cal.body)?;
+        let version = engine::effective_calibration_version(tx, v.batch_id)?;
+        let cal = crate::derive::calibration::get(tx, version)?;
+        let stored = model::get_spectrum(tx, sid)?;
+        let (r, values, conc) = engine::vial_measured(&stored, &core, dilution, path_cm, version, &cal.body)?;
         let get = |q: &str| engine::find_value(&values, q);
         let diameter = get("diameter_nm").filter(|d| d.value.is_some());
         let mut out = VialMeasurement {
@@ -130,18 +183,15 @@ pub fn measure_vial(store: &mut Store, vial: i64, abs: &Path, dilution: f64, pat
             diameter_nm: diameter.and_then(|d| d.value),
             curve: diameter.map(|d| d.method.clone()),
             extinction_m1cm1: get("extinction_m1cm1").and_then(|d| d.value),
-            concentration_molar: get("concentration_molar").and_then(|d| d.value),
-            calibration_version: cal.version,
-            warnings: r.warnings.clone(),
+            concentration_molar: conc.value,
+            calibration_version: version,
+            warnings: conc.warnings.clone(),
         };
-        for q in ["diameter_nm", "extinction_m1cm1", "concentration_molar"] {
-            out.warnings
-                .extend(get(q).map(|d| d.warnings.clone()).unwrap_or_default());
-        }
-        if let Some(c) = out.concentration_molar {
+        if out.concentration_molar.is_some() {
+            model::set_vial_concentration(tx, vial, &conc)?;
             tx.execute(
-                "UPDATE vial SET concentration_molar = ?1 WHERE id = ?2",
-                rusqlite::params![c, vial],
+                "INSERT INTO vial_event (vial_id, kind, who, why, at) VALUES (?1, 'measure', ?2, ?3, ?4)",
+                rusqlite::params![vial, who, format!("spectrum {sid}"), crate::store::now()],
             )?;
             crate::store::audit(
                 tx,
@@ -149,18 +199,36 @@ pub fn measure_vial(store: &mut Store, vial: i64, abs: &Path, dilution: f64, pat
                 "vial",
                 Some(vial),
                 "measure",
-                Some(&serde_json::json!({"concentration_molar": v.concentration_molar})),
-                Some(&serde_json::json!({"concentration_molar": c, "spectrum_id": sid,
-                    "method": get("concentration_molar").map(|d| d.method.clone()),
-                    "curve": out.curve, "calibration_version": cal.version})),
+                Some(&serde_json::json!({"concentration_molar": v.concentration_molar, "source": v.concentration_source})),
+                Some(&serde_json::json!({"concentration_molar": conc.value, "spectrum_id": sid,
+                    "method": conc.method, "curve": out.curve, "calibration_version": version})),
             )?;
-        }
-        if out.concentration_molar.is_none() {
+        } else {
             out.warnings
                 .push("no concentration derived: the vial's concentration is unchanged".into());
         }
         Ok(out)
     })
+}
+
+/// The kind of a spectrum file as the door decides it: the header first, then the name, then
+/// the shape of the values; a file it cannot place is an error naming it (never "absorbance"
+/// by default).
+pub fn kind_of_file(path: &Path) -> Result<&'static str> {
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_default();
+    let (raw, _) = read_checked(path, &ReadOptions::default())?;
+    let inf = quantity::infer_kind(&name, &raw);
+    match inf.kind {
+        Some(k) => Ok(k.as_str()),
+        None => Err(Error::Invalid(format!(
+            "{}: cannot tell whether it is absorbance, PL or PLE ({}); name it with abs, pl or ple",
+            path.display(),
+            inf.evidence
+        ))),
+    }
 }
 
 /// One aliquot's worth of files found in a folder.
@@ -187,15 +255,9 @@ pub fn group_folder(folder: &Path, excitation_nm: Option<f64>) -> Result<Vec<Fol
             .file_stem()
             .map(|s| s.to_string_lossy().to_ascii_lowercase())
             .unwrap_or_default();
-        let kind = if name.contains("ple") {
-            "ple"
-        } else if name
-            .split(|c: char| !c.is_ascii_alphanumeric())
-            .any(|w| w == "pl" || w.starts_with("pl") && w[2..].chars().all(|c| c.is_ascii_digit()))
-        {
-            "pl"
-        } else {
-            "abs"
+        let kind = match quantity::kind_from_name(&name) {
+            Some(k) => k.as_str(),
+            None => kind_of_file(&p)?,
         };
         let stage = ["crude", "washed", "purified", "final"]
             .iter()
@@ -253,14 +315,22 @@ fn minutes_in(name: &str) -> Option<f64> {
 }
 
 /// Imports a folder as aliquots of a batch in one transaction: all or nothing.
+/// What importing a folder did: the aliquots made and the files skipped as already logged.
+#[derive(Debug, Clone, Default, serde::Serialize)]
+pub struct ImportReport {
+    pub aliquots: Vec<i64>,
+    pub skipped: Vec<String>,
+}
+
 pub fn import_folder(
     store: &mut Store,
     batch_id: i64,
     folder: &Path,
     template: &NewAliquot,
     excitation_nm: Option<f64>,
+    door: &Door,
     mut progress: impl FnMut(usize, usize),
-) -> Result<Vec<i64>> {
+) -> Result<ImportReport> {
     let groups = group_folder(folder, excitation_nm)?;
     if groups.is_empty() {
         return Err(Error::Invalid(format!("no spectrum files in {}", folder.display())));
@@ -275,15 +345,34 @@ pub fn import_folder(
                     f.path.display()
                 )));
             }
-            files.push((f.clone(), read_checked(&f.path, &ReadOptions::default())?));
+            files.push((
+                f.clone(),
+                read_for_logging(&f.path, &ReadOptions::default(), f.kind, door.kind_as_is)?,
+            ));
         }
         read.push((g, files));
     }
     let total = read.len();
     store.write(|tx, who| {
         model::get_batch(tx, batch_id)?;
-        let mut ids = Vec::new();
+        let mut report = ImportReport::default();
         for (i, (g, files)) in read.iter().enumerate() {
+            // A file already in the batch is skipped and reported (a folder imported twice);
+            // an aliquot none of whose files are new is not made at all.
+            let fresh: Vec<_> = files
+                .iter()
+                .filter(|(f, (_, sha))| {
+                    let dup = !door.again && model::spectrum_in_batch(tx, batch_id, sha).ok().flatten().is_some();
+                    if dup {
+                        report.skipped.push(f.path.display().to_string());
+                    }
+                    !dup
+                })
+                .collect();
+            if fresh.is_empty() {
+                progress(i + 1, total);
+                continue;
+            }
             let a = NewAliquot {
                 batch_id,
                 minutes: g.minutes,
@@ -291,14 +380,14 @@ pub fn import_folder(
                 ..template.clone()
             };
             let id = model::insert_aliquot(tx, who, &a)?;
-            for (f, (raw, sha)) in files {
+            for (f, (raw, sha)) in fresh {
                 model::insert_spectrum(tx, who, &new_spectrum(Some(id), f, raw, sha))?;
             }
             engine::derive_aliquot(tx, id)?;
-            ids.push(id);
+            report.aliquots.push(id);
             progress(i + 1, total);
         }
-        Ok(ids)
+        Ok(report)
     })
 }
 

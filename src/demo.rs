@@ -453,7 +453,6 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                 model::set_batch_status(tx, op, bid, &plan.status)?;
             }
             if plan.status == "done" {
-                let conc = crate::report::product_concentration(tx, bid)?;
                 let nvials = if scale.is_some() {
                     1
                 } else {
@@ -481,11 +480,13 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                                 1 + rng.next_u64() % 25
                             )),
                             owner: Some(op.clone()),
-                            // Washed and redispersed stock, a quarter of the crude's strength.
-                            concentration_molar: conc.map(|c| c / 4.0),
+                            // No figure of its own: the estimate from the product aliquot,
+                            // labelled as one, until someone measures the vial.
+                            concentration_molar: None,
                             created_at: Some(format!("{day} 16:00")),
                         },
                     )?;
+                    engine::estimate_vial(tx, vid)?;
                     let draws = rng.next_u64() % 4;
                     let mut left = ml;
                     for _ in 0..draws {

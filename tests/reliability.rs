@@ -198,6 +198,8 @@ fn two_processes_writing_at_once_lose_nothing() {
                             s(&f),
                             "--minutes",
                             &i.to_string(),
+                            // The same export each time: logged on purpose.
+                            "--again",
                         ])
                         .output()
                         .unwrap()

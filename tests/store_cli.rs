@@ -223,10 +223,16 @@ fn migrates_an_empty_and_an_older_database_and_refuses_a_newer_one() {
         c.execute_batch("PRAGMA user_version = 1; INSERT INTO material (name, core) VALUES ('CdSe','CdSe');
             INSERT INTO batch (name, material_id, started_at, status) VALUES ('kept', 1, '2026-01-01T00:00:00Z', 'done');").unwrap();
     }
+    // A read migrates in memory only: the file stays at version 1, byte for byte.
+    let before = std::fs::read(&old).unwrap();
     let o = lab.run_on(&old, &["batch", "list", "--json"]);
     assert_eq!(o.code, 0, "{}", o.stderr);
-    assert!(o.stderr.contains("previous file is kept"), "{}", o.stderr);
     assert_eq!(o.json()[0]["name"], "kept");
+    assert_eq!(std::fs::read(&old).unwrap(), before, "a read changed an older lab");
+    // The first write migrates, keeping a copy of the old file.
+    let o = lab.run_on(&old, &["person", "add", "Wren Halloway"]);
+    assert_eq!(o.code, 0, "{}", o.stderr);
+    assert!(o.stderr.contains("previous file is kept"), "{}", o.stderr);
     let backups: Vec<_> = std::fs::read_dir(lab.dir.path())
         .unwrap()
         .filter_map(|e| e.ok())
@@ -238,7 +244,7 @@ fn migrates_an_empty_and_an_older_database_and_refuses_a_newer_one() {
     let newer = lab.path("newer.db");
     {
         let c = rusqlite::Connection::open(&newer).unwrap();
-        c.execute_batch("CREATE TABLE x (a); PRAGMA user_version = 99;")
+        c.execute_batch("CREATE TABLE x (a); PRAGMA user_version = 99; PRAGMA application_id = 1129666132;")
             .unwrap();
     }
     let bytes = std::fs::read(&newer).unwrap();
@@ -246,6 +252,29 @@ fn migrates_an_empty_and_an_older_database_and_refuses_a_newer_one() {
     assert_eq!(o.code, 1);
     assert!(o.stderr.contains("newer than this cuvette understands"), "{}", o.stderr);
     assert_eq!(std::fs::read(&newer).unwrap(), bytes);
+    // Another application's SQLite file, whatever its user_version, is refused untouched.
+    for (i, pragma) in [
+        "PRAGMA user_version = 3;",
+        "PRAGMA user_version = 99;",
+        "PRAGMA application_id = 7; PRAGMA user_version = 2;",
+    ]
+    .iter()
+    .enumerate()
+    {
+        let other = lab.path(&format!("other{i}.db"));
+        {
+            let c = rusqlite::Connection::open(&other).unwrap();
+            c.execute_batch(&format!("CREATE TABLE notes (t TEXT); {pragma}"))
+                .unwrap();
+        }
+        let bytes = std::fs::read(&other).unwrap();
+        for args in [&["batch", "list"][..], &["person", "add", "X"][..]] {
+            let o = lab.run_on(&other, args);
+            assert_eq!(o.code, 1, "{pragma} {args:?}: {}", o.stderr);
+            assert!(o.stderr.contains("not a cuvette database"), "{}", o.stderr);
+        }
+        assert_eq!(std::fs::read(&other).unwrap(), bytes, "{pragma}: the file was changed");
+    }
 
     // A file that is not SQLite.
     let text = lab.write("notes.db", "this is a lab notebook, not a database\n");
@@ -373,7 +402,7 @@ fn bad_input_is_refused_with_one_line_and_no_change() {
     );
     lab.refuses(
         &["vial", "new", &bs, "--ml", "-1", "--location", "Fridge A"],
-        "volume (mL) must be zero or more",
+        "volume must be above zero",
     );
     lab.refuses(
         &["vial", "new", &bs, "--ml", "1", "--location", "Attic"],

@@ -790,7 +790,11 @@ fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
                 x_unit: a.x_unit.clone(),
                 block: a.block.clone(),
             };
-            let s = bench::add_aliquot(&mut store, &na, &files, &opts)?;
+            let door = bench::Door {
+                again: a.again,
+                kind_as_is: a.kind_as_is,
+            };
+            let s = bench::add_aliquot(&mut store, &na, &files, &opts, &door)?;
             if a.json {
                 json(&s)?;
             } else {
@@ -938,10 +942,6 @@ fn vial(cli: &Cli, c: &VialCmd) -> Result<()> {
             json: j,
         } => {
             let v = store.write(|tx, who| {
-                let conc = match conc {
-                    Some(c) => Some(*c),
-                    None => crate::report::product_concentration(tx, *batch_id)?,
-                };
                 let id = model::insert_vial(
                     tx,
                     who,
@@ -953,10 +953,13 @@ fn vial(cli: &Cli, c: &VialCmd) -> Result<()> {
                         location: location.clone(),
                         position: position.clone(),
                         owner: owner.clone(),
-                        concentration_molar: conc,
+                        concentration_molar: *conc,
                         created_at: None,
                     },
                 )?;
+                if conc.is_none() {
+                    engine::estimate_vial(tx, id)?;
+                }
                 model::get_vial(tx, id)
             })?;
             print_vial(&v, *j)?;
@@ -1935,13 +1938,32 @@ fn import(cli: &Cli, a: &ImportArgs) -> Result<()> {
         taken_at: None,
     };
     let progress = Progress::new("import", a.json);
-    let ids = bench::import_folder(&mut store, a.batch_id, &a.folder, &template, a.excitation_nm, |d, t| {
-        progress.tick(d, t)
-    })?;
+    let door = bench::Door {
+        again: a.again,
+        kind_as_is: a.kind_as_is,
+    };
+    let r = bench::import_folder(
+        &mut store,
+        a.batch_id,
+        &a.folder,
+        &template,
+        a.excitation_nm,
+        &door,
+        |d, t| progress.tick(d, t),
+    )?;
     if a.json {
-        return json(&json!({"batch_id": a.batch_id, "aliquots": ids}));
+        return json(&json!({"batch_id": a.batch_id, "aliquots": r.aliquots, "skipped": r.skipped}));
     }
-    line(&format!("imported {} aliquots into batch {}", ids.len(), a.batch_id))?;
+    line(&format!(
+        "imported {} aliquots into batch {}",
+        r.aliquots.len(),
+        a.batch_id
+    ))?;
+    for f in &r.skipped {
+        line(&format!(
+            "  skipped {f}: already logged in this batch (give --again to log it twice)"
+        ))?;
+    }
     let _ = output::num(None, 0);
     Ok(())
 }
@@ -1981,10 +2003,18 @@ fn import_manifest(cli: &Cli, a: &ManifestArgs) -> Result<ExitCode> {
             solvent: r.solvent.clone().unwrap_or_else(|| "hexane".into()),
             taken_at: None,
         };
-        match bench::import_folder(&mut store, r.batch_id, &folder, &template, r.excitation_nm, |_, _| {}) {
-            Ok(ids) => {
-                results.push(json!({"batch_id": r.batch_id, "folder": folder.display().to_string(), "aliquots": ids}))
-            }
+        match bench::import_folder(
+            &mut store,
+            r.batch_id,
+            &folder,
+            &template,
+            r.excitation_nm,
+            &bench::Door::default(),
+            |_, _| {},
+        ) {
+            Ok(ids) => results.push(
+                json!({"batch_id": r.batch_id, "folder": folder.display().to_string(), "aliquots": ids.aliquots, "skipped": ids.skipped}),
+            ),
             Err(e) => {
                 failed = true;
                 eprintln!(

@@ -1408,3 +1408,16 @@ pub fn verify_values(conn: &Connection, deep: bool) -> Result<(usize, Vec<Proble
     }
     Ok((checked, problems))
 }
+
+/// Gives a new vial without a figure of its own the estimate carried over from its batch's
+/// product aliquot, labelled as an estimate. Returns whether there was one to give.
+pub fn estimate_vial(tx: &Connection, vial_id: i64) -> Result<bool> {
+    let v = crate::store::model::get_vial(tx, vial_id)?;
+    match vial_estimate(tx, v.batch_id)? {
+        Some(e) if e.value.is_some() => {
+            crate::store::model::set_vial_concentration(tx, vial_id, &e)?;
+            Ok(true)
+        }
+        _ => Ok(false),
+    }
+}

@@ -191,7 +191,7 @@ fn table_columns(conn: &Connection, schema: &str) -> Result<Vec<(String, Vec<Str
     let names: Vec<String> = st.query_map([], |r| r.get(0))?.collect::<rusqlite::Result<_>>()?;
     let mut out = Vec::new();
     for n in names {
-        let mut c = conn.prepare(&format!("SELECT name FROM pragma_table_info(?1, ?2) ORDER BY cid"))?;
+        let mut c = conn.prepare("SELECT name FROM pragma_table_info(?1, ?2) ORDER BY cid")?;
         let cols: Vec<String> = c
             .query_map(params![n, schema], |r| r.get(0))?
             .collect::<rusqlite::Result<_>>()?;

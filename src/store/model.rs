@@ -1045,6 +1045,19 @@ pub fn spectra_of_aliquots_in(
     Ok(out)
 }
 
+/// A spectrum with this file hash already logged in a batch (voided aliquots do not count):
+/// (spectrum id, aliquot id).
+pub fn spectrum_in_batch(conn: &Connection, batch_id: i64, sha256: &str) -> Result<Option<(i64, i64)>> {
+    Ok(conn
+        .query_row(
+            "SELECT s.id, a.id FROM spectrum s JOIN aliquot a ON a.id = s.aliquot_id
+             WHERE a.batch_id = ?1 AND s.sha256 = ?2 AND a.voided_at IS NULL LIMIT 1",
+            params![batch_id, sha256],
+            |r| Ok((r.get(0)?, r.get(1)?)),
+        )
+        .optional()?)
+}
+
 pub fn get_spectrum(conn: &Connection, id: i64) -> Result<SpectrumRow> {
     let raw = conn
         .query_row(

@@ -616,7 +616,14 @@ impl App {
                     solvent: f.get("solvent"),
                     taken_at: None,
                 };
-                let s = bench::add_aliquot(&mut self.store, &a, &files, &Default::default()).map_err(e)?;
+                let s = bench::add_aliquot(
+                    &mut self.store,
+                    &a,
+                    &files,
+                    &Default::default(),
+                    &bench::Door::default(),
+                )
+                .map_err(e)?;
                 self.open_sheet(batch).map_err(e)?;
                 Ok(format!(
                     "aliquot {}: first exciton {} nm, D {} nm ({})",
@@ -643,15 +650,9 @@ impl App {
                 let id = self
                     .store
                     .write(|tx, who| {
-                        let c = crate::report::product_concentration(tx, batch)?;
-                        model::insert_vial(
-                            tx,
-                            who,
-                            &model::NewVial {
-                                concentration_molar: c,
-                                ..nv.clone()
-                            },
-                        )
+                        let id = model::insert_vial(tx, who, &nv)?;
+                        engine::estimate_vial(tx, id)?;
+                        Ok(id)
                     })
                     .map_err(e)?;
                 Ok(format!("vial {id} on the shelf"))
@@ -773,7 +774,7 @@ impl App {
                 solvent: "hexane".into(),
                 taken_at: None,
             };
-            let r = bench::import_folder(&mut store, batch, &folder, &t, ex, |d, n| {
+            let r = bench::import_folder(&mut store, batch, &folder, &t, ex, &bench::Door::default(), |d, n| {
                 let _ = tx.send(Note::Progress {
                     label: "import".into(),
                     done: d,
@@ -781,7 +782,12 @@ impl App {
                 });
             });
             let _ = tx.send(match r {
-                Ok(ids) => Note::Done(format!("imported {} aliquots", ids.len())),
+                Ok(r) if r.skipped.is_empty() => Note::Done(format!("imported {} aliquots", r.aliquots.len())),
+                Ok(r) => Note::Done(format!(
+                    "imported {} aliquots; skipped {} files already in this batch",
+                    r.aliquots.len(),
+                    r.skipped.len()
+                )),
                 Err(e) => Note::Failed(e.to_string()),
             });
         });
@@ -840,12 +846,36 @@ impl App {
                         solvent: "hexane".into(),
                         taken_at: None,
                     };
+                    // The kind is decided as the door decides it (header, name, then shape), never
+                    // assumed; a file it cannot place is reported and left alone.
+                    let kind = match bench::kind_of_file(&p) {
+                        Ok(k) => k,
+                        Err(e) => {
+                            let _ = tx.send(Note::Progress {
+                                label: format!("watch: skipped {e}"),
+                                done: added,
+                                total: added,
+                            });
+                            continue;
+                        }
+                    };
+                    if kind == "pl" {
+                        let _ = tx.send(Note::Progress {
+                            label: format!(
+                                "watch: {} is PL; log it with its excitation wavelength (a)",
+                                p.display()
+                            ),
+                            done: added,
+                            total: added,
+                        });
+                        continue;
+                    }
                     let f = SpectrumFile {
                         path: p.clone(),
-                        kind: "abs",
+                        kind,
                         excitation_nm: None,
                     };
-                    match bench::add_aliquot(&mut store, &a, &[f], &Default::default()) {
+                    match bench::add_aliquot(&mut store, &a, &[f], &Default::default(), &bench::Door::default()) {
                         Ok(s) => {
                             added += 1;
                             let _ = tx.send(Note::Progress {

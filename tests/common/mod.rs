@@ -100,7 +100,7 @@ impl Lab {
     pub fn pl_file(&self, name: &str, peak_nm: f64, integral: f64) -> PathBuf {
         let (x, y) =
             cuvette::demo::photoluminescence("CdSe", peak_nm, 0.045, integral, 2.0, &mut cuvette::demo::Rng::new(3));
-        self.write(name, &csv(&x, &y))
+        self.write(name, &csv(&x, &y).replacen("Absorbance", "Intensity (counts)", 1))
     }
 }
 
