@@ -57,11 +57,11 @@ fn open(cli: &Cli) -> Result<Store> {
     }
     let store = Store::open(&path, &actor(cli)).map_err(|e| anyhow!("{}: {e}", path.display()))?;
     if let Some(b) = &store.migrated_backup {
-        eprintln!(
-            "cuvette: migrated {}; the previous file is kept at {}",
+        output::warn(&format!(
+            "migrated {}; the previous file is kept at {}",
             path.display(),
             b.display()
-        );
+        ));
     }
     Ok(store)
 }
@@ -1026,7 +1026,7 @@ fn analyze(a: &AnalyzeArgs) -> Result<ExitCode> {
     for v in &results {
         if let Some(e) = v.get("error").and_then(|e| e.as_str()) {
             failed = true;
-            eprintln!("cuvette: refused {e}");
+            output::warn(&format!("refused {e}"));
         }
         if a.json {
             json_line(v)?;
@@ -1778,11 +1778,11 @@ fn import_manifest(cli: &Cli, a: &ManifestArgs) -> Result<ExitCode> {
             }
             Err(e) => {
                 failed = true;
-                eprintln!(
-                    "cuvette: batch {} ({}): {e}; nothing imported for it",
+                output::warn(&format!(
+                    "batch {} ({}): {e}; nothing imported for it",
                     r.batch_id,
                     folder.display()
-                );
+                ));
                 results.push(
                     json!({"batch_id": r.batch_id, "folder": folder.display().to_string(), "error": e.to_string()}),
                 );
