@@ -212,3 +212,96 @@ fn json_output_escapes_c1_and_bidi_controls_and_keeps_the_data() {
     );
     assert_eq!(b["notes"].as_str().unwrap(), hostile("@note\nsecond line\r"));
 }
+
+/// Every cell of a CSV file, read back with the csv crate, by column name.
+fn read_csv(path: &std::path::Path) -> Vec<std::collections::BTreeMap<String, String>> {
+    let mut r = csv::Reader::from_path(path).unwrap();
+    let head: Vec<String> = r.headers().unwrap().iter().map(String::from).collect();
+    r.records()
+        .map(|rec| {
+            let rec = rec.unwrap();
+            head.iter().cloned().zip(rec.iter().map(String::from)).collect()
+        })
+        .collect()
+}
+
+/// A spreadsheet runs a cell as a formula when it starts with one of these (OWASP's
+/// CSV-injection guidance).
+fn formula_start(cell: &str) -> bool {
+    cell.starts_with(['=', '+', '-', '@', '\t', '\r'])
+}
+
+#[test]
+fn csv_cells_that_a_spreadsheet_would_run_are_neutralised() {
+    let lab = hostile_lab();
+    // An aliquot whose spectrum sits below zero (a baseline set on a darker blank), so the
+    // export carries negative absorbances that must stay numbers.
+    let (x, y) = cuvette::demo::absorbance("CdSe", 540.0, 0.04, 0.1, 0.0, &mut cuvette::demo::Rng::new(7));
+    let y: Vec<f64> = y.iter().map(|v| v - 0.5).collect();
+    let low = lab.write("low.csv", &csv(&x, &y));
+    lab.ok(&["aliquot", "add", "1", "--abs", s(&low), "--minutes", "4"]);
+    let dir = lab.path("si");
+    lab.ok(&["export", "--format", "csv", "--out", s(&dir)]);
+    let batches = read_csv(&dir.join("batches.csv"));
+    let b = &batches[0];
+    for col in ["name", "operator", "notes"] {
+        assert!(b[col].starts_with('\''), "{col}: {:?}", b[col]);
+        assert_eq!(
+            &b[col][1..],
+            &lab.ok(&["batch", "show", "1", "--json"]).json()[col]
+                .as_str()
+                .unwrap()
+                .to_string(),
+            "{col} keeps its text after the quote"
+        );
+    }
+    let aliquots = read_csv(&dir.join("aliquots.csv"));
+    assert!(aliquots.iter().any(|a| a["stage"].starts_with("'=cmd")), "{aliquots:?}");
+    let values = read_csv(&dir.join("derived_values.csv"));
+    let negative: Vec<&String> = values
+        .iter()
+        .map(|v| &v["value"])
+        .filter(|v| v.starts_with('-'))
+        .collect();
+    assert!(!negative.is_empty(), "a negative absorbance is exported");
+    for v in &negative {
+        assert!(v.parse::<f64>().unwrap() < 0.0, "stays a number: {v}");
+    }
+    for (file, rows) in [("batches", &batches), ("aliquots", &aliquots)] {
+        for row in rows.iter() {
+            for (col, cell) in row {
+                assert!(!formula_start(cell), "{file}.csv {col} = {cell:?}");
+            }
+        }
+    }
+    for row in &values {
+        for (col, cell) in row {
+            assert!(
+                col == "value" || !formula_start(cell),
+                "derived_values.csv {col} = {cell:?}"
+            );
+        }
+    }
+
+    // The handover pack's inventory.
+    lab.ok(&["person", "add", "Bob Example"]);
+    let pack = lab.path("pack");
+    lab.ok(&[
+        "handover",
+        "--from",
+        &hostile("=Ann"),
+        "--to",
+        "Bob Example",
+        "--out",
+        s(&pack),
+    ]);
+    let inv = read_csv(&pack.join("inventory.csv"));
+    assert_eq!(inv.len(), 1);
+    for col in ["label", "location", "position"] {
+        assert!(inv[0][col].starts_with('\''), "{col}: {:?}", inv[0][col]);
+    }
+    for (col, cell) in &inv[0] {
+        assert!(!formula_start(cell), "inventory.csv {col} = {cell:?}");
+    }
+    assert_eq!(inv[0]["volume_ml"].parse::<f64>().unwrap(), 2.0);
+}

@@ -10,6 +10,7 @@
 
 use super::{plot, shelf_entry};
 use crate::error::{Error, Result, invalid};
+use crate::safe_text::{csv_number, csv_text};
 use crate::store::{Store, audit, model, now};
 use rusqlite::{Connection, params};
 use serde::Serialize;
@@ -387,16 +388,16 @@ fn write_pack(
     for v in &vials {
         w.write_record([
             v.id.to_string(),
-            v.label.clone(),
+            csv_text(&v.label).into_owned(),
             v.batch_id.to_string(),
-            v.material.clone(),
-            v.location.clone(),
-            v.position.clone().unwrap_or_default(),
+            csv_text(&v.material).into_owned(),
+            csv_text(&v.location).into_owned(),
+            csv_text(v.position.as_deref().unwrap_or_default()).into_owned(),
             format!("{:.4}", v.volume_ml),
-            v.solvent.clone(),
-            v.concentration_molar.map(|c| c.to_string()).unwrap_or_default(),
-            to.to_string(),
-            v.status.clone(),
+            csv_text(&v.solvent).into_owned(),
+            v.concentration_molar.map(csv_number).unwrap_or_default(),
+            csv_text(to).into_owned(),
+            csv_text(&v.status).into_owned(),
         ])
         .map_err(|e| Error::Invalid(format!("csv: {e}")))?;
     }
