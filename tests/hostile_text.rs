@@ -305,3 +305,182 @@ fn csv_cells_that_a_spreadsheet_would_run_are_neutralised() {
     }
     assert_eq!(inv[0]["volume_ml"].parse::<f64>().unwrap(), 2.0);
 }
+
+/// Every text node of an SVG, which must parse as strict XML.
+fn svg_texts(svg: &str, what: &str) -> Vec<String> {
+    let doc = roxmltree::Document::parse(svg).unwrap_or_else(|e| panic!("{what} is not well-formed XML: {e}"));
+    assert!(
+        doc.descendants()
+            .all(|n| !n.is_element() || n.tag_name().name() != "script"),
+        "{what} holds a script element"
+    );
+    doc.descendants()
+        .filter(|n| n.is_text())
+        .map(|n| n.text().unwrap_or("").to_string())
+        .collect()
+}
+
+const MARKUP_NAME: &str = "-B1 <script>alert(1)</script> ]]> & \"q\" 'a'";
+
+#[test]
+fn svg_and_html_are_well_formed_whatever_the_names_hold() {
+    let lab = hostile_lab();
+    let out = lab.path("b1.svg");
+    lab.ok(&["plot", "1", "--out", s(&out)]);
+    let svg = std::fs::read_to_string(&out).unwrap();
+    let texts = svg_texts(&svg, "plot --out");
+    assert!(
+        texts.iter().any(|t| t.contains(MARKUP_NAME) && t.contains("pwned")),
+        "the batch name is text in the title: {texts:?}"
+    );
+    assert!(
+        texts.iter().any(|t| t.contains("=cmd|' /C calc'!A0 </text><x>")),
+        "the stage is a legend text: {texts:?}"
+    );
+    // The SVG on stdout is the same document.
+    svg_texts(&lab.ok(&["plot", "1"]).stdout, "plot to stdout");
+
+    lab.ok(&["person", "add", "Bob Example"]);
+    let pack = lab.path("pack");
+    lab.ok(&[
+        "handover",
+        "--from",
+        &hostile("=Ann"),
+        "--to",
+        "Bob Example",
+        "--out",
+        s(&pack),
+    ]);
+    let html = std::fs::read_to_string(pack.join("index.html")).unwrap();
+    assert!(
+        !html.chars().any(|c| is_hazard(c) && c != '\n'),
+        "no control character in the pack"
+    );
+    let doc = scraper::Html::parse_document(&html);
+    assert!(doc.errors.is_empty(), "HTML parse errors: {:?}", doc.errors);
+    let sel = |q: &str| scraper::Selector::parse(q).unwrap();
+    assert_eq!(doc.select(&sel("script")).count(), 0, "a name became a script element");
+    assert_eq!(doc.select(&sel("x")).count(), 0, "a stage became an element");
+    let h2: Vec<String> = doc
+        .select(&sel("section.batch h2"))
+        .map(|e| e.text().collect())
+        .collect();
+    assert!(h2.iter().any(|t| t.contains(MARKUP_NAME)), "the name is text: {h2:?}");
+    let label: String = doc.select(&sel("div.label b")).flat_map(|e| e.text()).collect();
+    assert!(label.starts_with("=HYPERLINK(\"http://x\")"), "{label}");
+    let title: String = doc.select(&sel("title")).flat_map(|e| e.text()).collect();
+    assert!(title.contains("=Ann"), "{title}");
+    // Each inline plot is itself well-formed XML.
+    let mut rest = html.as_str();
+    let mut plots = 0;
+    while let Some(start) = rest.find("<svg") {
+        let end = rest[start..].find("</svg>").unwrap() + start + "</svg>".len();
+        svg_texts(&rest[start..end], "an inline plot");
+        plots += 1;
+        rest = &rest[end..];
+    }
+    assert_eq!(plots, 1);
+}
+
+fn item(
+    label: &str,
+    minutes: Option<f64>,
+    nm: Vec<f64>,
+    y: Vec<f64>,
+    diameter_nm: Option<f64>,
+) -> cuvette::report::plot::SeriesItem {
+    cuvette::report::plot::SeriesItem {
+        label: label.into(),
+        minutes,
+        abs: Some(cuvette::spectra::Trace {
+            nm: nm.clone(),
+            y: y.clone(),
+        }),
+        pl: Some(cuvette::spectra::Trace { nm, y }),
+        peak_nm: None,
+        diameter_nm,
+        dispersion_pct: diameter_nm.map(|d| d * 2.0),
+    }
+}
+
+#[test]
+fn a_plot_of_extreme_values_is_drawn_or_refused_never_loops() {
+    // Synthetic inputs at the edges of f64 and of a series: one point, equal values, the
+    // largest finite numbers, NaN and infinities among good points.
+    let cases: Vec<(&str, Vec<cuvette::report::plot::SeriesItem>)> = vec![
+        (
+            "one point",
+            vec![item("a", Some(1.0), vec![500.0], vec![0.1], Some(3.0))],
+        ),
+        (
+            "equal values",
+            vec![
+                item(
+                    "a",
+                    Some(2.0),
+                    vec![500.0, 500.0, 500.0],
+                    vec![0.2, 0.2, 0.2],
+                    Some(3.0),
+                ),
+                item("b", Some(2.0), vec![500.0, 500.0], vec![0.2, 0.2], Some(3.0)),
+            ],
+        ),
+        (
+            "1e308",
+            vec![item(
+                "a",
+                Some(1e308),
+                vec![400.0, 1e308],
+                vec![1e308, -1e308],
+                Some(1e308),
+            )],
+        ),
+        (
+            "tiny span",
+            vec![item(
+                "a",
+                Some(1.0),
+                vec![500.0, 500.0 + 1e-12],
+                vec![1e-300, 2e-300],
+                Some(1e-300),
+            )],
+        ),
+        (
+            "not finite among good points",
+            vec![
+                item(
+                    "a",
+                    Some(f64::NAN),
+                    vec![400.0, f64::NAN, 500.0, f64::INFINITY],
+                    vec![0.1, 0.2, f64::NAN, 0.3],
+                    Some(f64::INFINITY),
+                ),
+                item("b", Some(3.0), vec![450.0, 460.0], vec![0.1, 0.15], Some(3.2)),
+            ],
+        ),
+        (
+            "nothing finite",
+            vec![item(
+                "a",
+                Some(f64::NAN),
+                vec![f64::NAN],
+                vec![f64::NAN],
+                Some(f64::NAN),
+            )],
+        ),
+        (
+            "negative minutes and sizes",
+            vec![item("a", Some(-5.0), vec![400.0, 500.0], vec![-0.1, -0.2], Some(-1.0))],
+        ),
+    ];
+    for (what, items) in cases {
+        let svg = cuvette::report::plot_series_svg(what, &items).unwrap_or_else(|e| panic!("{what}: {e}"));
+        // Bounded output: a handful of ticks and the points, not a runaway of grid lines.
+        assert!(svg.len() < 200_000, "{what}: {} bytes", svg.len());
+        assert!(
+            !svg.contains("NaN") && !svg.contains("inf"),
+            "{what}: a non-finite coordinate was written"
+        );
+        svg_texts(&svg, what);
+    }
+}

@@ -27,11 +27,11 @@ pub struct HandoverReport {
     pub files: Vec<String>,
 }
 
+/// Every piece of stored text goes into the page through here: markup characters as entities,
+/// and the controls HTML and XML must not carry shown visibly, so the pack is well-formed
+/// whatever a name holds.
 fn esc(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
+    crate::safe_text::markup(s)
 }
 
 fn n(v: Option<f64>, d: usize) -> String {
@@ -235,7 +235,7 @@ fn write_pack(
                 .parent_batch_id
                 .map(|p| format!(
                     ", made from batch {p} ({})",
-                    batch.parent_relation.clone().unwrap_or_default()
+                    esc(batch.parent_relation.as_deref().unwrap_or_default())
                 ))
                 .unwrap_or_default()
         );
