@@ -484,3 +484,57 @@ fn a_plot_of_extreme_values_is_drawn_or_refused_never_loops() {
         svg_texts(&svg, what);
     }
 }
+
+#[cfg(unix)]
+#[test]
+fn plot_and_export_never_clobber_a_file_or_write_through_a_symlink_without_force() {
+    let lab = hostile_lab();
+    let outside = tempfile::tempdir().unwrap();
+    let precious = outside.path().join("precious.txt");
+    std::fs::write(&precious, "keep me").unwrap();
+
+    // plot --out: an existing file, then a symlink out of the folder.
+    let svg = lab.write("old.svg", "an older plot");
+    lab.refuses(&["plot", "1", "--out", s(&svg)], "already exists");
+    assert_eq!(std::fs::read_to_string(&svg).unwrap(), "an older plot");
+    let link = lab.path("link.svg");
+    std::os::unix::fs::symlink(&precious, &link).unwrap();
+    lab.refuses(&["plot", "1", "--out", s(&link)], "symbolic link");
+    assert_eq!(std::fs::read_to_string(&precious).unwrap(), "keep me");
+    let dangling = lab.path("dangling.svg");
+    std::os::unix::fs::symlink(outside.path().join("new.svg"), &dangling).unwrap();
+    lab.refuses(&["plot", "1", "--out", s(&dangling)], "symbolic link");
+    assert!(
+        !outside.path().join("new.svg").exists(),
+        "nothing created through a dangling link"
+    );
+    // --force overwrites, and follows the link the user chose to write through.
+    lab.ok(&["plot", "1", "--out", s(&svg), "--force"]);
+    assert!(std::fs::read_to_string(&svg).unwrap().starts_with("<svg"));
+    lab.ok(&["plot", "1", "--out", s(&link), "--force"]);
+    assert!(std::fs::read_to_string(&precious).unwrap().starts_with("<svg"));
+
+    // export --out: one file already there refuses the whole export before anything is written.
+    let dir = lab.path("si");
+    std::fs::create_dir(&dir).unwrap();
+    std::fs::write(dir.join("derived_values.csv"), "mine").unwrap();
+    lab.refuses(&["export", "--format", "csv", "--out", s(&dir)], "already exists");
+    assert!(
+        !dir.join("batches.csv").exists() && !dir.join("aliquots.csv").exists(),
+        "no partial export"
+    );
+    assert_eq!(std::fs::read_to_string(dir.join("derived_values.csv")).unwrap(), "mine");
+    std::fs::remove_file(dir.join("derived_values.csv")).unwrap();
+    std::fs::write(&precious, "keep me").unwrap();
+    std::os::unix::fs::symlink(&precious, dir.join("batches.csv")).unwrap();
+    lab.refuses(&["export", "--format", "csv", "--out", s(&dir)], "symbolic link");
+    assert_eq!(std::fs::read_to_string(&precious).unwrap(), "keep me");
+    assert!(!dir.join("aliquots.csv").exists(), "no partial export");
+    lab.ok(&["export", "--format", "csv", "--out", s(&dir), "--force"]);
+    assert!(std::fs::read_to_string(&precious).unwrap().starts_with("id,name"));
+    // Exporting twice into one folder is refused the second time, JSON as CSV.
+    let j = lab.path("js");
+    lab.ok(&["export", "--format", "json", "--out", s(&j)]);
+    lab.refuses(&["export", "--format", "json", "--out", s(&j)], "already exists");
+    lab.ok(&["export", "--format", "json", "--out", s(&j), "--force"]);
+}

@@ -742,6 +742,9 @@ pub struct PlotArgs {
     pub batch: i64,
     #[arg(long)]
     pub out: Option<PathBuf>,
+    /// Overwrite an existing --out file, or write through a symbolic link.
+    #[arg(long)]
+    pub force: bool,
 }
 
 #[derive(Debug, Clone, Copy, ValueEnum, PartialEq, Eq)]
@@ -756,6 +759,9 @@ pub struct ExportArgs {
     pub format: ExportFormat,
     #[arg(long)]
     pub out: Option<PathBuf>,
+    /// Overwrite existing export files, or write through symbolic links.
+    #[arg(long)]
+    pub force: bool,
 }
 
 #[derive(Debug, Args)]

@@ -129,7 +129,10 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
             let svg = store.read(|tx| crate::report::plot_batch_svg(tx, a.batch))?;
             match &a.out {
                 Some(p) => {
-                    std::fs::write(p, svg).with_context(|| format!("cannot write {}", p.display()))?;
+                    use std::io::Write as _;
+                    let mut f = crate::report::create_output(p, a.force)?;
+                    f.write_all(svg.as_bytes())
+                        .with_context(|| format!("cannot write {}", p.display()))?;
                     line(&format!("wrote {}", p.display()))?;
                 }
                 None => line(&svg)?,
@@ -137,8 +140,8 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
         }
         Cmd::Export(a) => {
             let mut store = open(&cli)?;
-            let written =
-                store.read(|tx| crate::report::export(tx, a.format == ExportFormat::Json, a.out.as_deref()))?;
+            let written = store
+                .read(|tx| crate::report::export(tx, a.format == ExportFormat::Json, a.out.as_deref(), a.force))?;
             for w in written {
                 line(&w)?;
             }

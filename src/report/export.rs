@@ -3,12 +3,14 @@
 //! Text cells that a spreadsheet would run as a formula get a leading quote; the numbers
 //! cuvette formats stay numbers. The JSON escapes the controls serde_json leaves raw.
 
+use super::create_outputs;
 use crate::derive::engine;
 use crate::error::{Error, Result};
 use crate::safe_text::{csv_number, csv_text};
 use crate::store::model;
 use rusqlite::Connection;
-use std::path::Path;
+use std::io::Write as _;
+use std::path::{Path, PathBuf};
 
 /// A text cell no spreadsheet will run as a formula; numbers go through `csv_number`.
 fn text(s: &str) -> String {
@@ -19,8 +21,10 @@ fn csv_err(e: csv::Error) -> Error {
     Error::Invalid(format!("csv: {e}"))
 }
 
-/// Writes the export into `out` (default `export/`); returns the files written.
-pub fn export(conn: &Connection, as_json: bool, out: Option<&Path>) -> Result<Vec<String>> {
+/// Writes the export into `out` (default `export/`); returns the files written. Without
+/// `force` no existing file is overwritten and no symbolic link followed: the export is
+/// refused before anything is written.
+pub fn export(conn: &Connection, as_json: bool, out: Option<&Path>, force: bool) -> Result<Vec<String>> {
     let dir = out.unwrap_or(Path::new("export"));
     std::fs::create_dir_all(dir).map_err(|e| Error::Invalid(format!("cannot create {}: {e}", dir.display())))?;
     let batches = model::list_batches(conn)?;
@@ -32,16 +36,27 @@ pub fn export(conn: &Connection, as_json: bool, out: Option<&Path>) -> Result<Ve
             aliquots.push(a);
         }
     }
-    let mut written = Vec::new();
+    let names: &[&str] = if as_json {
+        &["cuvette-export.json"]
+    } else {
+        &["batches.csv", "aliquots.csv", "derived_values.csv"]
+    };
+    let paths: Vec<PathBuf> = names.iter().map(|n| dir.join(n)).collect();
+    let written: Vec<String> = paths.iter().map(|p| p.display().to_string()).collect();
+    let mut files = create_outputs(&paths, force)?.into_iter();
+    let mut next = || {
+        files
+            .next()
+            .ok_or_else(|| Error::Invalid("export: fewer files opened than written".into()))
+    };
     if as_json {
-        let p = dir.join("cuvette-export.json");
         let v = serde_json::json!({"batches": batches, "aliquots": aliquots, "derived_values": values});
-        std::fs::write(&p, crate::safe_text::json_text(serde_json::to_string_pretty(&v)?))?;
-        written.push(p.display().to_string());
+        let mut f = next()?;
+        f.write_all(crate::safe_text::json_text(serde_json::to_string_pretty(&v)?).as_bytes())?;
+        f.sync_all()?;
         return Ok(written);
     }
-    let p = dir.join("batches.csv");
-    let mut w = csv::Writer::from_path(&p).map_err(csv_err)?;
+    let mut w = csv::Writer::from_writer(next()?);
     w.write_record([
         "id",
         "name",
@@ -73,9 +88,7 @@ pub fn export(conn: &Connection, as_json: bool, out: Option<&Path>) -> Result<Ve
         .map_err(csv_err)?;
     }
     w.flush()?;
-    written.push(p.display().to_string());
-    let p = dir.join("aliquots.csv");
-    let mut w = csv::Writer::from_path(&p).map_err(csv_err)?;
+    let mut w = csv::Writer::from_writer(next()?);
     w.write_record([
         "id",
         "batch_id",
@@ -101,9 +114,7 @@ pub fn export(conn: &Connection, as_json: bool, out: Option<&Path>) -> Result<Ve
         .map_err(csv_err)?;
     }
     w.flush()?;
-    written.push(p.display().to_string());
-    let p = dir.join("derived_values.csv");
-    let mut w = csv::Writer::from_path(&p).map_err(csv_err)?;
+    let mut w = csv::Writer::from_writer(next()?);
     w.write_record([
         "aliquot_id",
         "quantity",
@@ -131,6 +142,5 @@ pub fn export(conn: &Connection, as_json: bool, out: Option<&Path>) -> Result<Ve
         .map_err(csv_err)?;
     }
     w.flush()?;
-    written.push(p.display().to_string());
     Ok(written)
 }
