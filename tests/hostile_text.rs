@@ -538,3 +538,42 @@ fn plot_and_export_never_clobber_a_file_or_write_through_a_symlink_without_force
     lab.refuses(&["export", "--format", "json", "--out", s(&j)], "already exists");
     lab.ok(&["export", "--format", "json", "--out", s(&j), "--force"]);
 }
+
+#[test]
+fn demo_keeps_a_demo_lab_that_holds_real_work_unless_forced() {
+    let lab = Lab::new();
+    lab.ok(&["demo", "--no-ui"]);
+    // Reading, listing and searching a demo lab is not work: it can be rebuilt freely.
+    lab.ok(&["batch", "list", "--json"]);
+    lab.ok(&["find", "material:CdSe"]);
+    lab.ok(&["demo", "--no-ui"]);
+    // One real aliquot logged into the demo lab.
+    let f = lab.abs_file("mine.csv", 550.0);
+    lab.ok(&["aliquot", "add", "1", "--abs", s(&f), "--minutes", "30"]);
+    let before = std::fs::read(&lab.db).unwrap();
+    let o = lab.run(&["demo", "--no-ui"]);
+    assert_eq!(o.code, 1, "{}{}", o.stderr, o.stdout);
+    assert!(
+        o.stderr.contains("holds work logged after the demo was built"),
+        "{}",
+        o.stderr
+    );
+    assert!(
+        o.stderr.contains("--force"),
+        "the message says how to go on: {}",
+        o.stderr
+    );
+    assert_eq!(o.stderr.trim().lines().count(), 1, "{}", o.stderr);
+    assert_eq!(std::fs::read(&lab.db).unwrap(), before, "the lab is untouched");
+    // A new batch counts as work too, and --force rebuilds.
+    lab.ok(&["batch", "new", "--material", "CdSe", "--name", "real one"]);
+    lab.refuses(&["demo", "--no-ui"], "holds work");
+    let o = lab.ok(&["demo", "--no-ui", "--force"]);
+    assert!(o.stdout.contains("built the demo lab"), "{}", o.stdout);
+    let names = lab.ok(&["batch", "list", "--json"]).json();
+    assert!(
+        names.as_array().unwrap().iter().all(|b| b["name"] != "real one"),
+        "rebuilt from scratch"
+    );
+    lab.ok(&["demo", "--no-ui"]);
+}

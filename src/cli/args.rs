@@ -106,6 +106,9 @@ pub struct DemoArgs {
     /// Do not open the UI afterwards.
     #[arg(long)]
     pub no_ui: bool,
+    /// Rebuild even a demo lab that holds work logged after the demo was built.
+    #[arg(long)]
+    pub force: bool,
 }
 
 #[derive(Debug, Subcommand)]

@@ -170,7 +170,7 @@ fn demo(cli: &Cli, a: &DemoArgs) -> Result<ExitCode> {
         actor: cli.actor.clone(),
         cmd: None,
     };
-    crate::demo::prepare_file(&path)?;
+    crate::demo::prepare_file(&path, a.force)?;
     let mut store = open(cli)?;
     let progress = Progress::new("demo", false);
     let n = crate::demo::build(&mut store, a.scale, |d, t| progress.tick(d, t))?;
