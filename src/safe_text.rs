@@ -8,8 +8,8 @@
 //! form), each shown in a visible form instead; [`json_text`] leaves JSON valid and its data
 //! unchanged while escaping those code points; [`csv_text`] prefixes a quote to any cell a
 //! spreadsheet would evaluate; [`markup`] gives text that is well-formed XML 1.0 and HTML in
-//! element content and in quoted attributes. Nothing here allocates for text that is already
-//! harmless.
+//! element content and in quoted attributes. The terminal, JSON, CSV and XML-character forms
+//! borrow text that is already harmless instead of copying it.
 
 use std::borrow::Cow;
 use std::fmt::Write as _;
