@@ -173,8 +173,13 @@ fn csv_bytes(x: &[f64], y: &[f64]) -> Vec<u8> {
     s.into_bytes()
 }
 
-/// Refuses to overwrite a file that is not a demo lab; removes an old demo lab.
-pub fn prepare_file(path: &Path) -> Result<()> {
+/// The lab_meta key holding the last audit id the demo build wrote: any later change but a
+/// lab_meta setting is work someone did in the demo lab.
+const BUILT_THROUGH_KEY: &str = "demo_built_through_audit_id";
+
+/// Refuses to overwrite a file that is not a demo lab, and (unless `force`) a demo lab that
+/// holds work logged after it was built; removes an old demo lab.
+pub fn prepare_file(path: &Path, force: bool) -> Result<()> {
     if !path.exists() || std::fs::metadata(path)?.len() == 0 {
         return Ok(());
     }
@@ -185,22 +190,60 @@ pub fn prepare_file(path: &Path) -> Result<()> {
         ))
     };
     crate::store::check_is_sqlite(path).map_err(|_| refuse())?;
-    let is_demo = {
+    {
         let c = Connection::open_with_flags(path, rusqlite::OpenFlags::SQLITE_OPEN_READ_ONLY).map_err(|_| refuse())?;
-        c.query_row("SELECT value FROM lab_meta WHERE key = 'demo'", [], |r| {
-            r.get::<_, String>(0)
-        })
-        .map(|v| v == "1")
-        .unwrap_or(false)
-    };
-    if !is_demo {
-        return Err(refuse());
+        let is_demo = c
+            .query_row("SELECT value FROM lab_meta WHERE key = 'demo'", [], |r| {
+                r.get::<_, String>(0)
+            })
+            .map(|v| v == "1")
+            .unwrap_or(false);
+        if !is_demo {
+            return Err(refuse());
+        }
+        if !force {
+            refuse_real_work(&c, path)?;
+        }
     }
     std::fs::remove_file(path)?;
     for ext in ["-wal", "-shm"] {
         let mut side = path.as_os_str().to_os_string();
         side.push(ext);
         let _ = std::fs::remove_file(side);
+    }
+    Ok(())
+}
+
+/// Work is any audited change after the build's last one, except lab_meta settings (the
+/// remembered bits a read may leave). A demo lab without the mark (built by an older cuvette,
+/// or a build that stopped half way) cannot be told apart from one with work in it.
+fn refuse_real_work(c: &Connection, path: &Path) -> Result<()> {
+    let through: Option<i64> = model::meta_get(c, BUILT_THROUGH_KEY)
+        .ok()
+        .flatten()
+        .and_then(|v| v.parse().ok());
+    let Some(through) = through else {
+        return Err(Error::Invalid(format!(
+            "refusing to rebuild the demo lab in {}: it does not record where the demo ended \
+             (an older or unfinished build), so work logged in it cannot be ruled out; use --force to replace it",
+            path.display()
+        )));
+    };
+    let (count, first): (i64, Option<String>) = c.query_row(
+        "SELECT COUNT(*), (SELECT action || ' ' || entity || COALESCE(' ' || entity_id, '') || ' by ' || who || ' at ' || at
+                           FROM audit_log WHERE id > ?1 AND entity <> 'lab_meta' ORDER BY id LIMIT 1)
+         FROM audit_log WHERE id > ?1 AND entity <> 'lab_meta'",
+        [through],
+        |r| Ok((r.get(0)?, r.get(1)?)),
+    )?;
+    if count > 0 {
+        return Err(Error::Invalid(format!(
+            "refusing to rebuild the demo lab in {}: it holds work logged after the demo was built \
+             ({count} change{}, the first: {}); use --force to replace it anyway",
+            path.display(),
+            if count == 1 { "" } else { "s" },
+            first.unwrap_or_default()
+        )));
     }
     Ok(())
 }
@@ -300,7 +343,7 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
         .clone()
         .ok_or_else(|| Error::Invalid("demo: no QY reference".into()))?;
     let n_ref = cal.refractive_index(&qref.solvent).unwrap_or(1.36);
-    store.write(|tx, _| {
+    store.write(|tx, who| {
         let mut final_peaks: Vec<f64> = Vec::new();
         let mut batch_ids: Vec<i64> = Vec::new();
         let locations: Vec<String> = m.locations.iter().map(|l| l.name.clone()).collect();
@@ -524,6 +567,9 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                 progress(i + 1, total);
             }
         }
+        // The mark re-running `demo` checks: changes after it are someone's work.
+        let last: i64 = tx.query_row("SELECT COALESCE(MAX(id), 0) FROM audit_log", [], |r| r.get(0))?;
+        meta_set(tx, who, BUILT_THROUGH_KEY, &last.to_string())?;
         Ok(())
     })?;
     Ok(total)

@@ -15,6 +15,7 @@ pub mod error;
 pub mod hazards;
 pub mod par;
 pub mod report;
+pub mod safe_text;
 pub mod search;
 pub mod spectra;
 pub mod store;

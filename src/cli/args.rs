@@ -150,6 +150,9 @@ pub struct DemoArgs {
     /// Do not open the UI afterwards.
     #[arg(long)]
     pub no_ui: bool,
+    /// Rebuild even a demo lab that holds work logged after the demo was built.
+    #[arg(long)]
+    pub force: bool,
 }
 
 #[derive(Debug, Subcommand)]
@@ -852,6 +855,9 @@ pub struct PlotArgs {
     pub batch: i64,
     #[arg(long)]
     pub out: Option<PathBuf>,
+    /// Overwrite an existing --out file, or write through a symbolic link.
+    #[arg(long)]
+    pub force: bool,
 }
 
 #[derive(Debug, Clone, Copy, ValueEnum, PartialEq, Eq)]
@@ -866,6 +872,9 @@ pub struct ExportArgs {
     pub format: ExportFormat,
     #[arg(long)]
     pub out: Option<PathBuf>,
+    /// Overwrite existing export files, or write through symbolic links.
+    #[arg(long)]
+    pub force: bool,
 }
 
 #[derive(Debug, Args)]

@@ -52,11 +52,11 @@ fn with_path(path: &Path, e: crate::Error) -> anyhow::Error {
 
 fn report_migration(store: &Store, path: &Path) {
     if let Some(b) = &store.migrated_backup {
-        eprintln!(
-            "cuvette: migrated {}; the previous file is kept at {}",
+        output::warn(&format!(
+            "migrated {}; the previous file is kept at {}",
             path.display(),
             b.display()
-        );
+        ));
     }
 }
 
@@ -176,7 +176,10 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
             let svg = store.read(|tx| crate::report::plot_batch_svg(tx, a.batch))?;
             match &a.out {
                 Some(p) => {
-                    std::fs::write(p, svg).with_context(|| format!("cannot write {}", p.display()))?;
+                    use std::io::Write as _;
+                    let mut f = crate::report::create_output(p, a.force)?;
+                    f.write_all(svg.as_bytes())
+                        .with_context(|| format!("cannot write {}", p.display()))?;
                     line(&format!("wrote {}", p.display()))?;
                 }
                 None => line(&svg)?,
@@ -184,8 +187,8 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
         }
         Cmd::Export(a) => {
             let mut store = open_read(&cli)?;
-            let written =
-                store.read(|tx| crate::report::export(tx, a.format == ExportFormat::Json, a.out.as_deref()))?;
+            let written = store
+                .read(|tx| crate::report::export(tx, a.format == ExportFormat::Json, a.out.as_deref(), a.force))?;
             for w in written {
                 line(&w)?;
             }
@@ -259,7 +262,7 @@ fn demo(cli: &Cli, a: &DemoArgs) -> Result<ExitCode> {
         create: true,
         cmd: None,
     };
-    crate::demo::prepare_file(&path)?;
+    crate::demo::prepare_file(&path, a.force)?;
     let mut store = open_create(cli)?;
     let progress = Progress::new("demo", false);
     let n = crate::demo::build(&mut store, a.scale, |d, t| progress.tick(d, t))?;
@@ -1211,7 +1214,7 @@ fn analyze(a: &AnalyzeArgs) -> Result<ExitCode> {
     for v in &results {
         if let Some(e) = v.get("error").and_then(|e| e.as_str()) {
             failed = true;
-            eprintln!("cuvette: refused {e}");
+            output::warn(&format!("refused {e}"));
         }
         if a.json {
             json_line(v)?;
@@ -2017,11 +2020,11 @@ fn import_manifest(cli: &Cli, a: &ManifestArgs) -> Result<ExitCode> {
             ),
             Err(e) => {
                 failed = true;
-                eprintln!(
-                    "cuvette: batch {} ({}): {e}; nothing imported for it",
+                output::warn(&format!(
+                    "batch {} ({}): {e}; nothing imported for it",
                     r.batch_id,
                     folder.display()
-                );
+                ));
                 results.push(
                     json!({"batch_id": r.batch_id, "folder": folder.display().to_string(), "error": e.to_string()}),
                 );

@@ -28,7 +28,7 @@ pub fn run() -> ExitCode {
         Err(e) => {
             let msg = format!("{e:#}");
             if !msg.contains("Broken pipe") {
-                eprintln!("cuvette: {}", msg.replace('\n', " "));
+                output::warn(&msg.replace('\n', " "));
             }
             ExitCode::from(1)
         }

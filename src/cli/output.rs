@@ -1,25 +1,35 @@
 //! Printing helpers: JSON for scripts, aligned text for people. A closed pipe ends quietly.
+//! Everything printed goes through [`line`] or [`warn`], which make the control characters and
+//! escape sequences a stored name may hold visible and harmless (see `safe_text`); JSON keeps
+//! its data and escapes the code points serde_json would write raw.
 
+use crate::safe_text;
 use anyhow::Result;
 use serde::Serialize;
 use std::io::Write;
 
 pub fn json<T: Serialize + ?Sized>(v: &T) -> Result<()> {
-    let s = serde_json::to_string_pretty(v)?;
+    let s = safe_text::json_text(serde_json::to_string_pretty(v)?);
     line(&s)
 }
 
 pub fn json_line<T: Serialize + ?Sized>(v: &T) -> Result<()> {
-    let s = serde_json::to_string(v)?;
+    let s = safe_text::json_text(serde_json::to_string(v)?);
     line(&s)
 }
 
+/// Text on stdout; its own line breaks and tabs stay, every other control is shown.
 pub fn line(s: &str) -> Result<()> {
     let mut out = std::io::stdout().lock();
-    match writeln!(out, "{s}") {
+    match writeln!(out, "{}", safe_text::for_terminal_lines(s)) {
         Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => std::process::exit(0),
         r => Ok(r?),
     }
+}
+
+/// One line on stderr, prefixed `cuvette: `, with every control (line breaks too) shown.
+pub fn warn(s: &str) {
+    eprintln!("cuvette: {}", safe_text::for_terminal(s));
 }
 
 /// A number with a fixed count of decimals (small ones in scientific form), or "-".

@@ -1,18 +1,30 @@
 //! Exports for a paper's supporting information or another tool: every batch, aliquot and
 //! current derived value with its method and calibration version, as CSV files or one JSON file.
+//! Text cells that a spreadsheet would run as a formula get a leading quote; the numbers
+//! cuvette formats stay numbers. The JSON escapes the controls serde_json leaves raw.
 
+use super::create_outputs;
 use crate::derive::engine;
 use crate::error::{Error, Result};
+use crate::safe_text::{csv_number, csv_text};
 use crate::store::model;
 use rusqlite::Connection;
-use std::path::Path;
+use std::io::Write as _;
+use std::path::{Path, PathBuf};
+
+/// A text cell no spreadsheet will run as a formula; numbers go through `csv_number`.
+fn text(s: &str) -> String {
+    csv_text(s).into_owned()
+}
 
 fn csv_err(e: csv::Error) -> Error {
     Error::Invalid(format!("csv: {e}"))
 }
 
-/// Writes the export into `out` (default `export/`); returns the files written.
-pub fn export(conn: &Connection, as_json: bool, out: Option<&Path>) -> Result<Vec<String>> {
+/// Writes the export into `out` (default `export/`); returns the files written. Without
+/// `force` no existing file is overwritten and no symbolic link followed: the export is
+/// refused before anything is written.
+pub fn export(conn: &Connection, as_json: bool, out: Option<&Path>, force: bool) -> Result<Vec<String>> {
     let dir = out.unwrap_or(Path::new("export"));
     std::fs::create_dir_all(dir).map_err(|e| Error::Invalid(format!("cannot create {}: {e}", dir.display())))?;
     let batches = model::list_batches(conn)?;
@@ -24,16 +36,27 @@ pub fn export(conn: &Connection, as_json: bool, out: Option<&Path>) -> Result<Ve
             aliquots.push(a);
         }
     }
-    let mut written = Vec::new();
+    let names: &[&str] = if as_json {
+        &["cuvette-export.json"]
+    } else {
+        &["batches.csv", "aliquots.csv", "derived_values.csv"]
+    };
+    let paths: Vec<PathBuf> = names.iter().map(|n| dir.join(n)).collect();
+    let written: Vec<String> = paths.iter().map(|p| p.display().to_string()).collect();
+    let mut files = create_outputs(&paths, force)?.into_iter();
+    let mut next = || {
+        files
+            .next()
+            .ok_or_else(|| Error::Invalid("export: fewer files opened than written".into()))
+    };
     if as_json {
-        let p = dir.join("cuvette-export.json");
         let v = serde_json::json!({"batches": batches, "aliquots": aliquots, "derived_values": values});
-        std::fs::write(&p, serde_json::to_string_pretty(&v)?)?;
-        written.push(p.display().to_string());
+        let mut f = next()?;
+        f.write_all(crate::safe_text::json_text(serde_json::to_string_pretty(&v)?).as_bytes())?;
+        f.sync_all()?;
         return Ok(written);
     }
-    let p = dir.join("batches.csv");
-    let mut w = csv::Writer::from_path(&p).map_err(csv_err)?;
+    let mut w = csv::Writer::from_writer(next()?);
     w.write_record([
         "id",
         "name",
@@ -51,23 +74,21 @@ pub fn export(conn: &Connection, as_json: bool, out: Option<&Path>) -> Result<Ve
     for b in &batches {
         w.write_record([
             b.id.to_string(),
-            b.name.clone(),
-            b.material.clone(),
-            b.recipe.clone().unwrap_or_default(),
+            text(&b.name),
+            text(&b.material),
+            text(b.recipe.as_deref().unwrap_or_default()),
             b.recipe_version.map(|v| v.to_string()).unwrap_or_default(),
-            b.operator.clone().unwrap_or_default(),
-            b.started_at.clone(),
-            b.status.clone(),
+            text(b.operator.as_deref().unwrap_or_default()),
+            text(&b.started_at),
+            text(&b.status),
             b.parent_batch_id.map(|v| v.to_string()).unwrap_or_default(),
-            b.parent_relation.clone().unwrap_or_default(),
-            b.notes.clone(),
+            text(b.parent_relation.as_deref().unwrap_or_default()),
+            text(&b.notes),
         ])
         .map_err(csv_err)?;
     }
     w.flush()?;
-    written.push(p.display().to_string());
-    let p = dir.join("aliquots.csv");
-    let mut w = csv::Writer::from_path(&p).map_err(csv_err)?;
+    let mut w = csv::Writer::from_writer(next()?);
     w.write_record([
         "id",
         "batch_id",
@@ -83,19 +104,17 @@ pub fn export(conn: &Connection, as_json: bool, out: Option<&Path>) -> Result<Ve
         w.write_record([
             a.id.to_string(),
             a.batch_id.to_string(),
-            a.minutes.map(|v| v.to_string()).unwrap_or_default(),
-            a.stage.clone().unwrap_or_default(),
-            a.dilution_factor.to_string(),
-            a.path_cm.to_string(),
-            a.solvent.clone(),
-            a.taken_at.clone(),
+            a.minutes.map(csv_number).unwrap_or_default(),
+            text(a.stage.as_deref().unwrap_or_default()),
+            csv_number(a.dilution_factor),
+            csv_number(a.path_cm),
+            text(&a.solvent),
+            text(&a.taken_at),
         ])
         .map_err(csv_err)?;
     }
     w.flush()?;
-    written.push(p.display().to_string());
-    let p = dir.join("derived_values.csv");
-    let mut w = csv::Writer::from_path(&p).map_err(csv_err)?;
+    let mut w = csv::Writer::from_writer(next()?);
     w.write_record([
         "aliquot_id",
         "quantity",
@@ -111,18 +130,17 @@ pub fn export(conn: &Connection, as_json: bool, out: Option<&Path>) -> Result<Ve
     for v in &values {
         w.write_record([
             v.aliquot_id.to_string(),
-            v.quantity.clone(),
-            v.value.map(|x| x.to_string()).unwrap_or_default(),
-            v.unit.clone(),
-            v.method.clone(),
+            text(&v.quantity),
+            v.value.map(csv_number).unwrap_or_default(),
+            text(&v.unit),
+            text(&v.method),
             v.calibration_version.to_string(),
-            v.inputs_hash.clone(),
+            text(&v.inputs_hash),
             v.stale.to_string(),
-            v.computed_at.clone(),
+            text(&v.computed_at),
         ])
         .map_err(csv_err)?;
     }
     w.flush()?;
-    written.push(p.display().to_string());
     Ok(written)
 }

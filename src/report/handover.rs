@@ -10,6 +10,7 @@
 
 use super::{plot, shelf_entry};
 use crate::error::{Error, Result, invalid};
+use crate::safe_text::{csv_number, csv_text};
 use crate::store::{Store, audit, model, now};
 use rusqlite::{Connection, params};
 use serde::Serialize;
@@ -26,11 +27,11 @@ pub struct HandoverReport {
     pub files: Vec<String>,
 }
 
+/// Every piece of stored text goes into the page through here: markup characters as entities,
+/// and the controls HTML and XML must not carry shown visibly, so the pack is well-formed
+/// whatever a name holds.
 fn esc(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
+    crate::safe_text::markup(s)
 }
 
 fn n(v: Option<f64>, d: usize) -> String {
@@ -234,7 +235,7 @@ fn write_pack(
                 .parent_batch_id
                 .map(|p| format!(
                     ", made from batch {p} ({})",
-                    batch.parent_relation.clone().unwrap_or_default()
+                    esc(batch.parent_relation.as_deref().unwrap_or_default())
                 ))
                 .unwrap_or_default()
         );
@@ -387,16 +388,16 @@ fn write_pack(
     for v in &vials {
         w.write_record([
             v.id.to_string(),
-            v.label.clone(),
+            csv_text(&v.label).into_owned(),
             v.batch_id.to_string(),
-            v.material.clone(),
-            v.location.clone(),
-            v.position.clone().unwrap_or_default(),
+            csv_text(&v.material).into_owned(),
+            csv_text(&v.location).into_owned(),
+            csv_text(v.position.as_deref().unwrap_or_default()).into_owned(),
             format!("{:.4}", v.volume_ml),
-            v.solvent.clone(),
-            v.concentration_molar.map(|c| c.to_string()).unwrap_or_default(),
-            to.to_string(),
-            v.status.clone(),
+            csv_text(&v.solvent).into_owned(),
+            v.concentration_molar.map(csv_number).unwrap_or_default(),
+            csv_text(to).into_owned(),
+            csv_text(&v.status).into_owned(),
         ])
         .map_err(|e| Error::Invalid(format!("csv: {e}")))?;
     }

@@ -4,10 +4,12 @@
 
 mod export;
 mod handover;
+mod outfile;
 pub mod plot;
 
 pub use export::export;
 pub use handover::{HandoverReport, handover};
+pub use outfile::{create_output, create_outputs};
 pub use plot::{plot_batch_svg, plot_series_svg};
 
 use crate::derive::{calibration, engine, growth, sizing};

@@ -86,6 +86,18 @@ pub fn draw(f: &mut Frame, app: &App) {
         Mode::Picker(pk) => draw_picker(f, pk, &p),
         _ => {}
     }
+    scrub(f);
+}
+
+/// Names, notes and file names reach the screen from many views; whatever drew them, no cell
+/// may hand the terminal a control character or bidi override (an escape in a batch name could
+/// otherwise set the title, write the clipboard or clear the screen).
+fn scrub(f: &mut Frame) {
+    for cell in f.buffer_mut().content.iter_mut() {
+        if let Some(clean) = crate::safe_text::cell_symbol(cell.symbol()) {
+            cell.set_symbol(&clean);
+        }
+    }
 }
 
 fn draw_tabs(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
