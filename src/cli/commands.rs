@@ -713,12 +713,15 @@ fn print_batch(v: &Value) -> Result<()> {
             f("qy", 2),
             a["curve"].as_str().unwrap_or("-"),
             a["calibration_version"],
-            if a["stale"].as_bool() == Some(true) {
-                " STALE"
-            } else {
-                ""
+            match (a["voided"].as_bool() == Some(true), a["stale"].as_bool() == Some(true)) {
+                (true, _) => format!(" VOID: {}", a["void_why"].as_str().unwrap_or("")),
+                (false, true) => " STALE".to_string(),
+                _ => String::new(),
             }
         ))?;
+    }
+    if v["voided"].as_bool() == Some(true) {
+        line(&format!("  VOID batch: {}", s("void_why")))?;
     }
     let g = &v["growth"];
     line(&format!(
@@ -730,6 +733,15 @@ fn print_batch(v: &Value) -> Result<()> {
             .map(|m| format!("; focusing turns to defocusing at {m} min"))
             .unwrap_or_default()
     ))?;
+    if g["mixed_calibrations"].as_bool() == Some(true) {
+        line(&format!(
+            "  growth uses only aliquots sized under calibration v{}; others are under older versions (run `cuvette recompute`)",
+            g["calibration_version"]
+        ))?;
+    }
+    if g["stale"].as_bool() == Some(true) {
+        line("  growth: STALE values (run `cuvette recompute`)")?;
+    }
     for x in v["vials"].as_array().into_iter().flatten() {
         line(&format!(
             "  vial {} {} {:.2} mL at {} ({})",
@@ -924,8 +936,18 @@ fn print_vial(v: &model::VialRow, j: bool) -> Result<()> {
         json(&crate::report::shelf_entry(v))
     } else {
         line(&format!(
-            "vial {} {}: {:.3} mL left at {} ({})",
-            v.id, v.label, v.volume_ml, v.location, v.status
+            "vial {} {}: {:.3} mL left at {} ({}); concentration {}{}",
+            v.id,
+            v.label,
+            v.volume_ml,
+            v.location,
+            v.status,
+            molar(v.concentration_molar),
+            match (crate::report::concentration_note(v), v.calibration_version) {
+                ("", _) => String::new(),
+                (n, Some(c)) => format!(" ({n}, calibration v{c})"),
+                (n, None) => format!(" ({n})"),
+            }
         ))
     }
 }
@@ -1023,7 +1045,7 @@ fn vial(cli: &Cli, c: &VialCmd) -> Result<()> {
                 Ok((v, e))
             })?;
             if *j {
-                let mut x = crate::report::shelf_entry(&v);
+                let mut x = serde_json::to_value(crate::report::shelf_entry(&v))?;
                 x["events"] = serde_json::to_value(&events)?;
                 json(&x)?;
             } else {
@@ -1057,7 +1079,7 @@ fn shelf(cli: &Cli, a: &ShelfArgs) -> Result<()> {
         .filter(|v| a.low.is_none_or(|l| v.volume_ml < l))
         .collect();
     if a.json {
-        let v: Vec<Value> = vials.iter().map(crate::report::shelf_entry).collect();
+        let v: Vec<crate::report::ShelfEntry> = vials.iter().map(crate::report::shelf_entry).collect();
         return json(&v);
     }
     let mut current = String::new();
@@ -1068,14 +1090,15 @@ fn shelf(cli: &Cli, a: &ShelfArgs) -> Result<()> {
         }
         let e = crate::report::shelf_entry(v);
         line(&format!(
-            "  {:>4} {:<14} batch {:>4} {:<9} {:>7.3} mL {:>10} {:>9} nmol  {:<10} {}",
+            "  {:>4} {:<14} batch {:>4} {:<9} {:>7.3} mL {:>10} {:<10} {:>9} nmol  {:<10} {}",
             v.id,
             v.label,
             v.batch_id,
             v.material,
             v.volume_ml,
             molar(v.concentration_molar),
-            num(e["nanomoles_left"].as_f64(), 2),
+            crate::report::concentration_note(v),
+            num(e.nanomoles_left, 2),
             v.owner.clone().unwrap_or_default(),
             if v.status == "in_use" {
                 String::new()
@@ -1723,19 +1746,7 @@ fn recompute(cli: &Cli, a: &RecomputeArgs) -> Result<()> {
     let report = if a.dry_run {
         store.read(|tx| engine::recompute(tx, a.all, true, |d, t| progress.tick(d, t)))?
     } else {
-        store.write(|tx, who| {
-            let r = engine::recompute(tx, a.all, false, |d, t| progress.tick(d, t))?;
-            crate::store::audit(
-                tx,
-                who,
-                "derived_value",
-                None,
-                "recompute",
-                None,
-                Some(&json!({"recomputed": r.recomputed, "changed": r.changed, "all": a.all})),
-            )?;
-            Ok(r)
-        })?
+        store.write(|tx, who| engine::recompute_recorded(tx, who, a.all, |d, t| progress.tick(d, t)))?
     };
     if a.json {
         return json(&report);

@@ -1421,3 +1421,38 @@ pub fn estimate_vial(tx: &Connection, vial_id: i64) -> Result<bool> {
         _ => Ok(false),
     }
 }
+
+/// Recomputes and records it in the audit log: the one way both faces apply a recompute.
+pub fn recompute_recorded(
+    tx: &Connection,
+    who: &str,
+    all: bool,
+    progress: impl FnMut(usize, usize),
+) -> Result<RecomputeReport> {
+    let r = recompute(tx, all, false, progress)?;
+    crate::store::audit(
+        tx,
+        who,
+        "derived_value",
+        None,
+        "recompute",
+        None,
+        Some(
+            &serde_json::json!({"recomputed": r.recomputed, "changed": r.changed, "all": all,
+            "vials_changed": r.vials_changed}),
+        ),
+    )?;
+    Ok(r)
+}
+
+/// Batches whose product values (or a vial's concentration) are stale: what the ledger marks.
+pub fn stale_batches(conn: &Connection) -> Result<std::collections::HashSet<i64>> {
+    let mut st = conn.prepare(
+        "SELECT p.batch_id FROM batch_product p JOIN derived_value d ON d.aliquot_id = p.aliquot_id
+          WHERE d.superseded_at IS NULL AND d.stale = 1
+         UNION SELECT v.batch_id FROM vial v JOIN vial_concentration c ON c.vial_id = v.id
+          WHERE c.superseded_at IS NULL AND c.stale = 1 AND v.status <> 'disposed'",
+    )?;
+    let rows = st.query_map([], |r| r.get::<_, i64>(0))?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}

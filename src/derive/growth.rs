@@ -122,11 +122,32 @@ pub struct Growth {
     pub regime: String,
     /// Minutes at which size dispersion stopped falling and began to rise.
     pub focusing_turn_min: Option<f64>,
+    /// The calibration version the growth picture is computed under: only aliquots sized under
+    /// the newest version in the series are used, so a rate never mixes two sizing curves.
+    pub calibration_version: Option<i64>,
+    /// Some aliquots were sized under another version and were left out (recompute them).
+    pub mixed_calibrations: bool,
+    /// Some of the values used are stale.
+    pub stale: bool,
 }
 
-/// The growth picture from the timed aliquots that are not void.
+/// The growth picture from the timed aliquots that are not void, sized under one calibration
+/// version (the newest in the series; aliquots of older versions are left out and marked).
 pub fn growth(series: &[AliquotSummary]) -> Growth {
-    let timed: Vec<&AliquotSummary> = series.iter().filter(|a| a.minutes.is_some() && !a.voided).collect();
+    let live: Vec<&AliquotSummary> = series.iter().filter(|a| a.minutes.is_some() && !a.voided).collect();
+    let version = live
+        .iter()
+        .filter(|a| a.diameter_nm.is_some())
+        .filter_map(|a| a.calibration_version)
+        .max();
+    let mixed = live
+        .iter()
+        .any(|a| a.diameter_nm.is_some() && a.calibration_version != version);
+    let timed: Vec<&AliquotSummary> = live
+        .into_iter()
+        .filter(|a| a.diameter_nm.is_none() || a.calibration_version == version)
+        .collect();
+    let stale = timed.iter().any(|a| a.stale);
     let dpts: Vec<(f64, f64)> = timed
         .iter()
         .filter_map(|a| Some((a.minutes?, a.diameter_nm?)))
@@ -166,6 +187,9 @@ pub fn growth(series: &[AliquotSummary]) -> Growth {
         mean_growth_rate_nm_per_min: mean,
         regime,
         focusing_turn_min: turn,
+        calibration_version: version,
+        mixed_calibrations: mixed,
+        stale,
     }
 }
 

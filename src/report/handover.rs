@@ -204,9 +204,16 @@ fn write_pack(
             esc(&v.material),
             v.volume_ml,
             v.concentration_molar
-                .map(|c| format!("{:.2} µM", c * 1e6))
+                .map(|c| format!(
+                    "{:.2} µM {}{}",
+                    c * 1e6,
+                    super::concentration_note(v),
+                    v.calibration_version
+                        .map(|c| format!(" (cal. v{c})"))
+                        .unwrap_or_default()
+                ))
                 .unwrap_or("–".into()),
-            n(e["nanomoles_left"].as_f64(), 2),
+            n(e.nanomoles_left, 2),
             esc(&v.solvent),
             esc(&v.position.clone().unwrap_or_default())
         );

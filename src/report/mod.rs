@@ -22,27 +22,72 @@ use serde_json::{Value, json};
 /// setting a lab may want to change).
 pub const LOW_STOCK_ML: f64 = 0.5;
 
-/// A vial as `shelf --json` prints it.
-pub fn shelf_entry(v: &model::VialRow) -> Value {
-    let nmol = v.concentration_molar.map(|c| c * v.volume_ml * 1e6);
-    json!({
-        "id": v.id,
-        "label": v.label,
-        "batch_id": v.batch_id,
-        "batch_name": v.batch_name,
-        "material": v.material,
-        "location": v.location,
-        "position": v.position,
-        "volume_ml": v.volume_ml,
-        "initial_ml": v.initial_ml,
-        "solvent": v.solvent,
-        "owner": v.owner,
-        "status": v.status,
-        "concentration_molar": v.concentration_molar,
-        "nanomoles_left": nmol,
-        "low_stock": v.status != "disposed" && v.volume_ml < LOW_STOCK_ML,
-        "created_at": v.created_at,
-    })
+/// A vial as `shelf --json` and `vial show --json` print it.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct ShelfEntry {
+    pub id: i64,
+    pub label: String,
+    pub batch_id: i64,
+    pub batch_name: String,
+    pub material: String,
+    pub location: String,
+    pub position: Option<String>,
+    pub volume_ml: f64,
+    pub initial_ml: f64,
+    pub solvent: String,
+    pub owner: Option<String>,
+    pub status: String,
+    /// Of the vial's own solution, mol/L.
+    pub concentration_molar: Option<f64>,
+    /// measured (from the vial's own spectrum), estimate (carried over from the reaction's
+    /// product aliquot), entered (the user's figure) or recorded (source not kept).
+    pub concentration_source: Option<String>,
+    pub concentration_method: Option<String>,
+    /// The concentration's inputs moved since (a calibration change): recompute.
+    pub concentration_stale: bool,
+    /// The calibration version behind the concentration (None for entered figures).
+    pub calibration_version: Option<i64>,
+    pub nanomoles_left: Option<f64>,
+    pub low_stock: bool,
+    pub created_at: String,
+}
+
+pub fn shelf_entry(v: &model::VialRow) -> ShelfEntry {
+    ShelfEntry {
+        id: v.id,
+        label: v.label.clone(),
+        batch_id: v.batch_id,
+        batch_name: v.batch_name.clone(),
+        material: v.material.clone(),
+        location: v.location.clone(),
+        position: v.position.clone(),
+        volume_ml: v.volume_ml,
+        initial_ml: v.initial_ml,
+        solvent: v.solvent.clone(),
+        owner: v.owner.clone(),
+        status: v.status.clone(),
+        concentration_molar: v.concentration_molar,
+        concentration_source: v.concentration_source.clone(),
+        concentration_method: v.concentration_method.clone(),
+        concentration_stale: v.concentration_stale,
+        calibration_version: v.calibration_version,
+        nanomoles_left: v.concentration_molar.map(|c| c * v.volume_ml * 1e6),
+        low_stock: v.status != "disposed" && v.volume_ml < LOW_STOCK_ML,
+        created_at: v.created_at.clone(),
+    }
+}
+
+/// How a vial's concentration is qualified wherever it is shown: an estimate is never shown
+/// as a measurement, a stale value never as current.
+pub fn concentration_note(v: &model::VialRow) -> &'static str {
+    match (v.concentration_stale, v.concentration_source.as_deref()) {
+        (true, _) => "STALE",
+        (false, Some("estimate")) => "est.",
+        (false, Some("recorded")) => "unverified",
+        (false, Some("entered")) => "entered",
+        (false, Some("measured")) => "measured",
+        _ => "",
+    }
 }
 
 /// The concentration of a batch's product aliquot (undiluted), if derived.

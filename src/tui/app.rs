@@ -34,6 +34,13 @@ pub enum FormKind {
     ChangeCurve,
     Watch,
     Import,
+    VoidAliquot,
+    ReinstateAliquot,
+    EditAliquot,
+    VoidBatch,
+    ReinstateBatch,
+    GoToBatch,
+    ReinstateVial,
 }
 
 #[derive(Debug, Clone)]
@@ -42,6 +49,8 @@ pub struct Form {
     pub title: String,
     pub fields: Vec<(String, String)>,
     pub focus: usize,
+    /// The aliquot, batch or vial the form acts on, fixed when it opened (named in its title).
+    pub target: Option<i64>,
 }
 
 impl Form {
@@ -51,7 +60,12 @@ impl Form {
             title: title.into(),
             fields: fields.iter().map(|(a, b)| (a.to_string(), b.to_string())).collect(),
             focus: 0,
+            target: None,
         }
+    }
+    fn on(mut self, id: i64) -> Form {
+        self.target = Some(id);
+        self
     }
     fn get(&self, label: &str) -> String {
         self.fields
@@ -130,6 +144,12 @@ pub struct App {
     pub show_pl: bool,
     pub vials: Vec<model::VialRow>,
     pub vial_selected: usize,
+    /// The shelf lists disposed vials too.
+    pub show_disposed: bool,
+    /// The aliquot selected in the batch sheet's growth table.
+    pub aliquot_selected: usize,
+    /// Batches whose product values or vial concentrations are stale (the ledger marks them).
+    pub stale_batches: std::collections::HashSet<i64>,
     pub calibrations: Vec<calibration::CalibrationVersion>,
     pub preview: Option<engine::RecomputeReport>,
     pub trail: Vec<model::AuditRow>,
@@ -169,6 +189,9 @@ impl App {
             show_pl: false,
             vials: Vec::new(),
             vial_selected: 0,
+            show_disposed: false,
+            aliquot_selected: 0,
+            stale_batches: Default::default(),
             calibrations: Vec::new(),
             preview: None,
             trail: Vec::new(),
@@ -196,7 +219,11 @@ impl App {
         let r = (|| -> crate::Result<()> {
             self.facts = search::load_facts(&self.store.conn)?;
             self.refilter();
-            self.vials = model::list_vials(&self.store.conn, false)?;
+            self.vials = model::list_vials(&self.store.conn, self.show_disposed)?;
+            if self.vial_selected >= self.vials.len() {
+                self.vial_selected = self.vials.len().saturating_sub(1);
+            }
+            self.stale_batches = engine::stale_batches(&self.store.conn)?;
             self.calibrations = calibration::history(&self.store.conn)?;
             self.trail = model::audit_log(&self.store.conn, None, 300)?;
             if let Some(id) = self.sheet.as_ref().and_then(|s| s["id"].as_i64()) {
@@ -244,9 +271,30 @@ impl App {
     }
 
     pub fn open_sheet(&mut self, id: i64) -> crate::Result<()> {
-        self.sheet = Some(crate::report::batch_detail(&self.store.conn, id)?);
+        let same = self.sheet.as_ref().and_then(|s| s["id"].as_i64()) == Some(id);
+        let sheet = crate::report::batch_detail(&self.store.conn, id)?;
+        let n = sheet["aliquots"].as_array().map(|a| a.len()).unwrap_or(0);
+        self.aliquot_selected = if same {
+            self.aliquot_selected.min(n.saturating_sub(1))
+        } else {
+            0
+        };
+        self.sheet = Some(sheet);
         self.series = crate::report::plot::series(&self.store.conn, id)?;
         Ok(())
+    }
+
+    /// The aliquot selected in the batch sheet: (id, label, voided).
+    fn selected_aliquot(&self) -> Option<(i64, String, bool)> {
+        let a = self.sheet.as_ref()?["aliquots"]
+            .as_array()?
+            .get(self.aliquot_selected)?
+            .clone();
+        let label = a["minutes"]
+            .as_f64()
+            .map(|m| format!("{m} min"))
+            .unwrap_or_else(|| a["stage"].as_str().unwrap_or("").to_string());
+        Some((a["id"].as_i64()?, label, a["voided"].as_bool() == Some(true)))
     }
 
     pub fn scope(&self) -> Scope {
@@ -357,10 +405,19 @@ impl App {
             }
             Action::Up => match self.view {
                 View::Shelf => self.vial_selected = self.vial_selected.saturating_sub(1),
+                View::Sheet => self.aliquot_selected = self.aliquot_selected.saturating_sub(1),
                 _ => self.selected = self.selected.saturating_sub(1),
             },
             Action::Down => match self.view {
                 View::Shelf => self.vial_selected = (self.vial_selected + 1).min(self.vials.len().saturating_sub(1)),
+                View::Sheet => {
+                    let n = self
+                        .sheet
+                        .as_ref()
+                        .and_then(|s| s["aliquots"].as_array().map(|a| a.len()))
+                        .unwrap_or(0);
+                    self.aliquot_selected = (self.aliquot_selected + 1).min(n.saturating_sub(1));
+                }
                 _ => self.selected = (self.selected + 1).min(self.hits.len().saturating_sub(1)),
             },
             Action::Back => {
@@ -476,6 +533,89 @@ impl App {
             }
             Action::Preview => self.spawn_recompute(true),
             Action::Apply => self.spawn_recompute(false),
+            Action::VoidAliquot => match self.selected_aliquot() {
+                None => self.error("no aliquot selected"),
+                Some((id, label, voided)) => {
+                    let batch = self.selected_batch().unwrap_or(0);
+                    let (kind, verb) = if voided {
+                        (FormKind::ReinstateAliquot, "Reinstate")
+                    } else {
+                        (FormKind::VoidAliquot, "Void")
+                    };
+                    self.mode = Mode::Form(
+                        Form::new(
+                            kind,
+                            &format!("{verb} aliquot {id} ({label}) of batch {batch}"),
+                            &[("why", "")],
+                        )
+                        .on(id),
+                    );
+                }
+            },
+            Action::EditAliquot => match self.selected_aliquot() {
+                None => self.error("no aliquot selected"),
+                Some((id, label, _)) => {
+                    let a = match model::get_aliquot(&self.store.conn, id) {
+                        Ok(a) => a,
+                        Err(e) => return self.error(e.to_string()),
+                    };
+                    let minutes = a.minutes.map(|m| m.to_string()).unwrap_or_default();
+                    let stage = a.stage.clone().unwrap_or_default();
+                    let (d, pcm) = (a.dilution_factor.to_string(), a.path_cm.to_string());
+                    self.mode = Mode::Form(
+                        Form::new(
+                            FormKind::EditAliquot,
+                            &format!("Correct aliquot {id} ({label}) of batch {}", a.batch_id),
+                            &[
+                                ("minutes", &minutes),
+                                ("stage", &stage),
+                                ("dilution", &d),
+                                ("path cm", &pcm),
+                                ("solvent", &a.solvent),
+                                ("why", ""),
+                            ],
+                        )
+                        .on(id),
+                    );
+                }
+            },
+            Action::VoidBatch => match self
+                .sheet
+                .as_ref()
+                .and_then(|s| Some((s["id"].as_i64()?, s["voided"] == true)))
+            {
+                None => self.error("no batch open"),
+                Some((id, voided)) => {
+                    let name = self
+                        .sheet
+                        .as_ref()
+                        .and_then(|s| s["name"].as_str().map(String::from))
+                        .unwrap_or_default();
+                    let (kind, verb) = if voided {
+                        (FormKind::ReinstateBatch, "Reinstate")
+                    } else {
+                        (FormKind::VoidBatch, "Void")
+                    };
+                    self.mode =
+                        Mode::Form(Form::new(kind, &format!("{verb} batch {id} ({name})"), &[("why", "")]).on(id));
+                }
+            },
+            Action::GoToBatch => {
+                self.mode = Mode::Form(Form::new(FormKind::GoToBatch, "Open batch by id", &[("id", "")]));
+            }
+            Action::ToggleDisposed => {
+                self.show_disposed = !self.show_disposed;
+                self.reload();
+            }
+            Action::ReinstateVial => match self.vials.get(self.vial_selected) {
+                Some(v) if v.status == "disposed" => {
+                    let title = format!("Put vial {} ({}) back", v.id, v.label);
+                    let id = v.id;
+                    self.mode = Mode::Form(Form::new(FormKind::ReinstateVial, &title, &[("why", "")]).on(id));
+                }
+                Some(v) => self.error(format!("vial {} is not disposed of", v.label)),
+                None => self.error("no vial selected (t shows disposed vials)"),
+            },
         }
     }
 
@@ -704,6 +844,101 @@ impl App {
                 self.preview = None;
                 Ok(format!("calibration version {v}; press p to preview the recompute"))
             }
+            FormKind::VoidAliquot | FormKind::ReinstateAliquot => {
+                let id = f.target.ok_or("no aliquot")?;
+                let why = f.get("why");
+                let voiding = f.kind == FormKind::VoidAliquot;
+                let a = self
+                    .store
+                    .write(|tx, who| {
+                        let a = if voiding {
+                            model::void_aliquot(tx, who, id, &why)?
+                        } else {
+                            model::reinstate_aliquot(tx, who, id, &why)?
+                        };
+                        engine::after_correction(tx, id)?;
+                        Ok(a)
+                    })
+                    .map_err(e)?;
+                self.open_sheet(a.batch_id).map_err(e)?;
+                Ok(if voiding {
+                    format!("aliquot {id} is void; the batch's values no longer use it")
+                } else {
+                    format!("aliquot {id} is reinstated")
+                })
+            }
+            FormKind::EditAliquot => {
+                let id = f.target.ok_or("no aliquot")?;
+                let before = model::get_aliquot(&self.store.conn, id).map_err(e)?;
+                let minutes = Self::number(f, "minutes")?;
+                let stage = Some(f.get("stage")).filter(|s| !s.is_empty());
+                let changed_minutes = minutes != before.minutes;
+                let changed_stage = stage != before.stage;
+                let ed = model::AliquotEdit {
+                    minutes: minutes.filter(|_| changed_minutes || changed_stage),
+                    stage: if minutes.is_some() {
+                        None
+                    } else {
+                        stage.filter(|_| changed_stage || changed_minutes)
+                    },
+                    dilution_factor: Self::number(f, "dilution")?.filter(|d| *d != before.dilution_factor),
+                    path_cm: Self::number(f, "path cm")?.filter(|p| *p != before.path_cm),
+                    solvent: Some(f.get("solvent")).filter(|s| !s.is_empty() && *s != before.solvent),
+                };
+                let why = f.get("why");
+                let batch = before.batch_id;
+                self.store
+                    .write(|tx, who| {
+                        model::edit_aliquot(tx, who, id, &ed, &why)?;
+                        engine::after_correction(tx, id)
+                    })
+                    .map_err(e)?;
+                self.open_sheet(batch).map_err(e)?;
+                Ok(format!("aliquot {id} corrected and recomputed"))
+            }
+            FormKind::VoidBatch | FormKind::ReinstateBatch => {
+                let id = f.target.ok_or("no batch")?;
+                let why = f.get("why");
+                let voiding = f.kind == FormKind::VoidBatch;
+                self.store
+                    .write(|tx, who| {
+                        if voiding {
+                            model::void_batch(tx, who, id, &why)?;
+                        } else {
+                            model::reinstate_batch(tx, who, id, &why)?;
+                        }
+                        engine::refresh_vials(tx, Some(id), false)?;
+                        Ok(())
+                    })
+                    .map_err(e)?;
+                self.open_sheet(id).map_err(e)?;
+                Ok(if voiding {
+                    format!("batch {id} is void: left out of search and the pack (g opens it by id)")
+                } else {
+                    format!("batch {id} is reinstated")
+                })
+            }
+            FormKind::GoToBatch => {
+                let id: i64 = f
+                    .get("id")
+                    .parse()
+                    .map_err(|_| format!("id: '{}' is not a batch id", f.get("id")))?;
+                self.open_sheet(id).map_err(e)?;
+                self.view = View::Sheet;
+                Ok(format!("batch {id}"))
+            }
+            FormKind::ReinstateVial => {
+                let id = f.target.ok_or("no vial")?;
+                let why = f.get("why");
+                let v = self
+                    .store
+                    .write(|tx, who| model::reinstate_vial(tx, who, id, &why))
+                    .map_err(e)?;
+                Ok(format!(
+                    "vial {} is back: {:.3} mL at {}",
+                    v.label, v.volume_ml, v.location
+                ))
+            }
             FormKind::Import | FormKind::Watch => {
                 let batch = self.selected_batch().ok_or("no batch open")?;
                 let folder = PathBuf::from(f.get("folder"));
@@ -750,7 +985,7 @@ impl App {
             let r = if dry_run {
                 store.read(|c| engine::recompute(c, false, true, p))
             } else {
-                store.write(|c, _| engine::recompute(c, false, false, p))
+                store.write(|c, who| engine::recompute_recorded(c, who, false, p))
             };
             let _ = tx.send(match r {
                 Ok(r) if dry_run => Note::Preview(r),

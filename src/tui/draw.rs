@@ -157,6 +157,7 @@ fn draw_ledger(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         sort_mark(app, SortKey::Diameter, "D nm"),
         sort_mark(app, SortKey::Qy, "QY"),
         sort_mark(app, SortKey::Stock, "mL"),
+        "state".to_string(),
         "name".to_string(),
     ])
     .style(p.head());
@@ -164,7 +165,8 @@ fn draw_ledger(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     let visible = table.height.saturating_sub(1) as usize;
     let start = app.selected.saturating_sub(visible.saturating_sub(1));
     let rows = app.hits.iter().skip(start).take(visible.max(1)).map(|h| {
-        Row::new(vec![
+        let stale = app.stale_batches.contains(&h.id);
+        let r = Row::new(vec![
             h.id.to_string(),
             h.started_at.get(..10).unwrap_or("").to_string(),
             h.material.clone(),
@@ -172,6 +174,7 @@ fn draw_ledger(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
             n(h.diameter_nm, 2),
             n(h.qy, 2),
             format!("{:.1}", h.stock_ml),
+            if stale { "STALE".to_string() } else { String::new() },
             format!(
                 "{} {}",
                 h.name,
@@ -181,7 +184,8 @@ fn draw_ledger(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
                     format!("[{}]", h.status)
                 }
             ),
-        ])
+        ]);
+        if stale { r.style(p.warn()) } else { r }
     });
     let widths = [
         Constraint::Length(5),
@@ -191,6 +195,7 @@ fn draw_ledger(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         Constraint::Length(6),
         Constraint::Length(5),
         Constraint::Length(6),
+        Constraint::Length(5),
         Constraint::Min(10),
     ];
     let mut state = TableState::default().with_selected(Some(app.selected - start));
@@ -210,11 +215,22 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     let [head, mid, foot] =
         Layout::vertical([Constraint::Length(2), Constraint::Min(6), Constraint::Length(4)]).areas(area);
     let g = &b["growth"];
+    let mut title = vec![
+        Span::styled(format!("Batch {} {}", b["id"], s("name")), p.head()),
+        Span::raw(format!("  {} · {} · {}", s("material"), s("status"), s("operator"))),
+    ];
+    if b["voided"] == true {
+        title.push(Span::styled(format!("  VOID: {}", s("void_why")), p.warn()));
+    }
+    let mut marks = String::new();
+    if g["mixed_calibrations"] == true {
+        marks.push_str(&format!(" · only cal. v{} used", g["calibration_version"]));
+    }
+    if g["stale"] == true {
+        marks.push_str(" · STALE");
+    }
     let head_text = vec![
-        Line::from(vec![
-            Span::styled(format!("Batch {} {}", b["id"], s("name")), p.head()),
-            Span::raw(format!("  {} · {} · {}", s("material"), s("status"), s("operator"))),
-        ]),
+        Line::from(title),
         Line::from(format!(
             "{} · growth: {} · {} nm/min{}",
             b["recipe"]
@@ -229,15 +245,24 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
                 .unwrap_or_default()
         )),
     ];
+    let mut head_text = head_text;
+    if !marks.is_empty()
+        && let Some(l) = head_text.last_mut()
+    {
+        l.spans.push(Span::styled(marks, p.warn()));
+    }
     f.render_widget(Paragraph::new(head_text), head);
-    let [left, right] = Layout::horizontal([Constraint::Length(44), Constraint::Min(20)]).areas(mid);
-    let header = Row::new(vec!["min", "peak", "D nm", "σ/D", "PL", "QY", "curve"]).style(p.head());
+    // The growth table takes half of a wide terminal, so the curve and its marks are never cut.
+    let table_w = (mid.width / 2).max(50).min(mid.width);
+    let [left, right] = Layout::horizontal([Constraint::Length(table_w), Constraint::Min(0)]).areas(mid);
+    let header = Row::new(vec!["state", "min", "peak", "D nm", "σ/D", "PL", "QY", "curve"]).style(p.head());
     let rows: Vec<Row> = b["aliquots"]
         .as_array()
         .into_iter()
         .flatten()
         .map(|a| {
             let stale = a["stale"].as_bool() == Some(true);
+            let voided = a["voided"].as_bool() == Some(true);
             let cal = format!(
                 "{}{}",
                 a["curve"].as_str().map(|c| &c[..c.len().min(4)]).unwrap_or("-"),
@@ -247,6 +272,11 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
                     .unwrap_or_default()
             );
             let cells = vec![
+                Cell::from(match (voided, stale) {
+                    (true, _) => "VOID",
+                    (false, true) => "STALE",
+                    _ => "",
+                }),
                 Cell::from(
                     a["minutes"]
                         .as_f64()
@@ -262,26 +292,30 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
                 Cell::from(n(a["size_dispersion_pct"].as_f64(), 1)),
                 Cell::from(n(a["pl_peak_nm"].as_f64(), 1)),
                 Cell::from(n(a["qy"].as_f64(), 2)),
-                Cell::from(if stale { format!("{cal} STALE") } else { cal }),
+                Cell::from(cal),
             ];
             let r = Row::new(cells);
-            if stale { r.style(p.warn()) } else { r }
+            if stale || voided { r.style(p.warn()) } else { r }
         })
         .collect();
     let widths = [
+        Constraint::Length(5),
         Constraint::Length(4),
         Constraint::Length(6),
         Constraint::Length(5),
         Constraint::Length(4),
         Constraint::Length(5),
         Constraint::Length(4),
-        Constraint::Min(8),
+        Constraint::Min(6),
     ];
-    f.render_widget(
+    let mut state = TableState::default().with_selected(Some(app.aliquot_selected));
+    f.render_stateful_widget(
         Table::new(rows, widths)
             .header(header)
+            .row_highlight_style(p.sel())
             .block(Block::bordered().title("growth series")),
         left,
+        &mut state,
     );
     draw_chart(f, app, right, p);
     let mut lines: Vec<Line> = Vec::new();
@@ -452,32 +486,43 @@ fn draw_chart(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
 
 fn draw_shelf(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     let header = Row::new(vec![
-        "location", "vial", "batch", "material", "mL", "µM", "nmol", "owner",
+        "location", "vial", "batch", "material", "mL", "µM", "conc.", "nmol", "owner",
     ])
     .style(p.head());
     let visible = area.height.saturating_sub(1) as usize;
     let start = app.vial_selected.saturating_sub(visible.saturating_sub(1));
     let rows = app.vials.iter().skip(start).take(visible.max(1)).map(|v| {
-        let low = v.volume_ml < crate::report::LOW_STOCK_ML;
+        let disposed = v.status == "disposed";
+        let low = !disposed && v.volume_ml < crate::report::LOW_STOCK_ML;
         let r = Row::new(vec![
             v.location.clone(),
             v.label.clone(),
             v.batch_id.to_string(),
             v.material.clone(),
-            format!("{:.2}{}", v.volume_ml, if low { " low" } else { "" }),
+            if disposed {
+                "disposed".to_string()
+            } else {
+                format!("{:.2}{}", v.volume_ml, if low { " low" } else { "" })
+            },
             n(v.concentration_molar.map(|c| c * 1e6), 2),
+            crate::report::concentration_note(v).to_string(),
             n(v.concentration_molar.map(|c| c * v.volume_ml * 1e6), 1),
             v.owner.clone().unwrap_or_default(),
         ]);
-        if low { r.style(p.warn()) } else { r }
+        if low || v.concentration_stale || disposed {
+            r.style(p.warn())
+        } else {
+            r
+        }
     });
     let widths = [
-        Constraint::Length(13),
-        Constraint::Length(16),
+        Constraint::Length(11),
+        Constraint::Length(14),
         Constraint::Length(5),
         Constraint::Length(9),
         Constraint::Length(8),
         Constraint::Length(6),
+        Constraint::Length(10),
         Constraint::Length(6),
         Constraint::Min(6),
     ];

@@ -35,6 +35,12 @@ pub enum Action {
     ChangeCurve,
     Preview,
     Apply,
+    VoidAliquot,
+    EditAliquot,
+    VoidBatch,
+    GoToBatch,
+    ReinstateVial,
+    ToggleDisposed,
 }
 
 /// Where an action applies.
@@ -265,6 +271,54 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         scope: Scope::Calibrations,
         help: "recompute now",
         footer: true,
+    },
+    Binding {
+        action: Action::GoToBatch,
+        name: "go-to-batch",
+        key: "g",
+        scope: Scope::Ledger,
+        help: "open a batch by its id (void ones too)",
+        footer: false,
+    },
+    Binding {
+        action: Action::VoidBatch,
+        name: "void-batch",
+        key: "X",
+        scope: Scope::Sheet,
+        help: "void the batch, or reinstate a void one (asks why)",
+        footer: false,
+    },
+    Binding {
+        action: Action::VoidAliquot,
+        name: "void-aliquot",
+        key: "x",
+        scope: Scope::Sheet,
+        help: "void the selected aliquot, or reinstate it (asks why)",
+        footer: true,
+    },
+    Binding {
+        action: Action::EditAliquot,
+        name: "edit-aliquot",
+        key: "e",
+        scope: Scope::Sheet,
+        help: "correct the selected aliquot's minutes, dilution, path or solvent",
+        footer: true,
+    },
+    Binding {
+        action: Action::ToggleDisposed,
+        name: "show-disposed",
+        key: "t",
+        scope: Scope::Shelf,
+        help: "show or hide disposed vials",
+        footer: false,
+    },
+    Binding {
+        action: Action::ReinstateVial,
+        name: "reinstate-vial",
+        key: "u",
+        scope: Scope::Shelf,
+        help: "put a disposed vial back (asks why)",
+        footer: false,
     },
 ];
 
