@@ -64,6 +64,7 @@ pub fn load_facts(conn: &Connection) -> Result<Vec<Facts>> {
          FROM batch b JOIN material m ON m.id = b.material_id
          LEFT JOIN person p ON p.id = b.operator_id
          LEFT JOIN recipe_version rv ON rv.id = b.recipe_version_id LEFT JOIN recipe r ON r.id = rv.recipe_id
+         WHERE b.voided_at IS NULL
          ORDER BY b.id",
     )?;
     let mut rows = st.query([])?;
@@ -83,11 +84,7 @@ pub fn load_facts(conn: &Connection) -> Result<Vec<Facts>> {
         facts.push(f);
     }
     let mut st = conn.prepare(
-        "WITH prod AS (
-           SELECT b.id AS batch_id, COALESCE(b.product_aliquot_id,
-             (SELECT a.id FROM aliquot a WHERE a.batch_id = b.id ORDER BY a.minutes IS NULL, a.minutes DESC, a.id DESC LIMIT 1)) AS aliquot_id
-           FROM batch b)
-         SELECT p.batch_id, d.quantity, d.value FROM prod p
+        "SELECT p.batch_id, d.quantity, d.value FROM batch_product p
          JOIN derived_value d ON d.aliquot_id = p.aliquot_id AND d.superseded_at IS NULL
          WHERE d.quantity IN ('diameter_nm','first_exciton_nm','pl_peak_nm','pl_fwhm_nm','size_dispersion_pct','qy','concentration_molar')",
     )?;

@@ -558,19 +558,37 @@ pub fn check_status(s: &str) -> Result<()> {
     }
 }
 
-/// Accepts RFC 3339, "YYYY-MM-DD HH:MM" or a bare date; returns the stored form.
+/// Accepts RFC 3339, "YYYY-MM-DD HH:MM" or a bare date; returns the stored form, the instant
+/// in UTC. A time typed without an offset is the user's local time (the offset in force on that
+/// date, from the system's time zone or `TZ`), so it is stored as the instant it was.
 pub fn parse_time(field: &str, s: &str) -> Result<String> {
-    use chrono::{NaiveDate, NaiveDateTime, Utc};
+    use chrono::{Local, NaiveDate, NaiveDateTime, TimeZone, Utc};
+    let stored = |t: chrono::DateTime<Utc>| t.format("%Y-%m-%dT%H:%M:%SZ").to_string();
     if let Ok(t) = chrono::DateTime::parse_from_rfc3339(s) {
-        return Ok(t.with_timezone(&Utc).format("%Y-%m-%dT%H:%M:%SZ").to_string());
+        return Ok(stored(t.with_timezone(&Utc)));
     }
-    for f in ["%Y-%m-%d %H:%M", "%Y-%m-%dT%H:%M", "%Y-%m-%d %H:%M:%S"] {
+    let local = |t: NaiveDateTime| -> Result<String> {
+        match Local.from_local_datetime(&t) {
+            chrono::LocalResult::Single(l) => Ok(stored(l.with_timezone(&Utc))),
+            // A clock change: the earlier of the two readings, as a clock on the wall showed first.
+            chrono::LocalResult::Ambiguous(a, _) => Ok(stored(a.with_timezone(&Utc))),
+            chrono::LocalResult::None => invalid(format!(
+                "{field} '{s}' does not exist in local time (the clocks skipped it); give an offset, e.g. {s}+01:00"
+            )),
+        }
+    };
+    for f in [
+        "%Y-%m-%d %H:%M",
+        "%Y-%m-%dT%H:%M",
+        "%Y-%m-%d %H:%M:%S",
+        "%Y-%m-%dT%H:%M:%S",
+    ] {
         if let Ok(t) = NaiveDateTime::parse_from_str(s, f) {
-            return Ok(t.format("%Y-%m-%dT%H:%M:%SZ").to_string());
+            return local(t);
         }
     }
     if let Ok(d) = NaiveDate::parse_from_str(s, "%Y-%m-%d") {
-        return Ok(format!("{}T00:00:00Z", d.format("%Y-%m-%d")));
+        return local(d.and_hms_opt(0, 0, 0).unwrap_or_default());
     }
     invalid(format!(
         "{field} '{s}' is not a date (use YYYY-MM-DD or YYYY-MM-DD HH:MM)"
