@@ -1013,3 +1013,199 @@ fn writes_are_attributed_to_a_real_person() {
         0
     );
 }
+
+// ------------------------------------------------------------------ the UI offers the same
+
+fn screen_at(app: &App, w: u16, h: u16) -> String {
+    let mut t = ratatui::Terminal::new(ratatui::backend::TestBackend::new(w, h)).unwrap();
+    t.draw(|f| cuvette::tui::draw::draw(f, app)).unwrap();
+    let buf = t.backend().buffer().clone();
+    let mut out = String::new();
+    for y in 0..buf.area.height {
+        for x in 0..buf.area.width {
+            out.push_str(buf[(x, y)].symbol());
+        }
+        out.push('\n');
+    }
+    out
+}
+
+fn ui(lab: &Lab) -> App {
+    let store = Store::open(&lab.db, "UI User").unwrap();
+    App::new(store, keys::KeyMap::new(&Default::default()).unwrap())
+}
+
+#[test]
+fn the_ui_voids_reinstates_and_corrects_an_aliquot() {
+    let (lab, b, ids) = series_lab();
+    let mut app = ui(&lab);
+    press(&mut app, KeyCode::Char('g'));
+    typ(&mut app, &b.to_string());
+    press(&mut app, KeyCode::Enter);
+    assert!(screen_at(&app, 80, 24).contains("growth series"));
+    // The last aliquot, voided with a reason; the form names what it acts on.
+    for _ in 0..3 {
+        press(&mut app, KeyCode::Down);
+    }
+    press(&mut app, KeyCode::Char('x'));
+    let s = screen_at(&app, 80, 24);
+    assert!(
+        s.contains(&format!("Void aliquot {} (14 min) of batch {b}", ids[3])),
+        "{s}"
+    );
+    press(&mut app, KeyCode::Enter);
+    assert!(
+        app.message.as_ref().is_some_and(|m| m.0 && m.1.contains("reason")),
+        "{:?}",
+        app.message
+    );
+    typ(&mut app, "a PL export");
+    press(&mut app, KeyCode::Enter);
+    assert!(app.message.as_ref().is_some_and(|m| !m.0), "{:?}", app.message);
+    assert_eq!(
+        scalar(
+            &lab.db,
+            &format!(
+                "SELECT count(*) FROM aliquot WHERE id = {} AND voided_at IS NOT NULL",
+                ids[3]
+            )
+        ),
+        1
+    );
+    for (w, h) in [(80, 24), (160, 45)] {
+        assert!(screen_at(&app, w, h).contains("VOID"), "{w}x{h}");
+    }
+    let product = app.sheet.as_ref().unwrap()["product"]["id"].as_i64();
+    assert_eq!(product, Some(ids[2]));
+    // Reinstated again from the same key.
+    press(&mut app, KeyCode::Char('x'));
+    assert!(screen_at(&app, 80, 24).contains("Reinstate aliquot"));
+    typ(&mut app, "it was absorbance");
+    press(&mut app, KeyCode::Enter);
+    assert_eq!(app.sheet.as_ref().unwrap()["product"]["id"].as_i64(), Some(ids[3]));
+    // A correction of the dilution recomputes the concentration.
+    press(&mut app, KeyCode::Up);
+    press(&mut app, KeyCode::Char('e'));
+    for _ in 0..2 {
+        press(&mut app, KeyCode::Tab);
+    }
+    for _ in 0..5 {
+        press(&mut app, KeyCode::Backspace);
+    }
+    typ(&mut app, "40");
+    for _ in 0..3 {
+        press(&mut app, KeyCode::Tab);
+    }
+    typ(&mut app, "diluted twice");
+    press(&mut app, KeyCode::Enter);
+    assert!(app.message.as_ref().is_some_and(|m| !m.0), "{:?}", app.message);
+    assert_eq!(
+        scalar(
+            &lab.db,
+            &format!(
+                "SELECT CAST(dilution_factor AS INTEGER) FROM aliquot WHERE id = {}",
+                ids[2]
+            )
+        ),
+        40
+    );
+    let log = lab.ok(&["log", "--json", "--entity", "aliquot", "--limit", "3"]).json();
+    let actions: Vec<&str> = log
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r["action"].as_str().unwrap())
+        .collect();
+    assert_eq!(actions, ["edit", "reinstate", "void"]);
+    assert!(log.as_array().unwrap().iter().all(|r| r["who"] == "UI User"));
+}
+
+#[test]
+fn the_ui_shows_stale_at_every_width_and_audits_its_recompute() {
+    let (lab, b, _) = series_lab();
+    lab.ok(&[
+        "vial",
+        "new",
+        &b.to_string(),
+        "--ml",
+        "2",
+        "--location",
+        "Fridge A",
+        "--label",
+        "S1",
+    ]);
+    lab.ok(&["calib", "set-curve", "CdSe", "jasieniak2009", "--why", "newer curve"]);
+    let mut app = ui(&lab);
+    for (w, h) in [(80, 24), (120, 40), (160, 45), (200, 50)] {
+        let ledger = screen_at(&app, w, h);
+        assert!(ledger.contains("STALE"), "ledger at {w}x{h}: {ledger}");
+    }
+    press(&mut app, KeyCode::Enter);
+    for (w, h) in [(80, 24), (160, 45)] {
+        let sheet = screen_at(&app, w, h);
+        assert!(sheet.matches("STALE").count() >= 4, "sheet at {w}x{h}: {sheet}");
+    }
+    press(&mut app, KeyCode::Char('2'));
+    for (w, h) in [(80, 24), (160, 45)] {
+        let shelf = screen_at(&app, w, h);
+        assert!(shelf.contains("STALE"), "shelf at {w}x{h}: {shelf}");
+    }
+    press(&mut app, KeyCode::Char('3'));
+    press(&mut app, KeyCode::Char('A'));
+    wait_idle(&mut app);
+    let log = lab.ok(&["log", "--json", "--limit", "1"]).json();
+    assert_eq!(log[0]["action"], "recompute", "{log}");
+    assert_eq!(log[0]["who"], "UI User");
+    press(&mut app, KeyCode::Char('2'));
+    let shelf = screen_at(&app, 80, 24);
+    assert!(!shelf.contains("STALE") && shelf.contains("est."), "{shelf}");
+}
+
+#[test]
+fn the_ui_notices_a_restore_and_reopens_the_restored_lab() {
+    let lab = Lab::new();
+    lab.ok(&["init"]);
+    let backup = lab.path("b.db");
+    lab.ok(&["backup", "--out", s(&backup)]);
+    lab.ok(&["batch", "new", "--material", "CdSe", "--name", "after the backup"]);
+    let mut app = ui(&lab);
+    assert_eq!(app.hits.len(), 1);
+    lab.ok(&["restore", s(&backup)]);
+    // A write before the UI looks is refused, and says why.
+    press(&mut app, KeyCode::Char('n'));
+    press(&mut app, KeyCode::Tab);
+    typ(&mut app, "into the kept copy?");
+    press(&mut app, KeyCode::Enter);
+    assert!(
+        app.message
+            .as_ref()
+            .is_some_and(|m| m.0 && m.1.contains("restored from a backup")),
+        "{:?}",
+        app.message
+    );
+    press(&mut app, KeyCode::Esc);
+    app.check_lab();
+    assert!(
+        app.message.as_ref().is_some_and(|m| m.1.contains("now shows the lab")),
+        "{:?}",
+        app.message
+    );
+    assert_eq!(app.hits.len(), 0, "the restored lab has no batch");
+    // And writes go on, into the restored lab.
+    press(&mut app, KeyCode::Char('n'));
+    press(&mut app, KeyCode::Tab);
+    typ(&mut app, "after the restore");
+    press(&mut app, KeyCode::Enter);
+    assert_eq!(
+        scalar(&lab.db, "SELECT count(*) FROM batch WHERE name = 'after the restore'"),
+        1
+    );
+    let kept = files_with(&lab, ".replaced-");
+    assert_eq!(
+        scalar(
+            &lab.path(&kept[0]),
+            "SELECT count(*) FROM batch WHERE name LIKE 'into%'"
+        ),
+        0
+    );
+}

@@ -240,6 +240,35 @@ impl Store {
         })
     }
 
+    /// Whether the lab this store opened is still the one at its path: None when it is, else
+    /// what happened (restored from a backup, or the file moved or replaced).
+    pub fn replaced(&self) -> Result<Option<String>> {
+        match check_still_ours(
+            self.path.as_deref(),
+            self.file_id,
+            self.generation.as_deref(),
+            &self.conn,
+        ) {
+            Ok(()) => Ok(None),
+            Err(Error::Replaced(m)) => Ok(Some(m)),
+            Err(e) => Err(e),
+        }
+    }
+
+    /// Opens the lab at this store's path afresh, with the same access and actor (after a
+    /// restore, to go on with the restored lab).
+    pub fn reopen(&self) -> Result<Store> {
+        let path = self
+            .path
+            .clone()
+            .ok_or_else(|| Error::Invalid("an in-memory lab cannot be reopened".into()))?;
+        if self.read_only {
+            Store::open_read(&path, &self.actor)
+        } else {
+            Store::open_existing(&path, &self.actor)
+        }
+    }
+
     /// Reads what the file is, through SQLite only: refuses a non-SQLite file, another
     /// application's file and a newer cuvette's; returns the schema version.
     fn identify(&self, existed: bool) -> Result<i64> {

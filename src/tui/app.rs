@@ -41,6 +41,7 @@ pub enum FormKind {
     ReinstateBatch,
     GoToBatch,
     ReinstateVial,
+    MoveSpectrum,
 }
 
 #[derive(Debug, Clone)]
@@ -160,6 +161,8 @@ pub struct App {
     tx: Sender<Note>,
     rx: Receiver<Note>,
     pub busy: bool,
+    /// When the UI last asked whether its lab was restored or replaced under it.
+    last_lab_check: std::time::Instant,
 }
 
 fn num(v: Option<f64>, d: usize) -> String {
@@ -202,6 +205,7 @@ impl App {
             tx,
             rx,
             busy: false,
+            last_lab_check: std::time::Instant::now(),
         };
         app.reload();
         app
@@ -307,8 +311,38 @@ impl App {
         }
     }
 
+    /// Notices a lab restored (or its file replaced) while the UI had it open: the UI reopens
+    /// the lab at its path and says so, instead of writing into a file nobody looks at. Every
+    /// write also checks this under its lock, so nothing slips in before the UI looks.
+    pub fn check_lab(&mut self) {
+        match self.store.replaced() {
+            Ok(None) => {}
+            Ok(Some(what)) => match self.store.reopen() {
+                Ok(s) => {
+                    self.store = s;
+                    self.mode = Mode::Normal;
+                    self.reload();
+                    self.error(format!(
+                        "{}; the UI now shows the lab as it is at {} — redo anything you had not finished",
+                        what.split("; reopen").next().unwrap_or(&what),
+                        self.db_path
+                            .as_ref()
+                            .map(|p| p.display().to_string())
+                            .unwrap_or_default()
+                    ));
+                }
+                Err(e) => self.error(format!("{what}; reopening failed: {e}")),
+            },
+            Err(e) => self.error(e.to_string()),
+        }
+    }
+
     /// Drains what the workers reported.
     pub fn poll_workers(&mut self) {
+        if self.last_lab_check.elapsed() >= std::time::Duration::from_secs(2) {
+            self.last_lab_check = std::time::Instant::now();
+            self.check_lab();
+        }
         while let Ok(n) = self.rx.try_recv() {
             match n {
                 Note::Progress { label, done, total } => {
@@ -598,6 +632,30 @@ impl App {
                     };
                     self.mode =
                         Mode::Form(Form::new(kind, &format!("{verb} batch {id} ({name})"), &[("why", "")]).on(id));
+                }
+            },
+            Action::MoveSpectrum => match self.selected_aliquot() {
+                None => self.error("no aliquot selected"),
+                Some((id, label, _)) => {
+                    let kinds: Vec<String> = self
+                        .sheet
+                        .as_ref()
+                        .and_then(|s| s["aliquots"].as_array()?.get(self.aliquot_selected).cloned())
+                        .and_then(|a| {
+                            a["spectra"]
+                                .as_array()
+                                .map(|v| v.iter().filter_map(|s| s["kind"].as_str().map(String::from)).collect())
+                        })
+                        .unwrap_or_default();
+                    let first = kinds.first().cloned().unwrap_or_else(|| "abs".into());
+                    self.mode = Mode::Form(
+                        Form::new(
+                            FormKind::MoveSpectrum,
+                            &format!("Move a spectrum ({}) of aliquot {id} ({label})", kinds.join(", ")),
+                            &[("kind", &first), ("to aliquot", ""), ("why", "")],
+                        )
+                        .on(id),
+                    );
                 }
             },
             Action::GoToBatch => {
@@ -917,6 +975,33 @@ impl App {
                 } else {
                     format!("batch {id} is reinstated")
                 })
+            }
+            FormKind::MoveSpectrum => {
+                let from = f.target.ok_or("no aliquot")?;
+                let kind = f.get("kind");
+                let to: i64 = f
+                    .get("to aliquot")
+                    .parse()
+                    .map_err(|_| format!("to aliquot: '{}' is not an aliquot id", f.get("to aliquot")))?;
+                let spectrum = model::spectra_of_aliquot(&self.store.conn, from)
+                    .map_err(e)?
+                    .into_iter()
+                    .find(|s| s.kind == kind)
+                    .ok_or_else(|| format!("aliquot {from} has no {kind} spectrum"))?;
+                let why = f.get("why");
+                let batch = self.selected_batch().unwrap_or(0);
+                self.store
+                    .write(|tx, who| {
+                        let (a, b) = model::move_spectrum(tx, who, spectrum.id, to, &why)?;
+                        engine::after_correction(tx, a)?;
+                        engine::after_correction(tx, b)
+                    })
+                    .map_err(e)?;
+                self.open_sheet(batch).map_err(e)?;
+                Ok(format!(
+                    "spectrum {} moved from aliquot {from} to aliquot {to}; both recomputed",
+                    spectrum.id
+                ))
             }
             FormKind::GoToBatch => {
                 let id: i64 = f

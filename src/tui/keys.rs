@@ -41,6 +41,7 @@ pub enum Action {
     GoToBatch,
     ReinstateVial,
     ToggleDisposed,
+    MoveSpectrum,
 }
 
 /// Where an action applies.
@@ -303,6 +304,14 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         scope: Scope::Sheet,
         help: "correct the selected aliquot's minutes, dilution, path or solvent",
         footer: true,
+    },
+    Binding {
+        action: Action::MoveSpectrum,
+        name: "move-spectrum",
+        key: "M",
+        scope: Scope::Sheet,
+        help: "move a spectrum of the selected aliquot to another aliquot (asks which and why)",
+        footer: false,
     },
     Binding {
         action: Action::ToggleDisposed,
