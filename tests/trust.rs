@@ -1209,3 +1209,55 @@ fn the_ui_notices_a_restore_and_reopens_the_restored_lab() {
         0
     );
 }
+
+#[test]
+fn the_handover_pack_leaves_void_aliquots_out_and_labels_estimates() {
+    let (lab, b, ids) = series_lab();
+    lab.ok(&["person", "add", "Kai Morrow"]);
+    lab.ok(&["person", "add", "Lena Fisk"]);
+    lab.ok(&[
+        "vial",
+        "new",
+        &b.to_string(),
+        "--ml",
+        "2",
+        "--location",
+        "Fridge A",
+        "--label",
+        "P1",
+        "--owner",
+        "Kai Morrow",
+    ]);
+    lab.ok(&[
+        "aliquot",
+        "void",
+        &ids[0].to_string(),
+        "--why",
+        "a blank logged as a sample",
+    ]);
+    let out = lab.path("pack");
+    lab.ok(&[
+        "handover",
+        "--from",
+        "Kai Morrow",
+        "--to",
+        "Lena Fisk",
+        "--out",
+        s(&out),
+    ]);
+    let html = std::fs::read_to_string(out.join("index.html")).unwrap();
+    let doc = scraper::Html::parse_document(&html);
+    let rows = scraper::Selector::parse("section.batch table tr td:first-child").unwrap();
+    let first_cells: Vec<String> = doc.select(&rows).map(|c| c.text().collect()).collect();
+    assert!(
+        !first_cells.contains(&ids[0].to_string()),
+        "the void aliquot is in the pack: {first_cells:?}"
+    );
+    assert!(first_cells.contains(&ids[1].to_string()), "{first_cells:?}");
+    let label = scraper::Selector::parse("div.label").unwrap();
+    let text: String = doc.select(&label).next().unwrap().text().collect();
+    assert!(
+        text.contains("est.") && text.contains("v1"),
+        "the label says estimate and version: {text}"
+    );
+}

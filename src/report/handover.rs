@@ -246,6 +246,13 @@ fn write_pack(
                 ))
                 .unwrap_or_default()
         );
+        if batch.voided {
+            let _ = write!(
+                html,
+                "<p class=\"caution\"><b>VOID</b>: {} (kept in the record; its values count for nothing)</p>",
+                esc(batch.void_why.as_deref().unwrap_or(""))
+            );
+        }
         if !batch.notes.is_empty() {
             let _ = write!(html, "<p>Notes: {}</p>", esc(&batch.notes));
         }
@@ -290,7 +297,13 @@ fn write_pack(
             let _ = write!(html, "<li>{}</li>", esc(c.as_str().unwrap_or("")));
         }
         html.push_str("</ul></div><h3>Growth series</h3><table><tr><th>aliquot</th><th>min / stage</th><th>first exciton (nm)</th><th>D (nm)</th><th>σ/D (%)</th><th>conc. (µM)</th><th>PL (nm)</th><th>FWHM (nm)</th><th>QY</th><th>curve</th><th>calibration</th></tr>");
-        for a in detail["aliquots"].as_array().into_iter().flatten() {
+        // Void aliquots stay in the lab's record but not in what a new student works from.
+        for a in detail["aliquots"]
+            .as_array()
+            .into_iter()
+            .flatten()
+            .filter(|a| a["voided"] != true)
+        {
             let f = |k: &str, d: usize| n(a[k].as_f64(), d);
             let _ = write!(
                 html,
@@ -358,7 +371,12 @@ fn write_pack(
                     esc(&batch.material),
                     n(product["diameter_nm"].as_f64(), 1),
                     v.concentration_molar
-                        .map(|c| format!("{:.1} µM", c * 1e6))
+                        .map(|c| format!(
+                            "{:.1} µM {}{}",
+                            c * 1e6,
+                            super::concentration_note(&v),
+                            v.calibration_version.map(|c| format!(" v{c}")).unwrap_or_default()
+                        ))
                         .unwrap_or("–".into()),
                     esc(v.created_at.get(..10).unwrap_or("")),
                     esc(to),
