@@ -40,7 +40,10 @@ fn ro(db: &Path) -> Connection {
 }
 
 fn scalar(db: &Path, sql: &str) -> i64 {
-    Connection::open(db).unwrap().query_row(sql, [], |r| r.get(0)).unwrap()
+    Connection::open(db)
+        .unwrap()
+        .query_row(sql, [], |r| r.get(0))
+        .unwrap_or_else(|e| panic!("{}: {sql}: {e}", db.display()))
 }
 
 fn files_in(dir: &Path, needle: &str) -> Vec<String> {
@@ -1469,4 +1472,112 @@ fn a_hostile_name_in_the_log_is_neutralised() {
     assert!(!log.stdout.contains('\u{1b}'), "{:?}", log.stdout);
     assert!(!log.stdout.contains('\u{7}'), "{:?}", log.stdout);
     assert_eq!(log.stdout.trim().lines().count(), 1, "{:?}", log.stdout);
+}
+
+/// A restore killed at any moment leaves the lab as it was or as restored, never between:
+/// `check` passes and the content is one or the other. (The kill points vary; the assertions
+/// hold at every one.)
+#[test]
+fn a_killed_restore_leaves_one_lab_or_the_other() {
+    let lab = Lab::new();
+    lab.ok(&["demo", "--scale", "60"]);
+    let backup = lab.path("b.db");
+    lab.ok(&["backup", "--out", s(&backup)]);
+    lab.ok(&["person", "add", "Only Before The Restore"]);
+    settle(&lab.db);
+    let pristine = lab.path("pristine.db");
+    std::fs::copy(&lab.db, &pristine).unwrap();
+    let q = "SELECT count(*) FROM person WHERE name = 'Only Before The Restore'";
+    for step in 0..6u64 {
+        std::fs::copy(&pristine, &lab.db).unwrap();
+        for side in ["-wal", "-shm"] {
+            let _ = std::fs::remove_file(format!("{}{side}", lab.db.display()));
+        }
+        let mut child = bin()
+            .arg("--db")
+            .arg(&lab.db)
+            .arg("restore")
+            .arg(&backup)
+            .stdout(Stdio::null())
+            .stderr(Stdio::null())
+            .spawn()
+            .unwrap();
+        std::thread::sleep(std::time::Duration::from_millis(step * 40));
+        let _ = child.kill();
+        let status = child.wait().unwrap();
+        let o = lab.run(&["check", "--json"]);
+        no_panic(&o, "check");
+        assert_eq!(o.code, 0, "after a kill at step {step} ({status}): {:?}", problems(&o));
+        let before = scalar(&lab.db, q);
+        let restored = scalar(&lab.db, "SELECT count(*) FROM audit_log WHERE action = 'restore'");
+        assert!(
+            (before == 1 && restored == 0) || (before == 0 && restored == 1),
+            "step {step}: half a restore (person {before}, restore rows {restored})"
+        );
+        for k in files_in(lab.dir.path(), ".replaced-")
+            .into_iter()
+            .filter(|k| !k.contains("partial"))
+        {
+            // A kept copy is a whole lab holding the content that was there before.
+            assert_eq!(scalar(&lab.path(&k), q), 1, "step {step}: {k}");
+            std::fs::remove_file(lab.path(&k)).unwrap();
+        }
+    }
+    // The next backup in the folder sweeps what the killed restores left.
+    lab.ok(&["backup", "--out", s(&lab.path("after.db"))]);
+    let left = files_in(lab.dir.path(), "partial");
+    assert!(left.is_empty(), "{left:?}");
+}
+
+/// A backup taken while another process keeps writing is a whole, checked lab.
+#[test]
+fn a_backup_during_writes_is_whole() {
+    let lab = Lab::new();
+    lab.ok(&["demo"]);
+    let db = lab.db.clone();
+    let writer = std::thread::spawn(move || {
+        for i in 0..25 {
+            let o = bin()
+                .arg("--db")
+                .arg(&db)
+                .args(["batch", "new", "--material", "CdSe", "--name", &format!("w{i}")])
+                .output()
+                .unwrap();
+            assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        }
+    });
+    let mut copies = Vec::new();
+    for i in 0..5 {
+        let c = lab.path(&format!("during-{i}.db"));
+        lab.ok(&["backup", "--out", s(&c)]);
+        copies.push(c);
+    }
+    writer.join().unwrap();
+    for c in &copies {
+        let o = lab.run_on(c, &["check", "--json"]);
+        assert_eq!(o.code, 0, "{}: {:?}", c.display(), problems(&o));
+    }
+}
+
+/// `restore` "checks the backup first", but only with the file-level check: a backup whose
+/// derived values were changed behind cuvette's back is restored, and `check` on the lab
+/// fails straight after.
+#[test]
+#[ignore = "bug: restore accepts a backup whose derived values fail `check` (restore runs store::check::check, not engine::verify_values)"]
+fn restore_refuses_a_backup_that_fails_check() {
+    let sr = series();
+    let lab = &sr.lab;
+    let backup = lab.path("b.db");
+    lab.ok(&["backup", "--out", s(&backup)]);
+    Connection::open(&backup)
+        .unwrap()
+        .execute(
+            "UPDATE derived_value SET value = value * 1.5 WHERE quantity = 'diameter_nm' AND superseded_at IS NULL",
+            [],
+        )
+        .unwrap();
+    settle(&backup);
+    let o = lab.run_on(&backup, &["check", "--json"]);
+    assert_eq!(o.code, 1, "the tampered backup passes check: {}", o.stdout);
+    lab.refuses(&["restore", s(&backup)], "b.db");
 }
