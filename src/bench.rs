@@ -231,6 +231,124 @@ pub fn kind_of_file(path: &Path) -> Result<&'static str> {
     }
 }
 
+/// How long a file in a watched folder must stay unchanged (size and modification time) before
+/// it is read: spectrometer software often writes an export in bursts with pauses between them
+/// (common practice among watch tools; a setting, not a source).
+pub const WATCH_SETTLE: std::time::Duration = std::time::Duration::from_secs(3);
+
+/// What a watched folder's file looks like at one look.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct FileLook {
+    pub size: u64,
+    pub modified: Option<std::time::SystemTime>,
+}
+
+/// What the watch should do about a file.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum WatchEvent {
+    /// Unchanged for the settle time: read and log it now.
+    Ready(PathBuf),
+    /// Changed after it was logged (or refused): it was still being written. Carries the aliquot
+    /// it became, if any.
+    ChangedAfter(PathBuf, Option<i64>),
+}
+
+#[derive(Debug, Clone)]
+enum WatchState {
+    /// Being written or just arrived: last look and since when it has looked so.
+    Settling(FileLook, std::time::Instant),
+    /// Read (logged as the aliquot, or refused) as it looked then.
+    Done(FileLook, Option<i64>),
+    /// Present when watching began: not the watch's business unless it changes.
+    Before(FileLook),
+}
+
+/// The pure part of watching a folder: decides from successive looks which files are complete.
+/// A file is read only once its size and modification time have held for [`WATCH_SETTLE`]; one
+/// that changes after it was read is reported, never silently half-logged.
+#[derive(Debug, Default)]
+pub struct FolderWatch {
+    files: std::collections::HashMap<PathBuf, WatchState>,
+}
+
+impl FolderWatch {
+    /// Starts watching: the files there now are left alone.
+    pub fn new(present: &[(PathBuf, FileLook)]) -> FolderWatch {
+        FolderWatch {
+            files: present
+                .iter()
+                .map(|(p, l)| (p.clone(), WatchState::Before(*l)))
+                .collect(),
+        }
+    }
+
+    /// One look at the folder at `now`: the events it gives.
+    pub fn look(&mut self, now: std::time::Instant, listing: &[(PathBuf, FileLook)]) -> Vec<WatchEvent> {
+        let mut out = Vec::new();
+        for (p, l) in listing {
+            match self.files.get(p).cloned() {
+                None => {
+                    self.files.insert(p.clone(), WatchState::Settling(*l, now));
+                }
+                Some(WatchState::Settling(prev, since)) if prev == *l => {
+                    if now.duration_since(since) >= WATCH_SETTLE {
+                        out.push(WatchEvent::Ready(p.clone()));
+                    }
+                }
+                Some(WatchState::Settling(_, _)) => {
+                    self.files.insert(p.clone(), WatchState::Settling(*l, now));
+                }
+                Some(WatchState::Done(prev, aliquot)) if prev != *l => {
+                    out.push(WatchEvent::ChangedAfter(p.clone(), aliquot));
+                    // Reported once; a refused file that changes is read again when it settles.
+                    self.files.insert(
+                        p.clone(),
+                        match aliquot {
+                            Some(_) => WatchState::Done(*l, aliquot),
+                            None => WatchState::Settling(*l, now),
+                        },
+                    );
+                }
+                Some(WatchState::Before(prev)) if prev != *l => {
+                    self.files.insert(p.clone(), WatchState::Settling(*l, now));
+                }
+                Some(_) => {}
+            }
+        }
+        out
+    }
+
+    /// Records what became of a ready file, as it looked when it was read.
+    pub fn done(&mut self, path: &Path, look: FileLook, aliquot: Option<i64>) {
+        self.files.insert(path.to_path_buf(), WatchState::Done(look, aliquot));
+    }
+}
+
+/// The files of a folder with their looks (hidden files left out).
+pub fn folder_looks(folder: &Path) -> Vec<(PathBuf, FileLook)> {
+    let Ok(d) = std::fs::read_dir(folder) else {
+        return Vec::new();
+    };
+    let mut v: Vec<(PathBuf, FileLook)> = d
+        .filter_map(|e| e.ok())
+        .filter(|e| !e.file_name().to_string_lossy().starts_with('.'))
+        .filter_map(|e| {
+            let m = e.metadata().ok()?;
+            m.is_file().then(|| {
+                (
+                    e.path(),
+                    FileLook {
+                        size: m.len(),
+                        modified: m.modified().ok(),
+                    },
+                )
+            })
+        })
+        .collect();
+    v.sort_by(|a, b| a.0.cmp(&b.0));
+    v
+}
+
 /// One aliquot's worth of files found in a folder.
 #[derive(Debug, Clone)]
 pub struct FolderGroup {
@@ -393,7 +511,61 @@ pub fn import_folder(
 
 #[cfg(test)]
 mod tests {
-    use super::minutes_in;
+    use super::{FileLook, FolderWatch, WATCH_SETTLE, WatchEvent, minutes_in};
+    use std::path::PathBuf;
+    use std::time::{Duration, Instant};
+
+    fn look(size: u64) -> FileLook {
+        FileLook { size, modified: None }
+    }
+
+    /// A file written in bursts with pauses is read only after it has held still for the settle
+    /// time, and a change after reading is reported (the case of an export logged half-written).
+    #[test]
+    fn a_file_written_in_bursts_is_read_whole_and_a_late_change_reported() {
+        let p = PathBuf::from("abs_18min.csv");
+        let old = PathBuf::from("abs_00min.csv");
+        let t0 = Instant::now();
+        let mut w = FolderWatch::new(&[(old.clone(), look(10))]);
+        assert!(
+            w.look(t0, &[(old.clone(), look(10)), (p.clone(), look(100))])
+                .is_empty()
+        );
+        // A pause shorter than the settle time, then more bytes.
+        assert!(
+            w.look(t0 + Duration::from_millis(1500), &[(p.clone(), look(100))])
+                .is_empty()
+        );
+        assert!(
+            w.look(t0 + Duration::from_millis(2000), &[(p.clone(), look(200))])
+                .is_empty()
+        );
+        assert!(
+            w.look(t0 + Duration::from_millis(4000), &[(p.clone(), look(200))])
+                .is_empty()
+        );
+        let ready = w.look(
+            t0 + Duration::from_millis(2000) + WATCH_SETTLE,
+            &[(p.clone(), look(200))],
+        );
+        assert_eq!(ready, vec![WatchEvent::Ready(p.clone())]);
+        w.done(&p, look(200), Some(7));
+        assert!(
+            w.look(t0 + Duration::from_secs(10), &[(p.clone(), look(200))])
+                .is_empty()
+        );
+        assert_eq!(
+            w.look(t0 + Duration::from_secs(11), &[(p.clone(), look(300))]),
+            vec![WatchEvent::ChangedAfter(p.clone(), Some(7))]
+        );
+        // Reported once, not on every look.
+        assert!(
+            w.look(t0 + Duration::from_secs(12), &[(p.clone(), look(300))])
+                .is_empty()
+        );
+        // A file there before watching began is left alone.
+        assert!(w.look(t0 + Duration::from_secs(20), &[(old, look(10))]).is_empty());
+    }
 
     #[test]
     fn minutes_from_names() {

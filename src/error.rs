@@ -51,7 +51,7 @@ impl From<rusqlite::Error> for Error {
             }
             Some(ErrorCode::ReadOnly) => Error::Storage("the database file is read-only: nothing was written".into()),
             Some(ErrorCode::DatabaseBusy) | Some(ErrorCode::DatabaseLocked) => Error::Storage(
-                "the database stayed busy with another writer for 30 s: nothing was written; try again".into(),
+                "the database stayed busy with another process past the wait ($CUVETTE_BUSY_SECONDS, 30 s by default): nothing was written; try again".into(),
             ),
             Some(ErrorCode::SystemIoFailure) => Error::Storage(
                 "disk I/O error on the database (is the disk full or failing?): nothing was written".into(),

@@ -1186,7 +1186,9 @@ fn the_ui_notices_a_restore_and_reopens_the_restored_lab() {
     press(&mut app, KeyCode::Esc);
     app.check_lab();
     assert!(
-        app.message.as_ref().is_some_and(|m| m.1.contains("now shows the lab")),
+        app.message
+            .as_ref()
+            .is_some_and(|m| m.1.contains("now showing the lab")),
         "{:?}",
         app.message
     );

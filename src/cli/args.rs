@@ -12,8 +12,8 @@ use std::path::PathBuf;
 pub struct Cli {
     /// The lab database (default: $CUVETTE_DB, else lab.db in the platform's data directory).
     /// An empty value counts as not given.
-    #[arg(long, global = true)]
-    pub db: Option<PathBuf>,
+    #[arg(long, global = true, value_parser = clap::builder::ValueParser::os_string())]
+    pub db: Option<std::ffi::OsString>,
     /// Who the writes are attributed to (default: $CUVETTE_USER, else the name set with
     /// `cuvette whoami --set`, else the login name).
     #[arg(long = "as", global = true, value_name = "PERSON")]

@@ -32,6 +32,7 @@ pub fn default_db_path() -> PathBuf {
 fn db_path(cli: &Cli) -> PathBuf {
     cli.db
         .clone()
+        .map(PathBuf::from)
         .filter(|p| !p.as_os_str().is_empty())
         .or_else(|| {
             std::env::var_os("CUVETTE_DB")
@@ -72,6 +73,16 @@ fn open_write(cli: &Cli) -> Result<Store> {
         return open_create(cli);
     }
     let path = db_path(cli);
+    // A mistyped path is told before anyone is asked who they are.
+    if std::fs::metadata(&path).is_err() {
+        return Err(with_path(
+            &path,
+            crate::Error::Invalid(format!(
+                "no lab at {}: create one with `cuvette init` (or give the right --db)",
+                path.display()
+            )),
+        ));
+    }
     let who = identity::for_write(cli.actor.as_deref())?;
     let store = Store::open_existing(&path, &who).map_err(|e| with_path(&path, e))?;
     report_migration(&store, &path);
@@ -252,12 +263,12 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
 
 fn demo(cli: &Cli, a: &DemoArgs) -> Result<ExitCode> {
     // Without --db the demo goes to its own file beside the default lab, never into it.
-    let path = match &cli.db {
-        Some(p) => p.clone(),
+    let path = match cli.db.as_ref().filter(|p| !p.is_empty()) {
+        Some(p) => PathBuf::from(p),
         None => default_db_path().with_file_name("demo.db"),
     };
     let cli = &Cli {
-        db: Some(path.clone()),
+        db: Some(path.clone().into_os_string()),
         actor: cli.actor.clone(),
         create: true,
         cmd: None,
@@ -1120,12 +1131,14 @@ fn log(cli: &Cli, a: &LogArgs) -> Result<()> {
         return json(&rows);
     }
     for r in rows {
+        // One row, one line, whatever an old row's fields hold.
+        let flat = |t: &str| t.replace(['\n', '\r'], " ");
         line(&format!(
             "{:>6} {} {:<10} {:<12} {:>6} {}",
             r.id,
             r.at,
-            r.who,
-            r.entity,
+            flat(&r.who),
+            flat(&r.entity),
             r.entity_id.map(|i| i.to_string()).unwrap_or_default(),
             r.action
         ))?;
@@ -1922,12 +1935,16 @@ fn check(cli: &Cli, a: &CheckArgs) -> Result<ExitCode> {
 
 fn restore(cli: &Cli, file: &Path) -> Result<()> {
     let target = db_path(cli);
+    // A backup must pass the whole check, derived values recomputed included.
+    let extra = |c: &rusqlite::Connection| -> crate::Result<Vec<crate::store::check::Problem>> {
+        Ok(engine::verify_values(c, true)?.1)
+    };
     let r = if target.exists() {
         let mut store = open_write(cli)?;
-        crate::store::backup::restore(&mut store, file)?
+        crate::store::backup::restore(&mut store, file, &extra)?
     } else {
         let who = identity::for_write(cli.actor.as_deref())?;
-        crate::store::backup::restore_new(file, &target, &who)?
+        crate::store::backup::restore_new(file, &target, &who, &extra)?
     };
     line(&format!(
         "restored {} from {}{}",

@@ -86,10 +86,12 @@ pub fn remember(name: &str) -> Result<PathBuf> {
     Ok(p)
 }
 
-/// The name a write is attributed to; asks once on a terminal when nothing resolves.
+/// The name a write is attributed to; asks once on a terminal when nothing resolves. A name
+/// from any source must pass [`check_name`]: the audit log's "who" is one printable line.
 pub fn for_write(flag: Option<&str>) -> Result<String> {
-    if let Some(n) = resolve(flag).name {
-        return Ok(n);
+    let id = resolve(flag);
+    if let Some(n) = id.name {
+        return check_name(&n).map_err(|e| anyhow!("the name from {} is refused: {e}; nothing was written", id.from));
     }
     use std::io::{BufRead, IsTerminal, Write};
     if std::io::stdin().is_terminal() && std::io::stderr().is_terminal() {

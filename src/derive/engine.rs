@@ -1357,7 +1357,17 @@ pub fn verify_values(conn: &Connection, deep: bool) -> Result<(usize, Vec<Proble
             e.insert(calibration::get(conn, version)?.body);
         }
         let cal = &cals[&version];
-        let spectra = crate::store::model::spectra_of_aliquot(conn, a.id)?;
+        // A spectrum that cannot even be read is a finding, not a reason to stop checking.
+        let spectra = match crate::store::model::spectra_of_aliquot(conn, a.id) {
+            Ok(s) => s,
+            Err(e) => {
+                problems.push(Problem::new(
+                    "spectrum_data",
+                    format!("aliquot {}: its spectra cannot be read ({e})", a.id),
+                ));
+                continue;
+            }
+        };
         let metas: Vec<SpectrumMeta> = spectra.iter().map(SpectrumMeta::from).collect();
         let hash = inputs_hash(&a, &core, &metas, cal);
         let stage1 = analysis_hash(&metas, cal);
@@ -1392,7 +1402,17 @@ pub fn verify_values(conn: &Connection, deep: bool) -> Result<(usize, Vec<Proble
         if row.stale {
             continue;
         }
-        if let Some(e) = vial_expected(conn, &row, &mut cals)?
+        let expected = match vial_expected(conn, &row, &mut cals) {
+            Ok(e) => e,
+            Err(e) => {
+                problems.push(Problem::new(
+                    "derived_value",
+                    format!("vial {} concentration cannot be recomputed ({e})", row.vial_id),
+                ));
+                continue;
+            }
+        };
+        if let Some(e) = expected
             && (!same(e.value, row.c.value) || e.inputs_hash != row.c.inputs_hash)
         {
             problems.push(Problem::new(

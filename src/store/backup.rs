@@ -200,8 +200,41 @@ fn table_columns(conn: &Connection, schema: &str) -> Result<Vec<(String, Vec<Str
     Ok(out)
 }
 
+/// How a restore checks a backup before anything is replaced: the store's own checks, plus
+/// whatever the caller adds (the command line adds the engine's recomputed sample).
+pub type BackupCheck<'a> = &'a dyn Fn(&Connection) -> Result<Vec<check::Problem>>;
+
+/// Opens and checks a backup, naming it in every refusal.
+fn checked_backup(file: &Path, actor: &str, extra: BackupCheck) -> Result<Store> {
+    let named = |e: Error| -> Error {
+        let m = e.to_string();
+        if m.contains(&file.display().to_string()) {
+            e
+        } else {
+            Error::Invalid(format!("the backup {}: {m}; nothing was restored", file.display()))
+        }
+    };
+    if std::fs::metadata(file).is_err() {
+        return Err(Error::Invalid(format!(
+            "no backup file at {}; nothing was restored",
+            file.display()
+        )));
+    }
+    let backup = Store::open_read(file, actor).map_err(named)?;
+    let mut problems = check::check(&backup.conn).map_err(named)?;
+    problems.extend(extra(&backup.conn).map_err(named)?);
+    if !problems.is_empty() {
+        return Err(Error::Invalid(format!(
+            "the backup {} fails its check ({}); nothing was restored",
+            file.display(),
+            problems.iter().map(|p| p.detail.clone()).collect::<Vec<_>>().join("; ")
+        )));
+    }
+    Ok(backup)
+}
+
 /// Restores the lab `store` has open from the backup `file` (see the module note).
-pub fn restore(store: &mut Store, file: &Path) -> Result<RestoreReport> {
+pub fn restore(store: &mut Store, file: &Path, extra: BackupCheck) -> Result<RestoreReport> {
     let target = store
         .path
         .clone()
@@ -221,15 +254,7 @@ pub fn restore(store: &mut Store, file: &Path) -> Result<RestoreReport> {
         )));
     }
     // The backup, checked and (when older) migrated, without changing it.
-    let backup = Store::open_read(file, &store.actor)?;
-    let problems = check::check(&backup.conn)?;
-    if !problems.is_empty() {
-        return Err(Error::Invalid(format!(
-            "{} fails its check: {}",
-            file.display(),
-            problems.iter().map(|p| p.detail.clone()).collect::<Vec<_>>().join("; ")
-        )));
-    }
+    let backup = checked_backup(file, &store.actor, extra)?;
     // A snapshot of the backup at this schema, in a partial file beside the lab.
     let staged = copy_to_partial(&backup.conn, &target)?;
     drop(backup);
@@ -371,22 +396,50 @@ fn outcome_failed<T>(r: &Result<T>) -> bool {
     r.is_err()
 }
 
-/// Restores a backup where there is no lab yet: a plain new copy.
-pub fn restore_new(file: &Path, target: &Path, actor: &str) -> Result<RestoreReport> {
-    let backup = Store::open_read(file, actor)?;
-    let problems = check::check(&backup.conn)?;
-    if !problems.is_empty() {
-        return Err(Error::Invalid(format!(
-            "{} fails its check: {}",
-            file.display(),
-            problems.iter().map(|p| p.detail.clone()).collect::<Vec<_>>().join("; ")
-        )));
-    }
+/// Restores a backup where there is no lab yet: a new copy, whose audit log records where it
+/// came from, with a generation of its own.
+pub fn restore_new(file: &Path, target: &Path, actor: &str, extra: BackupCheck) -> Result<RestoreReport> {
+    let backup = checked_backup(file, actor, extra)?;
     write_new_copy(&backup.conn, target)?;
-    Ok(RestoreReport {
+    drop(backup);
+    let generation = new_generation();
+    let mut lab = Store::open_existing(target, actor)?;
+    let report = RestoreReport {
         restored_from: file.display().to_string(),
         lab: target.display().to_string(),
         replaced_kept_at: None,
-        generation: String::new(),
-    })
+        generation: generation.clone(),
+    };
+    let at = super::now();
+    let conn = &lab.conn;
+    conn.execute_batch("BEGIN IMMEDIATE")?;
+    let r = (|| -> Result<()> {
+        for (k, v) in [(GENERATION_KEY, generation.as_str()), ("restored_at", at.as_str())] {
+            conn.execute(
+                "INSERT INTO lab_meta (key, value) VALUES (?1, ?2) ON CONFLICT(key) DO UPDATE SET value = excluded.value",
+                params![k, v],
+            )?;
+        }
+        super::audit(
+            conn,
+            actor,
+            "lab",
+            None,
+            "restore",
+            None,
+            Some(
+                &serde_json::json!({"restored_from": report.restored_from, "replaced_kept_at": null,
+                "generation": generation}),
+            ),
+        )
+    })();
+    match r {
+        Ok(()) => conn.execute_batch("COMMIT")?,
+        Err(e) => {
+            let _ = conn.execute_batch("ROLLBACK");
+            return Err(e);
+        }
+    }
+    lab.generation = Some(generation);
+    Ok(report)
 }

@@ -107,17 +107,39 @@ fn spectrum_data(conn: &Connection) -> Result<Vec<Problem>> {
 /// The audit log's guards exist and its ids run without a gap.
 fn audit_log(conn: &Connection) -> Result<Vec<Problem>> {
     let mut out = Vec::new();
-    for t in ["audit_no_update", "audit_no_delete"] {
-        let n: i64 = conn.query_row(
-            "SELECT count(*) FROM sqlite_master WHERE type = 'trigger' AND name = ?1 AND tbl_name = 'audit_log'",
-            [t],
-            |r| r.get(0),
-        )?;
-        if n == 0 {
-            out.push(Problem::new(
+    // The guards exactly as schema 0001 made them (compared with whitespace folded): a trigger
+    // of the same name that does something else guards nothing.
+    for (t, event) in [("audit_no_update", "UPDATE"), ("audit_no_delete", "DELETE")] {
+        let expected = format!(
+            "CREATE TRIGGER {t} BEFORE {event} ON audit_log BEGIN SELECT RAISE(ABORT, 'the audit log is append-only'); END"
+        );
+        let found: Option<String> = conn
+            .query_row(
+                "SELECT sql FROM sqlite_master WHERE type = 'trigger' AND name = ?1 AND tbl_name = 'audit_log'",
+                [t],
+                |r| r.get(0),
+            )
+            .ok();
+        let fold = |s: &str| {
+            s.split_whitespace()
+                .collect::<Vec<_>>()
+                .join(" ")
+                .trim_end_matches(';')
+                .to_string()
+        };
+        match found {
+            None => out.push(Problem::new(
                 "audit_log",
                 format!("the trigger {t} that keeps the audit log append-only is missing"),
-            ));
+            )),
+            Some(sql) if fold(&sql) != fold(&expected) => out.push(Problem::new(
+                "audit_log",
+                format!(
+                    "the trigger {t} no longer refuses every {event} of the audit log: {}",
+                    fold(&sql)
+                ),
+            )),
+            Some(_) => {}
         }
     }
     let (count, max): (i64, Option<i64>) = conn.query_row("SELECT count(*), max(id) FROM audit_log", [], |r| {

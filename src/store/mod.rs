@@ -35,8 +35,19 @@ pub const MIGRATIONS: &[(&str, &str)] = &[
 /// The schema version this build writes.
 pub const SCHEMA_VERSION: i64 = MIGRATIONS.len() as i64;
 
-/// How long a writer waits for another process's transaction before giving up.
+/// How long a connection waits for another process's lock before giving up, unless
+/// `$CUVETTE_BUSY_SECONDS` says otherwise (a lab whose spectrometer computer holds long
+/// transactions may want more; a test of a stuck lock, less).
 pub const BUSY_TIMEOUT: Duration = Duration::from_secs(30);
+
+fn busy_timeout() -> Duration {
+    std::env::var("CUVETTE_BUSY_SECONDS")
+        .ok()
+        .and_then(|v| v.trim().parse::<f64>().ok())
+        .filter(|s| s.is_finite() && *s >= 0.0 && *s <= 3600.0)
+        .map(Duration::from_secs_f64)
+        .unwrap_or(BUSY_TIMEOUT)
+}
 
 /// An open lab database.
 pub struct Store {
@@ -180,7 +191,7 @@ impl Store {
         };
         let version = store.identify(existed)?;
         if access == Access::Read {
-            store.conn.busy_timeout(BUSY_TIMEOUT)?;
+            store.conn.busy_timeout(busy_timeout())?;
             if version < SCHEMA_VERSION {
                 store.migrate_in_memory(version)?;
             }
@@ -227,7 +238,7 @@ impl Store {
                 OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_NO_MUTEX,
             )?
         };
-        conn.busy_timeout(BUSY_TIMEOUT)?;
+        conn.busy_timeout(busy_timeout())?;
         conn.pragma_update(None, "foreign_keys", "ON")?;
         Ok(Store {
             conn,
@@ -334,7 +345,7 @@ impl Store {
             .as_ref()
             .map(|p| p.display().to_string())
             .unwrap_or_else(|| ":memory:".into());
-        self.conn.busy_timeout(BUSY_TIMEOUT)?;
+        self.conn.busy_timeout(busy_timeout())?;
         self.conn.pragma_update(None, "foreign_keys", "ON")?;
         if self.path.is_some() {
             let mode: String = self.conn.query_row("PRAGMA journal_mode=WAL", [], |r| r.get(0))?;
@@ -464,7 +475,7 @@ fn check_still_ours(
     if current.as_deref() != generation {
         let when = model::meta_get(tx, "restored_at")?.unwrap_or_default();
         return Err(Error::Replaced(format!(
-            "the lab was restored from a backup{} while this cuvette had it open; reopen it: nothing was written",
+            "nothing was written: the lab was restored from a backup{} while open; reopen it",
             if when.is_empty() {
                 String::new()
             } else {
@@ -503,28 +514,57 @@ fn file_uri(path: &Path, query: &str) -> String {
     format!("{out}?{query}")
 }
 
-/// Opens a lab for reading without changing it. First as an ordinary read-only connection
-/// (which sees other processes' work in the write-ahead log); where that cannot work because
-/// nothing beside the file can be written (read-only media, an immutable file with no shared
-/// memory file yet), as an immutable file, which SQLite reads with no locks and no side files.
+/// Opens a lab for reading without changing it.
+///
+/// A lab that can be written gets an ordinary connection with `query_only` set: SQLite refuses
+/// every write on it, sees other processes' work in the write-ahead log, and on closing cleans up
+/// its side files as it does for any connection. A lab that cannot be written (permissions, an
+/// immutable flag) gets a read-only connection; where even that cannot work because nothing
+/// beside the file can be written (read-only media with no shared-memory file), SQLite's
+/// immutable mode, which reads the file alone. A busy lab is waited for (the busy timeout), never
+/// read around: falling back to immutable mode then would skip committed work.
 fn open_read_only(path: &Path) -> Result<Connection> {
-    let flags = OpenFlags::SQLITE_OPEN_READ_ONLY | OpenFlags::SQLITE_OPEN_URI | OpenFlags::SQLITE_OPEN_NO_MUTEX;
-    let not_db = |e: rusqlite::Error| Error::NotADatabase {
+    let not_sqlite = || Error::NotADatabase {
         path: path.display().to_string(),
-        reason: e.to_string(),
+        reason: "it is not an SQLite file".into(),
     };
-    let try_open = |query: &str| -> rusqlite::Result<Connection> {
-        let c = Connection::open_with_flags(file_uri(path, query), flags)?;
+    let probe = |c: &Connection| -> rusqlite::Result<()> {
+        c.busy_timeout(busy_timeout())?;
         c.query_row("SELECT count(*) FROM sqlite_master", [], |r| r.get::<_, i64>(0))?;
+        Ok(())
+    };
+    let is = |e: &rusqlite::Error, code: rusqlite::ErrorCode| e.sqlite_error_code() == Some(code);
+    if let Ok(c) = Connection::open_with_flags(
+        path,
+        OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_NO_MUTEX,
+    ) && !c.is_readonly(rusqlite::DatabaseName::Main).unwrap_or(true)
+    {
+        return match probe(&c) {
+            Ok(()) => {
+                c.pragma_update(None, "query_only", true)?;
+                Ok(c)
+            }
+            Err(e) if is(&e, rusqlite::ErrorCode::NotADatabase) => Err(not_sqlite()),
+            Err(e) => Err(Error::from(e)),
+        };
+    }
+    let flags = OpenFlags::SQLITE_OPEN_READ_ONLY | OpenFlags::SQLITE_OPEN_URI | OpenFlags::SQLITE_OPEN_NO_MUTEX;
+    let open = |query: &str| -> rusqlite::Result<Connection> {
+        let c = Connection::open_with_flags(file_uri(path, query), flags)?;
+        probe(&c)?;
         Ok(c)
     };
-    match try_open("mode=ro") {
+    match open("mode=ro") {
         Ok(c) => Ok(c),
-        Err(e) if e.sqlite_error_code() == Some(rusqlite::ErrorCode::NotADatabase) => Err(Error::NotADatabase {
-            path: path.display().to_string(),
-            reason: "it is not an SQLite file".into(),
-        }),
-        Err(_) => try_open("mode=ro&immutable=1").map_err(not_db),
+        Err(e) if is(&e, rusqlite::ErrorCode::NotADatabase) => Err(not_sqlite()),
+        // Only when SQLite cannot open or create what a reader needs beside the file.
+        Err(e) if is(&e, rusqlite::ErrorCode::CannotOpen) || is(&e, rusqlite::ErrorCode::ReadOnly) => {
+            open("mode=ro&immutable=1").map_err(|e| Error::NotADatabase {
+                path: path.display().to_string(),
+                reason: e.to_string(),
+            })
+        }
+        Err(e) => Err(Error::from(e)),
     }
 }
 

@@ -27,7 +27,7 @@ pub fn check_number(field: &str, v: f64, allow_zero: bool) -> Result<f64> {
     }
     if v < 0.0 || (!allow_zero && v == 0.0) {
         let bound = if allow_zero { "zero or more" } else { "above zero" };
-        return invalid(format!("{field} must be {bound}, got {v}"));
+        return invalid(format!("{field} must be {bound}, got {}", shown(v)));
     }
     Ok(v)
 }
@@ -38,10 +38,20 @@ pub fn check_bounded(field: &str, v: f64, allow_zero: bool, max: f64, unit: &str
     check_number(field, v, allow_zero)?;
     if v > max {
         return invalid(format!(
-            "{field} of {v} {unit} is beyond any plausible value (at most {max} {unit})"
+            "{field} of {} {unit} is beyond any plausible value (at most {max} {unit})",
+            shown(v)
         ));
     }
     Ok(v)
+}
+
+/// A number as a message shows it: short, in e-notation when very large or small.
+fn shown(v: f64) -> String {
+    if v != 0.0 && (v.abs() >= 1e6 || v.abs() < 1e-4) {
+        format!("{v:e}")
+    } else {
+        format!("{v}")
+    }
 }
 
 /// A reason for a correction: required, one line, not blank.
@@ -849,6 +859,9 @@ pub fn insert_aliquot(tx: &Connection, who: &str, a: &NewAliquot) -> Result<i64>
     };
     if batch.status == "archived" {
         return invalid(format!("batch {} is archived; set its status first", batch.id));
+    }
+    if batch.voided {
+        return invalid(format!("batch {} is void; reinstate it first", batch.id));
     }
     let taken = match &a.taken_at {
         Some(t) => parse_time("taken at", t)?,
@@ -1801,7 +1814,17 @@ pub fn move_spectrum(tx: &Connection, who: &str, spectrum_id: i64, to_aliquot: i
         ));
     }
     let target = get_aliquot(tx, to_aliquot)?;
-    if target.voided {
+    let target_empty = tx
+        .query_row(
+            "SELECT 1 FROM spectrum WHERE aliquot_id = ?1 LIMIT 1",
+            [to_aliquot],
+            |_| Ok(()),
+        )
+        .optional()?
+        .is_none();
+    // An aliquot voided because its last spectrum moved away takes one back (and counts again);
+    // any other void aliquot is reinstated on purpose first.
+    if target.voided && !target_empty {
         return invalid(format!("aliquot {to_aliquot} is void; reinstate it first"));
     }
     let clash: Option<i64> = tx
@@ -1813,8 +1836,12 @@ pub fn move_spectrum(tx: &Connection, who: &str, spectrum_id: i64, to_aliquot: i
         .optional()?;
     if let Some(c) = clash {
         return invalid(format!(
-            "aliquot {to_aliquot} already has a {} spectrum ({c}); move or void that one first",
-            s.kind
+            "aliquot {to_aliquot} already has {} spectrum ({c}); move or void that one first",
+            match s.kind.as_str() {
+                "abs" => "an absorbance",
+                "pl" => "a PL",
+                _ => "a PLE",
+            }
         ));
     }
     tx.execute(
@@ -1830,6 +1857,14 @@ pub fn move_spectrum(tx: &Connection, who: &str, spectrum_id: i64, to_aliquot: i
         Some(&json!({"aliquot_id": from})),
         Some(&json!({"aliquot_id": to_aliquot, "why": why})),
     )?;
+    if target.voided {
+        reinstate_aliquot(
+            tx,
+            who,
+            to_aliquot,
+            &format!("spectrum {spectrum_id} moved back to it: {why}"),
+        )?;
+    }
     let left: i64 = tx.query_row("SELECT count(*) FROM spectrum WHERE aliquot_id = ?1", [from], |r| {
         r.get(0)
     })?;

@@ -322,14 +322,12 @@ impl App {
                     self.store = s;
                     self.mode = Mode::Normal;
                     self.reload();
-                    self.error(format!(
-                        "{}; the UI now shows the lab as it is at {} — redo anything you had not finished",
-                        what.split("; reopen").next().unwrap_or(&what),
-                        self.db_path
-                            .as_ref()
-                            .map(|p| p.display().to_string())
-                            .unwrap_or_default()
-                    ));
+                    let why = if what.contains("restored") {
+                        "the lab was restored from a backup"
+                    } else {
+                        "the lab's file was replaced"
+                    };
+                    self.error(format!("{why}: now showing the lab as it is; redo anything unfinished"));
                 }
                 Err(e) => self.error(format!("{what}; reopening failed: {e}")),
             },
@@ -1122,33 +1120,39 @@ impl App {
         }
         let mut store = self.worker_store()?;
         let tx = self.tx.clone();
-        let list = |f: &PathBuf| -> Vec<PathBuf> {
-            std::fs::read_dir(f)
-                .map(|d| {
-                    d.filter_map(|e| e.ok().map(|e| e.path()))
-                        .filter(|p| p.is_file())
-                        .collect()
-                })
-                .unwrap_or_default()
-        };
-        let mut seen: std::collections::HashSet<PathBuf> = list(&folder).into_iter().collect();
+        let mut watch = bench::FolderWatch::new(&bench::folder_looks(&folder));
         self.busy = true;
         std::thread::spawn(move || {
             let start = std::time::Instant::now();
             let mut added = 0;
+            let say = |label: String, added: usize| {
+                let _ = tx.send(Note::Progress {
+                    label,
+                    done: added,
+                    total: added,
+                });
+            };
             while start.elapsed().as_secs_f64() < secs {
-                std::thread::sleep(std::time::Duration::from_millis(1000));
-                for p in list(&folder) {
-                    if seen.contains(&p) {
-                        continue;
-                    }
-                    // Let the spectrometer finish writing: the size must hold for a moment.
-                    let size = std::fs::metadata(&p).map(|m| m.len()).unwrap_or(0);
-                    std::thread::sleep(std::time::Duration::from_millis(300));
-                    if std::fs::metadata(&p).map(|m| m.len()).unwrap_or(0) != size {
-                        continue;
-                    }
-                    seen.insert(p.clone());
+                std::thread::sleep(std::time::Duration::from_millis(500));
+                let listing = bench::folder_looks(&folder);
+                for ev in watch.look(std::time::Instant::now(), &listing) {
+                    let p = match ev {
+                        bench::WatchEvent::ChangedAfter(p, Some(aliquot)) => {
+                            say(
+                                format!(
+                                    "watch: {} changed after it was logged as aliquot {aliquot}; void that aliquot and log the file again",
+                                    p.display()
+                                ),
+                                added,
+                            );
+                            continue;
+                        }
+                        bench::WatchEvent::ChangedAfter(_, None) => continue,
+                        bench::WatchEvent::Ready(p) => p,
+                    };
+                    let look = listing.iter().find(|(q, _)| *q == p).map(|(_, l)| *l);
+                    let Some(look) = look else { continue };
+                    watch.done(&p, look, None);
                     let minutes = bench::group_folder(&folder, None)
                         .ok()
                         .and_then(|g| {
@@ -1171,23 +1175,18 @@ impl App {
                     let kind = match bench::kind_of_file(&p) {
                         Ok(k) => k,
                         Err(e) => {
-                            let _ = tx.send(Note::Progress {
-                                label: format!("watch: skipped {e}"),
-                                done: added,
-                                total: added,
-                            });
+                            say(format!("watch: skipped {e}"), added);
                             continue;
                         }
                     };
                     if kind == "pl" {
-                        let _ = tx.send(Note::Progress {
-                            label: format!(
+                        say(
+                            format!(
                                 "watch: {} is PL; log it with its excitation wavelength (a)",
                                 p.display()
                             ),
-                            done: added,
-                            total: added,
-                        });
+                            added,
+                        );
                         continue;
                     }
                     let f = SpectrumFile {
@@ -1198,19 +1197,10 @@ impl App {
                     match bench::add_aliquot(&mut store, &a, &[f], &Default::default(), &bench::Door::default()) {
                         Ok(s) => {
                             added += 1;
-                            let _ = tx.send(Note::Progress {
-                                label: format!("watch: aliquot {} D {} nm", s.id, num(s.diameter_nm, 2)),
-                                done: added,
-                                total: added,
-                            });
+                            watch.done(&p, look, Some(s.id));
+                            say(format!("watch: aliquot {} D {} nm", s.id, num(s.diameter_nm, 2)), added);
                         }
-                        Err(e) => {
-                            let _ = tx.send(Note::Progress {
-                                label: format!("watch: {e}"),
-                                done: added,
-                                total: added,
-                            });
-                        }
+                        Err(e) => say(format!("watch: {e}"), added),
                     }
                 }
             }

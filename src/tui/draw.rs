@@ -625,13 +625,19 @@ fn draw_trail(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
 }
 
 fn draw_status(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
-    let line = if let Some((label, done, total)) = &app.progress {
-        Line::from(format!("{label}: {done}/{total}"))
-    } else if let Some((err, msg)) = &app.message {
-        Line::styled(msg.clone(), if *err { p.err() } else { Style::default() })
-    } else {
-        Line::from("")
-    };
+    // A message answers the user's last action, so it is never hidden behind a job's progress:
+    // both share the line, the message first.
+    let mut spans = Vec::new();
+    if let Some((err, msg)) = &app.message {
+        spans.push(Span::styled(msg.clone(), if *err { p.err() } else { Style::default() }));
+    }
+    if let Some((label, done, total)) = &app.progress {
+        if !spans.is_empty() {
+            spans.push(Span::raw("  ·  "));
+        }
+        spans.push(Span::raw(format!("{label}: {done}/{total}")));
+    }
+    let line = Line::from(spans);
     f.render_widget(Paragraph::new(line), area);
 }
 
