@@ -254,3 +254,22 @@ fn search_over_a_very_long_word_in_a_note_is_bounded() {
     let q = cuvette::search::parse("wahsed").unwrap();
     assert_eq!(cuvette::search::filter(&facts, &q).len(), 1, "a typo is still forgiven");
 }
+
+#[test]
+fn a_trace_too_short_to_analyse_is_an_error() {
+    let t = Trace {
+        nm: vec![500.0, 501.0],
+        y: vec![1.0, 2.0],
+    };
+    assert!(analyze_pl(&t, &AnalysisSettings::default()).is_err());
+    assert!(analyze_absorbance(&t, &AnalysisSettings::default()).is_err());
+    let empty = Trace { nm: vec![], y: vec![] };
+    assert!(analyze_pl(&empty, &AnalysisSettings::default()).is_err());
+    assert!(analyze_absorbance(&empty, &AnalysisSettings::default()).is_err());
+    let ragged = Trace {
+        nm: (0..20).map(|i| 500.0 + i as f64).collect(),
+        y: vec![1.0; 5],
+    };
+    assert!(analyze_pl(&ragged, &AnalysisSettings::default()).is_err());
+    assert!(analyze_absorbance(&ragged, &AnalysisSettings::default()).is_err());
+}
