@@ -273,3 +273,32 @@ fn a_trace_too_short_to_analyse_is_an_error() {
     assert!(analyze_pl(&ragged, &AnalysisSettings::default()).is_err());
     assert!(analyze_absorbance(&ragged, &AnalysisSettings::default()).is_err());
 }
+
+#[test]
+fn an_oversized_keys_file_is_refused_without_reading_it_all() {
+    use cuvette::tui::keys::KeyMap;
+    let dir = std::env::temp_dir().join(format!("cuvette-keys-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    // A valid JSON object, padded with whitespace past the limit.
+    let big = dir.join("big.json");
+    std::fs::write(&big, format!("{{\"draw\": \"D\"{}}}", " ".repeat(200 * 1024))).unwrap();
+    let small = dir.join("small.json");
+    std::fs::write(&small, "{\"draw\": \"D\"}").unwrap();
+    // No other test in this file reads CUVETTE_KEYS, and this one sets it and reads it alone.
+    unsafe { std::env::set_var("CUVETTE_KEYS", &big) };
+    let e = KeyMap::load().err().expect("a 200 KiB keys file is refused");
+    assert!(e.contains("big.json") && e.contains("larger than 64 KiB"), "{e}");
+    unsafe { std::env::set_var("CUVETTE_KEYS", &small) };
+    let k = KeyMap::load().expect("a small keys file loads");
+    assert!(
+        k.footer(cuvette::tui::keys::Scope::Shelf)
+            .iter()
+            .any(|(key, n)| key == "D" && *n == "draw")
+    );
+    unsafe { std::env::remove_var("CUVETTE_KEYS") };
+    // A device that never ends is read only up to the limit.
+    let (r, peak) = peak_bytes(|| cuvette::tui::keys::read_overrides(std::path::Path::new("/dev/zero")));
+    assert!(r.unwrap_err().contains("larger than 64 KiB"));
+    assert!(peak < MIB, "held {peak} bytes");
+    std::fs::remove_dir_all(&dir).unwrap();
+}
