@@ -1,8 +1,12 @@
 //! Evaluating a query over the facts of every batch. Loading the facts is one pass over the
 //! database; filtering them is pure and fast, so the UI can keep the facts and re-filter on
 //! every keystroke.
+//!
+//! The cost of a free word is bounded by the product of two word lengths only for words of at
+//! most [`MAX_WORD_CHARS`] characters; a longer word of a batch's text (a pasted hash, a run of
+//! characters in a note) is matched by substring alone, which is linear in its length.
 
-use super::parse::{Clause, Field, Query};
+use super::parse::{Clause, Field, MAX_WORD_CHARS, Query};
 use crate::error::Result;
 use fuzzy_matcher::FuzzyMatcher;
 use fuzzy_matcher::skim::SkimMatcherV2;
@@ -218,6 +222,15 @@ fn allowed_typos(len: usize) -> usize {
 fn token_score(matcher: &SkimMatcherV2, token: &str, word: &str) -> Option<i64> {
     if token.contains(word) {
         return Some(1000 + 10 * word.len() as i64 - (token.len() as i64 - word.len() as i64));
+    }
+    // Fuzzy matching and edit distance cost the product of the lengths: only for words of a
+    // bounded length (the parser bounds the query's words; this bounds the lab's).
+    if token.len() > 4 * MAX_WORD_CHARS
+        || word.len() > 4 * MAX_WORD_CHARS
+        || token.chars().count() > MAX_WORD_CHARS
+        || word.chars().count() > MAX_WORD_CHARS
+    {
+        return None;
     }
     if let Some(s) = matcher.fuzzy_match(token, word)
         && s >= (word.len() as i64) * 12

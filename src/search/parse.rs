@@ -1,6 +1,18 @@
-//! The query parser. It keeps each clause's column so errors can point at it.
+//! The query parser. It keeps each clause's column (in characters, 1-based) so errors can
+//! point at it. Any text gives a query or a one-line error, never a panic: user text is only
+//! ever cut at the ASCII operators the parser itself found. Length is bounded so that search
+//! stays cheap: a query of at most [`MAX_QUERY_CHARS`] characters, free words of at most
+//! [`MAX_WORD_CHARS`] and at most [`MAX_FREE_WORDS`] of them (each is scored against every
+//! distinct word of the lab).
 
 use crate::error::{Error, Result};
+
+/// The longest query accepted, in characters.
+pub const MAX_QUERY_CHARS: usize = 500;
+/// The longest free word (typo-tolerant matching costs the product of two words' lengths).
+pub const MAX_WORD_CHARS: usize = 64;
+/// The most free words in one query.
+pub const MAX_FREE_WORDS: usize = 16;
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Field {
@@ -156,22 +168,28 @@ fn parse_number(field: Field, s: &str, column: usize) -> Result<f64> {
     if t.is_empty() {
         return err(column, format!("expected a number for {}", field.name()));
     }
-    let (num, scale) = match field {
-        Field::Qy if t.ends_with('%') => (&t[..t.len() - 1], 0.01),
+    let (num, scale): (&str, f64) = match field {
+        Field::Qy => t.strip_suffix('%').map_or((t, 1.0), |n| (n, 0.01)),
         Field::Conc => {
-            let lower = t.to_ascii_lowercase();
-            let lower = lower.replace('µ', "u");
-            if let Some(n) = lower.strip_suffix("nm") {
-                (&t[..n.len()], 1e-9)
-            } else if let Some(n) = lower.strip_suffix("um") {
-                (&t[..n.len()], 1e-6)
-            } else if let Some(n) = lower.strip_suffix("mm") {
-                (&t[..n.len()], 1e-3)
-            } else if let Some(n) = lower.strip_suffix('m') {
-                (&t[..n.len()], 1.0)
-            } else {
-                (t, 1.0)
-            }
+            // Unit suffixes are matched without case and with either micro sign; the number is
+            // what precedes them in the text as typed, so nothing is cut inside a character.
+            let lower = t.to_lowercase();
+            let units: [(&str, f64); 6] = [
+                ("nm", 1e-9),
+                ("um", 1e-6),
+                ("µm", 1e-6),
+                ("μm", 1e-6),
+                ("mm", 1e-3),
+                ("m", 1.0),
+            ];
+            units
+                .iter()
+                .find(|(u, _)| lower.ends_with(u))
+                .and_then(|(u, sc)| {
+                    let cut = t.char_indices().rev().nth(u.chars().count() - 1).map(|(i, _)| i)?;
+                    Some((&t[..cut], *sc))
+                })
+                .unwrap_or((t, 1.0))
         }
         Field::Size | Field::Peak | Field::Pl | Field::Fwhm => (t.strip_suffix("nm").unwrap_or(t), 1.0),
         Field::Dispersion => (t.strip_suffix('%').unwrap_or(t), 1.0),
@@ -205,7 +223,15 @@ fn parse_date(s: &str, column: usize) -> Result<String> {
 
 /// Parses a query. An empty query matches everything.
 pub fn parse(q: &str) -> Result<Query> {
+    let length = q.chars().count();
+    if length > MAX_QUERY_CHARS {
+        return err(
+            MAX_QUERY_CHARS + 1,
+            format!("the query is {length} characters long; at most {MAX_QUERY_CHARS} are accepted"),
+        );
+    }
     let mut clauses = Vec::new();
+    let mut free_words = 0;
     for (col, tok) in tokens(q)? {
         if tok.eq_ignore_ascii_case("stock") {
             clauses.push(Clause::Stock);
@@ -214,6 +240,19 @@ pub fn parse(q: &str) -> Result<Query> {
         // Find the operator: the first of ':', '>=', '<=', '>', '<'.
         let op_at = tok.find([':', '>', '<']);
         let Some(p) = op_at else {
+            let chars = tok.chars().count();
+            // A quoted phrase is matched as a substring, whose cost is linear in its length.
+            if chars > MAX_WORD_CHARS && !tok.contains(char::is_whitespace) {
+                let start: String = tok.chars().take(20).collect();
+                return err(
+                    col,
+                    format!("the word '{start}…' is {chars} characters long; at most {MAX_WORD_CHARS} are accepted"),
+                );
+            }
+            free_words += 1;
+            if free_words > MAX_FREE_WORDS {
+                return err(col, format!("more than {MAX_FREE_WORDS} free words in one query"));
+            }
             clauses.push(Clause::Word(tok.to_lowercase()));
             continue;
         };
@@ -247,6 +286,8 @@ pub fn parse(q: &str) -> Result<Query> {
             let v = &rest[1..];
             (if v.contains("..") { Cmp::Range } else { Cmp::Eq }, v, col + p + 1)
         };
+        // The field name matched an ASCII name, so byte and character offsets agree up to and
+        // including the operator.
         if value.is_empty() {
             return err(vcol, format!("expected a value after '{}'", &tok[..vcol - col]));
         }
@@ -270,7 +311,7 @@ pub fn parse(q: &str) -> Result<Query> {
                         let hi = if b.is_empty() {
                             None
                         } else {
-                            Some(parse_number(field, b, vcol + a.len() + 2)?)
+                            Some(parse_number(field, b, vcol + a.chars().count() + 2)?)
                         };
                         if let (Some(l), Some(h)) = (lo, hi)
                             && l > h
@@ -328,7 +369,7 @@ pub fn parse(q: &str) -> Result<Query> {
                         let hi = if b.is_empty() {
                             None
                         } else {
-                            Some(parse_date(b, vcol + a.len() + 2)?)
+                            Some(parse_date(b, vcol + a.chars().count() + 2)?)
                         };
                         (lo, hi, false, false)
                     }

@@ -5,6 +5,14 @@
 //! The first excitonic peak is the longest-wavelength excitonic feature: the local maximum of
 //! the smoothed absorbance where the peak is resolved, else the minimum of the second
 //! derivative (a shoulder; common practice). Smoothing and derivatives are Savitzky-Golay.
+//!
+//! Cost is linear in the number of points. The smoothing window is set in nm, so on a very
+//! fine grid it would span thousands of points (and the wide second-derivative windows five
+//! times that). Where the window would span more than [`MAX_HALF_WINDOW`] points, neighbouring
+//! points are first averaged in equal runs onto a coarser grid ([`bounded_grid`]): the window
+//! in nm stays as set, its length in points stays bounded. Ordinary scans (steps of about
+//! 0.12 nm or more at the default 9 nm) are analysed on their own grid, unchanged. On a
+//! binned grid `noise` is the noise of the averaged points.
 
 use super::savgol;
 use super::{HC_EV_NM, Trace};
@@ -48,8 +56,8 @@ impl Uniform {
 
 pub fn uniform(t: &Trace) -> Result<Uniform> {
     let n = t.nm.len();
-    if n < 2 {
-        return invalid("a trace needs at least two points");
+    if n < 2 || n != t.y.len() {
+        return invalid("a trace needs at least two points, each with one value");
     }
     let span = t.nm[n - 1] - t.nm[0];
     let step = span / (n - 1) as f64;
@@ -90,6 +98,34 @@ pub fn interpolate(t: &Trace, nm: f64) -> Option<f64> {
     let (x0, x1) = (t.nm[i - 1], t.nm[i]);
     let (y0, y1) = (t.y[i - 1], t.y[i]);
     Some(y0 + (y1 - y0) * (nm - x0) / (x1 - x0))
+}
+
+/// The most points half a smoothing window may span before the grid is binned.
+pub const MAX_HALF_WINDOW: usize = 40;
+
+/// A grid on which the smoothing window spans at most [`MAX_HALF_WINDOW`] points each side:
+/// the trace itself when it already does, else averages of `f` neighbouring points, placed at
+/// the centre of their run. Binning stops short of leaving fewer than `12 * MAX_HALF_WINDOW`
+/// points, so an absurdly wide window on a short scan still has data to smooth (its length is
+/// then capped by the point count, as on any short scan).
+pub fn bounded_grid(u: Uniform, s: &AnalysisSettings) -> Uniform {
+    let n = u.y.len();
+    let want_half = s.smoothing_nm / u.step_nm / 2.0;
+    if !(want_half > MAX_HALF_WINDOW as f64) {
+        return u;
+    }
+    let by_window = (want_half / MAX_HALF_WINDOW as f64).ceil();
+    let by_length = (n / (12 * MAX_HALF_WINDOW)) as f64;
+    let f = by_window.min(by_length) as usize;
+    if f <= 1 {
+        return u;
+    }
+    let y: Vec<f64> = u.y.chunks_exact(f).map(|c| c.iter().sum::<f64>() / f as f64).collect();
+    Uniform {
+        start_nm: u.start_nm + 0.5 * (f - 1) as f64 * u.step_nm,
+        step_nm: f as f64 * u.step_nm,
+        y,
+    }
 }
 
 fn half_window(u: &Uniform, s: &AnalysisSettings) -> usize {
@@ -164,7 +200,7 @@ pub struct AbsResult {
 
 /// Finds the first excitonic peak of an absorbance (or PL excitation) spectrum.
 pub fn analyze_absorbance(t: &Trace, set: &AnalysisSettings) -> Result<AbsResult> {
-    let u = uniform(t)?;
+    let u = bounded_grid(uniform(t)?, set);
     let n = u.y.len();
     let half = half_window(&u, set);
     let order = set.smoothing_order.min(2 * half - 1);
@@ -401,6 +437,13 @@ pub struct PlResult {
 /// Peak, width and integrals of a photoluminescence spectrum.
 pub fn analyze_pl(t: &Trace, set: &AnalysisSettings) -> Result<PlResult> {
     let n = t.nm.len();
+    if n != t.y.len() || n < super::MIN_POINTS {
+        return invalid(format!(
+            "a PL trace needs {} or more points with one value each (got {n} and {})",
+            super::MIN_POINTS,
+            t.y.len()
+        ));
+    }
     let tail = (n / 20).max(3).min(n / 2);
     let median = |v: &mut Vec<f64>| {
         v.sort_by(f64::total_cmp);
@@ -422,10 +465,13 @@ pub fn analyze_pl(t: &Trace, set: &AnalysisSettings) -> Result<PlResult> {
         let (i0, i1) = (corrected[i - 1] * l0 * l0 / HC_EV_NM, corrected[i] * l1 * l1 / HC_EV_NM);
         integral_e += 0.5 * (i0 + i1) * (e0 - e1);
     }
-    let u = uniform(&Trace {
-        nm: t.nm.clone(),
-        y: corrected.clone(),
-    })?;
+    let u = bounded_grid(
+        uniform(&Trace {
+            nm: t.nm.clone(),
+            y: corrected.clone(),
+        })?,
+        set,
+    );
     let half = half_window(&u, set);
     let order = set.smoothing_order.min(2 * half - 1);
     let s = savgol::filter(&u.y, half, order, 0, u.step_nm)?;

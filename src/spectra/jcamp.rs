@@ -6,9 +6,18 @@
 //! abscissa of each line, the point count and LASTX. A failed check is an error naming the line;
 //! a truncated file is refused. A file of several blocks reads its first spectrum, or the one
 //! the user names by number or title.
+//!
+//! Work is bounded by what the file states, never by what its counts claim: NPOINTS may not
+//! exceed [`MAX_POINTS`], and a repeat count (DUP) or a run of values that would take the
+//! table past NPOINTS is refused on its line before anything is allocated for it.
 
 use super::{Check, RawSpectrum, ReadOptions, spectrum_error, validate_xy};
 use crate::error::Result;
+
+/// The most points a spectrum may hold. A UV-Vis-NIR scan over the whole plausible range
+/// (150-3500 nm) at 0.01 nm is 335,000 points; a million leaves room and bounds the memory a
+/// 181-byte file with a large repeat count can ask for.
+pub const MAX_POINTS: usize = 1_000_000;
 
 /// One labelled data record: `##LABEL=value`, its continuation lines and where it started.
 #[derive(Debug, Clone)]
@@ -180,6 +189,13 @@ pub fn read(file: &str, text: &str, opts: &ReadOptions) -> Result<RawSpectrum> {
                 &format!("##NPOINTS={n} is not a count of two or more"),
             ));
         }
+        if n > MAX_POINTS as f64 {
+            return Err(spectrum_error(
+                file,
+                None,
+                &format!("##NPOINTS={n} is more than the {MAX_POINTS} points a spectrum may hold"),
+            ));
+        }
         let n = n as usize;
         let deltax = (lastx - firstx) / (n - 1) as f64;
         if let Some(dx) = number(file, block, "DELTAX")? {
@@ -190,7 +206,7 @@ pub fn read(file: &str, text: &str, opts: &ReadOptions) -> Result<RawSpectrum> {
                 detail: format!("DELTAX={dx}, (LASTX-FIRSTX)/(NPOINTS-1)={deltax}"),
             });
         }
-        let ys = decode_xydata(file, &ldr.body, xfactor, firstx, deltax, &mut checks)?;
+        let ys = decode_xydata(file, &ldr.body, xfactor, firstx, deltax, n, &mut checks)?;
         if ys.len() != n {
             return Err(spectrum_error(
                 file,
@@ -248,6 +264,13 @@ pub fn read(file: &str, text: &str, opts: &ReadOptions) -> Result<RawSpectrum> {
                 };
                 x.push(px * xfactor);
                 y.push(py * yfactor);
+            }
+            if x.len() > MAX_POINTS {
+                return Err(spectrum_error(
+                    file,
+                    Some(*ln),
+                    &format!("XYPOINTS holds more than the {MAX_POINTS} points a spectrum may hold"),
+                ));
             }
         }
         if let Some(n) = npoints {
@@ -403,15 +426,29 @@ fn tokenize(file: &str, ln: usize, line: &str) -> Result<Vec<Tok>> {
     Ok(toks)
 }
 
-/// Decodes the lines of an `(X++(Y..Y))` table into ordinates (before YFACTOR).
+/// Decodes the lines of an `(X++(Y..Y))` table into ordinates (before YFACTOR). `npoints` is
+/// the count the file states: a line that would take the table past it is refused before its
+/// values are stored, so a repeat count cannot make the reader allocate more than the file
+/// says it holds.
 fn decode_xydata(
     file: &str,
     body: &[(usize, String)],
     xfactor: f64,
     firstx: f64,
     deltax: f64,
+    npoints: usize,
     checks: &mut Vec<Check>,
 ) -> Result<Vec<f64>> {
+    // A line after a DIF line repeats the previous line's last ordinate (the Y-check), so one
+    // value more than NPOINTS may be held for a moment.
+    let room = npoints + 1;
+    let too_many = |ln: usize, what: &str| {
+        spectrum_error(
+            file,
+            Some(ln),
+            &format!("{what} takes XYDATA past the ##NPOINTS={npoints} points the file states"),
+        )
+    };
     let mut ys: Vec<f64> = Vec::new();
     let mut prev_ended_dif = false;
     let mut ychecks = 0usize;
@@ -432,6 +469,9 @@ fn decode_xydata(
         let mut last: Option<Tok> = None;
         let mut ended_dif = false;
         for t in &toks[1..] {
+            if ys.len() + line_ys.len() >= room && !matches!(t, Tok::Dup(_)) {
+                return Err(too_many(*ln, "a value"));
+            }
             match *t {
                 Tok::Abs(v) => {
                     line_ys.push(v);
@@ -454,6 +494,9 @@ fn decode_xydata(
                     };
                     if n == 0 {
                         return Err(spectrum_error(file, Some(*ln), "a DUP count of zero"));
+                    }
+                    if n - 1 > room.saturating_sub(ys.len() + line_ys.len()) {
+                        return Err(too_many(*ln, &format!("the repeat count {n}")));
                     }
                     for _ in 1..n {
                         match prev {

@@ -1,7 +1,8 @@
 //! The one key table. Help, footer and dispatch all read it, so a binding cannot be documented
 //! in one place and behave differently in another. Users may rebind actions in a JSON file
 //! (`$CUVETTE_KEYS`, else `keys.json` in the platform's config folder for cuvette):
-//! `{"draw": "D", "search": "ctrl-f"}`.
+//! `{"draw": "D", "search": "ctrl-f"}`. The file is read only up to [`MAX_KEYS_FILE_BYTES`]:
+//! a larger one (or a device that never ends) is refused with its path, never read whole.
 
 use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
 use std::collections::BTreeMap;
@@ -372,6 +373,29 @@ pub fn describe(k: &Key) -> String {
     if k.ctrl { format!("Ctrl-{base}") } else { base }
 }
 
+/// The largest key overrides file read; the full table is well under a kilobyte.
+pub const MAX_KEYS_FILE_BYTES: u64 = 64 * 1024;
+
+/// Reads an overrides file, refusing one above [`MAX_KEYS_FILE_BYTES`] after reading at most
+/// one byte more than that (its stated size is not trusted: a pipe or a device has none).
+pub fn read_overrides(p: &std::path::Path) -> Result<BTreeMap<String, String>, String> {
+    use std::io::Read;
+    let f = std::fs::File::open(p).map_err(|e| format!("keys: cannot read {}: {e}", p.display()))?;
+    let mut bytes = Vec::new();
+    f.take(MAX_KEYS_FILE_BYTES + 1)
+        .read_to_end(&mut bytes)
+        .map_err(|e| format!("keys: cannot read {}: {e}", p.display()))?;
+    if bytes.len() as u64 > MAX_KEYS_FILE_BYTES {
+        return Err(format!(
+            "keys: {} is larger than {} KiB; a key overrides file is a small JSON object",
+            p.display(),
+            MAX_KEYS_FILE_BYTES / 1024
+        ));
+    }
+    let text = String::from_utf8(bytes).map_err(|_| format!("keys: {} is not UTF-8 text", p.display()))?;
+    serde_json::from_str(&text).map_err(|e| format!("keys: {} is not a JSON object of action to key: {e}", p.display()))
+}
+
 /// The bindings in force: defaults with the user's overrides.
 pub struct KeyMap {
     pub entries: Vec<(Key, &'static Binding)>,
@@ -404,12 +428,7 @@ impl KeyMap {
                 Some(base.join("cuvette").join("keys.json"))
             });
         let overrides = match path {
-            Some(p) if p.exists() => {
-                let text =
-                    std::fs::read_to_string(&p).map_err(|e| format!("keys: cannot read {}: {e}", p.display()))?;
-                serde_json::from_str(&text)
-                    .map_err(|e| format!("keys: {} is not a JSON object of action to key: {e}", p.display()))?
-            }
+            Some(p) if p.exists() => read_overrides(&p)?,
             _ => BTreeMap::new(),
         };
         KeyMap::new(&overrides)
