@@ -12,12 +12,6 @@ use std::process::{Command, Stdio};
 
 // ------------------------------------------------------------------ helpers
 
-fn bin() -> Command {
-    let mut c = Command::new(env!("CARGO_BIN_EXE_cuvette"));
-    c.env("CUVETTE_USER", "Test Runner").env_remove("CUVETTE_DB");
-    c
-}
-
 fn out_of(o: std::process::Output) -> Out {
     Out {
         code: o.status.code().unwrap_or(-1),
@@ -37,13 +31,6 @@ fn ro(db: &Path) -> Connection {
         rusqlite::OpenFlags::SQLITE_OPEN_READ_ONLY | rusqlite::OpenFlags::SQLITE_OPEN_NO_MUTEX,
     )
     .unwrap()
-}
-
-fn scalar(db: &Path, sql: &str) -> i64 {
-    Connection::open(db)
-        .unwrap()
-        .query_row(sql, [], |r| r.get(0))
-        .unwrap_or_else(|e| panic!("{}: {sql}: {e}", db.display()))
 }
 
 fn files_in(dir: &Path, needle: &str) -> Vec<String> {

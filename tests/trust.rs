@@ -6,33 +6,12 @@
 
 mod common;
 use common::*;
-use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+use crossterm::event::KeyCode;
 use cuvette::store::Store;
 use cuvette::tui::app::App;
 use cuvette::tui::keys;
 use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
-
-fn bin() -> Command {
-    let mut c = Command::new(env!("CARGO_BIN_EXE_cuvette"));
-    c.env("CUVETTE_USER", "Test Runner").env_remove("CUVETTE_DB");
-    c
-}
-
-fn scalar(db: &std::path::Path, sql: &str) -> i64 {
-    let c = rusqlite::Connection::open(db).unwrap();
-    c.query_row(sql, [], |r| r.get(0)).unwrap()
-}
-
-fn press(app: &mut App, code: KeyCode) {
-    app.on_key(KeyEvent::new(code, KeyModifiers::NONE));
-}
-
-fn typ(app: &mut App, s: &str) {
-    for c in s.chars() {
-        press(app, KeyCode::Char(c));
-    }
-}
 
 fn wait_idle(app: &mut App) {
     let start = Instant::now();
@@ -1015,20 +994,6 @@ fn writes_are_attributed_to_a_real_person() {
 }
 
 // ------------------------------------------------------------------ the UI offers the same
-
-fn screen_at(app: &App, w: u16, h: u16) -> String {
-    let mut t = ratatui::Terminal::new(ratatui::backend::TestBackend::new(w, h)).unwrap();
-    t.draw(|f| cuvette::tui::draw::draw(f, app)).unwrap();
-    let buf = t.backend().buffer().clone();
-    let mut out = String::new();
-    for y in 0..buf.area.height {
-        for x in 0..buf.area.width {
-            out.push_str(buf[(x, y)].symbol());
-        }
-        out.push('\n');
-    }
-    out
-}
 
 fn ui(lab: &Lab) -> App {
     let store = Store::open(&lab.db, "UI User").unwrap();

@@ -3,37 +3,17 @@
 #![allow(clippy::unwrap_used, clippy::panic, clippy::expect_used)]
 
 mod common;
+fn screen(app: &App) -> String {
+    screen_at(app, 80, 24)
+}
+
 use common::*;
-use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+use crossterm::event::KeyCode;
 use cuvette::store::{Store, model};
 use cuvette::tui::app::{App, View};
 use cuvette::tui::{draw, keys};
 use ratatui::Terminal;
 use ratatui::backend::TestBackend;
-
-fn screen(app: &App) -> String {
-    let mut t = Terminal::new(TestBackend::new(80, 24)).unwrap();
-    t.draw(|f| draw::draw(f, app)).unwrap();
-    let buf = t.backend().buffer().clone();
-    let mut out = String::new();
-    for y in 0..buf.area.height {
-        for x in 0..buf.area.width {
-            out.push_str(buf[(x, y)].symbol());
-        }
-        out.push('\n');
-    }
-    out
-}
-
-fn press(app: &mut App, code: KeyCode) {
-    app.on_key(KeyEvent::new(code, KeyModifiers::NONE));
-}
-
-fn typ(app: &mut App, s: &str) {
-    for c in s.chars() {
-        press(app, KeyCode::Char(c));
-    }
-}
 
 fn demo_app() -> (Lab, App) {
     let lab = Lab::new();

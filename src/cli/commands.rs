@@ -659,30 +659,21 @@ fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
                 line(&format!("batch {}: {} repeats batch {id}", row.id, row.name))?
             }
         }
-        BatchCmd::Void { id, why, json: j } => {
+        BatchCmd::Void { id, why, json: j } | BatchCmd::Reinstate { id, why, json: j } => {
+            let voiding = matches!(c, BatchCmd::Void { .. });
             let row = store.write(|tx, who| {
-                let r = model::void_batch(tx, who, *id, why)?;
+                let r = if voiding {
+                    model::void_batch(tx, who, *id, why)?
+                } else {
+                    model::reinstate_batch(tx, who, *id, why)?
+                };
                 engine::refresh_vials(tx, Some(*id), false)?;
                 Ok(r)
             })?;
             if *j {
                 json(&row)?
-            } else {
-                line(&format!(
-                    "batch {} is void: {}",
-                    row.id,
-                    row.void_why.clone().unwrap_or_default()
-                ))?
-            }
-        }
-        BatchCmd::Reinstate { id, why, json: j } => {
-            let row = store.write(|tx, who| {
-                let r = model::reinstate_batch(tx, who, *id, why)?;
-                engine::refresh_vials(tx, Some(*id), false)?;
-                Ok(r)
-            })?;
-            if *j {
-                json(&row)?
+            } else if voiding {
+                line(&format!("batch {} is void: {}", row.id, why.trim()))?
             } else {
                 line(&format!("batch {} is reinstated", row.id))?
             }

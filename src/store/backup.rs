@@ -333,27 +333,7 @@ fn restore_staged(store: &mut Store, staged: &Path, file: &Path, target: &Path) 
                     file.display()
                 )));
             }
-            let generation = new_generation();
-            let at = super::now();
-            for (k, v) in [(GENERATION_KEY, generation.as_str()), ("restored_at", at.as_str())] {
-                conn.execute(
-                    "INSERT INTO lab_meta (key, value) VALUES (?1, ?2) ON CONFLICT(key) DO UPDATE SET value = excluded.value",
-                    params![k, v],
-                )?;
-            }
-            super::audit(
-                conn,
-                &store.actor,
-                "lab",
-                None,
-                "restore",
-                None,
-                Some(&serde_json::json!({
-                    "restored_from": file.display().to_string(),
-                    "replaced_kept_at": kept.display().to_string(),
-                    "generation": generation,
-                })),
-            )?;
+            let generation = stamp_restore(conn, &store.actor, file, Some(&kept))?;
             Ok(RestoreReport {
                 restored_from: file.display().to_string(),
                 lab: target.display().to_string(),
@@ -392,6 +372,33 @@ fn restore_staged(store: &mut Store, staged: &Path, file: &Path, target: &Path) 
     outcome
 }
 
+/// Gives a restored lab a new generation and records the restore in its audit log, inside the
+/// caller's transaction. Returns the generation.
+fn stamp_restore(conn: &Connection, actor: &str, file: &Path, kept: Option<&Path>) -> Result<String> {
+    let generation = new_generation();
+    let at = super::now();
+    for (k, v) in [(GENERATION_KEY, generation.as_str()), ("restored_at", at.as_str())] {
+        conn.execute(
+            "INSERT INTO lab_meta (key, value) VALUES (?1, ?2) ON CONFLICT(key) DO UPDATE SET value = excluded.value",
+            params![k, v],
+        )?;
+    }
+    super::audit(
+        conn,
+        actor,
+        "lab",
+        None,
+        "restore",
+        None,
+        Some(&serde_json::json!({
+            "restored_from": file.display().to_string(),
+            "replaced_kept_at": kept.map(|k| k.display().to_string()),
+            "generation": generation,
+        })),
+    )?;
+    Ok(generation)
+}
+
 fn outcome_failed<T>(r: &Result<T>) -> bool {
     r.is_err()
 }
@@ -402,44 +409,24 @@ pub fn restore_new(file: &Path, target: &Path, actor: &str, extra: BackupCheck) 
     let backup = checked_backup(file, actor, extra)?;
     write_new_copy(&backup.conn, target)?;
     drop(backup);
-    let generation = new_generation();
     let mut lab = Store::open_existing(target, actor)?;
-    let report = RestoreReport {
-        restored_from: file.display().to_string(),
-        lab: target.display().to_string(),
-        replaced_kept_at: None,
-        generation: generation.clone(),
-    };
-    let at = super::now();
     let conn = &lab.conn;
     conn.execute_batch("BEGIN IMMEDIATE")?;
-    let r = (|| -> Result<()> {
-        for (k, v) in [(GENERATION_KEY, generation.as_str()), ("restored_at", at.as_str())] {
-            conn.execute(
-                "INSERT INTO lab_meta (key, value) VALUES (?1, ?2) ON CONFLICT(key) DO UPDATE SET value = excluded.value",
-                params![k, v],
-            )?;
+    let generation = match stamp_restore(conn, actor, file, None) {
+        Ok(g) => {
+            conn.execute_batch("COMMIT")?;
+            g
         }
-        super::audit(
-            conn,
-            actor,
-            "lab",
-            None,
-            "restore",
-            None,
-            Some(
-                &serde_json::json!({"restored_from": report.restored_from, "replaced_kept_at": null,
-                "generation": generation}),
-            ),
-        )
-    })();
-    match r {
-        Ok(()) => conn.execute_batch("COMMIT")?,
         Err(e) => {
             let _ = conn.execute_batch("ROLLBACK");
             return Err(e);
         }
-    }
-    lab.generation = Some(generation);
-    Ok(report)
+    };
+    lab.generation = Some(generation.clone());
+    Ok(RestoreReport {
+        restored_from: file.display().to_string(),
+        lab: target.display().to_string(),
+        replaced_kept_at: None,
+        generation,
+    })
 }

@@ -1671,6 +1671,49 @@ pub struct AliquotEdit {
     pub solvent: Option<String>,
 }
 
+/// A change of a row's void mark, with its reason.
+#[derive(Debug, Clone, Copy)]
+enum VoidChange<'a> {
+    Void(&'a str),
+    Reinstate(&'a str),
+}
+
+/// Sets or clears the void mark of an aliquot or a batch row, audited with before and after
+/// (a void's reason is in the row; a reinstatement's beside it).
+fn mark_void<T: Serialize>(
+    tx: &Connection,
+    who: &str,
+    entity: &str,
+    id: i64,
+    change: VoidChange,
+    get: fn(&Connection, i64) -> Result<T>,
+) -> Result<T> {
+    let before = get(tx, id)?;
+    let (stamp, why, action) = match change {
+        VoidChange::Void(w) => (Some(now()), Some(w), "void"),
+        VoidChange::Reinstate(_) => (None, None, "reinstate"),
+    };
+    tx.execute(
+        &format!("UPDATE {entity} SET voided_at = ?1, void_why = ?2 WHERE id = ?3"),
+        params![stamp, why, id],
+    )?;
+    let after = serde_json::to_value(get(tx, id)?)?;
+    let recorded = match change {
+        VoidChange::Void(_) => after,
+        VoidChange::Reinstate(w) => json!({"row": after, "why": w}),
+    };
+    audit(
+        tx,
+        who,
+        entity,
+        Some(id),
+        action,
+        Some(&serde_json::to_value(&before)?),
+        Some(&recorded),
+    )?;
+    get(tx, id)
+}
+
 /// Voids an aliquot: it stays in the record, marked, and counts for nothing.
 pub fn void_aliquot(tx: &Connection, who: &str, id: i64, why: &str) -> Result<AliquotRow> {
     let why = check_reason(why)?;
@@ -1681,21 +1724,7 @@ pub fn void_aliquot(tx: &Connection, who: &str, id: i64, why: &str) -> Result<Al
             before.void_why.unwrap_or_default()
         ));
     }
-    tx.execute(
-        "UPDATE aliquot SET voided_at = ?1, void_why = ?2 WHERE id = ?3",
-        params![now(), why, id],
-    )?;
-    let after = get_aliquot(tx, id)?;
-    audit(
-        tx,
-        who,
-        "aliquot",
-        Some(id),
-        "void",
-        Some(&serde_json::to_value(&before)?),
-        Some(&serde_json::to_value(&after)?),
-    )?;
-    Ok(after)
+    mark_void(tx, who, "aliquot", id, VoidChange::Void(why), get_aliquot)
 }
 
 /// Undoes a void.
@@ -1712,21 +1741,7 @@ pub fn reinstate_aliquot(tx: &Connection, who: &str, id: i64, why: &str) -> Resu
     if !has_spectrum {
         return invalid(format!("aliquot {id} has no spectrum left; move one back to it first"));
     }
-    tx.execute(
-        "UPDATE aliquot SET voided_at = NULL, void_why = NULL WHERE id = ?1",
-        [id],
-    )?;
-    let after = get_aliquot(tx, id)?;
-    audit(
-        tx,
-        who,
-        "aliquot",
-        Some(id),
-        "reinstate",
-        Some(&serde_json::to_value(&before)?),
-        Some(&json!({"row": serde_json::to_value(&after)?, "why": why})),
-    )?;
-    Ok(after)
+    mark_void(tx, who, "aliquot", id, VoidChange::Reinstate(why), get_aliquot)
 }
 
 /// Changes the logged facts of an aliquot; the caller re-derives its values.
@@ -1883,46 +1898,19 @@ pub fn move_spectrum(tx: &Connection, who: &str, spectrum_id: i64, to_aliquot: i
 /// product values and the pack; its vials stay on the shelf until disposed.
 pub fn void_batch(tx: &Connection, who: &str, id: i64, why: &str) -> Result<BatchRow> {
     let why = check_reason(why)?;
-    let before = get_batch(tx, id)?;
-    if before.voided {
+    if get_batch(tx, id)?.voided {
         return invalid(format!("batch {id} is already void"));
     }
-    tx.execute(
-        "UPDATE batch SET voided_at = ?1, void_why = ?2 WHERE id = ?3",
-        params![now(), why, id],
-    )?;
-    let after = get_batch(tx, id)?;
-    audit(
-        tx,
-        who,
-        "batch",
-        Some(id),
-        "void",
-        Some(&serde_json::to_value(&before)?),
-        Some(&serde_json::to_value(&after)?),
-    )?;
-    Ok(after)
+    mark_void(tx, who, "batch", id, VoidChange::Void(why), get_batch)
 }
 
 /// Undoes a batch void.
 pub fn reinstate_batch(tx: &Connection, who: &str, id: i64, why: &str) -> Result<BatchRow> {
     let why = check_reason(why)?;
-    let before = get_batch(tx, id)?;
-    if !before.voided {
+    if !get_batch(tx, id)?.voided {
         return invalid(format!("batch {id} is not void"));
     }
-    tx.execute("UPDATE batch SET voided_at = NULL, void_why = NULL WHERE id = ?1", [id])?;
-    let after = get_batch(tx, id)?;
-    audit(
-        tx,
-        who,
-        "batch",
-        Some(id),
-        "reinstate",
-        Some(&serde_json::to_value(&before)?),
-        Some(&json!({"row": serde_json::to_value(&after)?, "why": why})),
-    )?;
-    Ok(after)
+    mark_void(tx, who, "batch", id, VoidChange::Reinstate(why), get_batch)
 }
 
 /// Puts a disposed vial back on the shelf, as it was before its disposal.

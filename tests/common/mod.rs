@@ -115,3 +115,44 @@ pub fn csv(x: &[f64], y: &[f64]) -> String {
 pub fn s(p: &Path) -> &str {
     p.to_str().unwrap()
 }
+
+/// The real binary with a test person as the writer and no lab from the environment.
+pub fn bin() -> Command {
+    let mut c = Command::new(env!("CARGO_BIN_EXE_cuvette"));
+    c.env("CUVETTE_USER", "Test Runner").env_remove("CUVETTE_DB");
+    c
+}
+
+/// One number from a lab file (or any SQLite file).
+pub fn scalar(db: &Path, sql: &str) -> i64 {
+    let c = rusqlite::Connection::open(db).unwrap();
+    c.query_row(sql, [], |r| r.get(0)).unwrap()
+}
+
+pub fn press(app: &mut cuvette::tui::app::App, code: crossterm::event::KeyCode) {
+    app.on_key(crossterm::event::KeyEvent::new(
+        code,
+        crossterm::event::KeyModifiers::NONE,
+    ));
+}
+
+pub fn typ(app: &mut cuvette::tui::app::App, s: &str) {
+    for c in s.chars() {
+        press(app, crossterm::event::KeyCode::Char(c));
+    }
+}
+
+/// The UI drawn into a test terminal of `w` x `h`, as text.
+pub fn screen_at(app: &cuvette::tui::app::App, w: u16, h: u16) -> String {
+    let mut t = ratatui::Terminal::new(ratatui::backend::TestBackend::new(w, h)).unwrap();
+    t.draw(|f| cuvette::tui::draw::draw(f, app)).unwrap();
+    let buf = t.backend().buffer().clone();
+    let mut out = String::new();
+    for y in 0..buf.area.height {
+        for x in 0..buf.area.width {
+            out.push_str(buf[(x, y)].symbol());
+        }
+        out.push('\n');
+    }
+    out
+}
