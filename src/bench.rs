@@ -453,20 +453,35 @@ pub fn import_folder(
     if groups.is_empty() {
         return Err(Error::Invalid(format!("no spectrum files in {}", folder.display())));
     }
+    if let Some(f) = groups
+        .iter()
+        .flat_map(|g| &g.files)
+        .find(|f| f.kind == "pl" && f.excitation_nm.is_none())
+    {
+        return Err(Error::Invalid(format!(
+            "PL file {} needs --excitation-nm",
+            f.path.display()
+        )));
+    }
+    // Every file is read and put through the door before the transaction opens, on every core;
+    // the first refusal (in folder order) stops the import with nothing written.
+    let all: Vec<&SpectrumFile> = groups.iter().flat_map(|g| &g.files).collect();
+    let workers = std::thread::available_parallelism()
+        .map(|n| n.get())
+        .unwrap_or(1)
+        .min(8);
+    let mut results = crate::par::parallel_map(&all, workers, |f| {
+        read_for_logging(&f.path, &ReadOptions::default(), f.kind, door.kind_as_is)
+    })
+    .into_iter();
     let mut read = Vec::new();
     for g in &groups {
         let mut files = Vec::new();
         for f in &g.files {
-            if f.kind == "pl" && f.excitation_nm.is_none() {
-                return Err(Error::Invalid(format!(
-                    "PL file {} needs --excitation-nm",
-                    f.path.display()
-                )));
-            }
-            files.push((
-                f.clone(),
-                read_for_logging(&f.path, &ReadOptions::default(), f.kind, door.kind_as_is)?,
-            ));
+            let r = results
+                .next()
+                .ok_or_else(|| Error::Invalid(format!("{} was not read", f.path.display())))??;
+            files.push((f.clone(), r));
         }
         read.push((g, files));
     }
