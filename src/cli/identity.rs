@@ -32,6 +32,28 @@ fn remembered() -> Option<String> {
     )
 }
 
+/// The OS account this process runs as, from the account database, for a session whose
+/// environment names nobody (a service, a container). Unix only; elsewhere none.
+fn os_account() -> Option<String> {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::MetadataExt;
+        // /proc/self belongs to the process's own user; the account database names it.
+        let uid = std::fs::metadata("/proc/self").ok()?.uid();
+        let passwd = std::fs::read_to_string("/etc/passwd").ok()?;
+        passwd.lines().find_map(|l| {
+            let mut f = l.split(':');
+            let name = f.next()?;
+            let _pw = f.next()?;
+            (f.next()?.parse::<u32>().ok()? == uid).then(|| name.to_string())
+        })
+    }
+    #[cfg(not(unix))]
+    {
+        None
+    }
+}
+
 /// Where a name came from, for `whoami`.
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct Identity {
@@ -41,25 +63,38 @@ pub struct Identity {
 }
 
 pub fn resolve(flag: Option<&str>) -> Identity {
-    let found = [
+    first_of([
         (nonempty(flag.map(String::from)), "--as"),
         (nonempty(std::env::var("CUVETTE_USER").ok()), "CUVETTE_USER"),
         (remembered(), "whoami --set"),
         (
             nonempty(std::env::var("USER").ok())
                 .or_else(|| nonempty(std::env::var("LOGNAME").ok()))
-                .or_else(|| nonempty(std::env::var("USERNAME").ok())),
+                .or_else(|| nonempty(std::env::var("USERNAME").ok()))
+                .or_else(os_account),
             "login name",
         ),
-    ]
-    .into_iter()
-    .find(|(n, _)| n.is_some());
-    match found {
+    ])
+}
+
+/// The first source that names someone, in order.
+fn first_of(sources: [(Option<String>, &'static str); 4]) -> Identity {
+    match sources.into_iter().find(|(n, _)| n.is_some()) {
         Some((name, from)) => Identity { name, from },
         None => Identity {
             name: None,
             from: "none",
         },
+    }
+}
+
+/// What a write does with an identity: its checked name, or none when nobody resolved.
+fn name_for_write(id: Identity) -> Result<Option<String>> {
+    match id.name {
+        Some(n) => check_name(&n)
+            .map(Some)
+            .map_err(|e| anyhow!("the name from {} is refused: {e}; nothing was written", id.from)),
+        None => Ok(None),
     }
 }
 
@@ -89,9 +124,8 @@ pub fn remember(name: &str) -> Result<PathBuf> {
 /// The name a write is attributed to; asks once on a terminal when nothing resolves. A name
 /// from any source must pass [`check_name`]: the audit log's "who" is one printable line.
 pub fn for_write(flag: Option<&str>) -> Result<String> {
-    let id = resolve(flag);
-    if let Some(n) = id.name {
-        return check_name(&n).map_err(|e| anyhow!("the name from {} is refused: {e}; nothing was written", id.from));
+    if let Some(n) = name_for_write(resolve(flag))? {
+        return Ok(n);
     }
     use std::io::{BufRead, IsTerminal, Write};
     if std::io::stdin().is_terminal() && std::io::stderr().is_terminal() {
@@ -107,9 +141,43 @@ pub fn for_write(flag: Option<&str>) -> Result<String> {
         );
         return Ok(n);
     }
-    bail!(
-        "cuvette cannot tell who is writing: run `cuvette whoami --set NAME` once, or pass --as NAME, or set CUVETTE_USER; nothing was written"
-    )
+    bail!("{NOBODY}")
+}
+
+const NOBODY: &str = "cuvette cannot tell who is writing: run `cuvette whoami --set NAME` once, or pass --as NAME, or set CUVETTE_USER; nothing was written";
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The order of the sources, and that nobody resolved is no name at all, never "unknown"
+    /// (the caller then asks once on a terminal, or refuses with [`NOBODY`]).
+    #[test]
+    fn sources_in_order_and_nobody_is_no_name() {
+        let id = first_of([
+            (None, "--as"),
+            (Some("Ines Roth".into()), "CUVETTE_USER"),
+            (Some("kept".into()), "whoami --set"),
+            (Some("login".into()), "login name"),
+        ]);
+        assert_eq!((id.name.as_deref(), id.from), (Some("Ines Roth"), "CUVETTE_USER"));
+        let nobody = first_of([
+            (None, "--as"),
+            (None, "CUVETTE_USER"),
+            (None, "whoami --set"),
+            (None, "login name"),
+        ]);
+        assert_eq!((nobody.name.clone(), nobody.from), (None, "none"));
+        assert_eq!(name_for_write(nobody).unwrap(), None);
+        let hostile = first_of([
+            (Some("Eve\u{1b}]0;x\u{7}".into()), "--as"),
+            (None, "a"),
+            (None, "b"),
+            (None, "c"),
+        ]);
+        assert!(name_for_write(hostile).unwrap_err().to_string().contains("--as"));
+        assert!(NOBODY.contains("whoami --set"));
+    }
 }
 
 /// The name reads carry (they write nothing, so an unresolved one is harmless).
