@@ -146,6 +146,11 @@ pub fn for_write(flag: Option<&str>) -> Result<String> {
 
 const NOBODY: &str = "cuvette cannot tell who is writing: run `cuvette whoami --set NAME` once, or pass --as NAME, or set CUVETTE_USER; nothing was written";
 
+/// The name reads carry (they write nothing, so an unresolved one is harmless).
+pub fn for_read(flag: Option<&str>) -> String {
+    resolve(flag).name.unwrap_or_else(|| "reader".into())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -178,9 +183,4 @@ mod tests {
         assert!(name_for_write(hostile).unwrap_err().to_string().contains("--as"));
         assert!(NOBODY.contains("whoami --set"));
     }
-}
-
-/// The name reads carry (they write nothing, so an unresolved one is harmless).
-pub fn for_read(flag: Option<&str>) -> String {
-    resolve(flag).name.unwrap_or_else(|| "reader".into())
 }
