@@ -419,6 +419,27 @@ pub fn group_folder(folder: &Path, excitation_nm: Option<f64>) -> Result<Vec<Fol
     Ok(groups)
 }
 
+/// The minutes after injection a column header states, when it states a time with its unit:
+/// "20 s", "40s", "1.5 min", "t = 5 min", "10 minutes", "2 h", "90 sec". A bare number or a
+/// header without a time unit says nothing (it may be a sample name), so it gives None.
+pub fn minutes_in_header(header: &str) -> Option<f64> {
+    let h = header.trim().to_ascii_lowercase();
+    let h = h.trim_start_matches("t").trim_start_matches([' ', '=', ':']).trim();
+    let split = h
+        .find(|c: char| !(c.is_ascii_digit() || c == '.' || c == ','))
+        .unwrap_or(h.len());
+    let (num, unit) = h.split_at(split);
+    let value: f64 = num.replace(',', ".").parse().ok()?;
+    let unit = unit.trim().trim_end_matches('.');
+    let factor = match unit {
+        "s" | "sec" | "secs" | "second" | "seconds" => 1.0 / 60.0,
+        "min" | "mins" | "minute" | "minutes" | "m" => 1.0,
+        "h" | "hr" | "hrs" | "hour" | "hours" => 60.0,
+        _ => return None,
+    };
+    (value.is_finite() && value >= 0.0).then_some(value * factor)
+}
+
 fn minutes_in(name: &str) -> Option<f64> {
     // The first run of digits (with a decimal point) in the name.
     let mut cur = String::new();
@@ -580,6 +601,20 @@ mod tests {
         );
         // A file there before watching began is left alone.
         assert!(w.look(t0 + Duration::from_secs(20), &[(old, look(10))]).is_empty());
+    }
+
+    #[test]
+    fn minutes_from_column_headers() {
+        use super::minutes_in_header as m;
+        assert_eq!(m("20 s"), Some(20.0 / 60.0));
+        assert_eq!(m("40s"), Some(40.0 / 60.0));
+        assert_eq!(m("1.5 min"), Some(1.5));
+        assert_eq!(m("t = 5 min"), Some(5.0));
+        assert_eq!(m("10 minutes"), Some(10.0));
+        assert_eq!(m("2 h"), Some(120.0));
+        assert_eq!(m("sample A"), None);
+        assert_eq!(m("12"), None);
+        assert_eq!(m("Absorbance"), None);
     }
 
     #[test]
