@@ -77,6 +77,9 @@ impl Block {
             .map(|l| l.value.trim().to_string())
             .filter(|s| !s.is_empty())
     }
+    fn is_link(&self) -> bool {
+        self.get("BLOCKS").is_some() || self.text("DATATYPE").is_some_and(|t| t.eq_ignore_ascii_case("LINK"))
+    }
     fn title(&self) -> String {
         self.text("TITLE").unwrap_or_default()
     }
@@ -112,6 +115,13 @@ fn split_blocks(text: &str) -> Vec<Block> {
                 None => (normalise_label(rest), String::new()),
             };
             if label == "TITLE" {
+                // Only a link block holds blocks; a new title inside any other block means that
+                // block lost its ##END=, and it is kept unended so reading it says so.
+                if stack.last().is_some_and(|b| !b.is_link())
+                    && let Some(b) = stack.pop()
+                {
+                    done.push(b);
+                }
                 if let Some(parent) = stack.last_mut() {
                     parent.nested += 1;
                 }
@@ -577,7 +587,7 @@ fn decode_equidistant(
     let mut ychecks = 0usize;
     let mut xchecks = 0usize;
     let mut repeats = 0usize;
-    let mut coarse = false;
+    let mut finest = f64::INFINITY;
     for (ln, line) in &t.ldr.body {
         let (toks, xtext, forms) = tokenize(file, *ln, line)?;
         if toks.is_empty() {
@@ -644,8 +654,10 @@ fn decode_equidistant(
         // After a line that ended in DIF form, that first ordinate is the Y-check value, which
         // repeats the previous line's last point.
         let got = xv * t.xfactor;
-        let (tol, fine) = line_tolerance(step, last_digit_unit(&xtext) * t.xfactor.abs());
-        coarse |= !fine;
+        // A writer drops trailing zeros ("500" for 500.00), so the precision it writes the
+        // abscissae to is the finest any line shows so far.
+        finest = finest.min(last_digit_unit(&xtext));
+        let (tol, fine) = line_tolerance(step, finest * t.xfactor.abs());
         let next = ys.len();
         let names = |i: usize| (got - at(i)).abs() <= tol + 1e-9 * got.abs();
         let names_prev = next > 0 && names(next - 1);
@@ -724,7 +736,7 @@ fn decode_equidistant(
             ),
         ));
     }
-    if coarse {
+    if xchecks > 0 && !line_tolerance(step, finest * t.xfactor.abs()).1 {
         notes.warnings.push(format!(
             "the line abscissae are written more coarsely than the step ({step}), so they cannot tell neighbouring points apart; only the point count checks the table"
         ));
@@ -791,7 +803,10 @@ fn decode_groups(
                 let reason = if arity == 2 {
                     format!("{what} line holds an x without its y")
                 } else {
-                    format!("{what} line holds {} values, not whole groups of {arity}", vals.len())
+                    format!(
+                        "{what} line holds a group of {} values where the form has {arity}",
+                        vals.len()
+                    )
                 };
                 return Err(spectrum_error(file, Some(*ln), &reason));
             }
@@ -905,7 +920,7 @@ struct Parsed {
 }
 
 impl Parsed {
-    fn candidates(&self) -> (Vec<Candidate<'_>>, Vec<String>) {
+    fn candidates(&self) -> (Vec<Candidate<'_>>, Vec<(usize, String)>) {
         let mut out = Vec::new();
         let mut refused = Vec::new();
         for (i, b) in self.blocks.iter().enumerate() {
@@ -937,9 +952,11 @@ impl Parsed {
                     }
                 }
                 if pages == 0 {
-                    refused.push(format!(
-                        "line {}: the ##NTUPLES= block '{name}' holds no ##PAGE= with a ##DATA TABLE=, so no spectrum can be read from it",
-                        b.ldrs[nt].line
+                    refused.push((
+                        b.ldrs[nt].line,
+                        format!(
+                            "the ##NTUPLES= block '{name}' holds no ##PAGE= with a ##DATA TABLE=, so no spectrum can be read from it"
+                        ),
                     ));
                 }
             }
@@ -1024,15 +1041,14 @@ fn choose<'a>(file: &str, cands: Vec<Candidate<'a>>, opts: &ReadOptions) -> Resu
     }
 }
 
-fn parse_and_choose<'a>(
-    file: &str,
-    parsed: &'a Parsed,
-    opts: &ReadOptions,
-) -> Result<(Vec<Candidate<'a>>, Vec<String>)> {
+/// Blocks that looked like spectra but cannot be read: the line and the reason.
+type Refusals = Vec<(usize, String)>;
+
+fn parse_and_choose<'a>(file: &str, parsed: &'a Parsed, opts: &ReadOptions) -> Result<(Vec<Candidate<'a>>, Refusals)> {
     let (cands, refused) = parsed.candidates();
     if cands.is_empty() {
         return Err(match refused.into_iter().next() {
-            Some(r) => spectrum_error(file, None, &r),
+            Some((line, r)) => spectrum_error(file, Some(line), &r),
             None => spectrum_error(
                 file,
                 None,
@@ -1383,7 +1399,7 @@ fn decode(
     parsed: &Parsed,
     c: &Candidate,
     chosen: usize,
-    refused: &[String],
+    refused: &[(usize, String)],
     budget: usize,
 ) -> Result<RawSpectrum> {
     let b = c.block;
@@ -1458,7 +1474,7 @@ fn decode(
         "nm".into()
     });
     warnings.extend(notes.warnings);
-    warnings.extend(refused.iter().map(|r| format!("not read: {r}")));
+    warnings.extend(refused.iter().map(|(line, r)| format!("not read: line {line}: {r}")));
     // A link block that says how many blocks it links: a different count means one is missing.
     for link in &parsed.blocks {
         if let Some(n) = link.get("BLOCKS") {
