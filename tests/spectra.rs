@@ -61,12 +61,11 @@ fn jcamp_affn_and_compressed_forms_read_the_same_values() {
 #[test]
 fn jcamp_blocks_and_xypoints_with_factors() {
     let text = include_str!("data/multi.jdx");
-    let first = read(text).unwrap();
-    assert_eq!(first.title.as_deref(), Some("crude"));
-    assert!(
-        first.warnings.iter().any(|w| w.contains("2 spectra")),
-        "{:?}",
-        first.warnings
+    // Issue 13: several spectra and no choice is refused with the list, never read as the first.
+    let e = read(text).unwrap_err().to_string();
+    assert_eq!(
+        e,
+        "t.jdx: the file holds 2 spectra: 1 'crude', 2 'washed'; choose one with --block N|TITLE"
     );
     let second = read_bytes(
         "m.jdx",
@@ -124,8 +123,16 @@ fn bad_jcamp_files_are_refused_with_the_reason() {
     assert!(e.contains("inconsistent: ##NPOINTS=20 but 15 points"), "{e}");
     let e = read(&affn.replace("410 200", "411 200")).unwrap_err().to_string();
     assert!(e.contains("abscissa check failed"), "{e}");
-    let e = read(&affn.replace("##DELTAX=1", "##DELTAX=2")).unwrap_err().to_string();
-    assert!(e.contains("DELTAX check failed"), "{e}");
+    // Issue 13: DELTAX may be rounded; one that disagrees is warned about and the step comes from
+    // FIRSTX, LASTX and NPOINTS (which the line abscissae then check).
+    let s = read(&affn.replace("##DELTAX=1", "##DELTAX=2")).unwrap();
+    assert_eq!(s.x[19], 419.0);
+    assert!(
+        s.warnings.iter().any(|w| w.contains("##DELTAX=2 disagrees")),
+        "{:?}",
+        s.warnings
+    );
+    assert!(s.checks.iter().any(|c| c.name == "DELTAX" && !c.passed));
     let e = read(&affn.replace("##NPOINTS=20\n", "")).unwrap_err().to_string();
     assert!(e.contains("needs ##NPOINTS="), "{e}");
     let e = read(&affn.replace("410 200", "410 2?0")).unwrap_err().to_string();
