@@ -1533,6 +1533,7 @@ fn decode(
     Ok(RawSpectrum {
         format,
         title: b.text("TITLE"),
+        label: Some(c.label.clone()),
         x_unit,
         y_unit: p.y_unit,
         x,

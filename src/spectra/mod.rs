@@ -6,6 +6,7 @@
 
 pub mod analysis;
 pub mod delimited;
+pub mod grid;
 pub mod jcamp;
 pub mod quantity;
 pub mod savgol;
@@ -13,6 +14,7 @@ pub mod savgol;
 use crate::error::{Error, Result};
 use serde::Serialize;
 use sha2::{Digest, Sha256};
+use std::borrow::Cow;
 
 /// Fewer points than this cannot carry a peak, a width and a smoothing window.
 pub const MIN_POINTS: usize = 8;
@@ -28,6 +30,11 @@ pub struct ReadOptions {
     pub x_unit: Option<String>,
     /// JCAMP-DX: the block to read, by 1-based number or by title.
     pub block: Option<String>,
+    /// A table with several y columns: the one to read, by header or by 1-based number among
+    /// the y columns (`--column NAME|N`).
+    pub column: Option<String>,
+    /// A workbook: the sheet to read, by name or 1-based number.
+    pub sheet: Option<String>,
 }
 
 /// One verification a format allowed, such as a JCAMP-DX Y-check.
@@ -43,6 +50,8 @@ pub struct Check {
 pub struct RawSpectrum {
     pub format: String,
     pub title: Option<String>,
+    /// Which spectrum of the file this is: its column header or block title.
+    pub label: Option<String>,
     pub x_unit: String,
     pub y_unit: Option<String>,
     pub x: Vec<f64>,
@@ -90,18 +99,60 @@ impl XUnit {
     }
 }
 
-/// Reads a spectrum from bytes, detecting the format from the content.
-pub fn read_bytes(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<RawSpectrum> {
-    let text = decode_text(bytes);
+/// Every spectrum a file holds, detecting the format from the content.
+pub fn read_all(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<Vec<RawSpectrum>> {
+    if bytes.starts_with(b"PK\x03\x04") {
+        // Workbooks (.xlsx, .ods) are zip files; their reader is `sheet::read`.
+        return Err(spectrum_error(
+            file,
+            None,
+            "a zip file (an .xlsx or .ods workbook?): no workbook reader in this build",
+        ));
+    }
+    let (text, encoding) = decode_text(bytes);
     if text.trim().is_empty() {
         return Err(spectrum_error(file, None, "the file is empty"));
     }
-    let looks_jcamp = text.lines().take(50).any(|l| l.trim_start().starts_with("##"));
-    if looks_jcamp {
-        jcamp::read(file, &text, opts)
+    if looks_jcamp(&text) {
+        jcamp::read_blocks(file, &text, opts)
     } else {
-        delimited::read(file, &text, opts)
+        delimited::read_all_decoded(file, &text, encoding, opts)
     }
+}
+
+/// One spectrum. A file with several spectra and no `opts.column` is refused with a message
+/// that lists them; it is never silently read as its first.
+pub fn read_bytes(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<RawSpectrum> {
+    // JCAMP-DX chooses among its blocks itself (`--block`), with its own listing.
+    let (text, _) = decode_text(bytes);
+    if looks_jcamp(&text) {
+        return jcamp::read(file, &text, opts);
+    }
+    let mut all = read_all(file, bytes, opts)?;
+    if all.len() > 1 {
+        return Err(grid::several_spectra_error(file, &all));
+    }
+    all.pop().ok_or_else(|| spectrum_error(file, None, "no spectrum found"))
+}
+
+/// JCAMP-DX opens with labelled data records: a `##TITLE=` or `##JCAMP-DX=` line near the top.
+/// A Markdown heading (`## Results`) is not one.
+fn looks_jcamp(text: &str) -> bool {
+    text.lines().take(50).any(|l| {
+        let Some(rest) = l.trim_start().strip_prefix("##") else {
+            return false;
+        };
+        let Some((label, _)) = rest.split_once('=') else {
+            return false;
+        };
+        // Labels compare without case, spaces, dashes, slashes or underscores (as the standard says).
+        let squashed: String = label
+            .chars()
+            .filter(|c| !matches!(c, ' ' | '-' | '/' | '_'))
+            .flat_map(char::to_uppercase)
+            .collect();
+        squashed == "TITLE" || squashed == "JCAMPDX"
+    })
 }
 
 /// Reads a file from disk: the spectrum and the SHA-256 of its bytes.
@@ -117,13 +168,33 @@ pub fn sha256_hex(bytes: &[u8]) -> String {
     d.iter().map(|b| format!("{b:02x}")).collect()
 }
 
-/// UTF-8 where it is, else Latin-1 (many instrument exports are), without a BOM.
-fn decode_text(bytes: &[u8]) -> String {
-    let s = match std::str::from_utf8(bytes) {
-        Ok(s) => s.to_string(),
-        Err(_) => bytes.iter().map(|&b| b as char).collect(),
-    };
-    s.trim_start_matches('\u{feff}').to_string()
+/// The text of a file: UTF-8 where it is (borrowed, not copied), UTF-16 where a byte-order mark
+/// says so, else Latin-1 (many instrument exports are); without a BOM. The second value names
+/// an encoding other than UTF-8, for `format`.
+pub fn decode_text(bytes: &[u8]) -> (Cow<'_, str>, Option<&'static str>) {
+    if let Some(rest) = bytes.strip_prefix(&[0xFF, 0xFE]) {
+        return (Cow::Owned(utf16(rest, u16::from_le_bytes)), Some("UTF-16 LE"));
+    }
+    if let Some(rest) = bytes.strip_prefix(&[0xFE, 0xFF]) {
+        return (Cow::Owned(utf16(rest, u16::from_be_bytes)), Some("UTF-16 BE"));
+    }
+    let bytes = bytes.strip_prefix(&[0xEF, 0xBB, 0xBF]).unwrap_or(bytes);
+    match std::str::from_utf8(bytes) {
+        Ok(s) => (Cow::Borrowed(s), None),
+        Err(_) => (Cow::Owned(bytes.iter().map(|&b| b as char).collect()), Some("Latin-1")),
+    }
+}
+
+/// UTF-16 code units to text; an unpaired surrogate or an odd last byte becomes U+FFFD, which
+/// no number contains, so it cannot pass as data.
+fn utf16(bytes: &[u8], unit: fn([u8; 2]) -> u16) -> String {
+    let units = bytes.chunks(2).map(|c| match c {
+        [a, b] => unit([*a, *b]),
+        _ => 0xFFFD,
+    });
+    char::decode_utf16(units)
+        .map(|r| r.unwrap_or(char::REPLACEMENT_CHARACTER))
+        .collect()
 }
 
 pub(crate) fn spectrum_error(file: &str, line: Option<usize>, reason: &str) -> Error {
