@@ -103,6 +103,8 @@ pub fn add_aliquot(
             model::insert_spectrum(tx, who, &new_spectrum(Some(id), f, raw, sha))?;
         }
         engine::derive_aliquot(tx, id)?;
+        // A new aliquot may be the batch's product now: its vials' estimates follow.
+        engine::refresh_vials(tx, Some(a.batch_id), false)?;
         let row = model::get_aliquot(tx, id)?;
         growth::aliquot_summary(tx, &row)
     })
@@ -541,6 +543,7 @@ pub fn import_folder(
             report.aliquots.push(id);
             progress(i + 1, total);
         }
+        engine::refresh_vials(tx, Some(batch_id), false)?;
         Ok(report)
     })
 }

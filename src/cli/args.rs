@@ -886,6 +886,10 @@ pub struct BackupArgs {
 #[derive(Debug, Args)]
 pub struct RestoreArgs {
     pub file: PathBuf,
+    /// Take a backup whose records are sound but whose derived values are out of date, and
+    /// recompute every value after restoring it.
+    #[arg(long)]
+    pub recompute: bool,
 }
 
 #[derive(Debug, Args)]

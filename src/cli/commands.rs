@@ -254,7 +254,7 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
                 }
             }
         }
-        Cmd::Restore(a) => restore(&cli, &a.file)?,
+        Cmd::Restore(a) => restore(&cli, &a.file, a.recompute)?,
         Cmd::Import(a) => import(&cli, a)?,
         Cmd::ImportManifest(a) => return import_manifest(&cli, a),
     }
@@ -621,6 +621,9 @@ fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
                 let r = model::edit_batch(tx, who, a.id, &e)?;
                 if e.pin_calibration.is_some() || e.unpin {
                     engine::mark_stale(tx)?;
+                }
+                if e.product_aliquot_id.is_some() {
+                    engine::refresh_vials(tx, Some(a.id), false)?;
                 }
                 Ok(r)
             })?;
@@ -1927,10 +1930,14 @@ fn check(cli: &Cli, a: &CheckArgs) -> Result<ExitCode> {
     })
 }
 
-fn restore(cli: &Cli, file: &Path) -> Result<()> {
+fn restore(cli: &Cli, file: &Path, recompute_after: bool) -> Result<()> {
     let target = db_path(cli);
-    // A backup must pass the whole check, derived values recomputed included.
+    // A backup must pass the whole check, derived values recomputed included, unless the user
+    // takes it to recompute them.
     let extra = |c: &rusqlite::Connection| -> crate::Result<Vec<crate::store::check::Problem>> {
+        if recompute_after {
+            return Ok(Vec::new());
+        }
         Ok(engine::verify_values(c, true)?.1)
     };
     let r = if target.exists() {
@@ -1940,6 +1947,14 @@ fn restore(cli: &Cli, file: &Path) -> Result<()> {
         let who = identity::for_write(cli.actor.as_deref())?;
         crate::store::backup::restore_new(file, &target, &who, &extra)?
     };
+    if recompute_after {
+        let mut store = open_write(cli)?;
+        let rep = store.write(|tx, who| engine::recompute_recorded(tx, who, true, |_, _| {}))?;
+        line(&format!(
+            "recomputed {} values, {} changed",
+            rep.recomputed, rep.changed
+        ))?;
+    }
     line(&format!(
         "restored {} from {}{}",
         r.lab,

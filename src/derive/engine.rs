@@ -1189,12 +1189,7 @@ fn vial_expected(
 pub fn refresh_vials(conn: &Connection, batch: Option<i64>, dry_run: bool) -> Result<(usize, usize)> {
     let mut cals = BTreeMap::new();
     let (mut considered, mut changed) = (0, 0);
-    for row in crate::store::model::derived_vial_concentrations(conn)? {
-        if let Some(b) = batch
-            && crate::store::model::get_vial(conn, row.vial_id)?.batch_id != b
-        {
-            continue;
-        }
+    for row in crate::store::model::derived_vial_concentrations(conn, batch)? {
         considered += 1;
         let expected = vial_expected(conn, &row, &mut cals)?;
         let Some(new) = expected else {
@@ -1223,7 +1218,7 @@ pub fn mark_vials_stale(tx: &Connection) -> Result<usize> {
     let mut n = 0;
     let latest = calibration::latest(tx)?.version;
     let mut cals: BTreeMap<i64, Calibration> = BTreeMap::new();
-    for row in crate::store::model::derived_vial_concentrations(tx)? {
+    for row in crate::store::model::derived_vial_concentrations(tx, None)? {
         let vial = crate::store::model::get_vial(tx, row.vial_id)?;
         let stale = match row.c.source.as_str() {
             "estimate" => match vial_estimate(tx, vial.batch_id)? {
@@ -1399,7 +1394,7 @@ pub fn verify_values(conn: &Connection, deep: bool) -> Result<(usize, Vec<Proble
             }
         }
     }
-    for row in crate::store::model::derived_vial_concentrations(conn)? {
+    for row in crate::store::model::derived_vial_concentrations(conn, None)? {
         if row.stale {
             continue;
         }

@@ -224,10 +224,16 @@ fn checked_backup(file: &Path, actor: &str, extra: BackupCheck) -> Result<Store>
     let mut problems = check::check(&backup.conn).map_err(named)?;
     problems.extend(extra(&backup.conn).map_err(named)?);
     if !problems.is_empty() {
+        let only_derived = problems.iter().all(|p| p.kind == "derived_value");
         return Err(Error::Invalid(format!(
-            "the backup {} fails its check ({}); nothing was restored",
+            "the backup {} fails its check ({}); nothing was restored{}",
             file.display(),
-            problems.iter().map(|p| p.detail.clone()).collect::<Vec<_>>().join("; ")
+            problems.iter().map(|p| p.detail.clone()).collect::<Vec<_>>().join("; "),
+            if only_derived {
+                " (its records are sound and only derived values are out of date: `restore --recompute` takes it and recomputes them)"
+            } else {
+                ""
+            }
         )));
     }
     Ok(backup)

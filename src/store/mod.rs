@@ -266,6 +266,12 @@ impl Store {
         }
     }
 
+    /// SQLite's `data_version`: it changes whenever another connection commits to the lab, so
+    /// a view can tell cheaply whether to read again.
+    pub fn data_version(&self) -> Result<i64> {
+        Ok(self.conn.query_row("PRAGMA data_version", [], |r| r.get(0))?)
+    }
+
     /// Opens the lab at this store's path afresh, with the same access and actor (after a
     /// restore, to go on with the restored lab).
     pub fn reopen(&self) -> Result<Store> {

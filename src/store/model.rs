@@ -1605,12 +1605,15 @@ pub fn current_vial_concentration(conn: &Connection, vial_id: i64) -> Result<Opt
 }
 
 /// Every vial's current concentration whose value can follow a calibration (measured or
-/// estimated), for recompute and stale marking.
-pub fn derived_vial_concentrations(conn: &Connection) -> Result<Vec<StoredVialConcentration>> {
-    let mut st = conn.prepare(&format!(
-        "SELECT {VIAL_CONC_COLS} FROM vial_concentration WHERE superseded_at IS NULL AND source IN ('measured','estimate') ORDER BY vial_id"
+/// estimated), of one batch's vials or of all, for recompute and stale marking.
+pub fn derived_vial_concentrations(conn: &Connection, batch: Option<i64>) -> Result<Vec<StoredVialConcentration>> {
+    let mut st = conn.prepare_cached(&format!(
+        "SELECT {VIAL_CONC_COLS} FROM vial_concentration
+          WHERE superseded_at IS NULL AND source IN ('measured','estimate')
+            AND (?1 IS NULL OR vial_id IN (SELECT id FROM vial WHERE batch_id = ?1))
+          ORDER BY vial_id"
     ))?;
-    let rows = st.query_map([], vial_conc_from)?;
+    let rows = st.query_map([batch], vial_conc_from)?;
     Ok(rows.collect::<rusqlite::Result<_>>()?)
 }
 

@@ -163,6 +163,8 @@ pub struct App {
     pub busy: bool,
     /// When the UI last asked whether its lab was restored or replaced under it.
     last_lab_check: std::time::Instant,
+    /// SQLite's count of commits by others when the UI last read: a change means reload.
+    data_version: Option<i64>,
 }
 
 fn num(v: Option<f64>, d: usize) -> String {
@@ -206,6 +208,7 @@ impl App {
             rx,
             busy: false,
             last_lab_check: std::time::Instant::now(),
+            data_version: None,
         };
         app.reload();
         app
@@ -220,10 +223,20 @@ impl App {
 
     /// Reloads what the current view shows.
     pub fn reload(&mut self) {
+        // What is selected is kept by what it is (a batch, a vial), not by its row number, so a
+        // reload after someone else's write never leaves the highlight on another thing.
+        let batch_was = self.hits.get(self.selected).map(|h| h.id);
+        let vial_was = self.vials.get(self.vial_selected).map(|v| v.id);
         let r = (|| -> crate::Result<()> {
             self.facts = search::load_facts(&self.store.conn)?;
             self.refilter();
+            if let Some(i) = batch_was.and_then(|id| self.hits.iter().position(|h| h.id == id)) {
+                self.selected = i;
+            }
             self.vials = model::list_vials(&self.store.conn, self.show_disposed)?;
+            if let Some(i) = vial_was.and_then(|id| self.vials.iter().position(|v| v.id == id)) {
+                self.vial_selected = i;
+            }
             if self.vial_selected >= self.vials.len() {
                 self.vial_selected = self.vials.len().saturating_sub(1);
             }
@@ -231,8 +244,21 @@ impl App {
             self.calibrations = calibration::history(&self.store.conn)?;
             self.trail = model::audit_log(&self.store.conn, None, 300)?;
             if let Some(id) = self.sheet.as_ref().and_then(|s| s["id"].as_i64()) {
-                self.open_sheet(id)?;
+                match self.open_sheet(id) {
+                    Ok(()) => {}
+                    // The batch is gone (the lab was restored from a backup without it): the
+                    // sheet closes rather than show, and act on, a batch that is not there.
+                    Err(crate::Error::NotFound { .. }) => {
+                        self.sheet = None;
+                        self.series.clear();
+                        if self.view == View::Sheet {
+                            self.view = View::Ledger;
+                        }
+                    }
+                    Err(e) => return Err(e),
+                }
             }
+            self.data_version = self.store.data_version().ok();
             Ok(())
         })();
         if let Err(e) = r {
@@ -316,7 +342,14 @@ impl App {
     /// write also checks this under its lock, so nothing slips in before the UI looks.
     pub fn check_lab(&mut self) {
         match self.store.replaced() {
-            Ok(None) => {}
+            // Others' writes show without waiting for one of ours (not while a form is open,
+            // so nothing moves under the user's typing).
+            Ok(None) => {
+                let now = self.store.data_version().ok();
+                if now != self.data_version && matches!(self.mode, Mode::Normal | Mode::Help) {
+                    self.reload();
+                }
+            }
             Ok(Some(what)) => match self.store.reopen() {
                 Ok(s) => {
                     self.store = s;
@@ -1194,7 +1227,25 @@ impl App {
                         kind,
                         excitation_nm: None,
                     };
-                    match bench::add_aliquot(&mut store, &a, &[f], &Default::default(), &bench::Door::default()) {
+                    let mut logged = bench::add_aliquot(
+                        &mut store,
+                        &a,
+                        &[f.clone()],
+                        &Default::default(),
+                        &bench::Door::default(),
+                    );
+                    // The lab was restored while watching: go on watching into the restored lab.
+                    if let Err(crate::Error::Replaced(_)) = &logged
+                        && let Ok(fresh) = store.reopen()
+                    {
+                        store = fresh;
+                        say(
+                            "watch: the lab was restored from a backup; watching on into it".into(),
+                            added,
+                        );
+                        logged = bench::add_aliquot(&mut store, &a, &[f], &Default::default(), &bench::Door::default());
+                    }
+                    match logged {
                         Ok(s) => {
                             added += 1;
                             watch.done(&p, look, Some(s.id));
