@@ -1230,7 +1230,7 @@ impl App {
                     let mut logged = bench::add_aliquot(
                         &mut store,
                         &a,
-                        &[f.clone()],
+                        std::slice::from_ref(&f),
                         &Default::default(),
                         &bench::Door::default(),
                     );
