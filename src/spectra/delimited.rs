@@ -327,7 +327,12 @@ fn split_lines(text: &str) -> (Vec<(usize, usize)>, Endings) {
     let b = text.as_bytes();
     let mut spans = Vec::with_capacity(b.len() / 24 + 1);
     let mut endings = Endings::default();
-    let total_cr = b.iter().filter(|&&c| c == b'\r').count();
+    // Counting CRs only when there is one keeps LF-only files to a single fast search.
+    let total_cr = if text.contains('\r') {
+        b.iter().filter(|&&c| c == b'\r').count()
+    } else {
+        0
+    };
     let has_lf = text.contains('\n');
     if has_lf {
         // The common case: split at each LF (a fast search), dropping the CR of a CRLF.
