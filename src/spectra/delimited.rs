@@ -123,6 +123,16 @@ impl<'a> Iterator for Cells<'a> {
 
 /// A cell without surrounding blanks and quotes.
 fn unquote(cell: &str) -> &str {
+    let b = cell.as_bytes();
+    // The common cell has nothing to strip; say so without a Unicode-aware trim.
+    match (b.first(), b.last()) {
+        (Some(f), Some(l))
+            if !f.is_ascii_whitespace() && !l.is_ascii_whitespace() && *f != b'"' && *f < 0x80 && *l < 0x80 =>
+        {
+            return cell;
+        }
+        _ => {}
+    }
     let t = cell.trim();
     t.strip_prefix('"')
         .and_then(|s| s.strip_suffix('"'))
@@ -190,6 +200,52 @@ fn grouping(s: &[u8], sep: u8, dec: u8) -> Option<usize> {
     (i == s.len()).then_some(groups)
 }
 
+/// Powers of ten that f64 holds exactly.
+const POW10: [f64; 23] = [
+    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20,
+    1e21, 1e22,
+];
+
+/// The plain decimals instruments write ("599.9901733", "-0.000496", "420"), read exactly:
+/// when the digits fit in 2^53 and there are at most 22 after the mark, both the digits and the
+/// power of ten are exact in f64, so one division is correctly rounded (Clinger's fast path,
+/// the same result `str::parse` gives). Anything else (an exponent, more digits) is left to
+/// `str::parse` by returning None.
+fn fast_decimal(s: &[u8], mark: u8) -> Option<f64> {
+    let (neg, digits) = match s.first()? {
+        b'-' => (true, &s[1..]),
+        b'+' => (false, &s[1..]),
+        _ => (false, s),
+    };
+    let mut mantissa: u64 = 0;
+    let mut n_digits = 0usize;
+    let mut frac = 0usize;
+    let mut seen_mark = false;
+    let mut any_digit = false;
+    for &c in digits {
+        if c.is_ascii_digit() {
+            any_digit = true;
+            if n_digits >= 15 {
+                return None;
+            }
+            mantissa = mantissa * 10 + u64::from(c - b'0');
+            if mantissa != 0 {
+                n_digits += 1;
+            }
+            frac += usize::from(seen_mark);
+        } else if c == mark && !seen_mark {
+            seen_mark = true;
+        } else {
+            return None;
+        }
+    }
+    if !any_digit || frac >= POW10.len() {
+        return None;
+    }
+    let v = mantissa as f64 / POW10[frac];
+    Some(if neg { -v } else { v })
+}
+
 /// Parses `s` after dropping every `drop` byte and turning `to_point` into '.', without a heap
 /// allocation (cells longer than the buffer are not numbers anyone writes).
 fn parse_mapped(s: &[u8], drop: Option<u8>, to_point: Option<u8>) -> Option<f64> {
@@ -215,6 +271,9 @@ fn parse_num(cell: &str, comma_decimal: bool) -> Num {
     }
     let b = t.as_bytes();
     if !comma_decimal {
+        if let Some(v) = fast_decimal(b, b'.') {
+            return Num::Value(v);
+        }
         if let Ok(v) = t.parse::<f64>() {
             return Num::Value(v);
         }
@@ -232,6 +291,11 @@ fn parse_num(cell: &str, comma_decimal: bool) -> Num {
     }
     let has_dot = b.contains(&b'.');
     if !has_dot {
+        if let Some(v) = fast_decimal(b, b',')
+            && grouping(b, b',', b'.').is_none()
+        {
+            return Num::Value(v);
+        }
         let Some(v) = parse_mapped(b, None, Some(b',')) else {
             return Num::Text;
         };
@@ -261,8 +325,41 @@ fn is_whole(cell: &str) -> bool {
 /// The lines of `text` as byte spans, for LF, CRLF and CR-only endings; and which endings.
 fn split_lines(text: &str) -> (Vec<(usize, usize)>, Endings) {
     let b = text.as_bytes();
-    let mut spans = Vec::with_capacity(b.len() / 16 + 1);
+    let mut spans = Vec::with_capacity(b.len() / 24 + 1);
     let mut endings = Endings::default();
+    // Counting CRs only when there is one keeps LF-only files to a single fast search.
+    let total_cr = if text.contains('\r') {
+        b.iter().filter(|&&c| c == b'\r').count()
+    } else {
+        0
+    };
+    let has_lf = text.contains('\n');
+    if has_lf {
+        // The common case: split at each LF (a fast search), dropping the CR of a CRLF.
+        let mut start = 0;
+        while let Some(off) = text[start..].find('\n') {
+            let end = start + off;
+            if end > start && b[end - 1] == b'\r' {
+                spans.push((start, end - 1));
+                endings.crlf += 1;
+            } else {
+                spans.push((start, end));
+                endings.lf += 1;
+            }
+            start = end + 1;
+        }
+        if start < b.len() {
+            let end = if b[b.len() - 1] == b'\r' { b.len() - 1 } else { b.len() };
+            endings.crlf += usize::from(end < b.len());
+            spans.push((start, end));
+        }
+        if total_cr == endings.crlf {
+            return (spans, endings);
+        }
+        // Lone CRs among LFs: fall through to the byte-by-byte split.
+        spans.clear();
+        endings = Endings::default();
+    }
     let mut start = 0;
     let mut i = 0;
     while i < b.len() {
@@ -408,7 +505,7 @@ impl RowSource for TextRows<'_> {
                 }
                 Num::Text => return Ok(RowKind::Text { first_text: k }),
             };
-            if self.record && !self.odd.quoted && v.is_some() && cell.trim_start().starts_with('"') {
+            if self.record && !self.odd.quoted && v.is_some() && cell.bytes().find(|c| *c != b' ') == Some(b'"') {
                 self.odd.quoted = true;
             }
             count += usize::from(v.is_some());
@@ -459,6 +556,14 @@ impl RowSource for TextRows<'_> {
 
 /// A line that opens framed data ("begin spectral data", ">>> start of data <<<") or closes it.
 fn marker(line: &str) -> Option<bool> {
+    // Rows of numbers, the bulk of any file, are no marker: reject them before any work.
+    if line
+        .as_bytes()
+        .first()
+        .is_some_and(|c| c.is_ascii_digit() || *c == b'.')
+    {
+        return None;
+    }
     let t = line.trim();
     if t.is_empty() || t.len() > 80 || t.bytes().any(|c| c.is_ascii_digit() || c == b':' || c == b'=') {
         return None;
@@ -593,7 +698,17 @@ fn choose_reading(text: &str, spans: &[(usize, usize)], range: std::ops::Range<u
     let mut has = [false; 4];
     for &i in &idx {
         let (a, b) = spans[i];
-        for &c in &text.as_bytes()[a..b] {
+        // Only lines that start like a row of numbers say what separates the numbers (a
+        // header's spaces say nothing).
+        let line = &text.as_bytes()[a..b];
+        let starts_numeric = line
+            .iter()
+            .find(|c| **c != b' ' && **c != b'"')
+            .is_some_and(|c| c.is_ascii_digit() || matches!(c, b'-' | b'+' | b'.'));
+        if !starts_numeric {
+            continue;
+        }
+        for &c in line {
             match c {
                 b'\t' => has[0] = true,
                 b';' => has[1] = true,
@@ -807,10 +922,49 @@ mod tests {
     }
 
     #[test]
+    fn the_fast_path_gives_what_str_parse_gives() {
+        // Deterministic pseudo-random decimals of every length the fast path takes and beyond.
+        let mut state: u64 = 0x9E37_79B9_7F4A_7C15;
+        for _ in 0..200_000 {
+            state = state
+                .wrapping_mul(6_364_136_223_846_793_005)
+                .wrapping_add(1_442_695_040_888_963_407);
+            let digits = (state >> 60) as usize + 1;
+            let point = (state >> 40) as usize % (digits + 1);
+            let mut s = String::new();
+            if state & 1 == 1 {
+                s.push('-');
+            }
+            let mut r = state;
+            for i in 0..digits {
+                if i == point {
+                    s.push('.');
+                }
+                r = r.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+                s.push(char::from(b'0' + (r >> 59) as u8 % 10));
+            }
+            let want: f64 = s.parse().unwrap();
+            if let Some(got) = fast_decimal(s.as_bytes(), b'.') {
+                assert_eq!(got.to_bits(), want.to_bits(), "{s}");
+            }
+        }
+        assert_eq!(fast_decimal(b"599.9901733", b'.'), Some(599.9901733));
+        assert_eq!(fast_decimal(b"1e3", b'.'), None);
+        assert_eq!(fast_decimal(b"-", b'.'), None);
+        assert_eq!(fast_decimal(b"1.2.3", b'.'), None);
+    }
+
+    #[test]
     fn lines_end_any_way() {
         let (spans, e) = split_lines("a\rb\r\nc\nd");
         assert_eq!(spans.len(), 4);
         assert_eq!((e.cr, e.crlf, e.lf), (1, 1, 1));
+        let (spans, e) = split_lines("a\r\nb\r\n\r\nc\r");
+        assert_eq!(spans, vec![(0, 1), (3, 4), (6, 6), (8, 9)]);
+        assert_eq!((e.cr, e.crlf, e.lf), (0, 4, 0));
+        let (spans, e) = split_lines("a\rb\r");
+        assert_eq!(spans, vec![(0, 1), (2, 3)]);
+        assert_eq!(e.cr, 2);
     }
 
     #[test]

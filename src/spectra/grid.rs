@@ -359,14 +359,14 @@ pub(crate) fn walk<R: RowSource>(file: &str, src: &mut R, range: std::ops::Range
         }
     }
     if let Some(from) = trailing_from {
-        let what = if opener {
-            "trailing block"
+        let (shape, what) = if opener {
+            ("trailing block", "a trailing block")
         } else {
-            "notes below the data"
+            ("notes below the data", "notes")
         };
-        table.shape.push(what.to_string());
+        table.shape.push(shape.to_string());
         table.warnings.push(format!(
-            "{trailing_lines} line{} below the data (from line {from}) read as a {what}, not as data",
+            "{trailing_lines} line{} below the data (from line {from}) read as {what}, not as data",
             if trailing_lines == 1 { "" } else { "s" }
         ));
     }
