@@ -23,7 +23,7 @@ fuzz_target!(|data: &[u8]| {
             4 => Some("furlong".into()),
             _ => None,
         },
-        block: None,
+        ..Default::default()
     };
     if let Ok(raw) = delimited::read("fuzz", &text, &opts)
         && let Ok(t) = raw.to_trace("fuzz", opts.x_unit.as_deref())

@@ -806,6 +806,7 @@ fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
                 y_col: a.y_col,
                 x_unit: a.x_unit.clone(),
                 block: a.block.clone(),
+                ..Default::default()
             };
             let door = bench::Door {
                 again: a.again,
@@ -1164,6 +1165,7 @@ pub fn analyze_one(path: &Path, a: &AnalyzeArgs, cal: &calibration::Calibration)
             y_col: a.y_col,
             x_unit: a.x_unit.clone(),
             block: a.block.clone(),
+            ..Default::default()
         };
         let (raw, _) = spectra::read_file(path, &opts)?;
         let t = raw.to_trace(&file, None)?;
@@ -1291,6 +1293,7 @@ fn read(a: &ReadArgs) -> Result<()> {
         y_col: a.y_col,
         x_unit: a.x_unit.clone(),
         block: a.block.clone(),
+        ..Default::default()
     };
     let (raw, sha) = spectra::read_file(&a.file, &opts)?;
     if a.json {

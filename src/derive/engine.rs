@@ -105,6 +105,7 @@ pub fn trace_of(s: &SpectrumRow) -> Result<Trace> {
     let raw = RawSpectrum {
         format: String::new(),
         title: None,
+        label: None,
         x_unit: s.x_unit.clone(),
         y_unit: s.y_unit.clone(),
         x: s.x.clone(),

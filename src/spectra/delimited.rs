@@ -61,6 +61,11 @@ fn numeric_row(line: &str, d: Delim, dc: bool) -> Option<Vec<f64>> {
     cells.iter().map(|c| parse_cell(c, dc)).collect()
 }
 
+/// Every spectrum the text holds.
+pub fn read_all(file: &str, text: &str, opts: &ReadOptions) -> Result<Vec<RawSpectrum>> {
+    read(file, text, opts).map(|s| vec![s])
+}
+
 pub fn read(file: &str, text: &str, opts: &ReadOptions) -> Result<RawSpectrum> {
     let lines: Vec<&str> = text.lines().collect();
     let candidates = [
@@ -166,6 +171,7 @@ pub fn read(file: &str, text: &str, opts: &ReadOptions) -> Result<RawSpectrum> {
     Ok(RawSpectrum {
         format: format!("delimited ({})", delim.name()),
         title: None,
+        label: None,
         x_unit,
         y_unit,
         x,

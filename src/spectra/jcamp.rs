@@ -303,6 +303,7 @@ pub fn read(file: &str, text: &str, opts: &ReadOptions) -> Result<RawSpectrum> {
     Ok(RawSpectrum {
         format: "JCAMP-DX".into(),
         title: block.text("TITLE"),
+        label: block.text("TITLE"),
         x_unit: block.text("XUNITS").unwrap_or_else(|| "nm".into()),
         y_unit: block.text("YUNITS"),
         x,

@@ -6,6 +6,7 @@
 
 pub mod analysis;
 pub mod delimited;
+pub mod grid;
 pub mod jcamp;
 pub mod quantity;
 pub mod savgol;
@@ -28,6 +29,11 @@ pub struct ReadOptions {
     pub x_unit: Option<String>,
     /// JCAMP-DX: the block to read, by 1-based number or by title.
     pub block: Option<String>,
+    /// A table with several y columns: the one to read, by header or by 1-based number among
+    /// the y columns (`--column NAME|N`).
+    pub column: Option<String>,
+    /// A workbook: the sheet to read, by name or 1-based number.
+    pub sheet: Option<String>,
 }
 
 /// One verification a format allowed, such as a JCAMP-DX Y-check.
@@ -43,6 +49,8 @@ pub struct Check {
 pub struct RawSpectrum {
     pub format: String,
     pub title: Option<String>,
+    /// Which spectrum of the file this is: its column header or block title.
+    pub label: Option<String>,
     pub x_unit: String,
     pub y_unit: Option<String>,
     pub x: Vec<f64>,
@@ -90,18 +98,47 @@ impl XUnit {
     }
 }
 
-/// Reads a spectrum from bytes, detecting the format from the content.
-pub fn read_bytes(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<RawSpectrum> {
+/// Every spectrum a file holds, detecting the format from the content.
+pub fn read_all(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<Vec<RawSpectrum>> {
     let text = decode_text(bytes);
     if text.trim().is_empty() {
         return Err(spectrum_error(file, None, "the file is empty"));
     }
-    let looks_jcamp = text.lines().take(50).any(|l| l.trim_start().starts_with("##"));
-    if looks_jcamp {
-        jcamp::read(file, &text, opts)
+    if looks_jcamp(&text) {
+        jcamp::read(file, &text, opts).map(|s| vec![s])
     } else {
-        delimited::read(file, &text, opts)
+        delimited::read_all(file, &text, opts)
     }
+}
+
+/// One spectrum. A file with several spectra and no `opts.column` is refused with a message
+/// that lists them; it is never silently read as its first.
+pub fn read_bytes(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<RawSpectrum> {
+    let mut all = read_all(file, bytes, opts)?;
+    if all.len() > 1 {
+        return Err(grid::several_spectra_error(file, &all));
+    }
+    all.pop().ok_or_else(|| spectrum_error(file, None, "no spectrum found"))
+}
+
+/// JCAMP-DX opens with labelled data records: a `##TITLE=` or `##JCAMP-DX=` line near the top.
+/// A Markdown heading (`## Results`) is not one.
+fn looks_jcamp(text: &str) -> bool {
+    text.lines().take(50).any(|l| {
+        let Some(rest) = l.trim_start().strip_prefix("##") else {
+            return false;
+        };
+        let Some((label, _)) = rest.split_once('=') else {
+            return false;
+        };
+        // Labels compare without case, spaces, dashes, slashes or underscores (as the standard says).
+        let squashed: String = label
+            .chars()
+            .filter(|c| !matches!(c, ' ' | '-' | '/' | '_'))
+            .flat_map(char::to_uppercase)
+            .collect();
+        squashed == "TITLE" || squashed == "JCAMPDX"
+    })
 }
 
 /// Reads a file from disk: the spectrum and the SHA-256 of its bytes.
