@@ -10,6 +10,7 @@ pub mod grid;
 pub mod jcamp;
 pub mod quantity;
 pub mod savgol;
+pub mod sheet;
 
 use crate::error::{Error, Result};
 use serde::Serialize;
@@ -100,6 +101,10 @@ impl XUnit {
 
 /// Every spectrum a file holds, detecting the format from the content.
 pub fn read_all(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<Vec<RawSpectrum>> {
+    // A zip (xlsx, ods) or OLE container (an encrypted xlsx) is a workbook, never text.
+    if sheet::is_workbook(bytes) {
+        return sheet::read(file, bytes, opts);
+    }
     let text = decode_text(bytes);
     if text.trim().is_empty() {
         return Err(spectrum_error(file, None, "the file is empty"));
