@@ -265,3 +265,22 @@ fn a_word_in_the_data_is_refused_with_its_sheet_and_row() {
     assert!(m.contains("sheet 'Sheet1' row 12"), "{m}");
     assert!(!m.contains("line"), "{m}");
 }
+
+#[test]
+fn repeated_cells_that_would_fill_memory_are_refused_before_they_are_expanded() {
+    // repeated_cells.ods: under 1 kB standing for 96 million number cells. calamine expands every
+    // ods sheet as it opens the file (about 6 GB for this one, measured by hand on the code before
+    // this check); the repeats are counted first and the file refused.
+    assert!(bytes("repeated_cells.ods").len() < 2_000);
+    let m = refusal("repeated_cells.ods", &ReadOptions::default());
+    assert!(m.contains("sheet 'Huge'") && m.contains("spans more than"), "{m}");
+}
+
+#[test]
+fn empty_repeated_cells_around_the_data_cost_nothing() {
+    // empty_repeats.ods: the spectrum, then a million formatted empty rows of 1,024 columns.
+    let all = read_ok("empty_repeats.ods", &ReadOptions::default());
+    assert_eq!(all.len(), 1);
+    assert_eq!(all[0].x, xs());
+    assert_eq!(all[0].y, ys(1.0));
+}

@@ -119,6 +119,11 @@ impl<'a> Book<'a> {
                     "is an OpenDocument file but not a spreadsheet (.ods)",
                 ));
             }
+            // calamine expands every sheet of an ods as it opens it: count first, refuse first.
+            let spans = ods_spans(file, bytes)?;
+            if let Some((name, _)) = spans.iter().find(|(_, n)| **n > MAX_GRID_CELLS as u64) {
+                return Err(too_large(file, name));
+            }
             return match Ods::new(Cursor::new(bytes)) {
                 Ok(b) => Ok(Book::Ods(Box::new(b))),
                 Err(OdsError::Password) => Err(password(file)),
@@ -176,8 +181,7 @@ impl<'a> Book<'a> {
                 }
             }
             Book::Ods(b) => {
-                // calamine builds an ods sheet whole (under its own cell limit); the grid limit
-                // below still bounds what this module builds from it.
+                // Repeats were counted at open (see `ods_spans`); the grid limit still holds.
                 let range = b
                     .worksheet_range(name)
                     .map_err(|e| sheet_error(file, name, &e.to_string()))?;
@@ -194,6 +198,94 @@ impl<'a> Book<'a> {
         }
         Ok(out)
     }
+}
+
+/// The most bytes an ods `content.xml` may unpack to; far past any table of spectra.
+const MAX_ODS_CONTENT_BYTES: u64 = 256 * 1024 * 1024;
+
+/// For each sheet of an ods, the cells it spans once repeats are expanded: per row, the columns
+/// up to its last cell with content, times the row's repeat count. Empty repeated cells (how a
+/// formatted but unused area is saved) cost nothing, as in calamine.
+fn ods_spans(file: &str, bytes: &[u8]) -> Result<std::collections::HashMap<String, u64>> {
+    use quick_xml::events::{BytesStart, Event};
+    use std::io::Read;
+    let bad = |why: String| not_readable(file, "ods", &why);
+    let mut zip = zip::ZipArchive::new(Cursor::new(bytes)).map_err(|e| bad(e.to_string()))?;
+    let content = zip
+        .by_name("content.xml")
+        .map_err(|e| bad(format!("content.xml: {e}")))?;
+    let xml = std::io::BufReader::new(content.take(MAX_ODS_CONTENT_BYTES + 1));
+    let mut reader = quick_xml::Reader::from_reader(xml);
+    let number = |e: &BytesStart<'_>, key: &str| -> u64 {
+        e.try_get_attribute(key)
+            .ok()
+            .flatten()
+            .and_then(|a| a.value.trim().parse().ok())
+            .unwrap_or(1)
+    };
+    let mut spans = std::collections::HashMap::new();
+    let (mut table, mut total) = (String::new(), 0u64);
+    let (mut row_repeat, mut col, mut last_used) = (1u64, 0u64, 0u64);
+    let mut buf = Vec::new();
+    loop {
+        let event = reader.read_event_into(&mut buf).map_err(|e| bad(e.to_string()))?;
+        if reader.buffer_position() > MAX_ODS_CONTENT_BYTES {
+            return Err(spectrum_error(
+                file,
+                None,
+                "the workbook's content is too large to read",
+            ));
+        }
+        let (e, has_children) = match &event {
+            Event::Start(e) => (e, true),
+            Event::Empty(e) => (e, false),
+            Event::End(e) => {
+                match e.local_name().as_ref() {
+                    "table-row" => total = total.saturating_add(row_repeat.saturating_mul(last_used)),
+                    "table" => {
+                        spans.insert(std::mem::take(&mut table), total);
+                    }
+                    _ => {}
+                }
+                buf.clear();
+                continue;
+            }
+            Event::Eof => break,
+            _ => {
+                buf.clear();
+                continue;
+            }
+        };
+        match e.local_name().as_ref() {
+            "table" => {
+                table = e
+                    .try_get_attribute("table:name")
+                    .ok()
+                    .flatten()
+                    .and_then(|a| quick_xml::escape::unescape(&a.value).ok().map(|v| v.into_owned()))
+                    .unwrap_or_default();
+                total = 0;
+            }
+            "table-row" => {
+                row_repeat = number(e, "table:number-rows-repeated");
+                col = 0;
+                last_used = 0;
+                if !has_children {
+                    row_repeat = 0;
+                }
+            }
+            "table-cell" | "covered-table-cell" => {
+                col = col.saturating_add(number(e, "table:number-columns-repeated"));
+                let used = has_children || e.try_get_attribute("office:value-type").ok().flatten().is_some();
+                if used {
+                    last_used = col;
+                }
+            }
+            _ => {}
+        }
+        buf.clear();
+    }
+    Ok(spans)
 }
 
 /// An OpenDocument package starts with an uncompressed `mimetype` entry (OpenDocument 1.2,

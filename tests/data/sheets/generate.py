@@ -114,6 +114,63 @@ typo = [row[:] for row in one]
 typo[11][1] = "see notes"
 xlsx("word_in_data.xlsx", [("Sheet1", typo)])
 
+# Repeated cells, as OpenDocument writes them: a few hundred bytes can stand for millions of cells.
+NS = (
+    'xmlns:office="urn:oasis:names:tc:opendocument:xmlns:office:1.0" '
+    'xmlns:table="urn:oasis:names:tc:opendocument:xmlns:table:1.0" '
+    'xmlns:text="urn:oasis:names:tc:opendocument:xmlns:text:1.0"'
+)
+MANIFEST = (
+    '<?xml version="1.0" encoding="UTF-8"?><manifest:manifest '
+    'xmlns:manifest="urn:oasis:names:tc:opendocument:xmlns:manifest:1.0" manifest:version="1.2">'
+    '<manifest:file-entry manifest:full-path="/" '
+    'manifest:media-type="application/vnd.oasis.opendocument.spreadsheet"/>'
+    '<manifest:file-entry manifest:full-path="content.xml" manifest:media-type="text/xml"/>'
+    "</manifest:manifest>"
+)
+
+
+def raw_ods(name, table_xml):
+    content = (
+        f'<?xml version="1.0" encoding="UTF-8"?><office:document-content {NS} office:version="1.2">'
+        f"<office:body><office:spreadsheet>{table_xml}</office:spreadsheet></office:body>"
+        "</office:document-content>"
+    )
+    with zipfile.ZipFile(name, "w") as z:
+        z.writestr(zipfile.ZipInfo("mimetype"), "application/vnd.oasis.opendocument.spreadsheet")
+        z.writestr("content.xml", content, compress_type=zipfile.ZIP_DEFLATED)
+        z.writestr("META-INF/manifest.xml", MANIFEST, compress_type=zipfile.ZIP_DEFLATED)
+
+
+def num_cell(v):
+    return f'<table:table-cell office:value-type="float" office:value="{v}"><text:p>{v}</text:p></table:table-cell>'
+
+
+def str_cell(t):
+    return f'<table:table-cell office:value-type="string"><text:p>{t}</text:p></table:table-cell>'
+
+
+# Bad: 6,000 rows of 16,000 cells that each hold the number 1 (96 million cells).
+raw_ods(
+    "repeated_cells.ods",
+    '<table:table table:name="Huge"><table:table-row table:number-rows-repeated="6000">'
+    '<table:table-cell table:number-columns-repeated="16000" office:value-type="float" '
+    'office:value="1"><text:p>1</text:p></table:table-cell></table:table-row></table:table>',
+)
+
+# Fine: one spectrum, then the formatted but empty rest of the sheet, written as repeats of
+# empty cells (how a spreadsheet program saves a sheet with styled columns).
+rows = "<table:table-row>" + str_cell("Wavelength (nm)") + str_cell("Absorbance") + "</table:table-row>"
+for i in range(N):
+    rows += "<table:table-row>" + num_cell(nm(i)) + num_cell(k(i) / 1000) + (
+        '<table:table-cell table:number-columns-repeated="1022"/></table:table-row>'
+    )
+rows += (
+    '<table:table-row table:number-rows-repeated="1048553">'
+    '<table:table-cell table:number-columns-repeated="1024"/></table:table-row>'
+)
+raw_ods("empty_repeats.ods", f'<table:table table:name="Sheet1">{rows}</table:table>')
+
 # Bad: a zip that is no workbook.
 with zipfile.ZipFile("not_a_workbook.xlsx", "w") as z:
     z.writestr("readme.txt", "just a zip\n")
