@@ -500,9 +500,14 @@ fn the_user_can_name_the_columns_and_the_block() {
         .chain(x.iter().zip(&y).map(|(a, b)| format!("{a};0.01;{b}\n")))
         .collect();
     let f = lab.write("three.csv", &text);
+    // Two y columns and no choice: refused with both named, never read as the first (issue 13).
     let wrong = lab.run(&["analyze", s(&f), "--kind", "abs", "--json"]);
     let v: serde_json::Value = serde_json::from_str(wrong.stdout.trim()).unwrap();
-    assert!(v["first_exciton_nm"].is_null(), "column 2 is flat: {v}");
+    let e = v["error"].as_str().unwrap();
+    assert!(
+        e.contains("1 'reference', 2 'sample'") && e.contains("--column NAME|N"),
+        "{v}"
+    );
     let o = lab.ok(&["analyze", s(&f), "--kind", "abs", "--y-col", "3", "--json"]);
     let v: serde_json::Value = serde_json::from_str(o.stdout.trim()).unwrap();
     assert!((v["first_exciton_nm"].as_f64().unwrap() - 560.0).abs() < 1.5, "{v}");

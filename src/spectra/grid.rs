@@ -55,6 +55,8 @@ pub(crate) enum RowKind {
     Text {
         first_text: usize,
     },
+    /// A comment line (`# ...`): no break in the data, but read for metadata.
+    Comment,
 }
 
 /// A source of rows the walker can scan: a grid, or lines of delimited text.
@@ -231,7 +233,7 @@ pub(crate) fn walk<R: RowSource>(file: &str, src: &mut R, range: std::ops::Range
                 b.rows += 1;
             }
             RowKind::Numbers { .. } => single_numbers = true,
-            RowKind::Empty => {}
+            RowKind::Empty | RowKind::Comment => {}
             RowKind::Text { .. } => {
                 if let Some(b) = open.take() {
                     blocks.push(b);
@@ -287,7 +289,15 @@ pub(crate) fn walk<R: RowSource>(file: &str, src: &mut R, range: std::ops::Range
 
     let mut table = Table::default();
     // The header: the last non-empty row before the data, when it holds text.
-    let header_row = prev_nonempty(data.first).filter(|&j| matches!(kind_of(j), RowKind::Text { .. }));
+    // A commented header ("# nm, A") counts when it has several cells and is no key: value.
+    let header_row = prev_nonempty(data.first).filter(|&j| match kind_of(j) {
+        RowKind::Text { .. } => true,
+        RowKind::Comment => {
+            let cells = src.texts(j);
+            cells.len() >= 2 && !cells.iter().any(|c| c.contains(':') || c.contains('='))
+        }
+        _ => false,
+    });
     if let Some(j) = header_row {
         table.header = Some(src.texts(j));
     }
@@ -305,6 +315,7 @@ pub(crate) fn walk<R: RowSource>(file: &str, src: &mut R, range: std::ops::Range
             continue;
         }
         let (a, b) = starts[i - base];
+        // A row of numbers inside the block, one number only (an x without its y) still counts.
         for (c, col) in table.columns.iter_mut().enumerate() {
             col.push(if a + c < b { flat[a + c] } else { None });
         }

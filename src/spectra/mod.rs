@@ -15,6 +15,7 @@ pub mod sheet;
 use crate::error::{Error, Result};
 use serde::Serialize;
 use sha2::{Digest, Sha256};
+use std::borrow::Cow;
 
 /// Fewer points than this cannot carry a peak, a width and a smoothing window.
 pub const MIN_POINTS: usize = 8;
@@ -105,14 +106,14 @@ pub fn read_all(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<Vec<RawS
     if sheet::is_workbook(bytes) {
         return sheet::read(file, bytes, opts);
     }
-    let text = decode_text(bytes);
+    let (text, encoding) = decode_text(bytes);
     if text.trim().is_empty() {
         return Err(spectrum_error(file, None, "the file is empty"));
     }
     if looks_jcamp(&text) {
         jcamp::read(file, &text, opts).map(|s| vec![s])
     } else {
-        delimited::read_all(file, &text, opts)
+        delimited::read_all_decoded(file, &text, encoding, opts)
     }
 }
 
@@ -159,13 +160,33 @@ pub fn sha256_hex(bytes: &[u8]) -> String {
     d.iter().map(|b| format!("{b:02x}")).collect()
 }
 
-/// UTF-8 where it is, else Latin-1 (many instrument exports are), without a BOM.
-fn decode_text(bytes: &[u8]) -> String {
-    let s = match std::str::from_utf8(bytes) {
-        Ok(s) => s.to_string(),
-        Err(_) => bytes.iter().map(|&b| b as char).collect(),
-    };
-    s.trim_start_matches('\u{feff}').to_string()
+/// The text of a file: UTF-8 where it is (borrowed, not copied), UTF-16 where a byte-order mark
+/// says so, else Latin-1 (many instrument exports are); without a BOM. The second value names
+/// an encoding other than UTF-8, for `format`.
+pub fn decode_text(bytes: &[u8]) -> (Cow<'_, str>, Option<&'static str>) {
+    if let Some(rest) = bytes.strip_prefix(&[0xFF, 0xFE]) {
+        return (Cow::Owned(utf16(rest, u16::from_le_bytes)), Some("UTF-16 LE"));
+    }
+    if let Some(rest) = bytes.strip_prefix(&[0xFE, 0xFF]) {
+        return (Cow::Owned(utf16(rest, u16::from_be_bytes)), Some("UTF-16 BE"));
+    }
+    let bytes = bytes.strip_prefix(&[0xEF, 0xBB, 0xBF]).unwrap_or(bytes);
+    match std::str::from_utf8(bytes) {
+        Ok(s) => (Cow::Borrowed(s), None),
+        Err(_) => (Cow::Owned(bytes.iter().map(|&b| b as char).collect()), Some("Latin-1")),
+    }
+}
+
+/// UTF-16 code units to text; an unpaired surrogate or an odd last byte becomes U+FFFD, which
+/// no number contains, so it cannot pass as data.
+fn utf16(bytes: &[u8], unit: fn([u8; 2]) -> u16) -> String {
+    let units = bytes.chunks(2).map(|c| match c {
+        [a, b] => unit([*a, *b]),
+        _ => 0xFFFD,
+    });
+    char::decode_utf16(units)
+        .map(|r| r.unwrap_or(char::REPLACEMENT_CHARACTER))
+        .collect()
 }
 
 pub(crate) fn spectrum_error(file: &str, line: Option<usize>, reason: &str) -> Error {
