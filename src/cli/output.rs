@@ -20,8 +20,9 @@ pub fn json_line<T: Serialize + ?Sized>(v: &T) -> Result<()> {
 
 /// Text on stdout; its own line breaks and tabs stay, every other control is shown.
 pub fn line(s: &str) -> Result<()> {
-    let mut out = std::io::stdout().lock();
-    match writeln!(out, "{}", safe_text::for_terminal_lines(s)) {
+    let text = safe_text::for_terminal_lines(s);
+    let written = above_bar(|| writeln!(std::io::stdout().lock(), "{text}"));
+    match written {
         Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => std::process::exit(0),
         r => Ok(r?),
     }
@@ -29,7 +30,8 @@ pub fn line(s: &str) -> Result<()> {
 
 /// One line on stderr, prefixed `cuvette: `, with every control (line breaks too) shown.
 pub fn warn(s: &str) {
-    eprintln!("cuvette: {}", safe_text::for_terminal(s));
+    let text = safe_text::for_terminal(s);
+    above_bar(|| eprintln!("cuvette: {text}"));
 }
 
 /// A number with a fixed count of decimals (small ones in scientific form), or "-".
@@ -50,26 +52,106 @@ pub fn molar(v: Option<f64>) -> String {
     }
 }
 
-/// Progress on stderr, only when stderr is a terminal and JSON is not asked for.
+/// The bar of the run in progress, if one is drawn: [`line`] and [`warn`] print above it so a
+/// message is never hidden behind or torn by it.
+static ACTIVE_BAR: std::sync::Mutex<Option<indicatif::ProgressBar>> = std::sync::Mutex::new(None);
+
+/// Runs `print` with the active bar (if any) lifted off the terminal, then redraws the bar.
+fn above_bar<R>(print: impl FnOnce() -> R) -> R {
+    let bar = ACTIVE_BAR.lock().ok().and_then(|g| g.clone());
+    match bar {
+        Some(b) => b.suspend(print),
+        None => print(),
+    }
+}
+
+/// Whether a run draws a bar: only for people at a terminal. A script reading `--json`, or
+/// output sent to a file or a pipe (on either stream), gets no bar and no carriage returns.
+pub fn progress_wanted(json: bool, stdout_is_terminal: bool, stderr_is_terminal: bool) -> bool {
+    !json && stdout_is_terminal && stderr_is_terminal
+}
+
+/// A progress bar on stderr for long runs (recompute, import, handover, demo), drawn through
+/// indicatif only when [`progress_wanted`] says so. The bar is made at the first tick, when the
+/// total is known, and cleared when the run is done or dropped (an error ends it too).
 pub struct Progress {
     on: bool,
     label: &'static str,
+    bar: std::sync::OnceLock<indicatif::ProgressBar>,
 }
 
 impl Progress {
     pub fn new(label: &'static str, json: bool) -> Progress {
         use std::io::IsTerminal;
         Progress {
-            on: !json && std::io::stderr().is_terminal(),
+            on: progress_wanted(json, std::io::stdout().is_terminal(), std::io::stderr().is_terminal()),
             label,
+            bar: std::sync::OnceLock::new(),
         }
     }
+
     pub fn tick(&self, done: usize, total: usize) {
-        if self.on {
-            eprint!("\r{}: {done}/{total}", self.label);
-            if done >= total {
-                eprintln!();
+        if !self.on {
+            return;
+        }
+        let bar = self.bar.get_or_init(|| {
+            let bar = indicatif::ProgressBar::new(total as u64);
+            let style = indicatif::ProgressStyle::with_template("{prefix}: [{bar:30}] {pos}/{len} ({eta} left)")
+                .map(|s| s.progress_chars("=> "))
+                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar());
+            bar.set_style(style);
+            bar.set_prefix(self.label);
+            if let Ok(mut active) = ACTIVE_BAR.lock() {
+                *active = Some(bar.clone());
+            }
+            bar
+        });
+        // A run whose total grows (a folder re-listed) keeps an honest length.
+        if bar.length() != Some(total as u64) {
+            bar.set_length(total as u64);
+        }
+        bar.set_position(done as u64);
+        if done >= total {
+            self.finish();
+        }
+    }
+
+    fn finish(&self) {
+        if let Some(bar) = self.bar.get() {
+            if !bar.is_finished() {
+                bar.finish_and_clear();
+            }
+            if let Ok(mut active) = ACTIVE_BAR.lock() {
+                *active = None;
             }
         }
+    }
+}
+
+impl Drop for Progress {
+    fn drop(&mut self) {
+        self.finish();
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_bar_only_for_a_person_at_a_terminal() {
+        assert!(progress_wanted(false, true, true));
+        assert!(!progress_wanted(true, true, true), "--json never draws a bar");
+        assert!(!progress_wanted(false, false, true), "stdout sent to a file or pipe");
+        assert!(!progress_wanted(false, true, false), "stderr sent to a file or pipe");
+    }
+
+    #[test]
+    fn no_bar_is_made_when_not_wanted() {
+        let p = Progress::new("test", true);
+        p.tick(1, 10);
+        p.tick(10, 10);
+        assert!(p.bar.get().is_none());
+        assert!(ACTIVE_BAR.lock().map(|g| g.is_none()).unwrap_or(false));
     }
 }

@@ -10,6 +10,7 @@ pub mod grid;
 pub mod jcamp;
 pub mod quantity;
 pub mod savgol;
+pub mod sheet;
 
 use crate::error::{Error, Result};
 use serde::Serialize;
@@ -101,13 +102,9 @@ impl XUnit {
 
 /// Every spectrum a file holds, detecting the format from the content.
 pub fn read_all(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<Vec<RawSpectrum>> {
-    if bytes.starts_with(b"PK\x03\x04") {
-        // Workbooks (.xlsx, .ods) are zip files; their reader is `sheet::read`.
-        return Err(spectrum_error(
-            file,
-            None,
-            "a zip file (an .xlsx or .ods workbook?): no workbook reader in this build",
-        ));
+    // A zip (xlsx, ods) or OLE container (an encrypted xlsx) is a workbook, never text.
+    if sheet::is_workbook(bytes) {
+        return sheet::read(file, bytes, opts);
     }
     let (text, encoding) = decode_text(bytes);
     if text.trim().is_empty() {
