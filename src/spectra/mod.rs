@@ -121,9 +121,11 @@ pub fn read_all(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<Vec<RawS
 /// that lists them; it is never silently read as its first.
 pub fn read_bytes(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<RawSpectrum> {
     // JCAMP-DX chooses among its blocks itself (`--block`), with its own listing.
-    let (text, _) = decode_text(bytes);
-    if looks_jcamp(&text) {
-        return jcamp::read(file, &text, opts);
+    if !sheet::is_workbook(bytes) {
+        let (text, _) = decode_text(bytes);
+        if looks_jcamp(&text) {
+            return jcamp::read(file, &text, opts);
+        }
     }
     let mut all = read_all(file, bytes, opts)?;
     if all.len() > 1 {
