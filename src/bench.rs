@@ -17,6 +17,8 @@ pub struct Door {
     pub again: bool,
     /// Keep a file as the kind given even when its header or values say otherwise.
     pub kind_as_is: bool,
+    /// Take every spectrum of a several-sample file (each column, each block) as its own aliquot.
+    pub series: bool,
 }
 
 /// A spectrum file to attach, with its kind.
@@ -45,25 +47,72 @@ pub fn read_for_logging(
     kind_as_is: bool,
 ) -> Result<(RawSpectrum, String)> {
     let (mut raw, sha) = read_checked(path, opts)?;
+    // A label tells apart the spectra of one file: kept when one of several was chosen.
+    if opts.column.is_none() && opts.block.is_none() {
+        raw.label = None;
+    }
+    Ok((admit(path, raw, kind, kind_as_is)?, sha))
+}
+
+/// Every spectrum of a file (a several-sample export, a JCAMP-DX file of several blocks), each
+/// through the door, with the file's SHA-256; each keeps its label.
+pub fn read_series_for_logging(
+    path: &Path,
+    opts: &ReadOptions,
+    kind: &str,
+    kind_as_is: bool,
+) -> Result<(Vec<RawSpectrum>, String)> {
+    let name = path.display().to_string();
+    let bytes = std::fs::read(path).map_err(|e| Error::Spectrum {
+        file: name.clone(),
+        line: None,
+        reason: format!("cannot read: {e}"),
+    })?;
+    let all = spectra::read_all(&name, &bytes, opts)?;
+    let mut out = Vec::with_capacity(all.len());
+    for (i, raw) in all.into_iter().enumerate() {
+        raw.to_trace(&name, None)?;
+        let mut raw = admit(path, raw, kind, kind_as_is)?;
+        if raw.label.as_deref().is_none_or(|l| l.trim().is_empty()) {
+            raw.label = Some(format!("spectrum {}", i + 1));
+        }
+        out.push(raw);
+    }
+    Ok((out, spectra::sha256_hex(&bytes)))
+}
+
+/// The door for one spectrum read from `path` to be logged as `kind`.
+fn admit(path: &Path, mut raw: RawSpectrum, kind: &str, kind_as_is: bool) -> Result<RawSpectrum> {
     let k = quantity::SpectrumKind::parse(kind)
         .ok_or_else(|| Error::Invalid(format!("unknown spectrum kind '{kind}' (abs, pl, ple)")))?;
-    match quantity::admit(&path.display().to_string(), &raw, k, kind_as_is).into_result()? {
+    let file = match &raw.label {
+        Some(l) => format!("{} [{l}]", path.display()),
+        None => path.display().to_string(),
+    };
+    match quantity::admit(&file, &raw, k, kind_as_is).into_result()? {
         quantity::Verdict::Accept { y_unit, warnings } | quantity::Verdict::Convert { y_unit, warnings, .. } => {
             raw.y_unit = y_unit;
             raw.warnings.extend(warnings);
         }
         quantity::Verdict::Refuse { message, .. } => return Err(Error::Invalid(message)),
     }
-    Ok((raw, sha))
+    Ok(raw)
 }
 
 /// Refuses a file whose bytes are already logged in the batch (a folder imported twice, the
 /// same export picked again), naming where it is; `again` lets it through.
-fn refuse_duplicate(tx: &rusqlite::Connection, batch_id: i64, path: &Path, sha: &str) -> Result<()> {
-    if let Some((sid, aid)) = model::spectrum_in_batch(tx, batch_id, sha)? {
+fn refuse_duplicate(
+    tx: &rusqlite::Connection,
+    batch_id: i64,
+    path: &Path,
+    sha: &str,
+    label: Option<&str>,
+) -> Result<()> {
+    if let Some((sid, aid)) = model::spectrum_in_batch(tx, batch_id, sha, label)? {
         return Err(Error::Invalid(format!(
-            "{} is already logged in batch {batch_id} (spectrum {sid} of aliquot {aid}, same SHA-256); give --again to log it twice",
-            path.display()
+            "{}{} is already logged in batch {batch_id} (spectrum {sid} of aliquot {aid}, same SHA-256); give --again to log it twice",
+            path.display(),
+            label.map(|l| format!(" [{l}]")).unwrap_or_default()
         )));
     }
     Ok(())
@@ -94,8 +143,8 @@ pub fn add_aliquot(
     }
     store.write(|tx, who| {
         if !door.again {
-            for (f, (_, sha)) in &read {
-                refuse_duplicate(tx, a.batch_id, &f.path, sha)?;
+            for (f, (raw, sha)) in &read {
+                refuse_duplicate(tx, a.batch_id, &f.path, sha, raw.label.as_deref())?;
             }
         }
         let id = model::insert_aliquot(tx, who, a)?;
@@ -129,7 +178,163 @@ pub fn new_spectrum(aliquot_id: Option<i64>, f: &SpectrumFile, raw: &RawSpectrum
         instrument: None,
         dilution_factor: None,
         path_cm: None,
+        label: raw.label.clone(),
     }
+}
+
+/// Logs every spectrum of one file as a growth series in one transaction: one aliquot per
+/// spectrum (a sample column, a JCAMP-DX block), timed by its label where the label states a
+/// time with its unit ("20 s", "5 min"), else given the label as its stage.
+pub fn add_series(
+    store: &mut Store,
+    template: &NewAliquot,
+    file: &SpectrumFile,
+    opts: &ReadOptions,
+    door: &Door,
+) -> Result<Vec<growth::AliquotSummary>> {
+    if file.kind == "pl" && file.excitation_nm.is_none() {
+        return Err(Error::Invalid(format!(
+            "PL file {} needs its excitation wavelength (--excitation-nm)",
+            file.path.display()
+        )));
+    }
+    let (spectra, sha) = read_series_for_logging(&file.path, opts, file.kind, door.kind_as_is)?;
+    store.write(|tx, who| {
+        let ids = log_series(tx, who, template, file, &spectra, &sha, door, None)?;
+        engine::refresh_vials(tx, Some(template.batch_id), false)?;
+        ids.iter()
+            .map(|id| growth::aliquot_summary(tx, &model::get_aliquot(tx, *id)?))
+            .collect()
+    })
+}
+
+/// The aliquots of one file's spectra, inside the caller's transaction. `fallback_minutes` times
+/// a lone spectrum whose label states no time (the minutes in its file name). Spectra already
+/// in the batch are skipped and named in `skipped` when one is given, else refused.
+#[allow(clippy::too_many_arguments)]
+fn log_series(
+    tx: &rusqlite::Connection,
+    who: &str,
+    template: &NewAliquot,
+    file: &SpectrumFile,
+    spectra: &[RawSpectrum],
+    sha: &str,
+    door: &Door,
+    mut skipped: Option<&mut Vec<String>>,
+) -> Result<Vec<i64>> {
+    let mut ids = Vec::new();
+    let lone = spectra.len() == 1;
+    for raw in spectra {
+        let label = raw.label.clone().unwrap_or_default();
+        if !door.again {
+            match skipped.as_deref_mut() {
+                Some(list) => {
+                    if model::spectrum_in_batch(tx, template.batch_id, sha, raw.label.as_deref())?.is_some() {
+                        list.push(format!("{} [{label}]", file.path.display()));
+                        continue;
+                    }
+                }
+                None => refuse_duplicate(tx, template.batch_id, &file.path, sha, raw.label.as_deref())?,
+            }
+        }
+        let name_minutes = file
+            .path
+            .file_stem()
+            .and_then(|n| minutes_in(&n.to_string_lossy().to_ascii_lowercase()));
+        let (minutes, stage) = match minutes_in_header(&label) {
+            Some(m) => (Some(m), None),
+            None if lone && name_minutes.is_some() => (name_minutes, None),
+            None => (None, Some(label.chars().take(60).collect::<String>())),
+        };
+        let a = NewAliquot {
+            minutes,
+            stage,
+            ..template.clone()
+        };
+        let id = model::insert_aliquot(tx, who, &a)?;
+        model::insert_spectrum(tx, who, &new_spectrum(Some(id), file, raw, sha))?;
+        engine::derive_aliquot(tx, id)?;
+        ids.push(id);
+    }
+    Ok(ids)
+}
+
+/// Imports every file of a folder as a series (`import --series`): each spectrum of each file
+/// becomes an aliquot, timed by its label (or, for a file of one spectrum, by its name). All
+/// or nothing; spectra already in the batch are skipped and reported.
+fn import_series(
+    store: &mut Store,
+    batch_id: i64,
+    folder: &Path,
+    template: &NewAliquot,
+    excitation_nm: Option<f64>,
+    door: &Door,
+    mut progress: impl FnMut(usize, usize),
+) -> Result<ImportReport> {
+    let mut paths: Vec<PathBuf> = std::fs::read_dir(folder)
+        .map_err(|e| Error::Invalid(format!("cannot read folder {}: {e}", folder.display())))?
+        .filter_map(|e| e.ok().map(|e| e.path()))
+        .filter(|p| p.is_file() && !p.file_name().is_some_and(|n| n.to_string_lossy().starts_with('.')))
+        .collect();
+    paths.sort();
+    if paths.is_empty() {
+        return Err(Error::Invalid(format!("no spectrum files in {}", folder.display())));
+    }
+    let workers = std::thread::available_parallelism()
+        .map(|n| n.get())
+        .unwrap_or(1)
+        .min(8);
+    let read = crate::par::parallel_map(
+        &paths,
+        workers,
+        |p| -> Result<(SpectrumFile, Vec<RawSpectrum>, String)> {
+            let name = p
+                .file_stem()
+                .map(|n| n.to_string_lossy().to_ascii_lowercase())
+                .unwrap_or_default();
+            let kind = match quantity::kind_from_name(&name) {
+                Some(k) => k.as_str(),
+                None => {
+                    let bytes =
+                        std::fs::read(p).map_err(|e| Error::Invalid(format!("cannot read {}: {e}", p.display())))?;
+                    let first = spectra::read_all(&p.display().to_string(), &bytes, &ReadOptions::default())?;
+                    first
+                        .first()
+                        .and_then(|r| quantity::infer_kind(&name, r).kind)
+                        .map(|k| k.as_str())
+                        .ok_or_else(|| {
+                            Error::Invalid(format!(
+                                "{}: cannot tell whether it is absorbance, PL or PLE; name it with abs, pl or ple",
+                                p.display()
+                            ))
+                        })?
+                }
+            };
+            let file = SpectrumFile {
+                path: p.clone(),
+                kind,
+                excitation_nm: if kind == "pl" { excitation_nm } else { None },
+            };
+            if kind == "pl" && excitation_nm.is_none() {
+                return Err(Error::Invalid(format!("PL file {} needs --excitation-nm", p.display())));
+            }
+            let (spectra, sha) = read_series_for_logging(p, &ReadOptions::default(), kind, door.kind_as_is)?;
+            Ok((file, spectra, sha))
+        },
+    );
+    let read: Vec<_> = read.into_iter().collect::<Result<_>>()?;
+    let total = read.len();
+    store.write(|tx, who| {
+        model::get_batch(tx, batch_id)?;
+        let mut report = ImportReport::default();
+        for (i, (file, spectra, sha)) in read.iter().enumerate() {
+            let ids = log_series(tx, who, template, file, spectra, sha, door, Some(&mut report.skipped))?;
+            report.aliquots.extend(ids);
+            progress(i + 1, total);
+        }
+        engine::refresh_vials(tx, Some(batch_id), false)?;
+        Ok(report)
+    })
 }
 
 /// What measuring a vial's absorbance gave.
@@ -472,6 +677,9 @@ pub fn import_folder(
     door: &Door,
     mut progress: impl FnMut(usize, usize),
 ) -> Result<ImportReport> {
+    if door.series {
+        return import_series(store, batch_id, folder, template, excitation_nm, door, progress);
+    }
     let groups = group_folder(folder, excitation_nm)?;
     if groups.is_empty() {
         return Err(Error::Invalid(format!("no spectrum files in {}", folder.display())));
@@ -517,8 +725,12 @@ pub fn import_folder(
             // an aliquot none of whose files are new is not made at all.
             let fresh: Vec<_> = files
                 .iter()
-                .filter(|(f, (_, sha))| {
-                    let dup = !door.again && model::spectrum_in_batch(tx, batch_id, sha).ok().flatten().is_some();
+                .filter(|(f, (raw, sha))| {
+                    let dup = !door.again
+                        && model::spectrum_in_batch(tx, batch_id, sha, raw.label.as_deref())
+                            .ok()
+                            .flatten()
+                            .is_some();
                     if dup {
                         report.skipped.push(f.path.display().to_string());
                     }

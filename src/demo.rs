@@ -448,6 +448,7 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                         instrument: None,
                         dilution_factor: None,
                         path_cm: None,
+                        label: None,
                     },
                 )?;
                 if let Some(target_qy) = s.qy {
@@ -487,6 +488,7 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                             instrument: Some(r#"{"slit_nm": 2, "integration_s": 0.5}"#.into()),
                             dilution_factor: None,
                             path_cm: None,
+                            label: None,
                         },
                     )?;
                 }

@@ -102,6 +102,18 @@ pub enum Cmd {
     ImportManifest(ManifestArgs),
 }
 
+/// Which spectrum of a file holding several: the same two options wherever a file is read.
+#[derive(Debug, Args, Clone, Default)]
+pub struct FileChoice {
+    /// A file with several sample columns: the one to read, by its header or its number among
+    /// the sample columns (from 1).
+    #[arg(long, value_name = "NAME|N")]
+    pub column: Option<String>,
+    /// A workbook (.xlsx, .ods): the sheet to read, by its name or number (from 1).
+    #[arg(long, value_name = "NAME|N")]
+    pub sheet: Option<String>,
+}
+
 #[derive(Debug, Args)]
 pub struct CheckArgs {
     /// Recompute every derived value, not a sample, and compare.
@@ -428,6 +440,13 @@ pub struct AliquotAddArgs {
     /// JCAMP-DX block to read: number (from 1) or title.
     #[arg(long)]
     pub block: Option<String>,
+    #[command(flatten)]
+    pub choice: FileChoice,
+    /// A file of several spectra (sample columns, blocks) logged as a growth series: one aliquot
+    /// each, timed by its column header when the header states a time ("20 s", "5 min"), else
+    /// labelled with it. Give one of --abs, --pl, --ple.
+    #[arg(long)]
+    pub series: bool,
     /// Log a file whose SHA-256 is already in the batch (refused otherwise).
     #[arg(long)]
     pub again: bool,
@@ -586,6 +605,8 @@ pub struct AnalyzeArgs {
     /// Column of y in delimited files (from 1).
     #[arg(long)]
     pub y_col: Option<usize>,
+    #[command(flatten)]
+    pub choice: FileChoice,
     /// JCAMP-DX block to read: number (from 1) or title.
     #[arg(long)]
     pub block: Option<String>,
@@ -599,6 +620,11 @@ pub struct ReadArgs {
     /// JCAMP-DX block to read: number (from 1) or title.
     #[arg(long)]
     pub block: Option<String>,
+    #[command(flatten)]
+    pub choice: FileChoice,
+    /// Print every spectrum the file holds (`--json`: an array), not one.
+    #[arg(long)]
+    pub all: bool,
     #[arg(long)]
     pub x_col: Option<usize>,
     #[arg(long)]
@@ -906,6 +932,10 @@ pub struct ImportArgs {
     pub solvent: String,
     #[arg(long)]
     pub excitation_nm: Option<f64>,
+    /// Take every file as a series: each sample column (or block) of a file becomes an aliquot,
+    /// timed by its column header ("20 s", "5 min") or, for a file of one spectrum, by its name.
+    #[arg(long)]
+    pub series: bool,
     /// Import files whose SHA-256 is already in the batch (skipped and reported otherwise).
     #[arg(long)]
     pub again: bool,

@@ -809,12 +809,41 @@ fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
                 y_col: a.y_col,
                 x_unit: a.x_unit.clone(),
                 block: a.block.clone(),
-                ..Default::default()
+                column: a.choice.column.clone(),
+                sheet: a.choice.sheet.clone(),
             };
             let door = bench::Door {
                 again: a.again,
                 kind_as_is: a.kind_as_is,
+                series: a.series,
             };
+            if a.series {
+                if files.len() != 1 {
+                    bail!("--series takes one file: give one of --abs, --pl or --ple");
+                }
+                if a.minutes.is_some() || a.stage.is_some() {
+                    bail!("--series times each aliquot by its column header; leave out --minutes and --stage");
+                }
+                let series = bench::add_series(&mut store, &na, &files[0], &opts, &door)?;
+                if a.json {
+                    json(&series)?;
+                } else {
+                    for s in &series {
+                        line(&format!(
+                            "aliquot {} ({}): first exciton {} nm, D {} nm, conc {}",
+                            s.id,
+                            s.minutes
+                                .map(|m| format!("{m:.2} min"))
+                                .or(s.stage.clone())
+                                .unwrap_or_default(),
+                            num(s.first_exciton_nm, 1),
+                            num(s.diameter_nm, 2),
+                            molar(s.concentration_molar)
+                        ))?;
+                    }
+                }
+                return Ok(());
+            }
             let s = bench::add_aliquot(&mut store, &na, &files, &opts, &door)?;
             if a.json {
                 json(&s)?;
@@ -1160,17 +1189,44 @@ fn expand(paths: &[PathBuf]) -> Result<Vec<PathBuf>> {
 }
 
 /// Analyses one file for `analyze`: the JSON line for it.
-pub fn analyze_one(path: &Path, a: &AnalyzeArgs, cal: &calibration::Calibration) -> Value {
+/// Analyses one file for `analyze`: a JSON line for each spectrum it holds (one, or each sample
+/// column or block, with its `label`), or one line with the error.
+pub fn analyze_file(path: &Path, a: &AnalyzeArgs, cal: &calibration::Calibration) -> Vec<Value> {
     let file = path.display().to_string();
+    let opts = ReadOptions {
+        x_col: a.x_col,
+        y_col: a.y_col,
+        x_unit: a.x_unit.clone(),
+        block: a.block.clone(),
+        column: a.choice.column.clone(),
+        sheet: a.choice.sheet.clone(),
+    };
+    let all = match std::fs::read(path)
+        .map_err(|e| crate::Error::Spectrum {
+            file: file.clone(),
+            line: None,
+            reason: format!("cannot read: {e}"),
+        })
+        .and_then(|bytes| spectra::read_all(&file, &bytes, &opts))
+    {
+        Ok(all) => all,
+        Err(e) => return vec![json!({"file": file, "error": e.to_string()})],
+    };
+    let several = all.len() > 1;
+    all.into_iter()
+        .map(|raw| {
+            let mut v = analyze_one(&file, raw.clone(), a, cal);
+            if several {
+                v["label"] = json!(raw.label);
+            }
+            v
+        })
+        .collect()
+}
+
+fn analyze_one(file: &str, raw: spectra::RawSpectrum, a: &AnalyzeArgs, cal: &calibration::Calibration) -> Value {
+    let file = file.to_string();
     let result = (|| -> crate::Result<Value> {
-        let opts = ReadOptions {
-            x_col: a.x_col,
-            y_col: a.y_col,
-            x_unit: a.x_unit.clone(),
-            block: a.block.clone(),
-            ..Default::default()
-        };
-        let (raw, _) = spectra::read_file(path, &opts)?;
         let t = raw.to_trace(&file, None)?;
         match a.kind {
             Kind::Abs | Kind::Ple => {
@@ -1241,7 +1297,10 @@ fn analyze(a: &AnalyzeArgs) -> Result<ExitCode> {
         .map(|n| n.get())
         .unwrap_or(2)
         .clamp(1, 8);
-    let results = crate::report::parallel_map(&files, workers, |p| analyze_one(p, a, &cal));
+    let results: Vec<Value> = crate::report::parallel_map(&files, workers, |p| analyze_file(p, a, &cal))
+        .into_iter()
+        .flatten()
+        .collect();
     let mut failed = false;
     for v in &results {
         if let Some(e) = v.get("error").and_then(|e| e.as_str()) {
@@ -1252,17 +1311,21 @@ fn analyze(a: &AnalyzeArgs) -> Result<ExitCode> {
             json_line(v)?;
         } else if v.get("error").is_none() {
             let f = |k: &str, d: usize| num(v[k].as_f64(), d);
+            let name = match v["label"].as_str() {
+                Some(l) => format!("{} [{l}]", v["file"].as_str().unwrap_or("")),
+                None => v["file"].as_str().unwrap_or("").to_string(),
+            };
             match a.kind {
                 Kind::Pl => line(&format!(
                     "{}  PL {} nm  FWHM {} nm  integral {}",
-                    v["file"].as_str().unwrap_or(""),
+                    name,
                     f("pl_peak_nm", 1),
                     f("pl_fwhm_nm", 1),
                     f("pl_integral", 1)
                 ))?,
                 _ => line(&format!(
                     "{}  first exciton {} nm{}  A {}  HWHM {} nm{}",
-                    v["file"].as_str().unwrap_or(""),
+                    name,
                     f("first_exciton_nm", 1),
                     if v["shoulder"].as_bool() == Some(true) {
                         " (shoulder)"
@@ -1296,8 +1359,41 @@ fn read(a: &ReadArgs) -> Result<()> {
         y_col: a.y_col,
         x_unit: a.x_unit.clone(),
         block: a.block.clone(),
-        ..Default::default()
+        column: a.choice.column.clone(),
+        sheet: a.choice.sheet.clone(),
     };
+    if a.all {
+        let name = a.file.display().to_string();
+        let bytes = std::fs::read(&a.file).with_context(|| format!("cannot read {name}"))?;
+        let all = spectra::read_all(&name, &bytes, &opts)?;
+        let sha = spectra::sha256_hex(&bytes);
+        if a.json {
+            let v: Vec<Value> = all
+                .iter()
+                .map(|raw| -> Result<Value> {
+                    let mut v = serde_json::to_value(raw)?;
+                    v["npoints"] = json!(raw.x.len());
+                    v["sha256"] = json!(sha);
+                    Ok(v)
+                })
+                .collect::<Result<_>>()?;
+            return json(&v);
+        }
+        for (i, raw) in all.iter().enumerate() {
+            line(&format!(
+                "{} {}: {} ({} points), {} .. {} {}, y {}",
+                i + 1,
+                raw.label.clone().unwrap_or_default(),
+                raw.format,
+                raw.x.len(),
+                raw.x.first().copied().unwrap_or(f64::NAN),
+                raw.x.last().copied().unwrap_or(f64::NAN),
+                raw.x_unit,
+                raw.y_unit.clone().unwrap_or("-".into())
+            ))?;
+        }
+        return Ok(());
+    }
     let (raw, sha) = spectra::read_file(&a.file, &opts)?;
     if a.json {
         let mut v = serde_json::to_value(&raw)?;
@@ -1981,6 +2077,7 @@ fn import(cli: &Cli, a: &ImportArgs) -> Result<()> {
     let door = bench::Door {
         again: a.again,
         kind_as_is: a.kind_as_is,
+        series: a.series,
     };
     let r = bench::import_folder(
         &mut store,

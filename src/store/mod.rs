@@ -30,6 +30,10 @@ pub const MIGRATIONS: &[(&str, &str)] = &[
         "0005_corrections_and_provenance",
         include_str!("../../schema/0005_corrections_and_provenance.sql"),
     ),
+    (
+        "0006_spectrum_label",
+        include_str!("../../schema/0006_spectrum_label.sql"),
+    ),
 ];
 
 /// The schema version this build writes.

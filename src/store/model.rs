@@ -938,6 +938,8 @@ pub struct NewSpectrum {
     /// For a vial's own measurement: the dilution and path of its cuvette.
     pub dilution_factor: Option<f64>,
     pub path_cm: Option<f64>,
+    /// Which spectrum of its file this is (a column header, a block title), when the file holds several.
+    pub label: Option<String>,
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -959,6 +961,7 @@ pub struct SpectrumRow {
     pub instrument: Option<String>,
     pub dilution_factor: Option<f64>,
     pub path_cm: Option<f64>,
+    pub label: Option<String>,
 }
 
 pub fn insert_spectrum(tx: &Connection, who: &str, s: &NewSpectrum) -> Result<i64> {
@@ -978,8 +981,8 @@ pub fn insert_spectrum(tx: &Connection, who: &str, s: &NewSpectrum) -> Result<i6
     let data_sha = crate::spectra::sha256_hex(&data);
     tx.execute(
         "INSERT INTO spectrum (aliquot_id, vial_id, kind, x_unit, y_unit, npoints, data, file_name, sha256,
-                               excitation_nm, instrument, created_at, data_sha256, dilution_factor, path_cm)
-         VALUES (?1,?2,?3,?4,?5,?6,?7,?8,?9,?10,?11,?12,?13,?14,?15)",
+                               excitation_nm, instrument, created_at, data_sha256, dilution_factor, path_cm, label)
+         VALUES (?1,?2,?3,?4,?5,?6,?7,?8,?9,?10,?11,?12,?13,?14,?15,?16)",
         params![
             s.aliquot_id,
             s.vial_id,
@@ -995,7 +998,8 @@ pub fn insert_spectrum(tx: &Connection, who: &str, s: &NewSpectrum) -> Result<i6
             now(),
             data_sha,
             s.dilution_factor,
-            s.path_cm
+            s.path_cm,
+            s.label
         ],
     )?;
     let id = tx.last_insert_rowid();
@@ -1008,13 +1012,13 @@ pub fn insert_spectrum(tx: &Connection, who: &str, s: &NewSpectrum) -> Result<i6
         None,
         Some(
             &json!({"aliquot_id": s.aliquot_id, "vial_id": s.vial_id, "kind": s.kind,
-                     "file_name": s.file_name, "sha256": s.sha256, "npoints": s.x.len()}),
+                     "file_name": s.file_name, "label": s.label, "sha256": s.sha256, "npoints": s.x.len()}),
         ),
     )?;
     Ok(id)
 }
 
-const SPECTRUM_COLS: &str = "id, aliquot_id, vial_id, kind, x_unit, y_unit, npoints, data, file_name, sha256, excitation_nm, instrument, dilution_factor, path_cm";
+const SPECTRUM_COLS: &str = "id, aliquot_id, vial_id, kind, x_unit, y_unit, npoints, data, file_name, sha256, excitation_nm, instrument, dilution_factor, path_cm, label";
 
 fn spectrum_from(r: &Row) -> rusqlite::Result<(SpectrumRow, Vec<u8>)> {
     Ok((
@@ -1034,6 +1038,7 @@ fn spectrum_from(r: &Row) -> rusqlite::Result<(SpectrumRow, Vec<u8>)> {
             instrument: r.get(11)?,
             dilution_factor: r.get(12)?,
             path_cm: r.get(13)?,
+            label: r.get(14)?,
         },
         r.get(7)?,
     ))
@@ -1076,14 +1081,20 @@ pub fn spectra_of_aliquots_in(
     Ok(out)
 }
 
-/// A spectrum with this file hash already logged in a batch (voided aliquots do not count):
+/// A spectrum with this file hash (and label within the file) already logged in a batch
+/// (voided aliquots do not count):
 /// (spectrum id, aliquot id).
-pub fn spectrum_in_batch(conn: &Connection, batch_id: i64, sha256: &str) -> Result<Option<(i64, i64)>> {
+pub fn spectrum_in_batch(
+    conn: &Connection,
+    batch_id: i64,
+    sha256: &str,
+    label: Option<&str>,
+) -> Result<Option<(i64, i64)>> {
     Ok(conn
         .query_row(
             "SELECT s.id, a.id FROM spectrum s JOIN aliquot a ON a.id = s.aliquot_id
-             WHERE a.batch_id = ?1 AND s.sha256 = ?2 AND a.voided_at IS NULL LIMIT 1",
-            params![batch_id, sha256],
+             WHERE a.batch_id = ?1 AND s.sha256 = ?2 AND s.label IS ?3 AND a.voided_at IS NULL LIMIT 1",
+            params![batch_id, sha256, label],
             |r| Ok((r.get(0)?, r.get(1)?)),
         )
         .optional()?)
