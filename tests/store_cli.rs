@@ -97,6 +97,7 @@ fn every_entity_round_trips_through_the_store() {
                     instrument: None,
                     dilution_factor: None,
                     path_cm: None,
+                    label: None,
                 },
             )?;
             let v = model::insert_vial(
