@@ -263,9 +263,11 @@ fn restore_from_an_older_schema_keeps_its_rows_and_leaves_the_backup_alone() {
             ("SELECT count(*) FROM batch WHERE name = 'old batch'", 1),
             ("SELECT count(*) FROM spectrum WHERE data_sha256 IS NOT NULL", 1),
             ("SELECT count(*) FROM vial WHERE label = 'OLD-1'", 1),
+            // Labs of version 5 on keep vial concentrations in their own table, never in the
+            // vial row this fixture fills; older ones have theirs carried over as 'recorded'.
             (
                 "SELECT count(*) FROM vial_concentration WHERE source = 'recorded' AND value = 2.5e-6",
-                1,
+                i64::from(version < 5),
             ),
             ("SELECT count(*) FROM audit_log WHERE who = 'Old Timer'", 2),
             ("SELECT count(*) FROM audit_log WHERE action = 'restore'", 1),

@@ -578,10 +578,10 @@ fn open_read_only(path: &Path) -> Result<Connection> {
     }
 }
 
-/// Work a migration needs beyond SQL: the stored data hash of every spectrum written before
-/// version 5 (SQLite has no SHA-256 of its own).
-fn after_migration(tx: &Connection, from: i64) -> Result<()> {
-    if from < 5 {
+/// Work a migration needs beyond SQL: the stored data hash of every spectrum that has none (all
+/// written before version 5; SQLite has no SHA-256 of its own). Idempotent.
+fn after_migration(tx: &Connection, _from: i64) -> Result<()> {
+    {
         let mut st = tx.prepare("SELECT id, data FROM spectrum WHERE data_sha256 IS NULL")?;
         let rows: Vec<(i64, Vec<u8>)> = st
             .query_map([], |r| Ok((r.get(0)?, r.get(1)?)))?
