@@ -507,13 +507,19 @@ fn the_user_can_name_the_columns_and_the_block() {
         .chain(x.iter().zip(&y).map(|(a, b)| format!("{a};0.01;{b}\n")))
         .collect();
     let f = lab.write("three.csv", &text);
-    // Two y columns and no choice: refused with both named, never read as the first (issue 13).
-    let wrong = lab.run(&["analyze", s(&f), "--kind", "abs", "--json"]);
-    let v: serde_json::Value = serde_json::from_str(wrong.stdout.trim()).unwrap();
-    let e = v["error"].as_str().unwrap();
+    // Two y columns and no choice: each analysed as its own spectrum with its label, never the
+    // file read as its first column (issue 13); `read` without a choice refuses, naming both.
+    let both = lab.ok(&["analyze", s(&f), "--kind", "abs", "--json"]);
+    let lines: Vec<serde_json::Value> = both.stdout.lines().map(|l| serde_json::from_str(l).unwrap()).collect();
+    let labels: Vec<&str> = lines.iter().map(|v| v["label"].as_str().unwrap()).collect();
+    assert_eq!(labels, ["reference", "sample"], "{}", both.stdout);
+    assert!((lines[1]["first_exciton_nm"].as_f64().unwrap() - 560.0).abs() < 1.5);
+    let wrong = lab.run(&["read", s(&f)]);
+    assert_eq!(wrong.code, 1);
     assert!(
-        e.contains("1 'reference', 2 'sample'") && e.contains("--column NAME|N"),
-        "{v}"
+        wrong.stderr.contains("1 'reference', 2 'sample'") && wrong.stderr.contains("--column NAME|N"),
+        "{}",
+        wrong.stderr
     );
     let o = lab.ok(&["analyze", s(&f), "--kind", "abs", "--y-col", "3", "--json"]);
     let v: serde_json::Value = serde_json::from_str(o.stdout.trim()).unwrap();
