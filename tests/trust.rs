@@ -1370,3 +1370,18 @@ fn the_ui_follows_others_writes_and_closes_a_sheet_the_restore_removed() {
         "no vial form without a batch sheet"
     );
 }
+
+/// No file makes cuvette hold unbounded memory: one larger than any export is refused before it
+/// is read (a sparse file, so the test costs no disk).
+#[test]
+fn a_file_larger_than_any_export_is_refused_unread() {
+    let lab = Lab::new();
+    let f = lab.path("huge.csv");
+    std::fs::File::create(&f).unwrap().set_len(cuvette::spectra::MAX_FILE_BYTES + 1).unwrap();
+    let o = lab.run(&["read", s(&f)]);
+    assert_eq!(o.code, 1);
+    assert!(o.stderr.contains("larger than any spectrum export"), "{}", o.stderr);
+    let o = lab.run(&["analyze", s(&f), "--kind", "abs", "--json"]);
+    assert_eq!(o.code, 1);
+    assert!(o.stdout.contains("larger than any spectrum export"), "{}", o.stdout);
+}

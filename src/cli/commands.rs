@@ -1201,14 +1201,7 @@ pub fn analyze_file(path: &Path, a: &AnalyzeArgs, cal: &calibration::Calibration
         column: a.choice.column.clone(),
         sheet: a.choice.sheet.clone(),
     };
-    let all = match std::fs::read(path)
-        .map_err(|e| crate::Error::Spectrum {
-            file: file.clone(),
-            line: None,
-            reason: format!("cannot read: {e}"),
-        })
-        .and_then(|bytes| spectra::read_all(&file, &bytes, &opts))
-    {
+    let all = match spectra::file_bytes(path).and_then(|bytes| spectra::read_all(&file, &bytes, &opts)) {
         Ok(all) => all,
         Err(e) => return vec![json!({"file": file, "error": e.to_string()})],
     };
@@ -1364,7 +1357,7 @@ fn read(a: &ReadArgs) -> Result<()> {
     };
     if a.all {
         let name = a.file.display().to_string();
-        let bytes = std::fs::read(&a.file).with_context(|| format!("cannot read {name}"))?;
+        let bytes = spectra::file_bytes(&a.file)?;
         let all = spectra::read_all(&name, &bytes, &opts)?;
         let sha = spectra::sha256_hex(&bytes);
         if a.json {

@@ -157,9 +157,37 @@ fn looks_jcamp(text: &str) -> bool {
 /// Reads a file from disk: the spectrum and the SHA-256 of its bytes.
 pub fn read_file(path: &std::path::Path, opts: &ReadOptions) -> Result<(RawSpectrum, String)> {
     let name = path.display().to_string();
-    let bytes = std::fs::read(path).map_err(|e| spectrum_error(&name, None, &format!("cannot read: {e}")))?;
+    let bytes = file_bytes(path)?;
     let spec = read_bytes(&name, &bytes, opts)?;
     Ok((spec, sha256_hex(&bytes)))
+}
+
+/// No spectrum export comes near this; a larger file is refused before it is read, so no file
+/// makes cuvette hold unbounded memory.
+pub const MAX_FILE_BYTES: u64 = 256 * 1024 * 1024;
+
+/// A spectrum file's bytes, read in one allocation, refused above [`MAX_FILE_BYTES`].
+pub fn file_bytes(path: &std::path::Path) -> Result<Vec<u8>> {
+    use std::io::Read;
+    let name = path.display().to_string();
+    let f = std::fs::File::open(path).map_err(|e| spectrum_error(&name, None, &format!("cannot read: {e}")))?;
+    let len = f.metadata().map(|m| m.len()).unwrap_or(0);
+    if len > MAX_FILE_BYTES {
+        return Err(spectrum_error(
+            &name,
+            None,
+            &format!("{len} bytes is larger than any spectrum export (at most {MAX_FILE_BYTES})"),
+        ));
+    }
+    let mut bytes = Vec::with_capacity(len as usize);
+    // A file that grows (or a device that never ends) stops at the same limit.
+    f.take(MAX_FILE_BYTES + 1)
+        .read_to_end(&mut bytes)
+        .map_err(|e| spectrum_error(&name, None, &format!("cannot read: {e}")))?;
+    if bytes.len() as u64 > MAX_FILE_BYTES {
+        return Err(spectrum_error(&name, None, "larger than any spectrum export"));
+    }
+    Ok(bytes)
 }
 
 pub fn sha256_hex(bytes: &[u8]) -> String {
