@@ -1,8 +1,15 @@
 //! The lab store: one SQLite file holding everything a lab logged. This module owns the
-//! connection, the migrations in `schema/` (applied at open through `PRAGMA user_version`),
-//! transactions and the audit log. It promises: a database is always migrated before use, a file
-//! from a newer cuvette is refused untouched, an existing file is copied aside before it is
-//! migrated, and every write goes through one transaction together with its audit row.
+//! connection, the migrations in `schema/` (applied when a write opens the lab, through `PRAGMA
+//! user_version`), transactions and the audit log. It promises:
+//! - an open lab is never touched by plain file I/O (closing any handle on a database file drops
+//!   the process's SQLite locks); the file is identified through SQLite alone, and another
+//!   application's file (by its application id or missing tables) or a newer cuvette's is
+//!   refused untouched;
+//! - reads never create, migrate or change a lab (`open_read`); only `open` creates one;
+//! - an existing file is copied aside before it is migrated;
+//! - every write goes through one transaction with its audit row, and first checks, under the
+//!   write lock, that the file at its path is still the lab it opened (same inode, same
+//!   generation: a restore gives the lab a new one), refusing otherwise.
 
 pub mod backup;
 pub mod check;
