@@ -1377,7 +1377,10 @@ fn the_ui_follows_others_writes_and_closes_a_sheet_the_restore_removed() {
 fn a_file_larger_than_any_export_is_refused_unread() {
     let lab = Lab::new();
     let f = lab.path("huge.csv");
-    std::fs::File::create(&f).unwrap().set_len(cuvette::spectra::MAX_FILE_BYTES + 1).unwrap();
+    std::fs::File::create(&f)
+        .unwrap()
+        .set_len(cuvette::spectra::MAX_FILE_BYTES + 1)
+        .unwrap();
     let o = lab.run(&["read", s(&f)]);
     assert_eq!(o.code, 1);
     assert!(o.stderr.contains("larger than any spectrum export"), "{}", o.stderr);
