@@ -10,10 +10,10 @@
 //! A = -log10(T) (IUPAC Gold Book, "absorbance"), and for reflectance A = log10(1/R).
 #![allow(clippy::unwrap_used, clippy::panic, clippy::expect_used)]
 
+mod common;
 use cuvette::spectra::quantity::{SpectrumKind, Verdict, YQuantity, admit, infer_kind, stated};
 use cuvette::spectra::{RawSpectrum, ReadOptions, read_bytes};
 use std::f64::consts::LOG10_2;
-use std::path::PathBuf;
 
 const ABS: SpectrumKind = SpectrumKind::Absorbance;
 const PL: SpectrumKind = SpectrumKind::Pl;
@@ -344,21 +344,9 @@ fn the_verdict_becomes_a_typed_error() {
 
 // ---- real spectra pass as what they are ----
 
-fn opendata(name: &str) -> PathBuf {
-    let p = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-        .join("../shared/opendata/cdse-growth-series")
-        .join(name);
-    assert!(
-        p.exists(),
-        "open data file missing: {} (see /work/shared/opendata/README.md)",
-        p.display()
-    );
-    p
-}
-
 /// Every aliquot column of a real file, read as the y column.
-fn columns(name: &str) -> Vec<RawSpectrum> {
-    let path = opendata(name);
+fn columns(dir: &std::path::Path, name: &str) -> Vec<RawSpectrum> {
+    let path = dir.join(name);
     let text = std::fs::read_to_string(&path).unwrap();
     let ncols = text
         .trim_start_matches('\u{feff}')
@@ -383,8 +371,9 @@ const REAL_PL: [&str; 2] = ["Run 2 FL emission.csv", "Run 3 FL emission.csv"];
 
 #[test]
 fn real_absorbance_passes_as_absorbance_and_is_refused_as_pl() {
+    let Some(dir) = common::cdse_series_dir() else { return };
     for name in REAL_ABS {
-        let cols = columns(name);
+        let cols = columns(&dir, name);
         assert!(cols.len() >= 14, "{name}");
         for (i, raw) in cols.iter().enumerate() {
             let (_, warnings) = accepted(admit(name, raw, ABS, false));
@@ -401,8 +390,9 @@ fn real_absorbance_passes_as_absorbance_and_is_refused_as_pl() {
 
 #[test]
 fn real_pl_passes_as_pl_and_is_refused_as_absorbance() {
+    let Some(dir) = common::cdse_series_dir() else { return };
     for name in REAL_PL {
-        let cols = columns(name);
+        let cols = columns(&dir, name);
         assert!(cols.len() >= 14, "{name}");
         for (i, raw) in cols.iter().enumerate() {
             let (_, warnings) = accepted(admit(name, raw, PL, false));
@@ -421,8 +411,9 @@ fn real_pl_passes_as_pl_and_is_refused_as_absorbance() {
 
 #[test]
 fn real_files_are_inferred_by_name_and_by_shape_alone() {
+    let Some(dir) = common::cdse_series_dir() else { return };
     for name in REAL_ABS {
-        for raw in columns(name) {
+        for raw in columns(&dir, name) {
             let by_name = infer_kind(name, &raw);
             assert_eq!(by_name.kind, Some(ABS), "{name}: {}", by_name.evidence);
             assert_eq!(by_name.evidence, "its name suggests absorbance");
@@ -432,7 +423,7 @@ fn real_files_are_inferred_by_name_and_by_shape_alone() {
         }
     }
     for name in REAL_PL {
-        for raw in columns(name) {
+        for raw in columns(&dir, name) {
             let by_name = infer_kind(name, &raw);
             assert_eq!(by_name.kind, Some(PL), "{name}: {}", by_name.evidence);
             let by_shape = infer_kind("aliquot_07.csv", &raw);

@@ -6,6 +6,7 @@
 //! back exactly what was written.
 #![allow(clippy::unwrap_used, clippy::panic, clippy::expect_used)]
 
+mod common;
 use cuvette::spectra::quantity::{YQuantity, stated};
 use cuvette::spectra::{RawSpectrum, ReadOptions, read_all, read_bytes};
 use std::path::PathBuf;
@@ -419,13 +420,9 @@ fn a_markdown_heading_does_not_make_a_file_jcamp() {
 
 // ---- real published data ----
 
-fn opendata() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../shared/opendata/cdse-growth-series")
-}
-
 #[test]
 fn the_cdse_growth_series_reads_one_spectrum_per_aliquot() {
-    let dir = opendata();
+    let Some(dir) = common::cdse_series_dir() else { return };
     let mut files: Vec<PathBuf> = std::fs::read_dir(&dir)
         .unwrap()
         .map(|e| e.unwrap().path())

@@ -9,15 +9,7 @@ use common::*;
 use std::path::PathBuf;
 
 fn open_data(name: &str) -> Option<PathBuf> {
-    let p = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-        .join("../shared/opendata/cdse-growth-series")
-        .join(name);
-    if p.exists() {
-        Some(p)
-    } else {
-        eprintln!("skipped: {} is not here", p.display());
-        None
-    }
+    cdse_series_dir().map(|d| d.join(name))
 }
 
 #[test]

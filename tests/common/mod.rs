@@ -156,3 +156,18 @@ pub fn screen_at(app: &cuvette::tui::app::App, w: u16, h: u16) -> String {
     }
     out
 }
+
+/// The open CdSe growth series (see `../shared/opendata/README.md`), read in place: beside the
+/// checkout, else in the workplace's shared folder. None, with a line saying so, where this
+/// machine does not have it, so a clone elsewhere still runs the rest of the suite.
+pub fn cdse_series_dir() -> Option<PathBuf> {
+    let candidates = [
+        PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../shared/opendata/cdse-growth-series"),
+        PathBuf::from("/work/shared/opendata/cdse-growth-series"),
+    ];
+    let found = candidates.into_iter().find(|p| p.is_dir());
+    if found.is_none() {
+        eprintln!("skipped: the open CdSe growth series is not on this machine");
+    }
+    found
+}
