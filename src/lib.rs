@@ -9,6 +9,7 @@
 
 pub mod bench;
 pub mod cli;
+pub mod corrections;
 pub mod demo;
 pub mod derive;
 pub mod error;

@@ -116,8 +116,22 @@ fn open_for(cli: &Cli, writes: bool) -> Result<Store> {
     if writes { open_write(cli) } else { open_read(cli) }
 }
 
-fn rederive(tx: &rusqlite::Connection, aliquot_id: i64) -> crate::Result<()> {
-    engine::after_correction(tx, aliquot_id)
+/// The reading choices a command was given, the same wherever a file is read.
+fn read_options(
+    x_col: Option<usize>,
+    y_col: Option<usize>,
+    x_unit: &Option<String>,
+    block: &Option<String>,
+    choice: &FileChoice,
+) -> ReadOptions {
+    ReadOptions {
+        x_col,
+        y_col,
+        x_unit: x_unit.clone(),
+        block: block.clone(),
+        column: choice.column.clone(),
+        sheet: choice.sheet.clone(),
+    }
 }
 
 pub fn dispatch(cli: Cli) -> Result<ExitCode> {
@@ -217,12 +231,7 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
             json: j,
         }) => {
             let mut store = open_write(&cli)?;
-            let (from, to) = store.write(|tx, who| {
-                let (from, to) = model::move_spectrum(tx, who, *spectrum, *to_aliquot, why)?;
-                rederive(tx, from)?;
-                rederive(tx, to)?;
-                Ok((from, to))
-            })?;
+            let (from, to) = crate::corrections::move_spectrum(&mut store, *spectrum, *to_aliquot, why)?;
             if *j {
                 json(&json!({"spectrum_id": spectrum, "from_aliquot": from, "to_aliquot": to}))?;
             } else {
@@ -664,15 +673,7 @@ fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
         }
         BatchCmd::Void { id, why, json: j } | BatchCmd::Reinstate { id, why, json: j } => {
             let voiding = matches!(c, BatchCmd::Void { .. });
-            let row = store.write(|tx, who| {
-                let r = if voiding {
-                    model::void_batch(tx, who, *id, why)?
-                } else {
-                    model::reinstate_batch(tx, who, *id, why)?
-                };
-                engine::refresh_vials(tx, Some(*id), false)?;
-                Ok(r)
-            })?;
+            let row = crate::corrections::set_batch_void(&mut store, *id, voiding, why)?;
             if *j {
                 json(&row)?
             } else if voiding {
@@ -804,14 +805,7 @@ fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
                 solvent: a.solvent.clone(),
                 taken_at: None,
             };
-            let opts = ReadOptions {
-                x_col: a.x_col,
-                y_col: a.y_col,
-                x_unit: a.x_unit.clone(),
-                block: a.block.clone(),
-                column: a.choice.column.clone(),
-                sheet: a.choice.sheet.clone(),
-            };
+            let opts = read_options(a.x_col, a.y_col, &a.x_unit, &a.block, &a.choice);
             let door = bench::Door {
                 again: a.again,
                 kind_as_is: a.kind_as_is,
@@ -865,15 +859,7 @@ fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
         }
         AliquotCmd::Void { id, why, json: j } | AliquotCmd::Reinstate { id, why, json: j } => {
             let voiding = matches!(c, AliquotCmd::Void { .. });
-            let row = store.write(|tx, who| {
-                let r = if voiding {
-                    model::void_aliquot(tx, who, *id, why)?
-                } else {
-                    model::reinstate_aliquot(tx, who, *id, why)?
-                };
-                rederive(tx, *id)?;
-                Ok(r)
-            })?;
+            let row = crate::corrections::set_aliquot_void(&mut store, *id, voiding, why)?;
             if *j {
                 json(&row)?;
             } else if voiding {
@@ -904,11 +890,8 @@ fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
                 path_cm: *path_cm,
                 solvent: solvent.clone(),
             };
-            let s = store.write(|tx, who| {
-                let row = model::edit_aliquot(tx, who, *id, &e, why)?;
-                rederive(tx, *id)?;
-                growth::aliquot_summary(tx, &row)
-            })?;
+            let row = crate::corrections::edit_aliquot(&mut store, *id, &e, why)?;
+            let s = store.read(|tx| growth::aliquot_summary(tx, &row))?;
             if *j {
                 json(&s)?;
             } else {
@@ -1047,7 +1030,7 @@ fn vial(cli: &Cli, c: &VialCmd) -> Result<()> {
         }
         VialCmd::Reinstate { vial, why, json: j } => {
             let id = vial_id(&mut store, vial)?;
-            let v = store.write(|tx, who| model::reinstate_vial(tx, who, id, why))?;
+            let v = crate::corrections::reinstate_vial(&mut store, id, why)?;
             print_vial(&v, *j)?;
         }
         VialCmd::Measure {
@@ -1193,14 +1176,7 @@ fn expand(paths: &[PathBuf]) -> Result<Vec<PathBuf>> {
 /// column or block, with its `label`), or one line with the error.
 pub fn analyze_file(path: &Path, a: &AnalyzeArgs, cal: &calibration::Calibration) -> Vec<Value> {
     let file = path.display().to_string();
-    let opts = ReadOptions {
-        x_col: a.x_col,
-        y_col: a.y_col,
-        x_unit: a.x_unit.clone(),
-        block: a.block.clone(),
-        column: a.choice.column.clone(),
-        sheet: a.choice.sheet.clone(),
-    };
+    let opts = read_options(a.x_col, a.y_col, &a.x_unit, &a.block, &a.choice);
     let all = match spectra::file_bytes(path).and_then(|bytes| spectra::read_all(&file, &bytes, &opts)) {
         Ok(all) => all,
         Err(e) => return vec![json!({"file": file, "error": e.to_string()})],
@@ -1347,14 +1323,7 @@ fn analyze(a: &AnalyzeArgs) -> Result<ExitCode> {
 }
 
 fn read(a: &ReadArgs) -> Result<()> {
-    let opts = ReadOptions {
-        x_col: a.x_col,
-        y_col: a.y_col,
-        x_unit: a.x_unit.clone(),
-        block: a.block.clone(),
-        column: a.choice.column.clone(),
-        sheet: a.choice.sheet.clone(),
-    };
+    let opts = read_options(a.x_col, a.y_col, &a.x_unit, &a.block, &a.choice);
     if a.all {
         let name = a.file.display().to_string();
         let bytes = spectra::file_bytes(&a.file)?;

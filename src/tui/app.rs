@@ -937,18 +937,7 @@ impl App {
                 let id = f.target.ok_or("no aliquot")?;
                 let why = f.get("why");
                 let voiding = f.kind == FormKind::VoidAliquot;
-                let a = self
-                    .store
-                    .write(|tx, who| {
-                        let a = if voiding {
-                            model::void_aliquot(tx, who, id, &why)?
-                        } else {
-                            model::reinstate_aliquot(tx, who, id, &why)?
-                        };
-                        engine::after_correction(tx, id)?;
-                        Ok(a)
-                    })
-                    .map_err(e)?;
+                let a = crate::corrections::set_aliquot_void(&mut self.store, id, voiding, &why).map_err(e)?;
                 self.open_sheet(a.batch_id).map_err(e)?;
                 Ok(if voiding {
                     format!("aliquot {id} is void; the batch's values no longer use it")
@@ -976,12 +965,7 @@ impl App {
                 };
                 let why = f.get("why");
                 let batch = before.batch_id;
-                self.store
-                    .write(|tx, who| {
-                        model::edit_aliquot(tx, who, id, &ed, &why)?;
-                        engine::after_correction(tx, id)
-                    })
-                    .map_err(e)?;
+                crate::corrections::edit_aliquot(&mut self.store, id, &ed, &why).map_err(e)?;
                 self.open_sheet(batch).map_err(e)?;
                 Ok(format!("aliquot {id} corrected and recomputed"))
             }
@@ -989,17 +973,7 @@ impl App {
                 let id = f.target.ok_or("no batch")?;
                 let why = f.get("why");
                 let voiding = f.kind == FormKind::VoidBatch;
-                self.store
-                    .write(|tx, who| {
-                        if voiding {
-                            model::void_batch(tx, who, id, &why)?;
-                        } else {
-                            model::reinstate_batch(tx, who, id, &why)?;
-                        }
-                        engine::refresh_vials(tx, Some(id), false)?;
-                        Ok(())
-                    })
-                    .map_err(e)?;
+                crate::corrections::set_batch_void(&mut self.store, id, voiding, &why).map_err(e)?;
                 self.open_sheet(id).map_err(e)?;
                 Ok(if voiding {
                     format!("batch {id} is void: left out of search and the pack (g opens it by id)")
@@ -1021,13 +995,7 @@ impl App {
                     .ok_or_else(|| format!("aliquot {from} has no {kind} spectrum"))?;
                 let why = f.get("why");
                 let batch = self.selected_batch().unwrap_or(0);
-                self.store
-                    .write(|tx, who| {
-                        let (a, b) = model::move_spectrum(tx, who, spectrum.id, to, &why)?;
-                        engine::after_correction(tx, a)?;
-                        engine::after_correction(tx, b)
-                    })
-                    .map_err(e)?;
+                crate::corrections::move_spectrum(&mut self.store, spectrum.id, to, &why).map_err(e)?;
                 self.open_sheet(batch).map_err(e)?;
                 Ok(format!(
                     "spectrum {} moved from aliquot {from} to aliquot {to}; both recomputed",
@@ -1046,10 +1014,7 @@ impl App {
             FormKind::ReinstateVial => {
                 let id = f.target.ok_or("no vial")?;
                 let why = f.get("why");
-                let v = self
-                    .store
-                    .write(|tx, who| model::reinstate_vial(tx, who, id, &why))
-                    .map_err(e)?;
+                let v = crate::corrections::reinstate_vial(&mut self.store, id, &why).map_err(e)?;
                 Ok(format!(
                     "vial {} is back: {:.3} mL at {}",
                     v.label, v.volume_ml, v.location
