@@ -8,6 +8,7 @@ pub mod analysis;
 pub mod delimited;
 pub mod grid;
 pub mod jcamp;
+pub mod pl;
 pub mod quantity;
 pub mod savgol;
 pub mod sheet;
