@@ -14,7 +14,7 @@
 //! 0.12 nm or more at the default 9 nm) are analysed on their own grid, unchanged. On a
 //! binned grid `noise` is the noise of the averaged points.
 
-use super::savgol;
+use super::band_edge::{self, BandEdge, BandEdgeHint};
 use super::{HC_EV_NM, Trace};
 use crate::error::{Result, invalid};
 use serde::{Deserialize, Serialize};
@@ -197,96 +197,36 @@ pub struct AbsResult {
     pub max_abs: f64,
     pub noise: f64,
     pub background: Background,
+    /// The band-edge model: method, fit quality, uncertainties, every fitted transition.
+    pub band_edge: Option<BandEdge>,
     pub warnings: Vec<String>,
 }
 
-/// Finds the first excitonic peak of an absorbance (or PL excitation) spectrum.
+/// Finds the first excitonic transition of an absorbance (or PL excitation) spectrum, knowing
+/// nothing of the material. See [`analyze_absorbance_with`].
 pub fn analyze_absorbance(t: &Trace, set: &AnalysisSettings) -> Result<AbsResult> {
-    let u = bounded_grid(uniform(t)?, set);
-    let n = u.y.len();
-    let half = half_window(&u, set);
-    let order = set.smoothing_order.min(2 * half - 1);
-    let s = savgol::filter(&u.y, half, order, 0, u.step_nm)?;
-    // The first derivative is needed only at candidate maxima, so it is taken point by point.
-    let d1 = |i: usize| savgol::at(&u.y, half, order.max(2), 1, u.step_nm, i).unwrap_or(0.0);
-    let noise = noise_of(&u.y, &s);
-    let max_abs = t.y.iter().copied().fold(f64::MIN, f64::max);
-    let smax = s.iter().copied().fold(f64::MIN, f64::max);
-    let threshold = (10.0 * noise).max(0.03 * smax).max(1e-3);
-    let mut warnings = Vec::new();
+    analyze_absorbance_with(t, set, &BandEdgeHint::default())
+}
 
-    // Resolved peaks: local maxima of the smooth, reddest first, with a real dip to the blue.
-    let mut resolved: Option<f64> = None;
-    for i in (1..n - 1).rev() {
-        if !(s[i] > s[i + 1] && s[i] >= s[i - 1] && s[i] > threshold) {
-            continue;
-        }
-        let mut v = i;
-        while v > 0 && s[v - 1] <= s[v] {
-            v -= 1;
-        }
-        let dip = s[i] - s[v];
-        let red_min = s[i..].iter().copied().fold(f64::MAX, f64::min);
-        let red_drop = s[i] - red_min;
-        if (v == 0 || dip > (3.0 * noise).max(0.002 * s[i])) && red_drop > (3.0 * noise).max(0.02 * s[i]) {
-            let fi = if d1(i) > 0.0 && i + 1 < n && d1(i + 1) <= 0.0 {
-                zero_crossing(d1(i), d1(i + 1), i)
-            } else if i > 0 && d1(i - 1) > 0.0 && d1(i) <= 0.0 {
-                zero_crossing(d1(i - 1), d1(i), i - 1)
-            } else {
-                i as f64
-            };
-            resolved = Some(fi);
-            break;
-        }
+/// Finds and fits the first excitonic transition (see [`super::band_edge`]); where the
+/// material is known, `hint` keeps the choice inside the region its sizing curve covers and
+/// never redder than its bulk band gap.
+pub fn analyze_absorbance_with(t: &Trace, set: &AnalysisSettings, hint: &BandEdgeHint) -> Result<AbsResult> {
+    if t.nm.len() != t.y.len() || t.nm.len() < super::MIN_POINTS {
+        return invalid(format!(
+            "an absorbance trace needs {} or more points with one value each (got {} and {})",
+            super::MIN_POINTS,
+            t.nm.len(),
+            t.y.len()
+        ));
     }
-    // Shoulders: the reddest significant minimum of the second derivative. A second derivative
-    // amplifies noise, and a broad exciton (InP, or a wide size distribution) only shows at a
-    // window as wide as itself, so it is sought at two widths and the reddest significant
-    // minimum at any of them counts. A shoulder redder than the reddest resolved maximum is
-    // the first exciton (the maximum is then a higher transition).
-    let cap2 = (n.saturating_sub(1) / 6).max(2);
-    let mut shoulder_at: Option<(f64, usize)> = None;
-    let mut widths: Vec<usize> = [2 * half, 5 * half].iter().map(|w| (*w).min(cap2)).collect();
-    widths.dedup();
-    for half2 in widths {
-        let d2 = savgol::filter(&u.y, half2, order.max(2), 2, u.step_nm)?;
-        let c2 = savgol::coefficients(half2, order.max(2), 2)?;
-        let d2_noise = noise * c2.iter().map(|c| c * c).sum::<f64>().sqrt() / u.step_nm.powi(2);
-        let region_max = (0..n)
-            .filter(|&i| s[i] > threshold)
-            .map(|i| d2[i].abs())
-            .fold(0.0, f64::max);
-        let thr2 = (6.0 * d2_noise).max(0.01 * region_max);
-        // Near the ends a wide window sees past the data; only its full-window points count.
-        for i in (half2.max(1)..n.saturating_sub(half2.max(1))).rev() {
-            if d2[i] < d2[i - 1] && d2[i] <= d2[i + 1] && d2[i] < -thr2 && s[i] > threshold {
-                let denom = d2[i - 1] - 2.0 * d2[i] + d2[i + 1];
-                let off = if denom.abs() > 0.0 {
-                    0.5 * (d2[i - 1] - d2[i + 1]) / denom
-                } else {
-                    0.0
-                };
-                let at = i as f64 + off.clamp(-0.5, 0.5);
-                if shoulder_at.is_none_or(|(p, _)| at > p) {
-                    shoulder_at = Some((at, half2));
-                }
-                break;
-            }
-        }
-    }
-    let (shoulder_at, half2) = match shoulder_at {
-        Some((p, h)) => (Some(p), h),
-        None => (None, 2 * half),
-    };
-    let separate = (2 * half2) as f64 + 10.0 / u.step_nm;
-    let found = match (resolved, shoulder_at) {
-        (Some(r), Some(sh)) if sh > r + separate => Some((sh, true)),
-        (Some(r), _) => Some((r, false)),
-        (None, Some(sh)) => Some((sh, true)),
-        (None, None) => None,
-    };
-    let Some((fi, shoulder)) = found else {
+    let u = uniform(t)?;
+    let n = u.y.len();
+    let max_abs = t.y.iter().copied().fold(f64::MIN, f64::max);
+    let found = band_edge::first_transition(t, hint, set.saturation_abs);
+    let noise = found.noise;
+    let mut warnings = found.warnings;
+    let Some(edge) = found.edge else {
         warnings.push("no excitonic feature found".into());
         if max_abs > set.saturation_abs {
             warnings.push(format!(
@@ -303,34 +243,36 @@ pub fn analyze_absorbance(t: &Trace, set: &AnalysisSettings) -> Result<AbsResult
             max_abs,
             noise,
             background: Background::none(),
+            band_edge: None,
             warnings,
         });
     };
-    let peak_nm = u.nm(fi);
+    let peak_ev = edge.centre_ev;
+    let peak_nm = HC_EV_NM / peak_ev;
+    let hwhm_ev = edge.hwhm_ev;
+    let hwhm_nm = (peak_ev > hwhm_ev).then(|| HC_EV_NM / (peak_ev - hwhm_ev) - peak_nm);
     let mut background = Background::none();
-    let (mut peak_abs, mut hwhm) = peak_height_and_hwhm(&u, &s, fi, &background);
     // Scattering: fit c + k/λ⁴ over the transparent red side, if the scan reaches it.
-    if let Some(h) = hwhm {
+    if let Some(h) = hwhm_nm {
         let from = peak_nm + 4.0 * h;
         let idx: Vec<usize> = (0..n).filter(|&i| u.nm(i as f64) >= from).collect();
         if idx.len() >= 10.max(n / 20) {
             if let Some(bg) = fit_scatter(&u, &idx, from) {
-                let (pa, hw) = peak_height_and_hwhm(&u, &s, fi, &bg);
-                peak_abs = pa;
-                hwhm = hw;
                 background = bg;
             }
-        } else if s[n - 1] > 0.1 * value_at(&s, fi) {
+        } else if u.y[n - 1] > 0.1 * edge.composite_abs {
             warnings.push("the scan ends before the sample is transparent: scattering background not removed".into());
         }
     }
-    let edge = (3 * half) as f64;
-    if fi < edge || fi > (n - 1) as f64 - edge {
+    let peak_abs = edge.composite_abs - background.at(peak_nm);
+    let (lo_nm, hi_nm) = (u.nm(0.0), u.nm((n - 1) as f64));
+    let edge_margin = 1.5 * hwhm_nm.unwrap_or(5.0);
+    if peak_nm - lo_nm < edge_margin || hi_nm - peak_nm < edge_margin {
         warnings.push(format!(
             "first exciton at {peak_nm:.1} nm is at the edge of the measured range"
         ));
     }
-    let raw_peak = value_at(&s, fi);
+    let raw_peak = edge.composite_abs;
     if raw_peak > set.saturation_abs {
         warnings.push(format!(
             "absorbance {raw_peak:.2} at the first exciton is above {:.1}: likely saturated; dilute and remeasure",
@@ -342,52 +284,32 @@ pub fn analyze_absorbance(t: &Trace, set: &AnalysisSettings) -> Result<AbsResult
             set.saturation_abs
         ));
     }
-    if raw_peak < 0.02 || raw_peak < 20.0 * noise {
+    if raw_peak < 0.02 || edge.height < 20.0 * noise {
         warnings.push(format!(
             "low signal: absorbance {raw_peak:.4} at the first exciton, noise {noise:.4}"
         ));
     }
-    if shoulder {
-        warnings.push(
-            "first exciton is a shoulder (minimum of the second derivative); position and width are less certain"
-                .into(),
-        );
+    if edge.shoulder {
+        warnings
+            .push("first exciton is a shoulder (no maximum of its own); position and width are less certain".into());
     }
-    if hwhm.is_none() {
-        warnings.push("absorbance does not fall to half the peak on the red side: HWHM not measured".into());
+    warnings.extend(edge.warnings.iter().cloned());
+    if hwhm_nm.is_none() {
+        warnings
+            .push("the first transition is too wide to give a half width on the red side: HWHM not measured".into());
     }
-    let hwhm_ev = hwhm.map(|h| HC_EV_NM / peak_nm - HC_EV_NM / (peak_nm + h));
     Ok(AbsResult {
         first_exciton_nm: Some(peak_nm),
         first_exciton_abs: Some(peak_abs),
-        hwhm_nm: hwhm,
-        hwhm_ev,
-        shoulder,
+        hwhm_nm,
+        hwhm_ev: hwhm_nm.map(|_| hwhm_ev),
+        shoulder: edge.shoulder,
         max_abs,
         noise,
         background,
+        band_edge: Some(edge),
         warnings,
     })
-}
-
-fn peak_height_and_hwhm(u: &Uniform, s: &[f64], fi: f64, bg: &Background) -> (f64, Option<f64>) {
-    let corrected = |i: f64| value_at(s, i) - bg.at(u.nm(i));
-    let peak = corrected(fi);
-    let target = peak / 2.0;
-    let mut i = fi.ceil() as usize;
-    let n = s.len();
-    while i < n {
-        let v = s[i] - bg.at(u.nm(i as f64));
-        if v <= target {
-            let prev_i = (i as f64 - 1.0).max(fi);
-            let pv = corrected(prev_i);
-            let f = if pv == v { 0.0 } else { (pv - target) / (pv - v) };
-            let at = prev_i + f * (i as f64 - prev_i);
-            return (peak, Some((u.nm(at) - u.nm(fi)).max(0.0)));
-        }
-        i += 1;
-    }
-    (peak, None)
 }
 
 fn fit_scatter(u: &Uniform, idx: &[usize], from: f64) -> Option<Background> {

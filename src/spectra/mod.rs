@@ -5,6 +5,7 @@
 //! changes the raw data; the store keeps the raw spectrum and its file hash.
 
 pub mod analysis;
+pub mod band_edge;
 pub mod delimited;
 pub mod grid;
 pub mod jcamp;

@@ -1,0 +1,1035 @@
+//! The band edge of an absorbance spectrum, modelled in energy: where the first excitonic
+//! transition is, how wide it is and how sure we are, as pure functions of a [`Trace`].
+//!
+//! A colloidal sample's spectrum near the band edge is a superposition of size-distributed
+//! transitions, each close to a Gaussian in energy (Pesika, Stebe & Searson, Adv. Mater. 15,
+//! 1289 (2003), volume and page from memory; Segets et al., ACS Nano (2012),
+//! doi 10.1021/nn303130d). So the work is done in energy:
+//!
+//! 1. The spectrum is put on an even energy grid whose step follows the file's own step
+//!    (bounded to 1-10 meV): dense scans are averaged into bins, coarse ones interpolated, so
+//!    cost stays linear in points whatever the point density.
+//! 2. Candidate transitions are the minima of the second derivative at several smoothing
+//!    widths set in energy (15-100 meV half windows), each judged against the noise measured
+//!    locally (a noisy detector end does not borrow the quiet middle's noise), with its width
+//!    and amplitude estimated from the derivative's zero crossings.
+//! 3. The first exciton is the reddest candidate that stands on evidence: well above the local
+//!    noise, wider than an instrument artefact (a step or spike is narrower than any excitonic
+//!    band), and strong against the spectrum's own absorbance. Where the material is known, the
+//!    region its sizing curve covers guides the choice and nothing redder than the bulk band
+//!    gap is ever taken.
+//! 4. A sum of Gaussians in energy (the first transition and the next one or two) on a linear
+//!    background (scattering plus continuum, locally) is fitted by weighted Levenberg-Marquardt
+//!    from the transparent red side to a few tenths of an eV above. The first transition's
+//!    centre, its own HWHM (not the composite's), height and their uncertainties come from the
+//!    fit; a fit that fails its checks falls back to the derivative estimate, and says so.
+
+use super::savgol;
+use super::{HC_EV_NM, Trace};
+use serde::Serialize;
+
+/// What is known about the sample that helps to find its first exciton.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct BandEdgeHint {
+    /// The core material, for messages.
+    pub material: Option<String>,
+    /// First-exciton wavelengths the material's sizing curve covers (nm, red end and blue end
+    /// in either order).
+    pub expected_nm: Option<(f64, f64)>,
+    /// The bulk band gap as a wavelength: no first exciton can lie redder.
+    pub bulk_gap_nm: Option<f64>,
+}
+
+/// One fitted transition.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct Transition {
+    pub centre_nm: f64,
+    pub centre_ev: f64,
+    pub hwhm_ev: f64,
+    /// Peak height of this transition alone (absorbance).
+    pub height: f64,
+}
+
+/// How the band edge was measured, with the fit's evidence.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct BandEdge {
+    /// "gaussian fit in energy" or "second derivative" (the fallback).
+    pub method: &'static str,
+    /// "good", "poor" (the model leaves structure in the residual) or "fallback".
+    pub quality: &'static str,
+    pub centre_ev: f64,
+    /// One standard deviation of the centre, from the fit's covariance (or the derivative's
+    /// width where there is no fit).
+    pub centre_sd_ev: f64,
+    pub hwhm_ev: f64,
+    pub hwhm_sd_ev: f64,
+    /// Height of the first transition alone.
+    pub height: f64,
+    /// The fitted model (all transitions and background) at the first transition's centre.
+    pub composite_abs: f64,
+    /// Root-mean-square residual of the fit over its window, and that over the local noise.
+    pub residual_rms: f64,
+    pub residual_over_noise: f64,
+    pub fit_from_nm: f64,
+    pub fit_to_nm: f64,
+    /// The first transition and the next ones that were fitted, red to blue.
+    pub transitions: Vec<Transition>,
+    /// True when the composite has no maximum near the first transition (a shoulder).
+    pub shoulder: bool,
+    pub warnings: Vec<String>,
+}
+
+/// An even grid in energy, ascending (red to blue).
+#[derive(Debug, Clone)]
+pub struct EnergyGrid {
+    pub e0_ev: f64,
+    pub step_ev: f64,
+    pub y: Vec<f64>,
+}
+
+impl EnergyGrid {
+    pub fn e(&self, i: f64) -> f64 {
+        self.e0_ev + i * self.step_ev
+    }
+    fn index(&self, e: f64) -> f64 {
+        (e - self.e0_ev) / self.step_ev
+    }
+}
+
+/// The smallest and largest energy step of the working grid (eV).
+const MIN_STEP_EV: f64 = 0.001;
+const MAX_STEP_EV: f64 = 0.010;
+/// Smoothing half-widths at which candidate transitions are sought (eV).
+const SCALES_EV: [f64; 5] = [0.015, 0.025, 0.040, 0.065, 0.100];
+/// The narrowest Gaussian width (σ) taken as excitonic. Room-temperature band-edge
+/// transitions of colloidal crystals are wider than about 20 meV HWHM (common practice);
+/// instrument steps and spikes are narrower.
+const MIN_SIGMA_EV: f64 = 0.012;
+const MAX_SIGMA_EV: f64 = 0.35;
+/// A candidate stands above the noise when its second-derivative minimum exceeds this many
+/// standard deviations of the derivative's noise.
+const MIN_SIGNIFICANCE: f64 = 6.0;
+/// ... and its estimated height is at least this fraction of the band edge's absorbance scale.
+const MIN_RELATIVE_HEIGHT: f64 = 0.015;
+
+/// Puts a trace (nm ascending) on an even energy grid, red to blue.
+pub fn energy_grid(t: &Trace) -> Option<EnergyGrid> {
+    let n = t.nm.len();
+    if n < 8 || t.y.len() != n || t.nm[0] <= 0.0 {
+        return None;
+    }
+    let e: Vec<f64> = t.nm.iter().rev().map(|l| HC_EV_NM / l).collect();
+    let y: Vec<f64> = t.y.iter().rev().copied().collect();
+    let mut steps: Vec<f64> = e.windows(2).map(|w| w[1] - w[0]).filter(|d| *d > 0.0).collect();
+    if steps.is_empty() {
+        return None;
+    }
+    let mid = steps.len() / 2;
+    let (_, med, _) = steps.select_nth_unstable_by(mid, f64::total_cmp);
+    let step = med.clamp(MIN_STEP_EV, MAX_STEP_EV);
+    let (first, last) = (e[0], e[n - 1]);
+    let m = ((last - first) / step).floor() as usize + 1;
+    if m < 8 {
+        return None;
+    }
+    let mut out = Vec::with_capacity(m);
+    let mut j = 0usize; // first native point not left of the current bin
+    for i in 0..m {
+        let c = first + i as f64 * step;
+        let (lo, hi) = (c - 0.5 * step, c + 0.5 * step);
+        while j < n && e[j] < lo {
+            j += 1;
+        }
+        let (mut k, mut sum) = (j, 0.0);
+        while k < n && e[k] < hi {
+            sum += y[k];
+            k += 1;
+        }
+        let count = k - j;
+        let v = if count >= 2 {
+            sum / count as f64
+        } else {
+            // Interpolate between the native points around the centre (j is the first point
+            // at or right of the bin's left edge, so the bracket is found by walking on).
+            let mut r = j.max(1);
+            while r < n - 1 && e[r] < c {
+                r += 1;
+            }
+            while r > 1 && e[r - 1] > c {
+                r -= 1;
+            }
+            let (e0, e1) = (e[r - 1], e[r]);
+            if e1 > e0 {
+                y[r - 1] + (y[r] - y[r - 1]) * ((c - e0) / (e1 - e0)).clamp(0.0, 1.0)
+            } else {
+                y[r]
+            }
+        };
+        out.push(v);
+    }
+    Some(EnergyGrid {
+        e0_ev: first,
+        step_ev: step,
+        y: out,
+    })
+}
+
+/// Noise per point, measured locally: the median absolute residual from a light smooth in
+/// blocks, never below half the median over blocks (a flat stretch is not noise-free).
+pub struct LocalNoise {
+    block: usize,
+    per_block: Vec<f64>,
+    pub typical: f64,
+    pub smooth: Vec<f64>,
+}
+
+impl LocalNoise {
+    pub fn at(&self, i: usize) -> f64 {
+        let b = (i / self.block).min(self.per_block.len() - 1);
+        self.per_block[b].max(0.5 * self.typical)
+    }
+}
+
+fn local_noise(y: &[f64]) -> Option<LocalNoise> {
+    let half = 3;
+    let smooth = savgol::filter(y, half, 2, 0, 1.0).ok()?;
+    // The residual from a least-squares smooth has variance σ²(1 - c₀), c₀ the centre weight.
+    let c0 = savgol::coefficients(half, 2, 0).ok()?[half];
+    let scale = 1.4826 / (1.0 - c0).sqrt();
+    let block = 48usize;
+    let mut r = Vec::with_capacity(block);
+    let mut per_block = Vec::with_capacity(y.len() / block + 1);
+    for (yc, sc) in y.chunks(block).zip(smooth.chunks(block)) {
+        r.clear();
+        r.extend(yc.iter().zip(sc).map(|(a, b)| (a - b).abs()));
+        let mid = r.len() / 2;
+        let (_, m, _) = r.select_nth_unstable_by(mid, f64::total_cmp);
+        per_block.push(*m * scale);
+    }
+    // A last short block is a poor estimate: it takes its neighbour's where that is larger.
+    if per_block.len() >= 2 && !y.len().is_multiple_of(block) && y.len() % block < block / 2 {
+        let k = per_block.len();
+        per_block[k - 1] = per_block[k - 1].max(per_block[k - 2]);
+    }
+    let mut sorted = per_block.clone();
+    let mid = sorted.len() / 2;
+    let (_, typical, _) = sorted.select_nth_unstable_by(mid, f64::total_cmp);
+    let typical = *typical;
+    Some(LocalNoise {
+        block,
+        per_block,
+        typical,
+        smooth,
+    })
+}
+
+/// A possible transition found in the second derivative.
+#[derive(Debug, Clone)]
+struct Candidate {
+    e_ev: f64,
+    sigma_ev: f64,
+    height: f64,
+    significance: f64,
+    /// The derivative's positive lobes (red side, blue side) over its minimum's depth. A lone
+    /// Gaussian's are equal (about 0.45 each); a step's are one-sided (about 1 and 0).
+    lobes: (f64, f64),
+}
+
+fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
+    let mut all: Vec<Candidate> = Vec::new();
+    let mut binned: Vec<f64> = Vec::new();
+    for &h_ev in &SCALES_EV {
+        let f = ((h_ev / (5.0 * g.step_ev)).floor() as usize).max(1);
+        binned.clear();
+        binned.extend(g.y.chunks_exact(f).map(|c| c.iter().sum::<f64>() / f as f64));
+        let step = f as f64 * g.step_ev;
+        let e_at = |k: f64| g.e0_ev + 0.5 * (f - 1) as f64 * g.step_ev + k * step;
+        let nb = binned.len();
+        let half = ((h_ev / step).round() as usize).max(3);
+        if nb < 2 * half + 3 {
+            continue;
+        }
+        let Ok(d2) = savgol::filter(&binned, half, 2, 2, step) else {
+            continue;
+        };
+        let Ok(c2) = savgol::coefficients(half, 2, 2) else {
+            continue;
+        };
+        let gain = c2.iter().map(|c| c * c).sum::<f64>().sqrt() / (step * step);
+        let smoothing_var = h_ev * h_ev / 3.0;
+        for k in half.max(1)..nb - half.max(1) {
+            if !(d2[k] < 0.0 && d2[k] < d2[k - 1] && d2[k] <= d2[k + 1]) {
+                continue;
+            }
+            // Significance is the minimum's prominence, not its depth: a wiggle of noise inside
+            // a broad feature's trough is as deep as the trough but barely below its ridges.
+            // Each side's ridge is the highest point before the curve goes lower than this
+            // minimum or crosses zero (the trough's end).
+            let ridge = |dir: isize| -> f64 {
+                let mut hi = d2[k];
+                let mut j = k as isize + dir;
+                while j >= 0 && (j as usize) < nb {
+                    let v = d2[j as usize];
+                    if v < d2[k] {
+                        return hi;
+                    }
+                    if v >= 0.0 {
+                        return 0.0;
+                    }
+                    hi = hi.max(v);
+                    j += dir;
+                }
+                hi.min(0.0)
+            };
+            let prominence = ridge(-1).min(ridge(1)) - d2[k];
+            let sd = gain * noise.at(k * f + f / 2) / (f as f64).sqrt();
+            let significance = if sd > 0.0 { prominence / sd } else { f64::INFINITY };
+            if significance < 3.0 {
+                continue;
+            }
+            let denom = d2[k - 1] - 2.0 * d2[k] + d2[k + 1];
+            let off = if denom > 0.0 {
+                (0.5 * (d2[k - 1] - d2[k + 1]) / denom).clamp(-0.5, 0.5)
+            } else {
+                0.0
+            };
+            // The zero crossings either side of the minimum are at ±σ for a Gaussian,
+            // widened by the smoothing window.
+            let mut l = k;
+            while l > 0 && d2[l - 1] < 0.0 {
+                l -= 1;
+            }
+            let mut r = k;
+            while r + 1 < nb && d2[r + 1] < 0.0 {
+                r += 1;
+            }
+            let zl = if l > 0 {
+                l as f64 - d2[l] / (d2[l] - d2[l - 1])
+            } else {
+                f64::NAN
+            };
+            let zr = if r + 1 < nb {
+                r as f64 + d2[r] / (d2[r] - d2[r + 1])
+            } else {
+                f64::NAN
+            };
+            let kc = k as f64 + off;
+            let wh = match (zl.is_finite(), zr.is_finite()) {
+                (true, true) => 0.5 * (zr - zl),
+                (true, false) => kc - zl,
+                (false, true) => zr - kc,
+                (false, false) => continue,
+            } * step;
+            let sigma_obs = wh;
+            let sigma = (wh * wh - smoothing_var).max(0.0).sqrt();
+            let height = if sigma > 0.0 {
+                -d2[k] * sigma_obs.powi(3) / sigma
+            } else {
+                0.0
+            };
+            let reach = ((3.0 * wh / step).ceil() as usize).max(2);
+            let lobe = |range: &mut dyn Iterator<Item = usize>| range.map(|j| d2[j]).fold(0.0f64, f64::max) / -d2[k];
+            let lobes = (
+                lobe(&mut (k.saturating_sub(reach)..k)),
+                lobe(&mut (k + 1..(k + reach + 1).min(nb))),
+            );
+            all.push(Candidate {
+                e_ev: e_at(kc),
+                sigma_ev: sigma,
+                height,
+                significance,
+                lobes,
+            });
+        }
+    }
+    // A minimum narrower than any excitonic band is a wiggle, a step or a spike at this
+    // width; the same feature seen at a wider window is judged there.
+    all.retain(|c| c.sigma_ev >= MIN_SIGMA_EV);
+    // One feature shows at several widths: keep, for each, the width where it stands out most.
+    all.sort_by(|a, b| b.significance.total_cmp(&a.significance));
+    let mut kept: Vec<Candidate> = Vec::new();
+    for c in all {
+        let near = kept
+            .iter()
+            .any(|k| (k.e_ev - c.e_ev).abs() < 0.6 * k.sigma_ev.max(c.sigma_ev).max(0.5 * MIN_SIGMA_EV));
+        if !near {
+            kept.push(c);
+        }
+    }
+    kept.sort_by(|a, b| a.e_ev.total_cmp(&b.e_ev));
+    kept
+}
+
+/// What the search for the first transition found.
+#[derive(Debug, Clone)]
+pub struct Found {
+    /// None when no feature stands on evidence (the reasons are in `warnings`).
+    pub edge: Option<BandEdge>,
+    /// Typical noise of one point of the working energy grid (absorbance).
+    pub noise: f64,
+    pub warnings: Vec<String>,
+}
+
+/// Finds the first excitonic transition and fits the band edge.
+pub fn first_transition(t: &Trace, hint: &BandEdgeHint, saturation_abs: f64) -> Found {
+    let mut warnings = Vec::new();
+    let few = |mut warnings: Vec<String>| {
+        warnings.push("too few points to analyse the band edge".into());
+        Found {
+            edge: None,
+            noise: 0.0,
+            warnings,
+        }
+    };
+    let Some(g) = energy_grid(t) else {
+        return few(warnings);
+    };
+    let Some(noise) = local_noise(&g.y) else {
+        return few(warnings);
+    };
+    let found = candidates(&g, &noise);
+    let top = noise
+        .smooth
+        .iter()
+        .copied()
+        .fold(0.0f64, f64::max)
+        .min(saturation_abs.max(0.5));
+    // A step down in absorbance towards the blue (a detector or grating change) has a
+    // derivative trough with a strong positive lobe on its blue side only. A real first
+    // exciton has its positive lobe on the red side, where the curve rises out of the
+    // transparent region (its blue lobe can vanish into the next transition's trough).
+    let step_like = |c: &Candidate| c.lobes.1 > 0.75 && c.lobes.0 < 0.35 * c.lobes.1;
+    // Much weaker than the transitions just above it: a first exciton carries an oscillator
+    // strength comparable to the next transitions (common practice), noise or an artefact
+    // does not.
+    let dwarfed = |c: &Candidate| {
+        found
+            .iter()
+            .filter(|o| {
+                o.e_ev > c.e_ev
+                    && o.e_ev < c.e_ev + 0.6
+                    && o.significance >= MIN_SIGNIFICANCE
+                    && o.sigma_ev <= MAX_SIGMA_EV
+            })
+            .any(|o| c.height < 0.08 * o.height)
+    };
+    let strong = |c: &Candidate| {
+        let i = g.index(c.e_ev).round().clamp(0.0, (g.y.len() - 1) as f64) as usize;
+        !step_like(c)
+            && !dwarfed(c)
+            && c.significance >= MIN_SIGNIFICANCE
+            && c.sigma_ev >= MIN_SIGMA_EV
+            && c.sigma_ev <= MAX_SIGMA_EV
+            && c.height >= MIN_RELATIVE_HEIGHT * top
+            && c.height >= 4.0 * noise.at(i)
+            && noise.smooth[i] < saturation_abs
+    };
+    let e_bulk = hint.bulk_gap_nm.map(|l| HC_EV_NM / l);
+    let region = hint.expected_nm.map(|(a, b)| {
+        let (lo, hi) = (HC_EV_NM / a.max(b), HC_EV_NM / a.min(b));
+        // A margin of 0.05 eV either side: curves are fitted to data that end somewhere.
+        (lo - 0.05, hi + 0.05)
+    });
+    let mut below_gap: Option<f64> = None;
+    let mut outside: Option<f64> = None;
+    let mut chosen: Option<usize> = None;
+    let mut fallback_outside: Option<usize> = None;
+    for (i, c) in found.iter().enumerate() {
+        if !strong(c) {
+            continue;
+        }
+        if let Some(eb) = e_bulk
+            && c.e_ev < eb - 0.01
+        {
+            // The sample's band edge is not this material's: whatever is bluer would be its
+            // second transition, not a first exciton.
+            below_gap = Some(c.e_ev);
+            break;
+        }
+        if let Some((lo, hi)) = region
+            && (c.e_ev < lo || c.e_ev > hi)
+        {
+            if c.e_ev < lo {
+                outside.get_or_insert(c.e_ev);
+            }
+            fallback_outside.get_or_insert(i);
+            continue;
+        }
+        chosen = Some(i);
+        break;
+    }
+    let material = hint.material.as_deref().unwrap_or("this material");
+    if let Some(e) = below_gap {
+        warnings.push(format!(
+            "a band edge at {:.0} nm is redder than {material}'s bulk band gap ({:.0} nm): it cannot be {material}'s first exciton; check the material",
+            HC_EV_NM / e,
+            hint.bulk_gap_nm.unwrap_or(f64::NAN)
+        ));
+        return Found {
+            edge: None,
+            noise: noise.typical,
+            warnings,
+        };
+    }
+    if chosen.is_none()
+        && let Some(i) = fallback_outside
+    {
+        warnings.push(format!(
+            "the first exciton at {:.0} nm is outside the range {material}'s sizing curve covers",
+            HC_EV_NM / found[i].e_ev
+        ));
+        chosen = Some(i);
+    } else if let Some(e) = outside {
+        warnings.push(format!(
+            "a weaker feature at {:.0} nm, outside the range {material}'s sizing curve covers, was not taken as the first exciton",
+            HC_EV_NM / e
+        ));
+    }
+    let Some(ci) = chosen else {
+        return Found {
+            edge: None,
+            noise: noise.typical,
+            warnings,
+        };
+    };
+    let mut first = found[ci].clone();
+    if let Some(s) = red_side_sigma(&g, &noise, first.e_ev) {
+        // The red side can include a scattering tail: never more than twice the derivative's.
+        first.sigma_ev = s.min(2.0 * first.sigma_ev).clamp(MIN_SIGMA_EV, MAX_SIGMA_EV);
+    }
+    let higher: Vec<&Candidate> = found[ci + 1..]
+        .iter()
+        .filter(|c| c.significance >= 4.0 && c.e_ev > first.e_ev + 0.5 * first.sigma_ev)
+        .collect();
+    let edge = fit_band_edge(&g, &noise, &first, &higher);
+    let mut edge = match edge {
+        Some(e) => e,
+        None => derivative_estimate(&g, &noise, &first),
+    };
+    // Plausibility: absorption that rises well red of the first exciton means a redder
+    // feature was missed or the sample scatters strongly.
+    if let Some(onset) = onset_ev(&g, &noise, edge.centre_ev, edge.height)
+        && onset < edge.centre_ev - 4.0 * edge.hwhm_ev.max(0.03) - 0.05
+    {
+        edge.warnings.push(format!(
+            "absorption already rises at {:.0} nm, well red of the first exciton at {:.0} nm: a redder feature may have been missed, or the sample scatters",
+            HC_EV_NM / onset,
+            HC_EV_NM / edge.centre_ev
+        ));
+    }
+    Found {
+        edge: Some(edge),
+        noise: noise.typical,
+        warnings,
+    }
+}
+
+/// σ of the first transition from the red side of the smoothed curve, which higher
+/// transitions barely touch: where it falls to half its height over the red-end level.
+fn red_side_sigma(g: &EnergyGrid, noise: &LocalNoise, centre: f64) -> Option<f64> {
+    let s = &noise.smooth;
+    let ic = g.index(centre).round();
+    if ic < 3.0 || ic >= s.len() as f64 {
+        return None;
+    }
+    let ic = ic as usize;
+    let floor = s[..ic].iter().copied().fold(f64::MAX, f64::min);
+    let top = s[ic] - floor;
+    if top <= 0.0 {
+        return None;
+    }
+    let mut i = ic;
+    while i > 0 && s[i] - floor > 0.5 * top {
+        i -= 1;
+    }
+    if i == 0 {
+        return None;
+    }
+    let (a, b) = (s[i] - floor, s[i + 1] - floor);
+    let at = i as f64 + if b > a { (0.5 * top - a) / (b - a) } else { 0.0 };
+    Some((ic as f64 - at) * g.step_ev / HWHM_PER_SIGMA)
+}
+
+/// Where, scanning from the red end, the smoothed absorbance first rises by a quarter of the
+/// first transition's height over its red-end level.
+fn onset_ev(g: &EnergyGrid, noise: &LocalNoise, centre: f64, height: f64) -> Option<f64> {
+    let stop = g.index(centre).floor().max(0.0) as usize;
+    let s = &noise.smooth;
+    if stop < 4 || height <= 0.0 {
+        return None;
+    }
+    let floor = s[..stop].iter().copied().fold(f64::MAX, f64::min);
+    (0..stop).find(|&i| s[i] - floor > 0.25 * height).map(|i| g.e(i as f64))
+}
+
+fn derivative_estimate(g: &EnergyGrid, noise: &LocalNoise, c: &Candidate) -> BandEdge {
+    let i = g.index(c.e_ev).round().clamp(0.0, (g.y.len() - 1) as f64) as usize;
+    let sigma = c.sigma_ev.max(MIN_SIGMA_EV);
+    let composite = noise.smooth[i];
+    BandEdge {
+        method: "second derivative",
+        quality: "fallback",
+        centre_ev: c.e_ev,
+        centre_sd_ev: sigma / c.significance.max(1.0).sqrt(),
+        hwhm_ev: sigma * HWHM_PER_SIGMA,
+        hwhm_sd_ev: 0.25 * sigma * HWHM_PER_SIGMA,
+        height: c.height.min(composite.max(0.0)),
+        composite_abs: composite,
+        residual_rms: f64::NAN,
+        residual_over_noise: f64::NAN,
+        fit_from_nm: HC_EV_NM / (c.e_ev - 2.0 * sigma),
+        fit_to_nm: HC_EV_NM / (c.e_ev + 2.0 * sigma),
+        transitions: vec![],
+        shoulder: true,
+        warnings: vec![
+            "the band-edge fit failed its checks: first exciton and width are from the second derivative and less certain"
+                .into(),
+        ],
+    }
+}
+
+/// HWHM of a Gaussian in units of its σ: √(2 ln 2).
+pub const HWHM_PER_SIGMA: f64 = 1.177_410_022_515_474_6;
+
+/// The number of background parameters: c₀ + c₁x, x = E - E_ref. Over a window of a few
+/// tenths of an eV this follows scattering (rising as E⁴) and the continuum's foot; a
+/// curvature term was tried and absorbs the second transition instead.
+const G: usize = 2;
+
+/// The model: Σ aₖ exp(-(E-Eₖ)²/2σₖ²) + c₀ + c₁x. Parameters are laid out as
+/// [c₀, c₁, a₁, E₁, σ₁, a₂, E₂, σ₂, ...].
+fn model(p: &[f64], e_ref: f64, e: f64) -> f64 {
+    let x = e - e_ref;
+    let mut v = p[0] + p[1] * x;
+    for k in p[G..].chunks_exact(3) {
+        let z = (e - k[1]) / k[2];
+        v += k[0] * (-0.5 * z * z).exp();
+    }
+    v
+}
+
+fn solve_in_place(a: &mut [f64], b: &mut [f64], n: usize) -> bool {
+    for col in 0..n {
+        let mut piv = col;
+        for r in col + 1..n {
+            if a[r * n + col].abs() > a[piv * n + col].abs() {
+                piv = r;
+            }
+        }
+        if !(a[piv * n + col].abs() > 1e-300) {
+            return false;
+        }
+        if piv != col {
+            for c in 0..n {
+                a.swap(col * n + c, piv * n + c);
+            }
+            b.swap(col, piv);
+        }
+        let d = a[col * n + col];
+        for r in col + 1..n {
+            let f = a[r * n + col] / d;
+            if f != 0.0 {
+                for c in col..n {
+                    a[r * n + c] -= f * a[col * n + c];
+                }
+                b[r] -= f * b[col];
+            }
+        }
+    }
+    for col in (0..n).rev() {
+        let mut s = b[col];
+        for c in col + 1..n {
+            s -= a[col * n + c] * b[c];
+        }
+        b[col] = s / a[col * n + col];
+    }
+    b.iter().all(|v| v.is_finite())
+}
+
+struct Window<'a> {
+    e: &'a [f64],
+    y: &'a [f64],
+    w: &'a [f64],
+    e_ref: f64,
+}
+
+/// Weighted normal equations JᵀWJ and JᵀW r at p; returns χ².
+fn normal_equations(win: &Window, p: &[f64], jtj: &mut [f64], jtr: &mut [f64], row: &mut [f64]) -> f64 {
+    let np = p.len();
+    jtj.iter_mut().for_each(|v| *v = 0.0);
+    jtr.iter_mut().for_each(|v| *v = 0.0);
+    let mut chi2 = 0.0;
+    for ((&e, &y), &w) in win.e.iter().zip(win.y).zip(win.w) {
+        let x = e - win.e_ref;
+        row[0] = 1.0;
+        row[1] = x;
+        let mut v = p[0] + p[1] * x;
+        for (k, q) in p[G..].chunks_exact(3).enumerate() {
+            let d = e - q[1];
+            let inv = 1.0 / q[2];
+            let z = d * inv;
+            let gk = (-0.5 * z * z).exp();
+            v += q[0] * gk;
+            row[G + 3 * k] = gk;
+            row[G + 1 + 3 * k] = q[0] * gk * z * inv;
+            row[G + 2 + 3 * k] = q[0] * gk * z * z * inv;
+        }
+        let r = v - y;
+        chi2 += w * r * r;
+        for a in 0..np {
+            let wa = w * row[a];
+            jtr[a] += wa * r;
+            for b in a..np {
+                jtj[a * np + b] += wa * row[b];
+            }
+        }
+    }
+    for a in 0..np {
+        for b in 0..a {
+            jtj[a * np + b] = jtj[b * np + a];
+        }
+    }
+    chi2
+}
+
+fn chi2_of(win: &Window, p: &[f64]) -> f64 {
+    win.e
+        .iter()
+        .zip(win.y)
+        .zip(win.w)
+        .map(|((&e, &y), &w)| {
+            let r = model(p, win.e_ref, e) - y;
+            w * r * r
+        })
+        .sum()
+}
+
+/// Keeps parameters physical: positive heights, widths in the excitonic range, the first
+/// transition inside the window and every later one bluer than the first.
+fn constrain(p: &mut [f64], lo: f64, hi: f64) {
+    let e1 = p[G + 1].clamp(lo, hi);
+    p[G + 1] = e1;
+    for k in (G..p.len()).step_by(3) {
+        // Never quite zero: a vanished transition would leave its centre and width undefined.
+        p[k] = p[k].max(1e-6);
+        p[k + 2] = p[k + 2].clamp(MIN_SIGMA_EV, MAX_SIGMA_EV);
+    }
+    let s1 = p[G + 2];
+    for k in (G + 3..p.len()).step_by(3) {
+        let bluer = e1 + 0.5 * s1;
+        p[k + 1] = p[k + 1].min(hi + p[k + 2]).max(bluer);
+    }
+}
+
+/// Heights and background for fixed centres and widths (the linear half of the problem),
+/// used for starting values.
+fn linear_start(win: &Window, p: &mut [f64]) -> bool {
+    let ng = (p.len() - G) / 3;
+    let nl = G + ng;
+    let mut a = vec![0.0; nl * nl];
+    let mut b = vec![0.0; nl];
+    let mut row = vec![0.0; nl];
+    for ((&e, &y), &w) in win.e.iter().zip(win.y).zip(win.w) {
+        let x = e - win.e_ref;
+        row[0] = 1.0;
+        row[1] = x;
+        for k in 0..ng {
+            let q = &p[G + 3 * k..G + 3 + 3 * k];
+            let z = (e - q[1]) / q[2];
+            row[G + k] = (-0.5 * z * z).exp();
+        }
+        for i in 0..nl {
+            b[i] += w * row[i] * y;
+            for j in 0..nl {
+                a[i * nl + j] += w * row[i] * row[j];
+            }
+        }
+    }
+    // A light ridge keeps nearly collinear starts solvable.
+    for i in 0..nl {
+        a[i * nl + i] *= 1.0 + 1e-9;
+    }
+    if !solve_in_place(&mut a, &mut b, nl) {
+        return false;
+    }
+    p[..G].copy_from_slice(&b[..G]);
+    for k in 0..ng {
+        p[G + 3 * k] = b[G + k].max(1e-6);
+    }
+    true
+}
+
+/// Weighted Levenberg-Marquardt from `p`; returns the parameters, χ² and the normal matrix
+/// at the end (for the covariance).
+fn levenberg_marquardt(win: &Window, mut p: Vec<f64>, lo: f64, hi: f64) -> (Vec<f64>, f64, Vec<f64>) {
+    let np = p.len();
+    let mut jtj = vec![0.0; np * np];
+    let mut jtr = vec![0.0; np];
+    let mut row = vec![0.0; np];
+    let mut a = vec![0.0; np * np];
+    let mut b = vec![0.0; np];
+    let mut trial = p.clone();
+    let mut lambda = 1e-3;
+    let mut chi2 = normal_equations(win, &p, &mut jtj, &mut jtr, &mut row);
+    for _ in 0..120 {
+        a.copy_from_slice(&jtj);
+        for d in 0..np {
+            a[d * np + d] += lambda * jtj[d * np + d].max(1e-12);
+        }
+        b.iter_mut().zip(&jtr).for_each(|(bi, g)| *bi = -g);
+        if !solve_in_place(&mut a, &mut b, np) {
+            lambda *= 10.0;
+            if lambda > 1e10 {
+                break;
+            }
+            continue;
+        }
+        for ((t, p0), d) in trial.iter_mut().zip(&p).zip(&b) {
+            *t = p0 + d;
+        }
+        constrain(&mut trial, lo, hi);
+        let c2 = chi2_of(win, &trial);
+        if c2 < chi2 {
+            let done = chi2 - c2 < 1e-8 * chi2.max(1e-300);
+            p.copy_from_slice(&trial);
+            chi2 = normal_equations(win, &p, &mut jtj, &mut jtr, &mut row);
+            lambda = (lambda / 3.0).max(1e-9);
+            if done {
+                break;
+            }
+        } else {
+            lambda *= 4.0;
+            if lambda > 1e10 {
+                break;
+            }
+        }
+    }
+    (p, chi2, jtj)
+}
+
+fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: &[&Candidate]) -> Option<BandEdge> {
+    let s1 = first.sigma_ev.clamp(MIN_SIGMA_EV, MAX_SIGMA_EV);
+    // The window: the transparent red side, the first transition, and the next one up to a
+    // little past its centre. Going further blue adds the continuum's curvature, which a
+    // smooth background follows less well than it biases the first transition's width.
+    let next = higher.iter().find(|c| c.e_ev < first.e_ev + 0.45);
+    let blue_reach = match next {
+        Some(c) => (c.e_ev - first.e_ev + 0.5 * c.sigma_ev).max(2.5 * s1),
+        None => (3.0 * s1).max(0.20),
+    };
+    let lo = (first.e_ev - (3.5 * s1).max(0.10)).max(g.e0_ev);
+    let hi = (first.e_ev + blue_reach).min(g.e((g.y.len() - 1) as f64));
+    // Bin the window so a transition spans about ten points or more, not hundreds.
+    let f = ((0.2 * s1 / g.step_ev).floor() as usize).max(1);
+    let i0 = g.index(lo).ceil().max(0.0) as usize;
+    let i1 = (g.index(hi).floor() as usize).min(g.y.len() - 1);
+    if i1 <= i0 + 10 * f {
+        return None;
+    }
+    let mut e = Vec::with_capacity((i1 - i0) / f + 1);
+    let mut y = Vec::with_capacity(e.capacity());
+    let mut w = Vec::with_capacity(e.capacity());
+    let mut i = i0;
+    while i + f <= i1 + 1 {
+        let ys = &g.y[i..i + f];
+        e.push(g.e(i as f64 + 0.5 * (f - 1) as f64));
+        y.push(ys.iter().sum::<f64>() / f as f64);
+        let sd = noise.at(i + f / 2) / (f as f64).sqrt();
+        w.push(1.0 / (sd * sd).max(1e-16));
+        i += f;
+    }
+    let m = e.len();
+    let win = Window {
+        e: &e,
+        y: &y,
+        w: &w,
+        e_ref: first.e_ev,
+    };
+    // Starting values: the first transition from the derivative, the next one or two from
+    // bluer derivative minima inside the window, else one placed where a second transition
+    // commonly is (0.15-0.25 eV above, common practice for II-VI and III-V crystals).
+    let mut p = vec![0.0, 0.0, first.height.max(0.0), first.e_ev, s1];
+    let mut added = 0;
+    for c in higher {
+        if c.e_ev < hi + 2.0 * c.sigma_ev && added < 1 {
+            // Derivative widths come out narrow where transitions overlap: start no narrower
+            // than the first.
+            p.extend([
+                c.height.max(0.0),
+                c.e_ev,
+                c.sigma_ev.max(s1).clamp(MIN_SIGMA_EV, MAX_SIGMA_EV),
+            ]);
+            added += 1;
+        }
+    }
+    if added == 0 {
+        p.extend([first.height.max(0.0), first.e_ev + (2.5 * s1).max(0.15), 1.3 * s1]);
+    }
+    let np = p.len();
+    if m < np + 5 {
+        return None;
+    }
+    constrain(&mut p, lo, hi);
+    if !linear_start(&win, &mut p) {
+        return None;
+    }
+    let (mut p, mut chi2, mut jtj) = levenberg_marquardt(&win, p, lo, hi);
+    // A second transition that vanished (or a first that narrowed onto noise) is often a
+    // local minimum: start once more with the second transition where it commonly is and
+    // keep the better fit.
+    let collapsed = p[G + 3] < 0.02 * p[G] || p[G + 5] <= MIN_SIGMA_EV * 1.0001;
+    if collapsed {
+        let mut again = p.clone();
+        again[G + 3] = p[G];
+        again[G + 4] = p[G + 1] + (2.5 * p[G + 2]).max(0.12);
+        again[G + 5] = 1.2 * p[G + 2];
+        constrain(&mut again, lo, hi);
+        if linear_start(&win, &mut again) {
+            let (p2, c2, j2) = levenberg_marquardt(&win, again, lo, hi);
+            if c2 < chi2 {
+                (p, chi2, jtj) = (p2, c2, j2);
+            }
+        }
+    }
+    // Covariance from the unregularised normal matrix, scaled by the reduced χ².
+    let dof = (m - np) as f64;
+    let red = chi2 / dof;
+    let var = |idx: usize| -> f64 {
+        let mut a = jtj.clone();
+        let mut unit = vec![0.0; np];
+        unit[idx] = 1.0;
+        if solve_in_place(&mut a, &mut unit, np) {
+            (unit[idx] * red.max(1.0)).max(0.0)
+        } else {
+            f64::INFINITY
+        }
+    };
+    let (a1, e1, sig1) = (p[G], p[G + 1], p[G + 2]);
+    let sd_a1 = var(G).sqrt();
+    let sd_e1 = var(G + 1).sqrt();
+    let sd_s1 = var(G + 2).sqrt();
+    // Checks a fit must pass to be believed.
+    let at_bound = sig1 <= MIN_SIGMA_EV * 1.0001 || sig1 >= MAX_SIGMA_EV * 0.9999;
+    let inside = e1 > lo + 0.25 * sig1 && e1 < hi - 0.25 * sig1;
+    let significant = a1 > 4.0 * sd_a1 && a1 > 0.0;
+    let moved = (e1 - first.e_ev).abs() <= 3.0 * s1.max(sig1);
+    if at_bound || !inside || !significant || !moved || !sd_e1.is_finite() || sig1 < MIN_SIGMA_EV * 0.8 {
+        return None;
+    }
+    let rms = (y
+        .iter()
+        .zip(&e)
+        .map(|(y, e)| (model(&p, first.e_ev, *e) - y).powi(2))
+        .sum::<f64>()
+        / m as f64)
+        .sqrt();
+    let mean_noise = w.iter().map(|w| 1.0 / w.sqrt()).sum::<f64>() / m as f64;
+    let over = if mean_noise > 0.0 {
+        rms / mean_noise
+    } else {
+        f64::INFINITY
+    };
+    let mut warnings = Vec::new();
+    let mut quality = "good";
+    // A mismatch only matters when it is both well above the noise and a visible fraction of
+    // the transition: at high signal every real lineshape differs a little from a Gaussian.
+    if over > 4.0 && rms > 0.02 * a1 {
+        quality = "poor";
+        warnings.push(format!(
+            "the band-edge model leaves structure in the residual ({over:.1} x the noise): first exciton and width are less certain"
+        ));
+    }
+    if e1 - sig1 * 2.0 < e[0] {
+        warnings
+            .push("the scan does not reach the transparent red side of the first exciton: width less certain".into());
+    }
+    let mut transitions: Vec<Transition> = p[G..]
+        .chunks_exact(3)
+        .filter(|q| q[0] > 0.01 * a1)
+        .map(|q| Transition {
+            centre_nm: HC_EV_NM / q[1],
+            centre_ev: q[1],
+            hwhm_ev: q[2] * HWHM_PER_SIGMA,
+            height: q[0],
+        })
+        .collect();
+    transitions.sort_by(|a, b| a.centre_ev.total_cmp(&b.centre_ev));
+    let composite = model(&p, first.e_ev, e1);
+    // A shoulder: the composite keeps rising through the first transition's centre.
+    let slope = |x: f64| {
+        let h = 0.002;
+        model(&p, first.e_ev, x + h) - model(&p, first.e_ev, x - h)
+    };
+    let mut shoulder = true;
+    let steps = 40;
+    for s in 0..steps {
+        let x0 = e1 - sig1 + 2.0 * sig1 * s as f64 / steps as f64;
+        let x1 = x0 + 2.0 * sig1 / steps as f64;
+        if slope(x0) > 0.0 && slope(x1) <= 0.0 {
+            shoulder = false;
+            break;
+        }
+    }
+    Some(BandEdge {
+        method: "gaussian fit in energy",
+        quality,
+        centre_ev: e1,
+        centre_sd_ev: sd_e1,
+        hwhm_ev: sig1 * HWHM_PER_SIGMA,
+        hwhm_sd_ev: sd_s1 * HWHM_PER_SIGMA,
+        height: a1,
+        composite_abs: composite,
+        residual_rms: rms,
+        residual_over_noise: over,
+        fit_from_nm: HC_EV_NM / e[0],
+        fit_to_nm: HC_EV_NM / e[m - 1],
+        transitions,
+        shoulder,
+        warnings,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn gaussians(nm: &[f64], bands: &[(f64, f64, f64)], bg: f64) -> Trace {
+        let y = nm
+            .iter()
+            .map(|l| {
+                let e = HC_EV_NM / l;
+                bg + bands
+                    .iter()
+                    .map(|(a, c, s)| a * (-0.5 * ((e - c) / s).powi(2)).exp())
+                    .sum::<f64>()
+            })
+            .collect();
+        Trace { nm: nm.to_vec(), y }
+    }
+
+    #[test]
+    fn an_even_energy_grid_keeps_the_values_of_a_smooth_curve() {
+        let nm: Vec<f64> = (0..601).map(|i| 400.0 + 0.5 * i as f64).collect();
+        let t = gaussians(&nm, &[(0.5, 2.2, 0.05)], 0.01);
+        let g = energy_grid(&t).unwrap();
+        for (i, v) in g.y.iter().enumerate() {
+            let e = g.e(i as f64);
+            let want = 0.01 + 0.5 * (-0.5 * ((e - 2.2) / 0.05f64).powi(2)).exp();
+            assert!((v - want).abs() < 2e-3, "at {e} eV: {v} vs {want}");
+        }
+    }
+
+    #[test]
+    fn a_noiseless_two_transition_band_edge_is_fitted_to_its_truth() {
+        // Known truth: transitions at 2.10 and 2.28 eV, σ 50 and 70 meV.
+        let nm: Vec<f64> = (0..301).map(|i| 400.0 + i as f64).collect();
+        let t = gaussians(&nm, &[(0.30, 2.10, 0.05), (0.45, 2.28, 0.07)], 0.02);
+        let found = first_transition(&t, &BandEdgeHint::default(), 2.0);
+        let edge = found
+            .edge
+            .unwrap_or_else(|| panic!("no band edge: {:?}", found.warnings));
+        assert_eq!(edge.method, "gaussian fit in energy");
+        assert!((edge.centre_ev - 2.10).abs() < 0.003, "{edge:?}");
+        assert!((edge.hwhm_ev / (0.05 * HWHM_PER_SIGMA) - 1.0).abs() < 0.05, "{edge:?}");
+    }
+}
