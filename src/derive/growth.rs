@@ -129,6 +129,57 @@ pub struct Growth {
     pub mixed_calibrations: bool,
     /// Some of the values used are stale.
     pub stale: bool,
+    /// Aliquots whose first exciton moves blue, against the growth, by more than the two
+    /// readings' uncertainty: the crystals did not shrink; one of the two is misread (a
+    /// shoulder taken for a peak, a dilution error) and is worth a look.
+    pub jumps: Vec<Jump>,
+}
+
+/// A first exciton that moved against the growth direction.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct Jump {
+    pub aliquot_id: i64,
+    pub minutes: f64,
+    pub from_nm: f64,
+    pub to_nm: f64,
+    /// The uncertainty the move was judged against (nm, two standard deviations combined).
+    pub tolerance_nm: f64,
+}
+
+/// One reading's uncertainty of the first exciton (nm): a tenth of its half width, at least
+/// 1 nm, doubled for a shoulder (common practice for a fitted centre on real spectra; the
+/// fit's own standard deviation is usually smaller and too optimistic on real lineshapes).
+fn first_exciton_uncertainty_nm(a: &AliquotSummary) -> f64 {
+    let base = a.hwhm_nm.map(|h| 0.1 * h).unwrap_or(2.0).max(1.0);
+    if a.shoulder == Some(true) { 2.0 * base } else { base }
+}
+
+/// First excitons that step blue against the growth by more than their uncertainty.
+pub fn growth_jumps(timed: &[&AliquotSummary]) -> Vec<Jump> {
+    let mut pts: Vec<&AliquotSummary> = timed
+        .iter()
+        .copied()
+        .filter(|a| a.minutes.is_some() && a.first_exciton_nm.is_some())
+        .collect();
+    pts.sort_by(|a, b| a.minutes.unwrap_or(0.0).total_cmp(&b.minutes.unwrap_or(0.0)));
+    let mut out = Vec::new();
+    for w in pts.windows(2) {
+        let (a, b) = (w[0], w[1]);
+        let (Some(pa), Some(pb), Some(t)) = (a.first_exciton_nm, b.first_exciton_nm, b.minutes) else {
+            continue;
+        };
+        let tol = 2.0 * first_exciton_uncertainty_nm(a).hypot(first_exciton_uncertainty_nm(b));
+        if pb < pa - tol {
+            out.push(Jump {
+                aliquot_id: b.id,
+                minutes: t,
+                from_nm: pa,
+                to_nm: pb,
+                tolerance_nm: tol,
+            });
+        }
+    }
+    out
 }
 
 /// The growth picture from the timed aliquots that are not void, sized under one calibration
@@ -164,8 +215,10 @@ pub fn growth(series: &[AliquotSummary]) -> Growth {
         .iter()
         .filter_map(|a| Some((a.minutes?, a.size_dispersion_pct?)))
         .collect();
-    // A change smaller than this is not taken as a trend (common practice, no source).
-    let margin = 0.25;
+    // A change smaller than the readings' uncertainty is not a trend: at least 0.25 points of
+    // σ/D (common practice, no source) and a tenth of the value, which is what a 10 % width
+    // uncertainty carries into the dispersion.
+    let margin = |a: f64, b: f64| (0.1 * a.max(b)).max(0.25);
     let (regime, turn) = if disp.len() < 3 {
         ("too few points".to_string(), None)
     } else {
@@ -173,8 +226,9 @@ pub fn growth(series: &[AliquotSummary]) -> Growth {
             .iter()
             .enumerate()
             .fold((0, f64::MAX), |acc, (i, p)| if p.1 < acc.1 { (i, p.1) } else { acc });
-        let fell = disp[0].1 - disp[imin].1 > margin;
-        let rose = disp[disp.len() - 1].1 - disp[imin].1 > margin;
+        let fell = disp[0].1 - disp[imin].1 > margin(disp[0].1, disp[imin].1);
+        let last = disp[disp.len() - 1].1;
+        let rose = last - disp[imin].1 > margin(last, disp[imin].1);
         match (fell, rose) {
             (true, true) => ("focusing then defocusing".to_string(), Some(disp[imin].0)),
             (true, false) => ("focusing".to_string(), None),
@@ -190,6 +244,7 @@ pub fn growth(series: &[AliquotSummary]) -> Growth {
         calibration_version: version,
         mixed_calibrations: mixed,
         stale,
+        jumps: growth_jumps(&timed),
     }
 }
 
