@@ -669,3 +669,104 @@ fn batch_show_json_carries_the_reaction_yield() {
     assert!(y.get("yield_fraction").is_some());
     assert!(y["method"].as_str().unwrap().contains("limiting precursor"));
 }
+
+#[test]
+fn gradient_qy_runs_over_a_dilution_series_logged_as_aliquots() {
+    use cuvette::store::model;
+    let mut store = cuvette::store::Store::in_memory("Test Runner").unwrap();
+    let (px, shape) = pl_trace();
+    // Known truth: the sample gives `k` PL counts·nm per unit absorbance (in the PL cuvette),
+    // against the reference's 52000 / 0.05; same solvent as the reference (ethanol).
+    let k = 0.6 * 52000.0 / 0.05;
+    let area: f64 = shape.iter().sum::<f64>();
+    let ids = store
+        .write(|tx, who| {
+            calibration_with_reference(tx, who)?;
+            let _ = model::add_material(tx, who, "CdSe", "CdSe", None);
+            let b = model::insert_batch(
+                tx,
+                who,
+                &model::NewBatch {
+                    name: "dilutions".into(),
+                    material: "CdSe".into(),
+                    ..Default::default()
+                },
+            )?;
+            let mut ids = Vec::new();
+            for (i, scale) in [1.0, 0.75, 0.5, 0.3, 0.15].iter().enumerate() {
+                let a = model::insert_aliquot(
+                    tx,
+                    who,
+                    &model::NewAliquot {
+                        batch_id: b,
+                        minutes: None,
+                        stage: Some(format!("dilution {i}")),
+                        dilution_factor: 1.0,
+                        path_cm: 1.0,
+                        solvent: "ethanol".into(),
+                        taken_at: None,
+                    },
+                )?;
+                let (x, y0) = cdse_abs(0.0, 0.0);
+                let y: Vec<f64> = y0.iter().map(|v| v * scale).collect();
+                let a_ex = cuvette::spectra::analysis::interpolate(
+                    &cuvette::spectra::Trace {
+                        nm: x.clone(),
+                        y: y.clone(),
+                    },
+                    480.0,
+                )
+                .unwrap();
+                let py: Vec<f64> = shape.iter().map(|s| s * k * a_ex / area).collect();
+                for (kind, xs, ys, ex, path) in [
+                    ("abs", x.clone(), y.clone(), None, None),
+                    ("pl", px.clone(), py, Some(480.0), Some(1.0)),
+                ] {
+                    model::insert_spectrum(
+                        tx,
+                        who,
+                        &model::NewSpectrum {
+                            aliquot_id: Some(a),
+                            vial_id: None,
+                            kind: kind.into(),
+                            x_unit: "nm".into(),
+                            y_unit: None,
+                            x: xs,
+                            y: ys,
+                            file_name: format!("{kind}{i}.csv"),
+                            sha256: format!("{kind}{i}"),
+                            excitation_nm: ex,
+                            instrument: None,
+                            dilution_factor: None,
+                            path_cm: path,
+                            label: None,
+                        },
+                    )?;
+                }
+                engine::derive_aliquot(tx, a)?;
+                ids.push(a);
+            }
+            Ok(ids)
+        })
+        .unwrap();
+    let q = engine::gradient_qy(&store.conn, &ids).unwrap();
+    // Williams et al. 1983 with one reference point through the origin: Φ = 0.95 · 0.6. The
+    // spectra hold no scattering, so what is left (about +6 % today) is the absorbance
+    // analysis taking part of the exciton's red tail for background.
+    assert!((q.qy / (0.95 * 0.6) - 1.0).abs() < 0.08, "QY {} against 0.57", q.qy);
+    assert!(q.warnings.iter().any(|w| w.contains("one point")), "{:?}", q.warnings);
+    assert!(!q.warnings.iter().any(|w| w.contains("at least 4")), "{:?}", q.warnings);
+    let q3 = engine::gradient_qy(&store.conn, &ids[..3]).unwrap();
+    assert!(
+        q3.warnings.iter().any(|w| w.contains("at least 4")),
+        "{:?}",
+        q3.warnings
+    );
+    assert!(engine::gradient_qy(&store.conn, &[]).is_err());
+}
+
+fn calibration_with_reference(tx: &rusqlite::Connection, who: &str) -> cuvette::Result<()> {
+    let body = cal_with_reference();
+    cuvette::derive::calibration::save(tx, who, "reference for the test", &body)?;
+    Ok(())
+}

@@ -2108,3 +2108,64 @@ pub fn reaction_yield_of(conn: &Connection, batch_id: i64) -> Result<ReactionYie
     }
     Ok(v)
 }
+
+/// The gradient method (Williams, Winfield & Miller 1983) over a dilution series of one sample
+/// logged as aliquots: each one's current absorbance at excitation in the PL cuvette and PL
+/// integral, against the calibration's reference series (or its single point, through the
+/// origin). Fewer than four dilutions, solvents that differ or stale values are said.
+pub fn gradient_qy(conn: &Connection, aliquot_ids: &[i64]) -> Result<qy::QyResult> {
+    if aliquot_ids.is_empty() {
+        return crate::error::invalid("the gradient method needs the aliquots of a dilution series");
+    }
+    let first = crate::store::model::get_aliquot(conn, aliquot_ids[0])?;
+    let version = effective_calibration_version(conn, first.batch_id)?;
+    let cal = calibration::get(conn, version)?.body;
+    let r = cal
+        .qy_reference
+        .as_ref()
+        .ok_or_else(|| crate::error::Error::Invalid("no QY reference in the calibration".into()))?;
+    let mut points = Vec::new();
+    let mut warnings = Vec::new();
+    for id in aliquot_ids {
+        let a = crate::store::model::get_aliquot(conn, *id)?;
+        if !a.solvent.eq_ignore_ascii_case(&first.solvent) {
+            warnings.push(format!(
+                "aliquot {id} is in {}, the first in {}: one series, one solvent",
+                a.solvent, first.solvent
+            ));
+        }
+        let values = current_values(conn, *id)?;
+        let get = |q: &str| values.iter().find(|v| v.quantity == q);
+        let (Some(av), Some(iv)) = (
+            get("abs_at_excitation_pl").and_then(|v| v.value),
+            get("pl_integral").and_then(|v| v.value),
+        ) else {
+            return crate::error::invalid(format!(
+                "aliquot {id} has no absorbance at excitation in the PL cuvette and PL integral"
+            ));
+        };
+        if values.iter().any(|v| v.stale) {
+            warnings.push(format!("aliquot {id}'s values are stale: recompute"));
+        }
+        points.push((av, iv));
+    }
+    let (Some(n), Some(nr)) = (cal.refractive_index(&first.solvent), cal.refractive_index(&r.solvent)) else {
+        return crate::error::invalid("no refractive index for a solvent");
+    };
+    let mut q = if cal.qy_reference_dilutions.is_empty() {
+        qy::gradient_single_reference(&points, r.abs_at_excitation, r.integral, r.qy, n, nr)?
+    } else {
+        let reference: Vec<(f64, f64)> = cal
+            .qy_reference_dilutions
+            .iter()
+            .map(|p| (p.abs_at_excitation, p.integral))
+            .collect();
+        qy::gradient(&points, &reference, r.qy, n, nr)?
+    };
+    if cal.detector_correction.is_none() {
+        q.warnings.push(qy::NO_DETECTOR_CORRECTION.into());
+    }
+    q.warnings.extend(warnings);
+    q.method = format!("{} against {} ({})", q.method, r.dye, r.qy);
+    Ok(q)
+}
