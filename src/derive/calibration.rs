@@ -71,6 +71,23 @@ pub struct Calibration {
     pub lab_curves: BTreeMap<String, LabCurve>,
     #[serde(default)]
     pub lab_extinction: BTreeMap<String, LabExtinction>,
+    /// Homogeneous (single-crystal) HWHM in meV, by core, taken out of the first transition's
+    /// width in quadrature before it is turned into a size dispersion. Empty by default: off.
+    #[serde(default)]
+    pub homogeneous_hwhm_mev: BTreeMap<String, f64>,
+    /// The reference dye's dilution series for the gradient method (Williams, Winfield &
+    /// Miller 1983): absorbance at the excitation wavelength (in the PL cuvette) and integrated,
+    /// corrected PL of each dilution. Empty: the gradient method takes the single reference
+    /// point through the origin, with a warning.
+    #[serde(default)]
+    pub qy_reference_dilutions: Vec<QyDilution>,
+}
+
+/// One dilution of a gradient-method series.
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, PartialEq)]
+pub struct QyDilution {
+    pub abs_at_excitation: f64,
+    pub integral: f64,
 }
 
 impl Default for Calibration {
@@ -98,6 +115,8 @@ impl Default for Calibration {
             analysis: AnalysisSettings::default(),
             lab_curves: BTreeMap::new(),
             lab_extinction: BTreeMap::new(),
+            homogeneous_hwhm_mev: BTreeMap::new(),
+            qy_reference_dilutions: Vec::new(),
         }
     }
 }
@@ -116,6 +135,26 @@ fn lab_peak_span(c: &LabCurve) -> Option<(f64, f64)> {
 }
 
 impl Calibration {
+    /// The homogeneous HWHM (eV) to take out of a core's width, if the lab set one.
+    pub fn homogeneous_hwhm_ev(&self, core: &str) -> Option<f64> {
+        self.homogeneous_hwhm_mev
+            .iter()
+            .find(|(k, _)| k.eq_ignore_ascii_case(core))
+            .map(|(_, v)| *v / 1000.0)
+    }
+
+    /// Sets (or, with `None`, switches off) the homogeneous HWHM subtracted for a core.
+    pub fn set_homogeneous_hwhm(&mut self, core: &str, mev: Option<f64>) {
+        match mev {
+            Some(v) => {
+                self.homogeneous_hwhm_mev.insert(core.to_string(), v);
+            }
+            None => {
+                self.homogeneous_hwhm_mev.remove(core);
+            }
+        }
+    }
+
     pub fn refractive_index(&self, solvent: &str) -> Option<f64> {
         self.solvent_index
             .iter()
@@ -292,6 +331,24 @@ impl Calibration {
             }
             if d.factor.iter().any(|f| !(*f > 0.0) || !f.is_finite()) {
                 return invalid("detector correction factors must be positive");
+            }
+        }
+        for (core, h) in &self.homogeneous_hwhm_mev {
+            if !(h.is_finite() && *h > 0.0 && *h < 500.0) {
+                return invalid(format!(
+                    "the homogeneous HWHM for {core} must be above 0 and below 500 meV, got {h}"
+                ));
+            }
+        }
+        for p in &self.qy_reference_dilutions {
+            if !(p.abs_at_excitation > 0.0
+                && p.abs_at_excitation.is_finite()
+                && p.integral >= 0.0
+                && p.integral.is_finite())
+            {
+                return invalid(
+                    "each reference dilution needs an absorbance above zero and an integral of zero or more",
+                );
             }
         }
         for (s, n) in &self.solvent_index {

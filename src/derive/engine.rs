@@ -6,7 +6,7 @@
 //! history and, in a dry run, writes nothing.
 
 use super::calibration::{self, Calibration};
-use super::{extinction, qy, sizing};
+use super::{extinction, qy, sizing, solvents};
 use crate::error::Result;
 use crate::spectra::analysis::{self, AbsResult, PlResult};
 use crate::spectra::{RawSpectrum, Trace};
@@ -49,6 +49,10 @@ fn relevant(cal: &Calibration, core: &str, solvent: &str, has_pl: bool) -> serde
         "analysis": cal.analysis,
         "n": cal.refractive_index(solvent),
     });
+    // Added only when set, so labs without these settings keep the hashes they had.
+    if let Some(h) = cal.homogeneous_hwhm_ev(core) {
+        v["homogeneous_hwhm_ev"] = serde_json::json!(h);
+    }
     if has_pl {
         v["qy_reference"] = serde_json::to_value(&cal.qy_reference).unwrap_or_default();
         v["detector"] = serde_json::to_value(&cal.detector_correction).unwrap_or_default();
@@ -60,9 +64,17 @@ fn relevant(cal: &Calibration, core: &str, solvent: &str, has_pl: bool) -> serde
 }
 
 /// The hash of everything an aliquot's derived values depend on.
-pub fn inputs_hash(a: &AliquotRow, core: &str, spectra: &[SpectrumMeta], cal: &Calibration) -> String {
+pub fn inputs_hash(
+    a: &AliquotRow,
+    core: &str,
+    spectra: &[SpectrumMeta],
+    cal: &Calibration,
+    ctx: &BatchContext,
+) -> String {
     let has_pl = spectra.iter().any(|s| s.kind == "pl");
-    inputs_hash_with(a, core, spectra, &relevant(cal, core, &a.solvent, has_pl).to_string())
+    let mut rel = relevant(cal, core, &a.solvent, has_pl).to_string();
+    rel.push_str(&ctx.hash_part());
+    inputs_hash_with(a, core, spectra, &rel)
 }
 
 /// As [`inputs_hash`], with the calibration part already rendered (recompute caches it).
@@ -76,6 +88,11 @@ fn inputs_hash_with(a: &AliquotRow, core: &str, spectra: &[SpectrumMeta], releva
     ));
     for s in spectra {
         h.update(format!("{}|{}|{:?}|{}|", s.kind, s.sha256, s.excitation_nm, s.x_unit));
+        // A spectrum's own cuvette (the PL cuvette's path and dilution) counts when recorded;
+        // left out when not, so older hashes stay as they were.
+        if s.path_cm.is_some() || s.dilution_factor.is_some() {
+            h.update(format!("cuvette {:?} {:?}|", s.path_cm, s.dilution_factor));
+        }
     }
     h.update(relevant);
     h.finalize().iter().take(16).map(|b| format!("{b:02x}")).collect()
@@ -88,6 +105,10 @@ pub struct SpectrumMeta {
     pub sha256: String,
     pub excitation_nm: Option<f64>,
     pub x_unit: String,
+    /// The spectrum's own cuvette, when recorded (schema 0005): for a PL spectrum, the PL
+    /// cuvette's path and dilution.
+    pub path_cm: Option<f64>,
+    pub dilution_factor: Option<f64>,
 }
 
 impl From<&SpectrumRow> for SpectrumMeta {
@@ -97,8 +118,82 @@ impl From<&SpectrumRow> for SpectrumMeta {
             sha256: s.sha256.clone(),
             excitation_nm: s.excitation_nm,
             x_unit: s.x_unit.clone(),
+            path_cm: s.path_cm,
+            dilution_factor: s.dilution_factor,
         }
     }
+}
+
+/// What an aliquot's batch adds to its values: the shell its crystals carry and, for a batch
+/// grown on another batch's cores, that parent's core size.
+#[derive(Debug, Clone, Default, PartialEq, Serialize)]
+pub struct BatchContext {
+    pub material: String,
+    pub shell: Option<String>,
+    pub parent_core: Option<ParentCore>,
+}
+
+/// The core a shelled batch grew on: its parent batch's product.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ParentCore {
+    pub batch_id: i64,
+    pub aliquot_id: Option<i64>,
+    pub diameter_nm: Option<f64>,
+    pub curve: Option<String>,
+}
+
+impl BatchContext {
+    /// The part of the inputs hash the batch context gives: empty for a plain core batch, so
+    /// those hashes are as they were.
+    fn hash_part(&self) -> String {
+        match &self.shell {
+            None => String::new(),
+            Some(sh) => format!(
+                "|shell {sh}|parent {:?}",
+                self.parent_core
+                    .as_ref()
+                    .map(|p| (p.batch_id, p.aliquot_id, p.diameter_nm))
+            ),
+        }
+    }
+}
+
+/// Reads the batch context of a batch: its material's shell and, when shelled, the parent
+/// batch's product diameter.
+pub fn batch_context(conn: &Connection, batch_id: i64) -> Result<BatchContext> {
+    let b = crate::store::model::get_batch(conn, batch_id)?;
+    let shell = crate::store::model::material_by_name(conn, &b.material)?
+        .shell
+        .filter(|s| !s.trim().is_empty());
+    let mut ctx = BatchContext {
+        material: b.material.clone(),
+        shell,
+        parent_core: None,
+    };
+    if ctx.shell.is_none() {
+        return Ok(ctx);
+    }
+    if let (Some(pid), Some("shell") | None) = (b.parent_batch_id, b.parent_relation.as_deref()) {
+        let aliquot: Option<i64> = conn
+            .query_row("SELECT aliquot_id FROM batch_product WHERE batch_id = ?1", [pid], |r| {
+                r.get(0)
+            })
+            .optional()?
+            .flatten();
+        let d = match aliquot {
+            Some(aid) => current_values(conn, aid)?
+                .into_iter()
+                .find(|v| v.quantity == "diameter_nm"),
+            None => None,
+        };
+        ctx.parent_core = Some(ParentCore {
+            batch_id: pid,
+            aliquot_id: aliquot,
+            diameter_nm: d.as_ref().and_then(|v| v.value),
+            curve: d.map(|v| v.method),
+        });
+    }
+    Ok(ctx)
 }
 
 pub fn trace_of(s: &SpectrumRow) -> Result<Trace> {
@@ -126,7 +221,12 @@ pub const SPECTRAL: &[&str] = &[
     "hwhm_mev",
     "shoulder",
     "abs_400nm",
+    "abs_400nm_corrected",
+    "abs_350nm_corrected",
     "abs_at_excitation",
+    "abs_at_excitation_measured",
+    "abs_at_excitation_sd",
+    "abs_at_pl_band",
     "pl_peak_nm",
     "pl_fwhm_nm",
     "pl_fwhm_mev",
@@ -208,8 +308,36 @@ pub fn absorbance_values(t: &Trace, cal: &Calibration) -> Result<(Vec<Derived>, 
             "interpolated at 400 nm",
             vec![],
         ),
+        corrected_at(t, &r, 400.0, "abs_400nm_corrected"),
+        corrected_at(t, &r, 350.0, "abs_350nm_corrected"),
     ];
     Ok((v, r))
+}
+
+/// The absorbance at `nm` with the analysis's fitted scattering background taken off.
+fn corrected_at(t: &Trace, r: &AbsResult, nm: f64, quantity: &str) -> Derived {
+    let raw = analysis::interpolate(t, nm);
+    let bg = r.background.at(nm);
+    let mut w = Vec::new();
+    if let Some(a) = raw
+        && a > 0.0
+        && bg > 0.2 * a
+    {
+        w.push(format!(
+            "scattering is {:.0} % of the absorbance at {nm:.0} nm: the corrected value rests on the background fit",
+            100.0 * bg / a
+        ));
+    }
+    d(
+        quantity,
+        raw.map(|a| a - bg),
+        "absorbance",
+        &format!(
+            "interpolated at {nm:.0} nm, scattering background ({}) removed",
+            r.background.model
+        ),
+        w,
+    )
 }
 
 /// Both stages for a lone absorbance trace (a file not in the lab, or a vial's own
@@ -234,7 +362,7 @@ pub fn derive_from_trace(
         voided: false,
         void_why: None,
     };
-    let (more, _, _) = derive_values(&a, core, &[], &values, cal);
+    let (more, _, _) = derive_values(&a, core, &[], &values, cal, &BatchContext::default());
     values.extend(more);
     Ok((r, values))
 }
@@ -266,14 +394,36 @@ pub fn analyse(spectra: &[SpectrumRow], cal: &Calibration) -> (Vec<Derived>, Opt
     let mut pl_res = None;
     if let Some(s) = pl_spec {
         if let Some(ex) = s.excitation_nm {
-            let a_ex = abs_trace.as_ref().and_then(|t| analysis::interpolate(t, ex));
-            out.push(d(
-                "abs_at_excitation",
-                a_ex,
-                "absorbance",
-                &format!("interpolated at {ex} nm"),
-                vec![],
-            ));
+            // Scattered light is not absorbed: the fitted background comes off (issue 12).
+            let measured = abs_trace.as_ref().and_then(|t| analysis::interpolate(t, ex));
+            let (corrected, method, sd) = match (&abs_res, measured) {
+                (Some(r), Some(m)) => (
+                    Some(m - r.background.at(ex)),
+                    format!(
+                        "interpolated at {ex} nm, scattering background ({}) removed; absorbance cuvette",
+                        r.background.model
+                    ),
+                    Some(r.noise),
+                ),
+                _ => (None, format!("interpolated at {ex} nm"), None),
+            };
+            out.push(d("abs_at_excitation", corrected, "absorbance", &method, vec![]));
+            if measured.is_some() {
+                out.push(d(
+                    "abs_at_excitation_measured",
+                    measured,
+                    "absorbance",
+                    &format!("interpolated at {ex} nm, as measured"),
+                    vec![],
+                ));
+                out.push(d(
+                    "abs_at_excitation_sd",
+                    sd,
+                    "absorbance",
+                    "one standard deviation: the absorbance analysis's point noise",
+                    vec![],
+                ));
+            }
         }
         let traced = trace_of(s).and_then(|t| match &cal.detector_correction {
             Some(c) => analysis::apply_correction(
@@ -296,11 +446,37 @@ pub fn analyse(spectra: &[SpectrumRow], cal: &Calibration) -> (Vec<Derived>, Opt
                 out.push(d("pl_fwhm_nm", p.pl_fwhm_nm, "nm", &method, vec![]));
                 out.push(d("pl_fwhm_mev", p.pl_fwhm_mev, "meV", &method, vec![]));
                 out.push(d("pl_integral", Some(p.pl_integral), "counts nm", &method, vec![]));
+                if let (Some(t), Some(r), Some(peak)) = (&abs_trace, &abs_res, p.pl_peak_nm) {
+                    out.push(abs_over_band(t, r, peak, p.pl_fwhm_nm));
+                }
                 pl_res = Some(p);
             }
         }
     }
     (out, abs_res, pl_res)
+}
+
+/// The largest scatter-corrected absorbance over the PL band (peak ± half its FWHM), in the
+/// absorbance cuvette: what re-absorbs the emission.
+fn abs_over_band(t: &Trace, r: &AbsResult, peak_nm: f64, fwhm_nm: Option<f64>) -> Derived {
+    let half = fwhm_nm.filter(|f| f.is_finite() && *f > 0.0).unwrap_or(20.0) / 2.0;
+    let v = (0..=20)
+        .filter_map(|i| {
+            let nm = peak_nm - half + 2.0 * half * i as f64 / 20.0;
+            analysis::interpolate(t, nm).map(|a| a - r.background.at(nm))
+        })
+        .fold(None, |m: Option<f64>, a| Some(m.map_or(a, |m| m.max(a))));
+    d(
+        "abs_at_pl_band",
+        v,
+        "absorbance",
+        &format!(
+            "largest absorbance over the PL band {:.0}-{:.0} nm, scattering background removed; absorbance cuvette",
+            peak_nm - half,
+            peak_nm + half
+        ),
+        vec![],
+    )
 }
 
 /// Stage two: sizes, extinction, concentration, Stokes shift and quantum yield from the stage-one
@@ -311,11 +487,41 @@ pub fn derive_values(
     metas: &[SpectrumMeta],
     stage1: &[Derived],
     cal: &Calibration,
+    ctx: &BatchContext,
 ) -> (Vec<Derived>, Option<sizing::Sizing>, Option<extinction::Extinction>) {
     let mut out = Vec::new();
     let mut sizing_res = None;
     let mut ext_res = None;
     let peak = value_of(stage1, "first_exciton_nm");
+    // A shelled crystal's first exciton is not its core's: the core's size comes from the
+    // batch it grew on, and the core curve's reading of this peak says so beside it.
+    let core_from_parent = ctx.parent_core.as_ref().and_then(|p| p.diameter_nm.map(|d| (p, d)));
+    if let Some(sh) = &ctx.shell {
+        match core_from_parent {
+            Some((p, dc)) => out.push(d(
+                "core_diameter_nm",
+                Some(dc),
+                "nm",
+                &format!(
+                    "core from parent batch {}'s product (aliquot {}), {}",
+                    p.batch_id,
+                    p.aliquot_id.map(|i| i.to_string()).unwrap_or("-".into()),
+                    p.curve.clone().unwrap_or_default()
+                ),
+                vec![],
+            )),
+            None => out.push(d(
+                "core_diameter_nm",
+                None,
+                "nm",
+                "none",
+                vec![format!(
+                    "a {} batch with a {sh} shell and no sized parent core batch: record the core batch as its parent (relation shell)",
+                    ctx.material
+                )],
+            )),
+        }
+    }
     if let Some(peak) = peak {
         match cal.curves.get(core) {
             None => out.push(d(
@@ -328,66 +534,73 @@ pub fn derive_values(
             Some(curve) => match cal.size(curve, core, peak) {
                 Err(e) => out.push(d("diameter_nm", None, "nm", curve, vec![e.to_string()])),
                 Ok(sz) => {
-                    out.push(d(
-                        "diameter_nm",
-                        Some(sz.diameter_nm),
-                        "nm",
-                        &sz.curve,
-                        sz.warnings.clone(),
-                    ));
+                    let mut size_warnings = sz.warnings.clone();
+                    if let Some(sh) = &ctx.shell {
+                        size_warnings.push(format!(
+                            "a {core} core curve applied to a shelled crystal ({}): the {sh} shell shifts the first exciton, so {:.2} nm is not the core's size{}",
+                            ctx.material,
+                            sz.diameter_nm,
+                            match core_from_parent {
+                                Some((p, dc)) => format!("; the core is {dc:.2} nm from parent batch {}", p.batch_id),
+                                None => String::new(),
+                            }
+                        ));
+                    }
+                    out.push(d("diameter_nm", Some(sz.diameter_nm), "nm", &sz.curve, size_warnings));
                     if let Some(e) = sz.edge_nm {
                         out.push(d("edge_nm", Some(e), "nm", &sz.curve, vec![]));
                     }
-                    // σ from HWHM through the curve's slope, assuming a Gaussian (σ = HWHM /
-                    // √(2 ln 2)); an upper bound, since the width also holds homogeneous
-                    // broadening (common practice).
-                    let disp = value_of(stage1, "hwhm_nm")
-                        .filter(|_| sz.slope.is_finite())
-                        .map(|h| 100.0 * sz.slope.abs() * h / (2.0f64.ln() * 2.0).sqrt() / sz.diameter_nm);
-                    out.push(d(
-                        "size_dispersion_pct",
-                        disp,
-                        "%",
-                        &format!("{}: σ/D from HWHM x dD/dλ (upper bound)", sz.curve),
-                        vec![],
-                    ));
+                    out.push(dispersion_value(stage1, core, peak, curve, &sz, cal));
                     let hwhm_ev = value_of(stage1, "hwhm_mev").map(|m| m / 1000.0);
+                    // The extinction law takes the core's diameter: from the parent batch for a
+                    // shelled crystal, when known.
+                    let d_eps = core_from_parent.map(|(_, dc)| dc).unwrap_or(sz.diameter_nm);
                     if let Some(model) = cal.extinction.get(core) {
-                        match cal.extinction(model, core, sz.diameter_nm, peak, hwhm_ev) {
+                        match cal.extinction(model, core, d_eps, peak, hwhm_ev) {
                             Err(e) => out.push(d("extinction_m1cm1", None, "M^-1 cm^-1", model, vec![e.to_string()])),
                             Ok(ex) => {
-                                let a_at = if (ex.at_nm - peak).abs() < 1e-9 {
-                                    value_of(stage1, "first_exciton_abs")
-                                } else if (ex.at_nm - 400.0).abs() < 1e-9 {
-                                    value_of(stage1, "abs_400nm")
-                                } else {
-                                    None
-                                };
+                                let mut ew = ex.warnings.clone();
+                                if core_from_parent.is_none() {
+                                    ew.extend(pairing(cal, curve, model, core, peak, sz.diameter_nm, hwhm_ev));
+                                }
+                                if ctx.shell.is_some() && (ex.at_nm - peak).abs() > 1e-9 {
+                                    ew.push(format!(
+                                        "a core extinction law at {:.0} nm applied to a core/shell crystal: the shell absorbs there too, so the concentration is high",
+                                        ex.at_nm
+                                    ));
+                                }
+                                let (a_at, mut cw) = absorbance_for(stage1, &ex, peak);
                                 out.push(d(
                                     "extinction_m1cm1",
                                     Some(ex.extinction_m1cm1),
                                     "M^-1 cm^-1",
                                     &format!("{model} at {:.0} nm", ex.at_nm),
-                                    ex.warnings.clone(),
+                                    ew,
                                 ));
-                                let (c, w) = match a_at {
+                                let c = match a_at {
                                     Some(av) => match extinction::concentration_molar(
                                         av,
                                         ex.extinction_m1cm1,
                                         a.path_cm,
                                         a.dilution_factor,
                                     ) {
-                                        Ok(c) => (Some(c), vec![]),
-                                        Err(e) => (None, vec![e.to_string()]),
+                                        Ok(c) => Some(c),
+                                        Err(e) => {
+                                            cw.push(e.to_string());
+                                            None
+                                        }
                                     },
-                                    None => (None, vec![format!("no absorbance measured at {:.0} nm", ex.at_nm)]),
+                                    None => {
+                                        cw.push(format!("no absorbance measured at {:.0} nm", ex.at_nm));
+                                        None
+                                    }
                                 };
                                 out.push(d(
                                     "concentration_molar",
                                     c,
                                     "M",
                                     &format!("Beer-Lambert with {model}, undiluted"),
-                                    w,
+                                    cw,
                                 ));
                                 ext_res = Some(ex);
                             }
@@ -418,22 +631,193 @@ pub fn derive_values(
         ));
     }
     if let (Some(pl), Some(integral)) = (pl_meta, value_of(stage1, "pl_integral")) {
-        out.push(qy_value(
-            a,
-            pl.excitation_nm,
-            value_of(stage1, "abs_at_excitation"),
-            integral,
-            cal,
-        ));
+        let ex_abs = pl.excitation_nm.and_then(|ex| {
+            let measured = value_of(stage1, "abs_at_excitation_measured");
+            let corrected = value_of(stage1, "abs_at_excitation")?;
+            // Values analysed before the scatter correction have no measured twin: then the
+            // stored value is the measured one and no background is known.
+            let (m, bg) = match measured {
+                Some(m) => (m, m - corrected),
+                None => (corrected, 0.0),
+            };
+            let sd = value_of(stage1, "abs_at_excitation_sd").unwrap_or(f64::NAN);
+            let cuv = qy::Cuvettes {
+                abs_path_cm: a.path_cm,
+                abs_dilution: a.dilution_factor,
+                pl_path_cm: pl.path_cm,
+                pl_dilution: pl.dilution_factor,
+            };
+            Some(qy::excitation_absorbance(ex, m, bg, sd, cuv).map(|mut e| {
+                if measured.is_none() {
+                    e.warnings.push(
+                        "analysed before the scatter correction: the absorbance at excitation includes scattering (recompute --all)"
+                            .into(),
+                    );
+                }
+                e
+            }))
+        });
+        let ex_abs = match ex_abs {
+            Some(Ok(e)) => {
+                out.push(d(
+                    "abs_at_excitation_pl",
+                    Some(e.in_pl_cuvette),
+                    "absorbance",
+                    &format!(
+                        "scatter-corrected, in the PL cuvette ({} cm{}, dilution {})",
+                        e.pl_path_cm,
+                        if e.pl_path_recorded { "" } else { ", assumed" },
+                        e.pl_dilution
+                    ),
+                    e.warnings.clone(),
+                ));
+                Some(e)
+            }
+            Some(Err(err)) => {
+                out.push(d(
+                    "abs_at_excitation_pl",
+                    None,
+                    "absorbance",
+                    "none",
+                    vec![err.to_string()],
+                ));
+                None
+            }
+            None => None,
+        };
+        let scale = qy::Cuvettes {
+            abs_path_cm: a.path_cm,
+            abs_dilution: a.dilution_factor,
+            pl_path_cm: pl.path_cm,
+            pl_dilution: pl.dilution_factor,
+        }
+        .scale();
+        let band = value_of(stage1, "abs_at_pl_band")
+            .zip(value_of(stage1, "pl_peak_nm"))
+            .map(|(a_band, pk)| (a_band * scale, pk));
+        out.push(qy_value(a, pl.excitation_nm, ex_abs.as_ref(), band, integral, cal));
     }
     (out, sizing_res, ext_res)
 }
 
+/// The absorbance an extinction coefficient goes with, and what to say about it.
+fn absorbance_for(stage1: &[Derived], ex: &extinction::Extinction, peak: f64) -> (Option<f64>, Vec<String>) {
+    let mut w = Vec::new();
+    if (ex.at_nm - peak).abs() < 1e-9 {
+        return (value_of(stage1, "first_exciton_abs"), w);
+    }
+    let (raw_q, corr_q) = if (ex.at_nm - 400.0).abs() < 1e-9 {
+        ("abs_400nm", "abs_400nm_corrected")
+    } else if (ex.at_nm - 350.0).abs() < 1e-9 {
+        ("abs_350nm", "abs_350nm_corrected")
+    } else {
+        return (None, w);
+    };
+    let raw = value_of(stage1, raw_q);
+    if let Some(c) = find_value(stage1, corr_q) {
+        w.extend(c.warnings.iter().cloned());
+    }
+    let corrected = value_of(stage1, corr_q);
+    // The measured value decides trust: stray light and detector range limit it, whatever the
+    // background is.
+    let measured = raw.or(corrected);
+    if let Some(m) = measured
+        && m > extinction::MAX_TRUSTED_ABS_SHORT
+    {
+        w.push(format!(
+            "absorbance {m:.2} at {:.0} nm is above {}: too high to trust (stray light, detector range); dilute and measure again",
+            ex.at_nm,
+            extinction::MAX_TRUSTED_ABS_SHORT
+        ));
+    }
+    match corrected {
+        Some(c) if c <= 0.0 => {
+            w.push(format!(
+                "the scattering background at {:.0} nm is as large as the measured absorbance{}: the scatter correction cannot be trusted there, so no concentration",
+                ex.at_nm,
+                raw.map(|r| format!(" ({r:.3})")).unwrap_or_default()
+            ));
+            (None, w)
+        }
+        Some(c) => (Some(c), w),
+        None => {
+            if raw.is_some() {
+                w.push(format!(
+                    "no scatter-corrected absorbance at {:.0} nm (analysed before the correction): the measured value is used (recompute --all)",
+                    ex.at_nm
+                ));
+            }
+            (raw, w)
+        }
+    }
+}
+
+/// Says when the diameter and the extinction law come from different calibrations, and by
+/// how much the concentration would move with the law's own diameter.
+fn pairing(
+    cal: &Calibration,
+    curve: &str,
+    model: &str,
+    core: &str,
+    peak: f64,
+    d_nm: f64,
+    hwhm_ev: Option<f64>,
+) -> Option<String> {
+    let own_curve = extinction::paired_curves(model)?.into_iter().next()?;
+    let own = cal.size(&own_curve, core, peak).ok().map(|s| s.diameter_nm);
+    let eps = |dd: f64| {
+        cal.extinction(model, core, dd, peak, hwhm_ev)
+            .map(|e| e.extinction_m1cm1)
+            .unwrap_or(f64::NAN)
+    };
+    extinction::pairing_warning(curve, model, d_nm, own, &eps)
+}
+
+/// σ/D from the first transition's width through the curve's slope (an estimate).
+fn dispersion_value(
+    stage1: &[Derived],
+    core: &str,
+    peak: f64,
+    curve: &str,
+    sz: &sizing::Sizing,
+    cal: &Calibration,
+) -> Derived {
+    let hom = cal.homogeneous_hwhm_ev(core);
+    let method = format!(
+        "{}: σ/D from the first transition's HWHM x dD/dE (an estimate){}",
+        sz.curve,
+        match hom {
+            Some(h) => format!(", homogeneous HWHM {:.0} meV taken out in quadrature", h * 1000.0),
+            None => String::new(),
+        }
+    );
+    let Some(hwhm_ev) = value_of(stage1, "hwhm_mev").map(|m| m / 1000.0) else {
+        return d("size_dispersion_pct", None, "%", &method, vec![]);
+    };
+    let size_at = |l: f64| cal.size(curve, core, l).ok().map(|s| s.diameter_nm);
+    match sizing::size_dispersion(peak, hwhm_ev, hom, &size_at) {
+        Ok(disp) => d(
+            "size_dispersion_pct",
+            Some(disp.sigma_over_d_pct),
+            "%",
+            &method,
+            disp.warnings,
+        ),
+        Err(e) => d("size_dispersion_pct", None, "%", &method, vec![e.to_string()]),
+    }
+}
+
 /// Computes an aliquot's derived values from its spectra under one calibration. Pure.
-pub fn compute(a: &AliquotRow, core: &str, spectra: &[SpectrumRow], cal: &Calibration) -> Computation {
+pub fn compute(
+    a: &AliquotRow,
+    core: &str,
+    spectra: &[SpectrumRow],
+    cal: &Calibration,
+    ctx: &BatchContext,
+) -> Computation {
     let (mut values, absorbance, pl) = analyse(spectra, cal);
     let metas: Vec<SpectrumMeta> = spectra.iter().map(SpectrumMeta::from).collect();
-    let (more, sizing, extinction) = derive_values(a, core, &metas, &values, cal);
+    let (more, sizing, extinction) = derive_values(a, core, &metas, &values, cal, ctx);
     values.extend(more);
     Computation {
         values,
@@ -444,7 +828,14 @@ pub fn compute(a: &AliquotRow, core: &str, spectra: &[SpectrumRow], cal: &Calibr
     }
 }
 
-fn qy_value(a: &AliquotRow, excitation: Option<f64>, a_ex: Option<f64>, integral: f64, cal: &Calibration) -> Derived {
+fn qy_value(
+    a: &AliquotRow,
+    excitation: Option<f64>,
+    a_ex: Option<&qy::ExcitationAbsorbance>,
+    pl_band: Option<(f64, f64)>,
+    integral: f64,
+    cal: &Calibration,
+) -> Derived {
     let method = "relative, single point (Brouwer 2011)";
     let Some(r) = &cal.qy_reference else {
         return d(
@@ -482,7 +873,16 @@ fn qy_value(a: &AliquotRow, excitation: Option<f64>, a_ex: Option<f64>, integral
             vec!["no refractive index for a solvent".into()],
         );
     };
-    match qy::single_point(integral, a_ex, r.integral, r.abs_at_excitation, r.qy, n, nr) {
+    match qy::single_point_with_sd(
+        integral,
+        a_ex.in_pl_cuvette,
+        a_ex.sd,
+        r.integral,
+        r.abs_at_excitation,
+        r.qy,
+        n,
+        nr,
+    ) {
         Err(e) => d("qy", None, "fraction", method, vec![e.to_string()]),
         Ok(q) => {
             let mut w = q.warnings;
@@ -491,6 +891,18 @@ fn qy_value(a: &AliquotRow, excitation: Option<f64>, a_ex: Option<f64>, integral
                     "sample excited at {ex} nm, reference at {} nm",
                     r.excitation_nm
                 ));
+            }
+            if let Some(dye) = solvents::dye(&r.dye) {
+                w.extend(solvents::excitation_warning(dye, r.excitation_nm));
+                if (ex - r.excitation_nm).abs() > 1e-9 {
+                    w.extend(solvents::excitation_warning(dye, ex));
+                }
+            }
+            if cal.detector_correction.is_none() {
+                w.push(qy::NO_DETECTOR_CORRECTION.into());
+            }
+            if let Some((a_band, pk)) = pl_band {
+                w.extend(qy::emission_inner_filter(a_band, pk));
             }
             d(
                 "qy",
@@ -660,12 +1072,59 @@ pub fn derive_aliquot(tx: &Connection, aliquot_id: i64) -> Result<Vec<Derived>> 
     let cal = calibration::get(tx, version)?.body;
     let spectra = crate::store::model::spectra_of_aliquot(tx, aliquot_id)?;
     let metas: Vec<SpectrumMeta> = spectra.iter().map(SpectrumMeta::from).collect();
-    let hash = inputs_hash(&a, &batch.core, &metas, &cal);
+    let ctx = batch_context(tx, a.batch_id)?;
+    let hash = inputs_hash(&a, &batch.core, &metas, &cal, &ctx);
     let stage1 = analysis_hash(&metas, &cal);
-    let comp = compute(&a, &batch.core, &spectra, &cal);
+    let comp = compute(&a, &batch.core, &spectra, &cal, &ctx);
     let old = current_values(tx, aliquot_id)?;
     apply(tx, aliquot_id, version, &stage1, &hash, &comp.values, &old)?;
+    follow_parent_cores(tx, Some(a.batch_id))?;
     Ok(comp.values)
+}
+
+/// Aliquots of shelled batches take their core's size from their parent batch's product: when
+/// that moves (a new or corrected aliquot, another product), they are derived again. With
+/// `parent` None every shelled batch is looked at (after a recompute). Returns how many
+/// aliquots were derived again.
+pub fn follow_parent_cores(tx: &Connection, parent: Option<i64>) -> Result<usize> {
+    let children: Vec<i64> = {
+        let mut st = tx.prepare_cached(
+            "SELECT b.id FROM batch b JOIN material m ON m.id = b.material_id
+              WHERE m.shell IS NOT NULL AND m.shell <> '' AND b.parent_batch_id IS NOT NULL
+                AND (?1 IS NULL OR b.parent_batch_id = ?1) ORDER BY b.id",
+        )?;
+        st.query_map([parent], |r| r.get(0))?.collect::<rusqlite::Result<_>>()?
+    };
+    let mut n = 0;
+    for child in children {
+        let batch = crate::store::model::get_batch(tx, child)?;
+        let ctx = batch_context(tx, child)?;
+        let version = effective_calibration_version(tx, child)?;
+        let cal = calibration::get(tx, version)?.body;
+        for a in crate::store::model::all_aliquots_of(tx, child)? {
+            let old = current_values(tx, a.id)?;
+            if old.is_empty() {
+                continue;
+            }
+            let metas: Vec<SpectrumMeta> = crate::store::model::spectra_of_aliquot(tx, a.id)?
+                .iter()
+                .map(SpectrumMeta::from)
+                .collect();
+            let hash = inputs_hash(&a, &batch.core, &metas, &cal, &ctx);
+            let moved = old
+                .iter()
+                .any(|o| !SPECTRAL.contains(&o.quantity.as_str()) && o.inputs_hash != hash);
+            if moved {
+                derive_aliquot(tx, a.id)?;
+                n += 1;
+            }
+        }
+        if n > 0 {
+            // The child's product may have moved with its core: its vials' estimates follow.
+            refresh_vials(tx, Some(child), false)?;
+        }
+    }
+    Ok(n)
 }
 
 /// A value that moves in a recompute.
@@ -741,6 +1200,8 @@ struct Scanner {
     cals: BTreeMap<i64, Calibration>,
     relevant_cache: HashMap<(i64, String, String, bool), String>,
     analysis_cache: HashMap<(i64, bool), String>,
+    /// Each batch's context (shell, parent core), read once per scan.
+    contexts: HashMap<i64, BatchContext>,
 }
 
 impl Scanner {
@@ -751,6 +1212,7 @@ impl Scanner {
             cals: BTreeMap::new(),
             relevant_cache: HashMap::new(),
             analysis_cache: HashMap::new(),
+            contexts: HashMap::new(),
         })
     }
 
@@ -775,7 +1237,7 @@ impl Scanner {
         let mut metas_by: HashMap<i64, Vec<SpectrumMeta>> = HashMap::new();
         {
             let mut st = conn.prepare_cached(
-                "SELECT aliquot_id, kind, sha256, excitation_nm, x_unit FROM spectrum INDEXED BY spectrum_meta WHERE aliquot_id BETWEEN ?1 AND ?2 ORDER BY aliquot_id, id",
+                "SELECT aliquot_id, kind, sha256, excitation_nm, x_unit, path_cm, dilution_factor FROM spectrum INDEXED BY spectrum_meta_cuvette WHERE aliquot_id BETWEEN ?1 AND ?2 ORDER BY aliquot_id, id",
             )?;
             let mut rows = st.query(params![lo, hi])?;
             while let Some(r) = rows.next()? {
@@ -784,6 +1246,8 @@ impl Scanner {
                     sha256: r.get(2)?,
                     excitation_nm: r.get(3)?,
                     x_unit: r.get(4)?,
+                    path_cm: r.get(5)?,
+                    dilution_factor: r.get(6)?,
                 });
             }
         }
@@ -799,7 +1263,15 @@ impl Scanner {
                 .relevant_cache
                 .entry((version, core.clone(), a.solvent.to_ascii_lowercase(), has_pl))
                 .or_insert_with(|| relevant(cal, &core, &a.solvent, has_pl).to_string());
-            let hash = inputs_hash_with(&a, &core, &metas, rel);
+            if let std::collections::hash_map::Entry::Vacant(e) = self.contexts.entry(a.batch_id) {
+                e.insert(batch_context(conn, a.batch_id)?);
+            }
+            let ctx_part = self
+                .contexts
+                .get(&a.batch_id)
+                .map(|c| c.hash_part())
+                .unwrap_or_default();
+            let hash = inputs_hash_with(&a, &core, &metas, &format!("{rel}{ctx_part}"));
             let part = self
                 .analysis_cache
                 .entry((version, has_pl))
@@ -879,6 +1351,7 @@ pub fn recompute(
             ..
         } = chunk;
         let cals = &scan.cals;
+        let contexts = &scan.contexts;
         let mut work: Vec<Work> = Vec::new();
         let mut candidates: Vec<(AliquotRow, String, i64, String, String, Vec<SpectrumMeta>)> = Vec::new();
         for (i, e) in expected.into_iter().enumerate() {
@@ -933,7 +1406,8 @@ pub fn recompute(
                         warnings: o.warnings.clone(),
                     })
                     .collect();
-                let (more, _, _) = derive_values(&a, &core, &metas, &v, cal);
+                let ctx = contexts.get(&a.batch_id).cloned().unwrap_or_default();
+                let (more, _, _) = derive_values(&a, &core, &metas, &v, cal, &ctx);
                 v.extend(more);
                 (Some(v), Vec::new())
             } else if many {
@@ -966,7 +1440,8 @@ pub fn recompute(
         let todo: Vec<usize> = (0..work.len()).filter(|&i| work[i].values.is_none()).collect();
         let computed: Vec<Vec<Derived>> = crate::par::parallel_map(&todo, workers, |&i| {
             let w = &work[i];
-            compute(&w.a, &w.core, &w.spectra, &cals[&w.version]).values
+            let ctx = contexts.get(&w.a.batch_id).cloned().unwrap_or_default();
+            compute(&w.a, &w.core, &w.spectra, &cals[&w.version], &ctx).values
         });
         for (i, v) in todo.into_iter().zip(computed) {
             work[i].values = Some(v);
@@ -1047,6 +1522,10 @@ pub fn recompute(
     sort_moves(&mut moves);
     moves.truncate(10);
     report.largest_moves = moves;
+    if !dry_run {
+        // Shelled batches computed before their parent's product moved in this pass follow it.
+        report.changed += follow_parent_cores(conn, None)?;
+    }
     let (considered, changed) = refresh_vials(conn, None, dry_run)?;
     report.vials_considered = considered;
     report.vials_changed = changed;
@@ -1187,6 +1666,11 @@ fn vial_expected(
 /// Recomputes the measured and estimated vial concentrations (of one batch, or all); a dry run
 /// only counts. Returns (considered, changed).
 pub fn refresh_vials(conn: &Connection, batch: Option<i64>, dry_run: bool) -> Result<(usize, usize)> {
+    // A batch's product may have moved (the reason to refresh its vials): its shelled children
+    // follow their core.
+    if let (Some(b), false) = (batch, dry_run) {
+        follow_parent_cores(conn, Some(b))?;
+    }
     let mut cals = BTreeMap::new();
     let (mut considered, mut changed) = (0, 0);
     for row in crate::store::model::derived_vial_concentrations(conn, batch)? {
@@ -1365,9 +1849,10 @@ pub fn verify_values(conn: &Connection, deep: bool) -> Result<(usize, Vec<Proble
             }
         };
         let metas: Vec<SpectrumMeta> = spectra.iter().map(SpectrumMeta::from).collect();
-        let hash = inputs_hash(&a, &core, &metas, cal);
+        let ctx = batch_context(conn, a.batch_id)?;
+        let hash = inputs_hash(&a, &core, &metas, cal, &ctx);
         let stage1 = analysis_hash(&metas, cal);
-        let comp = compute(&a, &core, &spectra, cal);
+        let comp = compute(&a, &core, &spectra, cal, &ctx);
         for o in old.iter().filter(|o| !o.stale && o.calibration_version == version) {
             if o.inputs_hash != expected_hash(&o.quantity, &stage1, &hash) {
                 problems.push(Problem::new(
@@ -1471,4 +1956,216 @@ pub fn stale_batches(conn: &Connection) -> Result<std::collections::HashSet<i64>
     )?;
     let rows = st.query_map([], |r| r.get::<_, i64>(0))?;
     Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+/// A batch's reaction yield: crystals × formula units against the limiting precursor, from
+/// its product aliquot's diameter and concentration and its recipe's amounts.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct ReactionYieldView {
+    /// Formula units in the crystals over the most the limiting precursor could give (0-1).
+    pub yield_fraction: Option<f64>,
+    pub product_mmol: Option<f64>,
+    pub crystals: Option<f64>,
+    pub formula_units_per_crystal: Option<f64>,
+    pub limiting_element: Option<String>,
+    pub limiting_reagents: Vec<String>,
+    pub limiting_mmol: Option<f64>,
+    pub reaction_volume_ml: Option<f64>,
+    pub aliquot_id: Option<i64>,
+    pub diameter_nm: Option<f64>,
+    pub concentration_molar: Option<f64>,
+    pub method: String,
+    pub warnings: Vec<String>,
+}
+
+const YIELD_METHOD: &str =
+    "crystals (c · V · N_A) x formula units per crystal (ρ (π/6) D³ N_A / M) over the limiting precursor";
+
+impl ReactionYieldView {
+    fn none(why: String) -> ReactionYieldView {
+        ReactionYieldView {
+            yield_fraction: None,
+            product_mmol: None,
+            crystals: None,
+            formula_units_per_crystal: None,
+            limiting_element: None,
+            limiting_reagents: Vec::new(),
+            limiting_mmol: None,
+            reaction_volume_ml: None,
+            aliquot_id: None,
+            diameter_nm: None,
+            concentration_molar: None,
+            method: YIELD_METHOD.into(),
+            warnings: vec![why],
+        }
+    }
+}
+
+/// The pure part of the reaction yield: from the product's diameter and (undiluted)
+/// concentration, the reaction volume and the recipe lines.
+pub fn reaction_yield_from(
+    core: &str,
+    diameter_nm: f64,
+    concentration_molar: f64,
+    lines: &[super::yields::RecipeAmount],
+) -> ReactionYieldView {
+    let (lim, mut warnings) = match super::yields::limiting_precursor(core, lines) {
+        Ok(x) => x,
+        Err(e) => return ReactionYieldView::none(e.to_string()),
+    };
+    let Some(volume) = super::yields::reaction_volume_ml(lines) else {
+        return ReactionYieldView::none("the recipe gives no liquid volume (mL): no reaction volume".into());
+    };
+    warnings.push(format!(
+        "reaction volume taken as the recipe's liquids ({volume:.1} mL): expansion when hot and aliquots taken out are not counted"
+    ));
+    match super::yields::reaction_yield(core, diameter_nm, concentration_molar, volume, lim.formula_units_mmol) {
+        Err(e) => ReactionYieldView::none(e.to_string()),
+        Ok(y) => {
+            if y.yield_fraction > 1.0 {
+                warnings.push(format!(
+                    "yield {:.0} % is above 100 %: check the concentration (extinction law, dilution) and the recipe amounts",
+                    100.0 * y.yield_fraction
+                ));
+            }
+            ReactionYieldView {
+                yield_fraction: Some(y.yield_fraction),
+                product_mmol: Some(y.product_mmol),
+                crystals: Some(y.crystals),
+                formula_units_per_crystal: Some(y.formula_units_per_crystal),
+                limiting_element: Some(lim.element),
+                limiting_reagents: lim.reagents,
+                limiting_mmol: Some(lim.formula_units_mmol),
+                reaction_volume_ml: Some(volume),
+                aliquot_id: None,
+                diameter_nm: Some(diameter_nm),
+                concentration_molar: Some(concentration_molar),
+                method: YIELD_METHOD.into(),
+                warnings,
+            }
+        }
+    }
+}
+
+/// A batch's reaction yield, from the store: its product aliquot's current diameter and
+/// concentration and its recipe. A shelled batch has no crystal yield of its own.
+pub fn reaction_yield_of(conn: &Connection, batch_id: i64) -> Result<ReactionYieldView> {
+    let b = crate::store::model::get_batch(conn, batch_id)?;
+    let ctx = batch_context(conn, batch_id)?;
+    if let Some(sh) = &ctx.shell {
+        return Ok(ReactionYieldView::none(format!(
+            "a {sh} shell growth: the crystal yield belongs to the core batch"
+        )));
+    }
+    let Some(version_id) = b.recipe_version_id else {
+        return Ok(ReactionYieldView::none(
+            "no recipe recorded: no precursor amounts".into(),
+        ));
+    };
+    let recipe = crate::store::model::recipe_view(conn, version_id)?;
+    let mut lines = Vec::new();
+    for r in &recipe.reagents {
+        let formula = crate::store::model::reagent_by_name(conn, &r.reagent)
+            .ok()
+            .and_then(|g| g.formula);
+        lines.push(super::yields::RecipeAmount {
+            reagent: r.reagent.clone(),
+            formula,
+            amount: r.amount,
+            unit: r.unit.clone(),
+            role: r.role.clone(),
+        });
+    }
+    let product: Option<i64> = conn
+        .query_row(
+            "SELECT aliquot_id FROM batch_product WHERE batch_id = ?1",
+            [batch_id],
+            |r| r.get(0),
+        )
+        .optional()?
+        .flatten();
+    let Some(aid) = product else {
+        return Ok(ReactionYieldView::none("no product aliquot".into()));
+    };
+    let values = current_values(conn, aid)?;
+    let get = |q: &str| values.iter().find(|v| v.quantity == q);
+    let (Some(dv), Some(cv)) = (
+        get("diameter_nm").and_then(|v| v.value),
+        get("concentration_molar").and_then(|v| v.value),
+    ) else {
+        let mut v = ReactionYieldView::none(format!("product aliquot {aid} has no diameter and concentration"));
+        v.aliquot_id = Some(aid);
+        return Ok(v);
+    };
+    let mut v = reaction_yield_from(&b.core, dv, cv, &lines);
+    v.aliquot_id = Some(aid);
+    if values
+        .iter()
+        .any(|x| x.stale && (x.quantity == "diameter_nm" || x.quantity == "concentration_molar"))
+    {
+        v.warnings
+            .push("the product's diameter or concentration is stale: recompute".into());
+    }
+    Ok(v)
+}
+
+/// The gradient method (Williams, Winfield & Miller 1983) over a dilution series of one sample
+/// logged as aliquots: each one's current absorbance at excitation in the PL cuvette and PL
+/// integral, against the calibration's reference series (or its single point, through the
+/// origin). Fewer than four dilutions, solvents that differ or stale values are said.
+pub fn gradient_qy(conn: &Connection, aliquot_ids: &[i64]) -> Result<qy::QyResult> {
+    if aliquot_ids.is_empty() {
+        return crate::error::invalid("the gradient method needs the aliquots of a dilution series");
+    }
+    let first = crate::store::model::get_aliquot(conn, aliquot_ids[0])?;
+    let version = effective_calibration_version(conn, first.batch_id)?;
+    let cal = calibration::get(conn, version)?.body;
+    let r = cal
+        .qy_reference
+        .as_ref()
+        .ok_or_else(|| crate::error::Error::Invalid("no QY reference in the calibration".into()))?;
+    let mut points = Vec::new();
+    let mut warnings = Vec::new();
+    for id in aliquot_ids {
+        let a = crate::store::model::get_aliquot(conn, *id)?;
+        if !a.solvent.eq_ignore_ascii_case(&first.solvent) {
+            warnings.push(format!(
+                "aliquot {id} is in {}, the first in {}: one series, one solvent",
+                a.solvent, first.solvent
+            ));
+        }
+        let values = current_values(conn, *id)?;
+        let get = |q: &str| values.iter().find(|v| v.quantity == q);
+        let (Some(av), Some(iv)) = (
+            get("abs_at_excitation_pl").and_then(|v| v.value),
+            get("pl_integral").and_then(|v| v.value),
+        ) else {
+            return crate::error::invalid(format!(
+                "aliquot {id} has no absorbance at excitation in the PL cuvette and PL integral"
+            ));
+        };
+        if values.iter().any(|v| v.stale) {
+            warnings.push(format!("aliquot {id}'s values are stale: recompute"));
+        }
+        points.push((av, iv));
+    }
+    let (Some(n), Some(nr)) = (cal.refractive_index(&first.solvent), cal.refractive_index(&r.solvent)) else {
+        return crate::error::invalid("no refractive index for a solvent");
+    };
+    let mut q = if cal.qy_reference_dilutions.is_empty() {
+        qy::gradient_single_reference(&points, r.abs_at_excitation, r.integral, r.qy, n, nr)?
+    } else {
+        let reference: Vec<(f64, f64)> = cal
+            .qy_reference_dilutions
+            .iter()
+            .map(|p| (p.abs_at_excitation, p.integral))
+            .collect();
+        qy::gradient(&points, &reference, r.qy, n, nr)?
+    };
+    if cal.detector_correction.is_none() {
+        q.warnings.push(qy::NO_DETECTOR_CORRECTION.into());
+    }
+    q.warnings.extend(warnings);
+    q.method = format!("{} against {} ({})", q.method, r.dye, r.qy);
+    Ok(q)
 }

@@ -130,8 +130,10 @@ impl Curve {
             // Sizes measured in the papers, from memory.
             (Curve::Moreels2009, _) => [2.8, 10.0],
             (Curve::Moreels2007, _) => [2.5, 12.0],
-            // Edge lengths studied, from memory.
-            (Curve::Almeida2023, _) => [2.0, 6.5],
+            // Tetrahedron edge lengths of the crystals in Almeida et al. 2023: about 1.5-4.1 nm
+            // (first exciton about 460-620 nm), digitised from the paper's figure, not read
+            // from a table.
+            (Curve::Almeida2023, _) => [1.5, 4.1],
             // Confinement is strong below about the Bohr diameter; the model is rough anyway.
             (Curve::Brus, _) => [2.0, 10.0],
         }
@@ -337,6 +339,96 @@ pub fn size(curve_id: &str, core: &str, peak_nm: f64, bulk: Option<&BulkParams>)
         curve: curve.id().into(),
         valid_range_nm: range,
         slope,
+        warnings,
+    })
+}
+
+/// Size dispersion from the width of the first transition.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct Dispersion {
+    /// σ/D in per cent: an estimate, since the measured width holds more than the size spread.
+    pub sigma_over_d_pct: f64,
+    /// The width that was converted, after any homogeneous part was taken out (eV, HWHM).
+    pub inhomogeneous_hwhm_ev: f64,
+    /// The homogeneous HWHM subtracted in quadrature (eV), when the calibration sets one.
+    pub homogeneous_hwhm_ev: Option<f64>,
+    /// dD/dE at the peak, nm per eV.
+    pub slope_nm_per_ev: f64,
+    pub warnings: Vec<String>,
+}
+
+/// Below this |d ln D / d ln E| a sizing curve is flatter than any confinement law: with
+/// E - Eg ∝ D^-n and n at most 2, |d ln D / d ln E| = E / (n (E - Eg)) is above 1/2.
+pub const FLAT_ELASTICITY: f64 = 0.5;
+
+/// σ/D from the first transition's low-energy HWHM (`hwhm_ev`, in energy) through the sizing
+/// curve's slope, assuming a Gaussian (σ_E = HWHM / √(2 ln 2)) and σ_D = |dD/dE| σ_E (common
+/// practice). `homogeneous_hwhm_ev`, when given, is taken out in quadrature first:
+/// HWHM_inh = √(HWHM² - HWHM_hom²). `diameter_at` sizes a peak wavelength with the same curve.
+/// The result is an estimate, not a bound: the width also holds homogeneous broadening (which
+/// the optional subtraction only models) and any fit error in the first transition's width.
+pub fn size_dispersion(
+    peak_nm: f64,
+    hwhm_ev: f64,
+    homogeneous_hwhm_ev: Option<f64>,
+    diameter_at: &dyn Fn(f64) -> Option<f64>,
+) -> Result<Dispersion> {
+    if !(peak_nm > 0.0 && peak_nm.is_finite() && hwhm_ev > 0.0 && hwhm_ev.is_finite()) {
+        return invalid(format!(
+            "size dispersion needs a peak and a positive width (got {peak_nm} nm, {hwhm_ev} eV)"
+        ));
+    }
+    let mut warnings = Vec::new();
+    let inh = match homogeneous_hwhm_ev {
+        Some(h) if h >= hwhm_ev => {
+            return invalid(format!(
+                "the homogeneous HWHM {:.0} meV is as wide as the measured {:.0} meV: no size spread left to convert",
+                h * 1000.0,
+                hwhm_ev * 1000.0
+            ));
+        }
+        Some(h) if h > 0.0 => (hwhm_ev * hwhm_ev - h * h).sqrt(),
+        _ => hwhm_ev,
+    };
+    let e = HC_EV_NM / peak_nm;
+    let d0 = diameter_at(peak_nm)
+        .ok_or_else(|| crate::error::Error::Invalid(format!("the curve cannot size {peak_nm:.1} nm")))?;
+    // dD/dE by a central difference of a few meV; the slope at the two half-maximum points
+    // tells whether one slope holds across the peak.
+    let slope_e = |e0: f64| -> Option<f64> {
+        let h = 0.002;
+        let a = diameter_at(HC_EV_NM / (e0 - h))?;
+        let b = diameter_at(HC_EV_NM / (e0 + h))?;
+        Some((b - a) / (2.0 * h))
+    };
+    let s0 =
+        slope_e(e).ok_or_else(|| crate::error::Error::Invalid(format!("the curve has no slope at {peak_nm:.1} nm")))?;
+    if !(s0 < 0.0) {
+        return invalid(format!(
+            "the curve does not shrink with energy at {peak_nm:.1} nm: no size dispersion from its slope"
+        ));
+    }
+    let elasticity = (s0 * e / d0).abs();
+    if elasticity < FLAT_ELASTICITY {
+        warnings.push(format!(
+            "the sizing curve is locally flat at {peak_nm:.1} nm (|dlnD/dlnE| {elasticity:.2}, flatter than any confinement law): σ/D from the width is unreliable here"
+        ));
+    }
+    if let (Some(lo), Some(hi)) = (slope_e(e - inh), slope_e(e + inh)) {
+        let (a, b) = (lo.abs().min(hi.abs()), lo.abs().max(hi.abs()));
+        if a < 0.5 * b {
+            warnings.push(format!(
+                "the sizing curve's slope changes more than twofold across the peak ({:.1}-{:.1} nm per eV): one slope converts the width roughly",
+                a, b
+            ));
+        }
+    }
+    let sigma_e = inh / (2.0 * 2f64.ln()).sqrt();
+    Ok(Dispersion {
+        sigma_over_d_pct: 100.0 * s0.abs() * sigma_e / d0,
+        inhomogeneous_hwhm_ev: inh,
+        homogeneous_hwhm_ev: homogeneous_hwhm_ev.filter(|h| *h > 0.0),
+        slope_nm_per_ev: s0,
         warnings,
     })
 }

@@ -6,7 +6,13 @@
 //!
 //! Reference dye quantum yields: Brouwer, Pure Appl. Chem. 83, 2213 (2011) (IUPAC technical
 //! report) and Rurack & Spieles, Anal. Chem. 83, 1232 (2011). Values marked `from_memory` are
-//! not in those sources as we hold them. Excitation ranges are from memory.
+//! not in those sources as we hold them.
+//!
+//! Each dye's recommended excitation range is where it absorbs strongly and its absorption
+//! band is broad enough that a nanometre of monochromator error does not change the absorbed
+//! fraction much. All ranges here are from memory of the dyes' absorption bands (the IUPAC
+//! report and Würth et al., Nat. Protoc. 8, 1535 (2013), give the dyes' spectra; we did not
+//! read the ranges from a table): check them against the source your lab uses.
 
 use serde::Serialize;
 
@@ -44,7 +50,10 @@ pub fn names() -> Vec<&'static str> {
 pub struct Dye {
     pub name: &'static str,
     pub solvent: &'static str,
+    /// Recommended excitation range, nm.
     pub excitation_nm: (f64, f64),
+    /// Where the excitation range comes from.
+    pub excitation_source: &'static str,
     pub qy: f64,
     pub source: &'static str,
     pub from_memory: bool,
@@ -55,6 +64,7 @@ pub const DYES: &[Dye] = &[
         name: "rhodamine 101",
         solvent: "ethanol",
         excitation_nm: (450.0, 580.0),
+        excitation_source: "from memory: its main absorption band (maximum near 565 nm)",
         qy: 0.913,
         source: "Brouwer 2011 (IUPAC); Rurack & Spieles 2011",
         from_memory: false,
@@ -63,6 +73,7 @@ pub const DYES: &[Dye] = &[
         name: "coumarin 153",
         solvent: "ethanol",
         excitation_nm: (360.0, 460.0),
+        excitation_source: "from memory: its main absorption band (maximum near 420 nm)",
         qy: 0.544,
         source: "Brouwer 2011 (IUPAC); Rurack & Spieles 2011",
         from_memory: false,
@@ -71,6 +82,7 @@ pub const DYES: &[Dye] = &[
         name: "cresyl violet",
         solvent: "ethanol",
         excitation_nm: (500.0, 620.0),
+        excitation_source: "from memory: its main absorption band (maximum near 600 nm)",
         qy: 0.578,
         source: "Brouwer 2011 (IUPAC); Rurack & Spieles 2011",
         from_memory: false,
@@ -79,6 +91,7 @@ pub const DYES: &[Dye] = &[
         name: "IR-125",
         solvent: "ethanol",
         excitation_nm: (650.0, 800.0),
+        excitation_source: "from memory: its main absorption band (maximum near 785 nm)",
         qy: 0.132,
         source: "Rurack & Spieles 2011",
         from_memory: false,
@@ -87,6 +100,7 @@ pub const DYES: &[Dye] = &[
         name: "quinine sulfate",
         solvent: "0.1 M HClO4",
         excitation_nm: (310.0, 360.0),
+        excitation_source: "from memory: its near-UV absorption band (maximum near 347 nm)",
         qy: 0.60,
         source: "Brouwer 2011 (value from memory)",
         from_memory: true,
@@ -95,6 +109,7 @@ pub const DYES: &[Dye] = &[
         name: "rhodamine 6G",
         solvent: "ethanol",
         excitation_nm: (450.0, 530.0),
+        excitation_source: "from memory: its main absorption band (maximum near 530 nm)",
         qy: 0.95,
         source: "Brouwer 2011 (value from memory)",
         from_memory: true,
@@ -103,6 +118,7 @@ pub const DYES: &[Dye] = &[
         name: "IR-26",
         solvent: "1,2-dichloroethane",
         excitation_nm: (800.0, 1100.0),
+        excitation_source: "from memory: its main absorption band (maximum near 1080 nm)",
         qy: 0.0005,
         source: "disputed: published values 0.05 % to 0.5 %; set your own",
         from_memory: true,
@@ -111,4 +127,16 @@ pub const DYES: &[Dye] = &[
 
 pub fn dye(name: &str) -> Option<&'static Dye> {
     DYES.iter().find(|d| d.name.eq_ignore_ascii_case(name.trim()))
+}
+
+/// A warning when `excitation_nm` lies outside the dye's recommended excitation range.
+pub fn excitation_warning(d: &Dye, excitation_nm: f64) -> Option<String> {
+    let (lo, hi) = d.excitation_nm;
+    if (lo..=hi).contains(&excitation_nm) {
+        return None;
+    }
+    Some(format!(
+        "excitation at {excitation_nm} nm is outside {}'s recommended range {lo:.0}-{hi:.0} nm ({})",
+        d.name, d.excitation_source
+    ))
 }

@@ -122,3 +122,218 @@ pub fn shell_plan(
         final_diameter_nm: d,
     })
 }
+
+/// Standard atomic weights (IUPAC, conventional values rounded as in the periodic table most
+/// labs hang on the wall; from memory), g/mol, for the elements of the shipped reagents and
+/// common nanocrystal materials.
+pub const ATOMIC_MASS: &[(&str, f64)] = &[
+    ("H", 1.008),
+    ("Li", 6.94),
+    ("C", 12.011),
+    ("N", 14.007),
+    ("O", 15.999),
+    ("F", 18.998),
+    ("Na", 22.990),
+    ("Mg", 24.305),
+    ("Al", 26.982),
+    ("Si", 28.085),
+    ("P", 30.974),
+    ("S", 32.06),
+    ("Cl", 35.45),
+    ("K", 39.098),
+    ("Ti", 47.867),
+    ("Mn", 54.938),
+    ("Fe", 55.845),
+    ("Co", 58.933),
+    ("Ni", 58.693),
+    ("Cu", 63.546),
+    ("Zn", 65.38),
+    ("Ga", 69.723),
+    ("Ge", 72.630),
+    ("As", 74.922),
+    ("Se", 78.971),
+    ("Br", 79.904),
+    ("Ag", 107.87),
+    ("Cd", 112.41),
+    ("In", 114.82),
+    ("Sn", 118.71),
+    ("Sb", 121.76),
+    ("Te", 127.60),
+    ("I", 126.90),
+    ("Cs", 132.91),
+    ("Hg", 200.59),
+    ("Pb", 207.2),
+    ("Bi", 208.98),
+];
+
+/// Element counts of a chemical formula such as `Cd(CH3COO)2` or `((CH3)3Si)3P`.
+pub fn element_counts(formula: &str) -> Result<std::collections::BTreeMap<String, f64>> {
+    fn parse(chars: &[char], i: &mut usize, depth: usize, f: &str) -> Result<std::collections::BTreeMap<String, f64>> {
+        let mut out = std::collections::BTreeMap::new();
+        while *i < chars.len() {
+            let c = chars[*i];
+            if c == '(' {
+                if depth > 8 {
+                    return invalid(format!("formula '{f}' nests too deeply"));
+                }
+                *i += 1;
+                let inner = parse(chars, i, depth + 1, f)?;
+                if *i >= chars.len() || chars[*i] != ')' {
+                    return invalid(format!("formula '{f}' has an unclosed bracket"));
+                }
+                *i += 1;
+                let n = count(chars, i);
+                for (k, v) in inner {
+                    *out.entry(k).or_insert(0.0) += v * n;
+                }
+            } else if c == ')' {
+                if depth == 0 {
+                    return invalid(format!("formula '{f}' closes a bracket it never opened"));
+                }
+                return Ok(out);
+            } else if c.is_ascii_uppercase() {
+                let mut sym = c.to_string();
+                *i += 1;
+                if *i < chars.len() && chars[*i].is_ascii_lowercase() {
+                    sym.push(chars[*i]);
+                    *i += 1;
+                }
+                if !ATOMIC_MASS.iter().any(|(s, _)| *s == sym) {
+                    return invalid(format!("formula '{f}': unknown element '{sym}'"));
+                }
+                let n = count(chars, i);
+                *out.entry(sym).or_insert(0.0) += n;
+            } else {
+                return invalid(format!("formula '{f}': cannot read '{c}'"));
+            }
+        }
+        if depth > 0 {
+            return invalid(format!("formula '{f}' has an unclosed bracket"));
+        }
+        Ok(out)
+    }
+    fn count(chars: &[char], i: &mut usize) -> f64 {
+        let start = *i;
+        while *i < chars.len() && chars[*i].is_ascii_digit() && *i - start < 6 {
+            *i += 1;
+        }
+        let s: String = chars[start..*i].iter().collect();
+        s.parse::<f64>().unwrap_or(1.0)
+    }
+    let chars: Vec<char> = formula.trim().chars().collect();
+    if chars.is_empty() {
+        return invalid("an empty formula");
+    }
+    let mut i = 0;
+    let out = parse(&chars, &mut i, 0, formula)?;
+    if out.is_empty() {
+        return invalid(format!("formula '{formula}' names no element"));
+    }
+    Ok(out)
+}
+
+/// Molar mass of a formula, g/mol.
+pub fn molar_mass(formula: &str) -> Result<f64> {
+    let counts = element_counts(formula)?;
+    Ok(counts
+        .iter()
+        .map(|(el, n)| {
+            n * ATOMIC_MASS
+                .iter()
+                .find(|(s, _)| s == el)
+                .map(|(_, m)| *m)
+                .unwrap_or(0.0)
+        })
+        .sum())
+}
+
+/// One line of a recipe, as the yield needs it.
+#[derive(Debug, Clone)]
+pub struct RecipeAmount {
+    pub reagent: String,
+    pub formula: Option<String>,
+    pub amount: f64,
+    /// mg, g, mL, uL, mmol or umol (the recipe's units).
+    pub unit: String,
+    pub role: Option<String>,
+}
+
+/// The precursor that limits how many formula units the reaction can make.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct Limiting {
+    /// The element of the material it supplies (Cd, Se, ...).
+    pub element: String,
+    pub reagents: Vec<String>,
+    /// Formula units of the material it could give at most, mmol.
+    pub formula_units_mmol: f64,
+}
+
+/// mmol of a recipe line, from mmol/umol directly or from a mass through its formula.
+fn line_mmol(r: &RecipeAmount) -> Option<f64> {
+    match r.unit.as_str() {
+        "mmol" => Some(r.amount),
+        "umol" => Some(r.amount * 1e-3),
+        "mg" | "g" => {
+            let m = molar_mass(r.formula.as_deref()?).ok()?;
+            let mg = if r.unit == "g" { r.amount * 1e3 } else { r.amount };
+            Some(mg / m)
+        }
+        _ => None,
+    }
+}
+
+/// The limiting precursor for `material` (a formula such as CdSe or InP) among the recipe's
+/// lines with role `precursor`: for each element of the material, the mmol that the precursors
+/// supplying it carry, divided by its count in the formula unit; the smallest limits.
+pub fn limiting_precursor(material: &str, lines: &[RecipeAmount]) -> Result<(Limiting, Vec<String>)> {
+    let unit = element_counts(material)?;
+    let mut warnings = Vec::new();
+    let mut best: Option<Limiting> = None;
+    for (el, n_el) in &unit {
+        let mut mmol = 0.0;
+        let mut names = Vec::new();
+        for r in lines.iter().filter(|r| r.role.as_deref() == Some("precursor")) {
+            let Some(f) = r.formula.as_deref() else { continue };
+            let Ok(counts) = element_counts(f) else { continue };
+            let Some(k) = counts.get(el) else { continue };
+            match line_mmol(r) {
+                Some(m) => {
+                    mmol += m * k;
+                    names.push(r.reagent.clone());
+                }
+                None => warnings.push(format!(
+                    "{} is given in {}: its amount in mmol is not known, so it is left out of the limiting precursor",
+                    r.reagent, r.unit
+                )),
+            }
+        }
+        if names.is_empty() {
+            return invalid(format!(
+                "no precursor in the recipe supplies {el} (a precursor needs a formula and an amount in mmol, umol, mg or g)"
+            ));
+        }
+        let fu = mmol / n_el;
+        if best.as_ref().is_none_or(|b| fu < b.formula_units_mmol) {
+            best = Some(Limiting {
+                element: el.clone(),
+                reagents: names,
+                formula_units_mmol: fu,
+            });
+        }
+    }
+    let best = best.ok_or_else(|| crate::error::Error::Invalid(format!("{material} names no element")))?;
+    Ok((best, warnings))
+}
+
+/// The reaction volume as the sum of the recipe's liquid lines (mL and uL), if any.
+pub fn reaction_volume_ml(lines: &[RecipeAmount]) -> Option<f64> {
+    let v: f64 = lines
+        .iter()
+        .filter_map(|r| match r.unit.as_str() {
+            "mL" => Some(r.amount),
+            "uL" => Some(r.amount * 1e-3),
+            _ => None,
+        })
+        .sum();
+    (v > 0.0).then_some(v)
+}

@@ -122,7 +122,14 @@ pub fn explain(conn: &Connection, aliquot_id: i64) -> Result<Value> {
         "hwhm_nm",
         "hwhm_mev",
         "abs_400nm",
+        "abs_400nm_corrected",
+        "abs_350nm_corrected",
+        "abs_at_excitation_measured",
         "abs_at_excitation",
+        "abs_at_excitation_sd",
+        "abs_at_excitation_pl",
+        "abs_at_pl_band",
+        "core_diameter_nm",
         "diameter_nm",
         "edge_nm",
         "size_dispersion_pct",
@@ -237,5 +244,8 @@ pub fn batch_detail(tx: &rusqlite::Connection, id: i64) -> crate::Result<Value> 
         None => json!(crate::hazards::general_cautions(&b.core, false)),
     };
     v["recipe_detail"] = serde_json::to_value(&recipe)?;
+    // Crystals × formula units against the limiting precursor; a reason in `warnings` when
+    // it cannot be had (no recipe, no sized product, a shell growth).
+    v["reaction_yield"] = serde_json::to_value(engine::reaction_yield_of(tx, id)?)?;
     Ok(v)
 }

@@ -41,6 +41,10 @@ pub const MIGRATIONS: &[(&str, &str)] = &[
         "0006_spectrum_label",
         include_str!("../../schema/0006_spectrum_label.sql"),
     ),
+    (
+        "0007_spectrum_cuvette_index",
+        include_str!("../../schema/0007_spectrum_cuvette_index.sql"),
+    ),
 ];
 
 /// The schema version this build writes.
