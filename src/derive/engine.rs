@@ -8,6 +8,7 @@
 use super::calibration::{self, Calibration};
 use super::{extinction, qy, sizing, solvents};
 use crate::error::Result;
+use crate::spectra::HC_EV_NM;
 use crate::spectra::analysis::{self, AbsResult, PlResult};
 use crate::spectra::{RawSpectrum, Trace};
 use crate::store::check::Problem;
@@ -220,6 +221,8 @@ pub const SPECTRAL: &[&str] = &[
     "hwhm_nm",
     "hwhm_mev",
     "shoulder",
+    "first_exciton_sd_nm",
+    "band_edge_fit",
     "abs_400nm",
     "abs_400nm_corrected",
     "abs_350nm_corrected",
@@ -271,18 +274,18 @@ fn value_of(values: &[Derived], q: &str) -> Option<f64> {
     find_value(values, q).and_then(|v| v.value)
 }
 
-fn peak_method(cal: &Calibration) -> String {
-    format!(
-        "first exciton: Savitzky-Golay {} nm order {}; local maximum, else second-derivative minimum",
-        cal.analysis.smoothing_nm, cal.analysis.smoothing_order
-    )
+fn peak_method(_cal: &Calibration) -> String {
+    "first exciton: the band edge fitted in energy (Gaussian first and second transitions on a \
+     linear background, starting from second-derivative minima chosen by prominence against \
+     the local noise); Pesika, Stebe & Searson 2003, Segets et al. 2012"
+        .to_string()
 }
 
 /// Stage one of an absorbance trace: the spectral values it gives.
 pub fn absorbance_values(t: &Trace, cal: &Calibration) -> Result<(Vec<Derived>, AbsResult)> {
     let r = analysis::analyze_absorbance(t, &cal.analysis)?;
     let m = peak_method(cal);
-    let width = "low-energy side half width at half maximum";
+    let width = "the first transition's own half width at half maximum (fitted in energy)";
     let v = vec![
         d("first_exciton_nm", r.first_exciton_nm, "nm", &m, r.warnings.clone()),
         d(
@@ -299,6 +302,27 @@ pub fn absorbance_values(t: &Trace, cal: &Calibration) -> Result<(Vec<Derived>, 
             r.first_exciton_nm.map(|_| if r.shoulder { 1.0 } else { 0.0 }),
             "flag",
             &m,
+            vec![],
+        ),
+        d(
+            "first_exciton_sd_nm",
+            r.band_edge.as_ref().map(|b| {
+                let e = b.centre_ev;
+                HC_EV_NM / (e - b.centre_sd_ev) - HC_EV_NM / e
+            }),
+            "nm",
+            "one standard deviation of the fitted centre (fit covariance), or the derivative's width on a fallback",
+            vec![],
+        ),
+        d(
+            "band_edge_fit",
+            r.band_edge.as_ref().map(|b| match b.quality {
+                "good" => 2.0,
+                "poor" => 1.0,
+                _ => 0.0,
+            }),
+            "flag",
+            "band-edge fit quality: 2 good, 1 poor (structure left in the residual), 0 fallback to the second derivative",
             vec![],
         ),
         d(
