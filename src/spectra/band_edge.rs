@@ -422,9 +422,19 @@ pub fn first_transition(t: &Trace, hint: &BandEdgeHint, saturation_abs: f64) -> 
             })
             .any(|o| c.height < 0.08 * o.height)
     };
+    // A faint trough on the flank of a far stronger one next to it is the flank's noise, not
+    // a transition of its own.
+    let shadowed = |c: &Candidate| {
+        found.iter().any(|o| {
+            o.e_ev > c.e_ev
+                && o.e_ev - c.e_ev < 1.5 * o.sigma_ev.max(c.sigma_ev)
+                && o.significance > 10.0 * c.significance
+        })
+    };
     let strong = |c: &Candidate| {
         let i = g.index(c.e_ev).round().clamp(0.0, (g.y.len() - 1) as f64) as usize;
         !step_like(c)
+            && !shadowed(c)
             && !dwarfed(c)
             && c.significance >= MIN_SIGNIFICANCE
             && c.sigma_ev >= MIN_SIGMA_EV
@@ -892,23 +902,27 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
     let dof = (m - np) as f64;
     let judge = |p: &[f64], chi2: f64, jtj: &[f64]| -> Option<(f64, f64)> {
         let red = chi2 / dof;
-        let var = |idx: usize| -> f64 {
+        // Variances from the noise alone, and scaled by the reduced χ² where the model leaves
+        // more than noise (the reported uncertainties).
+        let raw_var = |idx: usize| -> f64 {
             let mut a = jtj.to_vec();
             let mut unit = vec![0.0; np];
             unit[idx] = 1.0;
             if solve_in_place(&mut a, &mut unit, np) {
-                (unit[idx] * red.max(1.0)).max(0.0)
+                unit[idx].max(0.0)
             } else {
                 f64::INFINITY
             }
         };
         let (a1, e1, sig1) = (p[G], p[G + 1], p[G + 2]);
-        let (sd_a1, sd_e1, sd_s1) = (var(G).sqrt(), var(G + 1).sqrt(), var(G + 2).sqrt());
+        let scale = red.max(1.0).sqrt();
+        let sd_a1_noise = raw_var(G).sqrt();
+        let (sd_e1, sd_s1) = (raw_var(G + 1).sqrt() * scale, raw_var(G + 2).sqrt() * scale);
         let at_bound = sig1 <= MIN_SIGMA_EV * 1.0001 || sig1 >= MAX_SIGMA_EV * 0.9999;
         let inside = e1 > lo + 0.25 * sig1 && e1 < hi - 0.25 * sig1;
-        // Where the model is imperfect its heights correlate with the background and inflate
-        // each other's uncertainty; what must be sharp is the first transition's centre.
-        let significant = a1 > 2.0 * sd_a1 && a1 > 0.0 && sd_e1 < 0.5 * sig1;
+        // The height must stand above the noise; where the model is imperfect the heights
+        // correlate with the background, so what must also be sharp is the centre.
+        let significant = a1 > 4.0 * sd_a1_noise && a1 > 0.0 && sd_e1 < 0.5 * sig1;
         let moved = (e1 - first.e_ev).abs() <= 3.0 * s1.max(sig1);
         (!at_bound && inside && significant && moved && sd_e1.is_finite() && sd_s1.is_finite())
             .then_some((sd_e1, sd_s1))
