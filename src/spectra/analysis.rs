@@ -136,31 +136,6 @@ pub(crate) fn half_window(u: &Uniform, s: &AnalysisSettings) -> usize {
     want.clamp((s.smoothing_order / 2 + 1).max(3).min(cap.max(2)), cap.max(2))
 }
 
-/// Robust noise: 1.4826 x the median absolute deviation of the residual from the smooth.
-pub(crate) fn noise_of(raw: &[f64], smooth: &[f64]) -> f64 {
-    let mut r: Vec<f64> = raw.iter().zip(smooth).map(|(a, b)| (a - b).abs()).collect();
-    if r.is_empty() {
-        return 0.0;
-    }
-    let mid = r.len() / 2;
-    let (_, m, _) = r.select_nth_unstable_by(mid, f64::total_cmp);
-    1.4826 * *m
-}
-
-/// Where a sampled function with values a at i and b at i+1 crosses zero, as a fractional index.
-pub(crate) fn zero_crossing(a: f64, b: f64, i: usize) -> f64 {
-    if a == b { i as f64 } else { i as f64 + a / (a - b) }
-}
-
-pub(crate) fn value_at(y: &[f64], fi: f64) -> f64 {
-    let i = fi.floor().max(0.0) as usize;
-    if i + 1 >= y.len() {
-        return y[y.len() - 1];
-    }
-    let f = fi - i as f64;
-    y[i] * (1.0 - f) + y[i + 1] * f
-}
-
 /// The scattering background model fitted red of the first exciton.
 #[derive(Debug, Clone, Serialize, PartialEq)]
 pub struct Background {
