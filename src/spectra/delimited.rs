@@ -466,7 +466,7 @@ fn lf_split(b: &[u8], spans: &mut Vec<(usize, usize)>, endings: &mut Endings) ->
     const CR: u64 = 0x0d0d_0d0d_0d0d_0d0d;
     let mut start = 0;
     let mut lfs = 0;
-    let mut crs = 0;
+    let mut any_cr = 0;
     let mut line_end = |end: usize, spans: &mut Vec<(usize, usize)>, endings: &mut Endings| {
         if end > start && b[end - 1] == b'\r' {
             spans.push((start, end - 1));
@@ -483,7 +483,7 @@ fn lf_split(b: &[u8], spans: &mut Vec<(usize, usize)>, endings: &mut Endings) ->
         let mut w = [0u8; 8];
         w.copy_from_slice(word);
         let x = u64::from_le_bytes(w);
-        crs += zero_bytes(x ^ CR).count_ones() as usize;
+        any_cr |= zero_bytes(x ^ CR);
         let mut lf = zero_bytes(x ^ LF);
         while lf != 0 {
             lfs += 1;
@@ -496,10 +496,14 @@ fn lf_split(b: &[u8], spans: &mut Vec<(usize, usize)>, endings: &mut Endings) ->
         if c == b'\n' {
             lfs += 1;
             line_end(base + j, spans, endings);
-        } else if c == b'\r' {
-            crs += 1;
         }
     }
+    // CRs are counted only in a text that has one (most have none).
+    let crs = if any_cr != 0 || tail.contains(&b'\r') {
+        b.iter().filter(|&&c| c == b'\r').count()
+    } else {
+        0
+    };
     (lfs, crs, start)
 }
 
