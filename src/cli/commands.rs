@@ -10,6 +10,7 @@ use crate::spectra::{self, ReadOptions, analysis};
 use crate::store::{Store, model};
 use anyhow::{Context, Result, anyhow, bail};
 use serde_json::{Value, json};
+use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -1159,8 +1160,19 @@ fn expand(paths: &[PathBuf]) -> Result<Vec<PathBuf>> {
         if p.is_dir() {
             let mut v: Vec<PathBuf> = std::fs::read_dir(p)
                 .with_context(|| format!("cannot read folder {}", p.display()))?
-                .filter_map(|e| e.ok().map(|e| e.path()))
-                .filter(|p| p.is_file() && !p.file_name().is_some_and(|n| n.to_string_lossy().starts_with('.')))
+                .filter_map(|e| e.ok())
+                .filter(|e| !e.file_name().to_string_lossy().starts_with('.'))
+                .filter(|e| {
+                    // The folder listing says what an entry is without another look at the
+                    // disk; only a link is followed, to see whether it ends at a file.
+                    match e.file_type() {
+                        Ok(t) if t.is_file() => true,
+                        Ok(t) if t.is_symlink() => e.path().is_file(),
+                        Ok(_) => false,
+                        Err(_) => e.path().is_file(),
+                    }
+                })
+                .map(|e| e.path())
                 .collect();
             v.sort();
             out.extend(v);
@@ -1171,20 +1183,33 @@ fn expand(paths: &[PathBuf]) -> Result<Vec<PathBuf>> {
     Ok(out)
 }
 
-/// Analyses one file for `analyze`: the JSON line for it.
 /// Analyses one file for `analyze`: a JSON line for each spectrum it holds (one, or each sample
 /// column or block, with its `label`), or one line with the error.
 pub fn analyze_file(path: &Path, a: &AnalyzeArgs, cal: &calibration::Calibration) -> Vec<Value> {
+    use std::cell::RefCell;
+    // One buffer per worker thread for the file's bytes: a run over many files reads each into
+    // the same memory instead of allocating per file.
+    thread_local! {
+        static BYTES: RefCell<Vec<u8>> = const { RefCell::new(Vec::new()) };
+    }
     let file = path.display().to_string();
     let opts = read_options(a.x_col, a.y_col, &a.x_unit, &a.block, &a.choice);
-    let all = match spectra::file_bytes(path).and_then(|bytes| spectra::read_all(&file, &bytes, &opts)) {
+    let read = BYTES.with_borrow_mut(|bytes| {
+        let all = spectra::file_bytes_into(path, bytes).and_then(|()| spectra::read_all(&file, bytes, &opts));
+        // A rare large file does not keep its memory for the rest of the run.
+        if bytes.capacity() > 4 << 20 {
+            *bytes = Vec::new();
+        }
+        all
+    });
+    let all = match read {
         Ok(all) => all,
         Err(e) => return vec![json!({"file": file, "error": e.to_string()})],
     };
     let several = all.len() > 1;
-    all.into_iter()
+    all.iter()
         .map(|raw| {
-            let mut v = analyze_one(&file, raw.clone(), a, cal);
+            let mut v = analyze_one(&file, raw, a, cal);
             if several {
                 v["label"] = json!(raw.label);
             }
@@ -1193,7 +1218,7 @@ pub fn analyze_file(path: &Path, a: &AnalyzeArgs, cal: &calibration::Calibration
         .collect()
 }
 
-fn analyze_one(file: &str, raw: spectra::RawSpectrum, a: &AnalyzeArgs, cal: &calibration::Calibration) -> Value {
+fn analyze_one(file: &str, raw: &spectra::RawSpectrum, a: &AnalyzeArgs, cal: &calibration::Calibration) -> Value {
     let file = file.to_string();
     let result = (|| -> crate::Result<Value> {
         let t = raw.to_trace(&file, None)?;
@@ -1266,60 +1291,125 @@ fn analyze(a: &AnalyzeArgs) -> Result<ExitCode> {
         .map(|n| n.get())
         .unwrap_or(2)
         .clamp(1, 8);
-    let results: Vec<Value> = crate::report::parallel_map(&files, workers, |p| analyze_file(p, a, &cal))
-        .into_iter()
-        .flatten()
-        .collect();
+    // A person at a terminal gets each line through the printing helpers (which keep a
+    // progress bar intact). Output to a file or a pipe is rendered by the workers, so the one
+    // thread that prints only writes the text, in file order, through one buffer rather than
+    // one write per line.
+    let to_terminal = {
+        use std::io::IsTerminal;
+        std::io::stdout().is_terminal()
+    };
+    let results: Vec<(Value, Result<String>)> = crate::report::parallel_map(&files, workers, |p| {
+        analyze_file(p, a, &cal)
+            .into_iter()
+            .map(|v| {
+                let text = if to_terminal {
+                    Ok(String::new())
+                } else {
+                    analyze_lines(&v, a).map(|lines| {
+                        let mut text = String::new();
+                        for l in lines {
+                            // As `output::line` writes each line.
+                            text.push_str(&crate::safe_text::for_terminal_lines(&l));
+                            text.push('\n');
+                        }
+                        text
+                    })
+                };
+                (v, text)
+            })
+            .collect::<Vec<_>>()
+    })
+    .into_iter()
+    .flatten()
+    .collect();
     let mut failed = false;
-    for v in &results {
+    let stdout = std::io::stdout();
+    let mut out = std::io::BufWriter::with_capacity(1 << 16, stdout.lock());
+    let mut outcome = Ok(());
+    for (v, text) in results {
         if let Some(e) = v.get("error").and_then(|e| e.as_str()) {
             failed = true;
+            // What came before is on stdout before the warning, as when each line was
+            // written at once (the two streams often share one terminal or file).
+            print_or_quit(out.flush())?;
             output::warn(&format!("refused {e}"));
         }
-        if a.json {
-            json_line(v)?;
-        } else if v.get("error").is_none() {
-            let f = |k: &str, d: usize| num(v[k].as_f64(), d);
-            let name = match v["label"].as_str() {
-                Some(l) => format!("{} [{l}]", v["file"].as_str().unwrap_or("")),
-                None => v["file"].as_str().unwrap_or("").to_string(),
-            };
-            match a.kind {
-                Kind::Pl => line(&format!(
-                    "{}  PL {} nm  FWHM {} nm  integral {}",
-                    name,
-                    f("pl_peak_nm", 1),
-                    f("pl_fwhm_nm", 1),
-                    f("pl_integral", 1)
-                ))?,
-                _ => line(&format!(
-                    "{}  first exciton {} nm{}  A {}  HWHM {} nm{}",
-                    name,
-                    f("first_exciton_nm", 1),
-                    if v["shoulder"].as_bool() == Some(true) {
-                        " (shoulder)"
-                    } else {
-                        ""
-                    },
-                    f("first_exciton_abs", 3),
-                    f("hwhm_nm", 1),
-                    if v.get("diameter_nm").is_some() {
-                        format!(
-                            "  D {} nm  c {}",
-                            f("diameter_nm", 2),
-                            molar(v["concentration_molar"].as_f64())
-                        )
-                    } else {
-                        String::new()
-                    }
-                ))?,
+        let printed = if to_terminal {
+            if a.json {
+                json_line(&v)
+            } else {
+                analyze_lines(&v, a).and_then(|lines| lines.iter().try_for_each(|l| line(l)))
             }
-            for w in v["warnings"].as_array().into_iter().flatten() {
-                line(&format!("  warning: {}", w.as_str().unwrap_or("")))?;
-            }
+        } else {
+            text.and_then(|t| print_or_quit(out.write_all(t.as_bytes())))
+        };
+        if let Err(e) = printed {
+            outcome = Err(e);
+            break;
         }
     }
+    print_or_quit(out.flush())?;
+    outcome?;
     Ok(if failed { ExitCode::from(1) } else { ExitCode::SUCCESS })
+}
+
+/// The lines `analyze` prints on stdout for one result, before they are made safe for a
+/// terminal: the JSON text, or the summary and its warnings (nothing for a refused file, which
+/// is named on stderr).
+fn analyze_lines(v: &Value, a: &AnalyzeArgs) -> Result<Vec<String>> {
+    let mut lines = Vec::new();
+    if a.json {
+        lines.push(crate::safe_text::json_text(serde_json::to_string(v)?));
+    } else if v.get("error").is_none() {
+        let f = |k: &str, d: usize| num(v[k].as_f64(), d);
+        let name = match v["label"].as_str() {
+            Some(l) => format!("{} [{l}]", v["file"].as_str().unwrap_or("")),
+            None => v["file"].as_str().unwrap_or("").to_string(),
+        };
+        lines.push(match a.kind {
+            Kind::Pl => format!(
+                "{}  PL {} nm  FWHM {} nm  integral {}",
+                name,
+                f("pl_peak_nm", 1),
+                f("pl_fwhm_nm", 1),
+                f("pl_integral", 1)
+            ),
+            _ => format!(
+                "{}  first exciton {} nm{}  A {}  HWHM {} nm{}",
+                name,
+                f("first_exciton_nm", 1),
+                if v["shoulder"].as_bool() == Some(true) {
+                    " (shoulder)"
+                } else {
+                    ""
+                },
+                f("first_exciton_abs", 3),
+                f("hwhm_nm", 1),
+                if v.get("diameter_nm").is_some() {
+                    format!(
+                        "  D {} nm  c {}",
+                        f("diameter_nm", 2),
+                        molar(v["concentration_molar"].as_f64())
+                    )
+                } else {
+                    String::new()
+                }
+            ),
+        });
+        for w in v["warnings"].as_array().into_iter().flatten() {
+            lines.push(format!("  warning: {}", w.as_str().unwrap_or("")));
+        }
+    }
+    Ok(lines)
+}
+
+/// A write to stdout; a closed pipe ends the program quietly, as [`output::line`] does.
+fn print_or_quit(written: std::io::Result<()>) -> Result<()> {
+    match written {
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => std::process::exit(0),
+        r => Ok(r?),
+    }
 }
 
 fn read(a: &ReadArgs) -> Result<()> {

@@ -206,44 +206,120 @@ const POW10: [f64; 23] = [
     1e21, 1e22,
 ];
 
+/// 2^53: every whole number up to it is exact in f64.
+const EXACT_MANTISSA: u64 = 1 << 53;
+
 /// The plain decimals instruments write ("599.9901733", "-0.000496", "420"), read exactly:
-/// when the digits fit in 2^53 and there are at most 22 after the mark, both the digits and the
-/// power of ten are exact in f64, so one division is correctly rounded (Clinger's fast path,
-/// the same result `str::parse` gives). Anything else (an exponent, more digits) is left to
-/// `str::parse` by returning None.
+/// when the digits, without the mark, make a whole number of at most 2^53 and there are at
+/// most 22 after the mark, both that number and the power of ten are exact in f64, so one
+/// division is correctly rounded (Clinger's fast path: the same result `str::parse` gives).
+/// Anything else (an exponent, more digits) is left to `str::parse` by returning None.
 fn fast_decimal(s: &[u8], mark: u8) -> Option<f64> {
-    let (neg, digits) = match s.first()? {
-        b'-' => (true, &s[1..]),
-        b'+' => (false, &s[1..]),
-        _ => (false, s),
+    match decimal_prefix(s, mark) {
+        Some((v, used)) if used == s.len() => Some(v),
+        _ => None,
+    }
+}
+
+/// The plain decimal `[+-]?digits[MARK digits]` at the start of `s` (at least one digit), as
+/// [`fast_decimal`] reads it, and how many bytes it took; None when it is not one or not exact
+/// on the fast path. What follows it is the caller's to judge.
+#[inline]
+fn decimal_prefix(s: &[u8], mark: u8) -> Option<(f64, usize)> {
+    let (neg, mut i) = match s.first()? {
+        b'-' => (true, 1),
+        b'+' => (false, 1),
+        _ => (false, 0),
     };
     let mut mantissa: u64 = 0;
-    let mut n_digits = 0usize;
-    let mut frac = 0usize;
-    let mut seen_mark = false;
-    let mut any_digit = false;
-    for &c in digits {
-        if c.is_ascii_digit() {
-            any_digit = true;
-            if n_digits >= 15 {
-                return None;
-            }
-            mantissa = mantissa * 10 + u64::from(c - b'0');
-            if mantissa != 0 {
-                n_digits += 1;
-            }
-            frac += usize::from(seen_mark);
-        } else if c == mark && !seen_mark {
-            seen_mark = true;
-        } else {
-            return None;
+    let int_start = i;
+    while let Some(&c) = s.get(i) {
+        let d = c.wrapping_sub(b'0');
+        if d > 9 {
+            break;
         }
+        // Wrapping: a mantissa of more than 19 digits is refused below, before it is used.
+        mantissa = mantissa.wrapping_mul(10).wrapping_add(u64::from(d));
+        i += 1;
     }
-    if !any_digit || frac >= POW10.len() {
+    let int_digits = i - int_start;
+    let mut frac = 0;
+    if s.get(i) == Some(&mark) {
+        i += 1;
+        let frac_start = i;
+        while let Some(&c) = s.get(i) {
+            let d = c.wrapping_sub(b'0');
+            if d > 9 {
+                break;
+            }
+            mantissa = mantissa.wrapping_mul(10).wrapping_add(u64::from(d));
+            i += 1;
+        }
+        frac = i - frac_start;
+    }
+    let digits = int_digits + frac;
+    if digits == 0 || digits > 19 || mantissa > EXACT_MANTISSA || frac >= POW10.len() {
         return None;
     }
     let v = mantissa as f64 / POW10[frac];
-    Some(if neg { -v } else { v })
+    Some((if neg { -v } else { v }, i))
+}
+
+/// A row of plain decimals (decimal point) and nothing else, parsed in one pass: the cells are
+/// separated by the one delimiter byte (or, for whitespace, by runs of blanks and tabs, with
+/// blanks allowed around the row), and every cell is a number [`decimal_prefix`] reads. Its
+/// numbers are appended to `out` and their count returned. Such a row reads exactly as the
+/// general cell-by-cell path reads it (no comment, no quote, no empty cell, each value what
+/// `str::parse` gives); on anything else nothing is appended and the general path reads the
+/// row.
+fn plain_row(line: &[u8], delim: Delim, out: &mut Vec<Option<f64>>) -> Option<usize> {
+    let start = out.len();
+    let n = line.len();
+    let space = delim == Delim::Space;
+    let d = delim.byte();
+    let blank = |c: u8| c == b' ' || c == b'\t';
+    let mut i = 0;
+    if space {
+        while i < n && blank(line[i]) {
+            i += 1;
+        }
+    }
+    let ok = loop {
+        let Some((v, used)) = decimal_prefix(&line[i..], b'.') else {
+            break false;
+        };
+        out.push(Some(v));
+        i += used;
+        if i == n {
+            break true;
+        }
+        if space {
+            if !blank(line[i]) {
+                break false;
+            }
+            while i < n && blank(line[i]) {
+                i += 1;
+            }
+            if i == n {
+                break true;
+            }
+        } else {
+            if line[i] != d {
+                break false;
+            }
+            i += 1;
+            // An empty cell at the end is the general path's to drop.
+            if i == n {
+                break false;
+            }
+        }
+    };
+    if ok {
+        Some(out.len() - start)
+    } else {
+        out.truncate(start);
+        None
+    }
 }
 
 /// Parses `s` after dropping every `drop` byte and turning `to_point` into '.', without a heap
@@ -327,27 +403,11 @@ fn split_lines(text: &str) -> (Vec<(usize, usize)>, Endings) {
     let b = text.as_bytes();
     let mut spans = Vec::with_capacity(b.len() / 24 + 1);
     let mut endings = Endings::default();
-    // Counting CRs only when there is one keeps LF-only files to a single fast search.
-    let total_cr = if text.contains('\r') {
-        b.iter().filter(|&&c| c == b'\r').count()
-    } else {
-        0
-    };
-    let has_lf = text.contains('\n');
-    if has_lf {
-        // The common case: split at each LF (a fast search), dropping the CR of a CRLF.
-        let mut start = 0;
-        while let Some(off) = text[start..].find('\n') {
-            let end = start + off;
-            if end > start && b[end - 1] == b'\r' {
-                spans.push((start, end - 1));
-                endings.crlf += 1;
-            } else {
-                spans.push((start, end));
-                endings.lf += 1;
-            }
-            start = end + 1;
-        }
+    // The common case, LF or CRLF endings: split at each LF, dropping the CR of a CRLF. A CR
+    // anywhere else (a CR-only file, lone CRs among LFs) falls through to the byte-by-byte
+    // split below.
+    let (lfs, total_cr, start) = lf_split(b, &mut spans, &mut endings);
+    if lfs > 0 {
         if start < b.len() {
             let end = if b[b.len() - 1] == b'\r' { b.len() - 1 } else { b.len() };
             endings.crlf += usize::from(end < b.len());
@@ -356,10 +416,9 @@ fn split_lines(text: &str) -> (Vec<(usize, usize)>, Endings) {
         if total_cr == endings.crlf {
             return (spans, endings);
         }
-        // Lone CRs among LFs: fall through to the byte-by-byte split.
-        spans.clear();
-        endings = Endings::default();
     }
+    spans.clear();
+    endings = Endings::default();
     let mut start = 0;
     let mut i = 0;
     while i < b.len() {
@@ -387,6 +446,65 @@ fn split_lines(text: &str) -> (Vec<(usize, usize)>, Endings) {
         spans.push((start, b.len()));
     }
     (spans, endings)
+}
+
+/// The high bit of every byte of `x` that is zero, and no other bit (exact, unlike the
+/// shorter test for "some byte is zero": no borrow runs from one byte into the next).
+#[inline]
+fn zero_bytes(x: u64) -> u64 {
+    const LOW7: u64 = 0x7f7f_7f7f_7f7f_7f7f;
+    !(((x & LOW7).wrapping_add(LOW7)) | x | LOW7)
+}
+
+/// Pushes the span of every line that ends in an LF (without the CR of a CRLF, which
+/// `endings` counts; the other LFs too), and returns how many LFs there were, how many CRs
+/// the text holds anywhere, and where the text after the last LF starts. The search reads 8
+/// bytes at a time as one word and marks its LF and CR bytes with word arithmetic, visiting
+/// only the marked bytes; the last few bytes are looked at one by one.
+fn lf_split(b: &[u8], spans: &mut Vec<(usize, usize)>, endings: &mut Endings) -> (usize, usize, usize) {
+    const LF: u64 = 0x0a0a_0a0a_0a0a_0a0a;
+    const CR: u64 = 0x0d0d_0d0d_0d0d_0d0d;
+    let mut start = 0;
+    let mut lfs = 0;
+    let mut any_cr = 0;
+    let mut line_end = |end: usize, spans: &mut Vec<(usize, usize)>, endings: &mut Endings| {
+        if end > start && b[end - 1] == b'\r' {
+            spans.push((start, end - 1));
+            endings.crlf += 1;
+        } else {
+            spans.push((start, end));
+            endings.lf += 1;
+        }
+        start = end + 1;
+    };
+    let words = b.chunks_exact(8);
+    let tail = words.remainder();
+    for (k, word) in words.enumerate() {
+        let mut w = [0u8; 8];
+        w.copy_from_slice(word);
+        let x = u64::from_le_bytes(w);
+        any_cr |= zero_bytes(x ^ CR);
+        let mut lf = zero_bytes(x ^ LF);
+        while lf != 0 {
+            lfs += 1;
+            line_end(k * 8 + (lf.trailing_zeros() / 8) as usize, spans, endings);
+            lf &= lf - 1;
+        }
+    }
+    let base = b.len() - tail.len();
+    for (j, &c) in tail.iter().enumerate() {
+        if c == b'\n' {
+            lfs += 1;
+            line_end(base + j, spans, endings);
+        }
+    }
+    // CRs are counted only in a text that has one (most have none).
+    let crs = if any_cr != 0 || tail.contains(&b'\r') {
+        b.iter().filter(|&&c| c == b'\r').count()
+    } else {
+        0
+    };
+    (lfs, crs, start)
 }
 
 #[derive(Debug, Default)]
@@ -437,6 +555,8 @@ struct TextRows<'a> {
     odd: Oddities,
     /// Count oddities only on the chosen reading, not while trying candidates.
     record: bool,
+    /// Read plain rows on the one-pass path (off only to test it against the general one).
+    plain: bool,
 }
 
 impl TextRows<'_> {
@@ -461,6 +581,14 @@ impl RowSource for TextRows<'_> {
         let (a, b) = self.spans[i];
         let text: &str = self.text;
         let line = &text[a..b];
+        // The common row, plain decimals between delimiters, in one pass; it reads exactly as
+        // the comment test and the cell-by-cell loop below would (see `plain_row`).
+        if self.plain
+            && !self.comma_decimal
+            && let Some(count) = plain_row(line.as_bytes(), self.delim, out)
+        {
+            return Ok(RowKind::Numbers { count });
+        }
         if is_comment(line) {
             return Ok(RowKind::Comment);
         }
@@ -612,6 +740,18 @@ pub(crate) fn read_all_decoded(
     encoding: Option<&str>,
     opts: &ReadOptions,
 ) -> Result<Vec<RawSpectrum>> {
+    read_text(file, text, encoding, opts, true)
+}
+
+/// The reader; `plain` takes plain rows on the one-pass path (false only in the tests that
+/// check it reads every file as the general path does).
+fn read_text(
+    file: &str,
+    text: &str,
+    encoding: Option<&str>,
+    opts: &ReadOptions,
+    plain: bool,
+) -> Result<Vec<RawSpectrum>> {
     let (spans, endings) = split_lines(text);
     let line_of = |i: usize| {
         let (a, b) = spans[i];
@@ -645,6 +785,7 @@ pub(crate) fn read_all_decoded(
         comma_decimal,
         odd: Oddities::default(),
         record: true,
+        plain,
     };
     let mut table = grid::walk(file, &mut src, range.clone())?;
     if begin.is_some() {
@@ -973,5 +1114,273 @@ mod tests {
         assert_eq!(marker("[End of Data]"), Some(false));
         assert_eq!(marker("Data points: 601"), None);
         assert_eq!(marker("400,0.5"), None);
+    }
+
+    // ---- the one-pass paths against the general ones (issue 13, point 5) ----
+
+    use proptest::prelude::*;
+
+    /// Bit-for-bit what `str::parse` gives, which is correctly rounded: the known truth every
+    /// fast read is checked against.
+    fn std_bits(s: &str) -> Option<u64> {
+        s.parse::<f64>().ok().map(f64::to_bits)
+    }
+
+    #[test]
+    fn the_fast_path_edge_cases_read_as_str_parse() {
+        for s in [
+            "0",
+            "-0",
+            "+0",
+            "0.0",
+            "-0.0",
+            ".5",
+            "5.",
+            "-.5",
+            "+5.",
+            "420",
+            "599.9901733",
+            "-0.000496",
+            // 2^53 is exact; one more is not a fast-path mantissa.
+            "9007199254740992",
+            "900719925474099.2",
+            "0.0000000000000000000001",
+            "1.7976931348623157",
+            "123456789012345678",
+            "0.1",
+            "0.2",
+            "0.3",
+            "2.5",
+            "1e3",
+        ] {
+            if let Some(v) = fast_decimal(s.as_bytes(), b'.') {
+                assert_eq!(Some(v.to_bits()), std_bits(s), "{s}");
+            }
+        }
+        assert_eq!(fast_decimal(b"9007199254740992", b'.'), Some(9_007_199_254_740_992.0));
+        // Beyond the exact range: left to str::parse.
+        for s in [
+            "9007199254740993",
+            "90071992547409.93",
+            "1234567890123456789",
+            "99999999999999999999",
+            "18446744073709551617",
+            "0.00000000000000000000001",
+            "1e3",
+            ".",
+            "-",
+            "+",
+            "",
+            "--1",
+            "1..2",
+            "1.2.3",
+            "0x10",
+            " 1",
+            "1 ",
+        ] {
+            assert_eq!(fast_decimal(s.as_bytes(), b'.'), None, "{s}");
+        }
+        assert_eq!(decimal_prefix(b"1.25,3", b'.'), Some((1.25, 4)));
+        assert_eq!(decimal_prefix(b"7e3", b'.'), Some((7.0, 1)));
+        assert_eq!(decimal_prefix(b"0,5", b','), Some((0.5, 3)));
+    }
+
+    /// The general cell-by-cell scan and the one-pass scan of one line, as (kind, value bits).
+    fn scan_both(line: &str, delim: Delim) -> (String, String) {
+        let spans = [(0, line.len())];
+        let run = |plain: bool| {
+            let mut src = TextRows {
+                text: line,
+                spans: &spans,
+                delim,
+                comma_decimal: false,
+                odd: Oddities::default(),
+                record: true,
+                plain,
+            };
+            let mut out = vec![Some(-1.0)];
+            let kind = src.scan(0, &mut out).map_err(|e| e.to_string());
+            let bits: Vec<Option<u64>> = out.iter().map(|v| v.map(f64::to_bits)).collect();
+            format!("{kind:?} {bits:?}")
+        };
+        (run(true), run(false))
+    }
+
+    fn cell_strategy() -> impl Strategy<Value = String> {
+        prop_oneof![
+            4 => "[+-]?[0-9]{1,6}\\.[0-9]{1,8}",
+            2 => "[+-]?[0-9]{0,20}(\\.[0-9]{0,24})?",
+            1 => "[0-9]{1,3}(e[+-]?[0-9]{1,3})?",
+            1 => "[ \"]{0,2}[0-9]{1,4}\\.[0-9]{1,4}[ \"]{0,2}",
+            1 => "[0-9a-zA-Z#,;. +\\-]{0,6}",
+            1 => Just(String::new()),
+        ]
+    }
+
+    fn delim_strategy() -> impl Strategy<Value = Delim> {
+        prop_oneof![
+            Just(Delim::Comma),
+            Just(Delim::Tab),
+            Just(Delim::Semicolon),
+            Just(Delim::Space)
+        ]
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(3000))]
+
+        /// Every plain decimal the fast path takes reads bit for bit as `str::parse` reads it.
+        #[test]
+        fn fast_decimals_equal_str_parse(s in "[+-]?[0-9]{0,22}(\\.[0-9]{0,25})?") {
+            if let Some(v) = fast_decimal(s.as_bytes(), b'.') {
+                prop_assert_eq!(Some(v.to_bits()), std_bits(&s), "{}", s);
+            }
+            if let Some((v, used)) = decimal_prefix(s.as_bytes(), b'.') {
+                prop_assert_eq!(Some(v.to_bits()), std_bits(&s[..used]), "{}", s);
+            }
+        }
+
+        /// Any text: what the fast path takes, it takes exactly; a prefix ends where a plain
+        /// decimal ends.
+        #[test]
+        fn decimal_prefixes_of_any_text_equal_str_parse(s in "[0-9.+\\-eE,]{0,30}") {
+            if let Some((v, used)) = decimal_prefix(s.as_bytes(), b'.') {
+                prop_assert_eq!(Some(v.to_bits()), std_bits(&s[..used]), "{}", s);
+                prop_assert!(!s.as_bytes().get(used).is_some_and(u8::is_ascii_digit), "{}", s);
+            }
+            let comma = s.replace(',', "").replace('.', ",");
+            if let Some(v) = fast_decimal(comma.as_bytes(), b',') {
+                prop_assert_eq!(Some(v.to_bits()), std_bits(&comma.replace(',', ".")), "{}", comma);
+            }
+        }
+
+        /// Random doubles written the ways exports write them read back as `str::parse` reads
+        /// the written text.
+        #[test]
+        fn written_doubles_read_as_str_parse(v in -1e6f64..1e6, decimals in 0usize..17) {
+            let s = format!("{v:.decimals$}");
+            if let Some(got) = fast_decimal(s.as_bytes(), b'.') {
+                prop_assert_eq!(Some(got.to_bits()), std_bits(&s), "{}", s);
+            }
+        }
+
+        /// A line reads the same on the one-pass path as on the general one, whatever it holds.
+        #[test]
+        fn plain_rows_scan_as_the_general_path(
+            cells in proptest::collection::vec(cell_strategy(), 1..6),
+            delim in delim_strategy(),
+            other in prop_oneof![Just(","), Just("\t"), Just(";"), Just(" "), Just("  "), Just(", "), Just(" \t")],
+            lead in "[ \t]{0,2}",
+            trail in "[ \t,;]{0,2}",
+        ) {
+            // The file's own delimiter, or another one (a row the one-pass path must refuse).
+            let own = match delim {
+                Delim::Tab => "\t",
+                Delim::Semicolon => ";",
+                Delim::Comma => ",",
+                Delim::Space => " ",
+            };
+            for sep in [own, other] {
+                for line in [cells.join(sep), format!("{lead}{}{trail}", cells.join(sep))] {
+                    let (fast, general) = scan_both(&line, delim);
+                    prop_assert_eq!(fast, general, "{:?} {:?}", line, delim);
+                }
+            }
+        }
+
+        /// Whole files: the reader gives the same spectra (or the same refusal) with and
+        /// without the one-pass rows.
+        #[test]
+        fn files_read_as_on_the_general_path(
+            header in prop_oneof![Just("Wavelength (nm),Absorbance".to_string()), Just(String::new()), "[a-z#: ]{0,12}"],
+            rows in proptest::collection::vec(
+                prop_oneof![
+                    8 => (400u32..900, cell_strategy()).prop_map(|(x, y)| format!("{x}.5,{y}")),
+                    1 => proptest::collection::vec(cell_strategy(), 1..4).prop_map(|c| c.join(",")),
+                    1 => "[a-z#>< ]{0,12}",
+                ],
+                0..40,
+            ),
+            eol in prop_oneof![Just("\n"), Just("\r\n"), Just("\r")],
+        ) {
+            let text = format!("{header}{eol}{}", rows.join(eol));
+            let show = |r: Result<Vec<RawSpectrum>>| match r {
+                Ok(v) => format!("{:?}", v.iter().map(|s| (s, s.x.iter().chain(&s.y).map(|v| v.to_bits()).collect::<Vec<_>>())).collect::<Vec<_>>()),
+                Err(e) => e.to_string(),
+            };
+            let fast = show(read_text("f.csv", &text, None, &opts(), true));
+            let general = show(read_text("f.csv", &text, None, &opts(), false));
+            prop_assert_eq!(fast, general, "{:?}", text);
+        }
+
+        /// Line spans and endings are what the byte-by-byte split gives; the text also holds
+        /// bytes one away from LF and CR and the UTF-8 bytes 0x8a and 0x8d (in 'Ê', 'č',
+        /// 'Ċ'), which a word test that ignored the high bit would take for line ends.
+        #[test]
+        fn lines_split_as_byte_by_byte(text in "[a\r\n,\u{b}\u{e}\u{1}Êč\u{10a}]{0,120}") {
+            let (spans, e) = split_lines(&text);
+            let (want, w) = split_lines_reference(&text);
+            prop_assert_eq!(spans, want);
+            prop_assert_eq!((e.lf, e.crlf, e.cr), (w.lf, w.crlf, w.cr));
+        }
+    }
+
+    /// The split as it was written before the chunked search: the reference it must equal.
+    fn split_lines_reference(text: &str) -> (Vec<(usize, usize)>, Endings) {
+        let b = text.as_bytes();
+        let mut spans = Vec::new();
+        let mut endings = Endings::default();
+        let total_cr = b.iter().filter(|&&c| c == b'\r').count();
+        if text.contains('\n') {
+            let mut start = 0;
+            while let Some(off) = text[start..].find('\n') {
+                let end = start + off;
+                if end > start && b[end - 1] == b'\r' {
+                    spans.push((start, end - 1));
+                    endings.crlf += 1;
+                } else {
+                    spans.push((start, end));
+                    endings.lf += 1;
+                }
+                start = end + 1;
+            }
+            if start < b.len() {
+                let end = if b[b.len() - 1] == b'\r' { b.len() - 1 } else { b.len() };
+                endings.crlf += usize::from(end < b.len());
+                spans.push((start, end));
+            }
+            if total_cr == endings.crlf {
+                return (spans, endings);
+            }
+            spans.clear();
+            endings = Endings::default();
+        }
+        let mut start = 0;
+        let mut i = 0;
+        while i < b.len() {
+            match b[i] {
+                b'\n' => {
+                    spans.push((start, i));
+                    endings.lf += 1;
+                    start = i + 1;
+                }
+                b'\r' => {
+                    spans.push((start, i));
+                    if i + 1 < b.len() && b[i + 1] == b'\n' {
+                        endings.crlf += 1;
+                        i += 1;
+                    } else {
+                        endings.cr += 1;
+                    }
+                    start = i + 1;
+                }
+                _ => {}
+            }
+            i += 1;
+        }
+        if start < b.len() {
+            spans.push((start, b.len()));
+        }
+        (spans, endings)
     }
 }

@@ -170,9 +170,19 @@ pub const MAX_FILE_BYTES: u64 = 256 * 1024 * 1024;
 
 /// A spectrum file's bytes, read in one allocation, refused above [`MAX_FILE_BYTES`].
 pub fn file_bytes(path: &std::path::Path) -> Result<Vec<u8>> {
+    let mut bytes = Vec::new();
+    file_bytes_into(path, &mut bytes)?;
+    Ok(bytes)
+}
+
+/// As [`file_bytes`], into `bytes` (whatever it held is replaced), so that a run over many files
+/// can read them all into one buffer. The buffer is sized from the stated length plus one
+/// byte, so a file is read in one `read` and its end seen by the next; a file that turns out
+/// longer (it grew, or states no length) is read on, up to the same limit.
+pub fn file_bytes_into(path: &std::path::Path, bytes: &mut Vec<u8>) -> Result<()> {
     use std::io::Read;
     let name = path.display().to_string();
-    let f = std::fs::File::open(path).map_err(|e| spectrum_error(&name, None, &format!("cannot read: {e}")))?;
+    let mut f = std::fs::File::open(path).map_err(|e| spectrum_error(&name, None, &format!("cannot read: {e}")))?;
     let len = f.metadata().map(|m| m.len()).unwrap_or(0);
     if len > MAX_FILE_BYTES {
         return Err(spectrum_error(
@@ -181,15 +191,34 @@ pub fn file_bytes(path: &std::path::Path) -> Result<Vec<u8>> {
             &format!("{len} bytes is larger than any spectrum export (at most {MAX_FILE_BYTES})"),
         ));
     }
-    let mut bytes = Vec::with_capacity(len as usize);
     // A file that grows (or a device that never ends) stops at the same limit.
-    f.take(MAX_FILE_BYTES + 1)
-        .read_to_end(&mut bytes)
-        .map_err(|e| spectrum_error(&name, None, &format!("cannot read: {e}")))?;
+    let limit = (MAX_FILE_BYTES + 1) as usize;
+    bytes.clear();
+    bytes.resize((len as usize + 1).min(limit), 0);
+    let mut filled = 0;
+    loop {
+        if filled == bytes.len() {
+            if filled >= limit {
+                break;
+            }
+            bytes.resize((filled * 2).max(8192).min(limit), 0);
+        }
+        match f.read(&mut bytes[filled..]) {
+            Ok(0) => break,
+            Ok(n) => filled += n,
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+            Err(e) => {
+                bytes.clear();
+                return Err(spectrum_error(&name, None, &format!("cannot read: {e}")));
+            }
+        }
+    }
+    bytes.truncate(filled);
     if bytes.len() as u64 > MAX_FILE_BYTES {
+        bytes.clear();
         return Err(spectrum_error(&name, None, "larger than any spectrum export"));
     }
-    Ok(bytes)
+    Ok(())
 }
 
 pub fn sha256_hex(bytes: &[u8]) -> String {
