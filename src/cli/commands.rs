@@ -1234,6 +1234,7 @@ fn analyze_one(file: &str, raw: &spectra::RawSpectrum, a: &AnalyzeArgs, cal: &ca
                     "hwhm_nm": r.hwhm_nm,
                     "hwhm_mev": r.hwhm_ev.map(|h| h * 1000.0),
                     "shoulder": r.shoulder,
+                    "band_edge": r.band_edge,
                     "warnings": r.warnings,
                 });
                 if a.material.is_some() {
@@ -1260,6 +1261,11 @@ fn analyze_one(file: &str, raw: &spectra::RawSpectrum, a: &AnalyzeArgs, cal: &ca
                     "pl_fwhm_mev": r.pl_fwhm_mev,
                     "pl_integral": r.pl_integral,
                     "pl_integral_energy": r.pl_integral_energy,
+                    "pl_integral_band_edge": r.pl_integral_band_edge,
+                    "baseline_model": r.baseline_model,
+                    "bands": r.bands,
+                    "narrow_lines": r.narrow_lines,
+                    "grid_gaps": r.grid_gaps,
                     "warnings": r.warnings,
                 }))
             }

@@ -281,9 +281,37 @@ fn peak_method(_cal: &Calibration) -> String {
         .to_string()
 }
 
+/// What the material tells the band-edge search: the first-exciton region its sizing curve
+/// covers and its bulk gap (nothing redder can be a first exciton). Empty for an unknown core.
+pub fn band_edge_hint(core: &str, cal: &Calibration) -> crate::spectra::band_edge::BandEdgeHint {
+    use crate::derive::sizing;
+    let bulk = sizing::default_bulk(core);
+    let curve = cal
+        .curves
+        .get(core)
+        .map(String::as_str)
+        .or_else(|| sizing::default_curve(core))
+        .and_then(|id| sizing::Curve::parse(id).ok());
+    crate::spectra::band_edge::BandEdgeHint {
+        material: (!core.is_empty()).then(|| core.to_string()),
+        expected_nm: curve.and_then(|c| sizing::peak_range_nm(c, core, bulk.as_ref())),
+        bulk_gap_nm: bulk.map(|b| HC_EV_NM / b.eg_ev),
+    }
+}
+
 /// Stage one of an absorbance trace: the spectral values it gives.
 pub fn absorbance_values(t: &Trace, cal: &Calibration) -> Result<(Vec<Derived>, AbsResult)> {
-    let r = analysis::analyze_absorbance(t, &cal.analysis)?;
+    absorbance_values_with(t, cal, &crate::spectra::band_edge::BandEdgeHint::default())
+}
+
+/// Stage one with what the material tells the search (a lone file analysed with `--material`,
+/// a vial's own measurement).
+pub fn absorbance_values_with(
+    t: &Trace,
+    cal: &Calibration,
+    hint: &crate::spectra::band_edge::BandEdgeHint,
+) -> Result<(Vec<Derived>, AbsResult)> {
+    let r = analysis::analyze_absorbance_with(t, &cal.analysis, hint)?;
     let m = peak_method(cal);
     let width = "the first transition's own half width at half maximum (fitted in energy)";
     let v = vec![
@@ -373,7 +401,7 @@ pub fn derive_from_trace(
     path_cm: f64,
     cal: &Calibration,
 ) -> Result<(AbsResult, Vec<Derived>)> {
-    let (mut values, r) = absorbance_values(t, cal)?;
+    let (mut values, r) = absorbance_values_with(t, cal, &band_edge_hint(core, cal))?;
     let a = AliquotRow {
         id: 0,
         batch_id: 0,
