@@ -272,6 +272,7 @@ fn decimal_prefix(s: &[u8], mark: u8) -> Option<(f64, usize)> {
 /// general cell-by-cell path reads it (no comment, no quote, no empty cell, each value what
 /// `str::parse` gives); on anything else nothing is appended and the general path reads the
 /// row.
+#[inline]
 fn plain_row(line: &[u8], delim: Delim, out: &mut Vec<Option<f64>>) -> Option<usize> {
     let start = out.len();
     let n = line.len();
@@ -559,36 +560,24 @@ struct TextRows<'a> {
     plain: bool,
 }
 
-impl TextRows<'_> {
-    fn line_text(&self, i: usize) -> &str {
-        let (a, b) = self.spans[i];
-        &self.text[a..b]
-    }
-}
-
 /// Whether a line is a comment: `#`, `%` or `;` first (not a rule of `#`).
 fn is_comment(line: &str) -> bool {
     let t = line.trim_start();
     (t.starts_with('#') && !t.bytes().all(|c| c == b'#' || c == b' ')) || t.starts_with("//")
 }
 
-impl RowSource for TextRows<'_> {
-    fn line(&self, i: usize) -> usize {
-        i + 1
+impl TextRows<'_> {
+    fn line_text(&self, i: usize) -> &str {
+        let (a, b) = self.spans[i];
+        &self.text[a..b]
     }
 
-    fn scan(&mut self, i: usize, out: &mut Vec<Option<f64>>) -> Result<RowKind> {
+    /// A row cell by cell: comments, quotes, empty cells, thousands separators, words.
+    #[inline(never)]
+    fn scan_cells(&mut self, i: usize, out: &mut Vec<Option<f64>>) -> Result<RowKind> {
         let (a, b) = self.spans[i];
         let text: &str = self.text;
         let line = &text[a..b];
-        // The common row, plain decimals between delimiters, in one pass; it reads exactly as
-        // the comment test and the cell-by-cell loop below would (see `plain_row`).
-        if self.plain
-            && !self.comma_decimal
-            && let Some(count) = plain_row(line.as_bytes(), self.delim, out)
-        {
-            return Ok(RowKind::Numbers { count });
-        }
         if is_comment(line) {
             return Ok(RowKind::Comment);
         }
@@ -648,6 +637,35 @@ impl RowSource for TextRows<'_> {
             RowKind::Numbers { count }
         })
     }
+}
+
+impl RowSource for TextRows<'_> {
+    fn line(&self, i: usize) -> usize {
+        i + 1
+    }
+
+    #[inline]
+    fn scan(&mut self, i: usize, out: &mut Vec<Option<f64>>) -> Result<RowKind> {
+        match self.plain(i, out) {
+            Some(count) => Ok(RowKind::Numbers { count }),
+            None => self.scan_cells(i, out),
+        }
+    }
+
+    /// The common row, plain decimals between delimiters, in one pass; it reads exactly as the
+    /// comment test and the cell-by-cell loop would (see `plain_row`).
+    #[inline]
+    fn plain(&mut self, i: usize, out: &mut Vec<Option<f64>>) -> Option<usize> {
+        if !self.plain || self.comma_decimal {
+            return None;
+        }
+        let (a, b) = self.spans[i];
+        plain_row(&self.text.as_bytes()[a..b], self.delim, out)
+    }
+
+    fn forget(&mut self) {
+        self.odd = Oddities::default();
+    }
 
     fn texts(&self, i: usize) -> Vec<String> {
         let line = self.line_text(i);
@@ -683,8 +701,10 @@ impl RowSource for TextRows<'_> {
 }
 
 /// A line that opens framed data ("begin spectral data", ">>> start of data <<<") or closes it.
+#[inline]
 fn marker(line: &str) -> Option<bool> {
-    // Rows of numbers, the bulk of any file, are no marker: reject them before any work.
+    // Rows of numbers, the bulk of any file, are no marker: reject them before any work (and
+    // without a call, as this is asked of every line).
     if line
         .as_bytes()
         .first()
@@ -692,6 +712,12 @@ fn marker(line: &str) -> Option<bool> {
     {
         return None;
     }
+    marker_words(line)
+}
+
+/// [`marker`] for a line that does not start like a number.
+#[inline(never)]
+fn marker_words(line: &str) -> Option<bool> {
     let t = line.trim();
     if t.is_empty() || t.len() > 80 || t.bytes().any(|c| c.is_ascii_digit() || c == b':' || c == b'=') {
         return None;
@@ -876,12 +902,20 @@ fn choose_reading(text: &str, spans: &[(usize, usize)], range: std::ops::Range<u
         candidates.push((Delim::Space, true));
     }
     let mut best: Option<((Delim, bool), usize, usize)> = None;
+    let mut plain_cells = Vec::new();
     for (d, dc) in candidates {
         let mut rows = 0;
         let mut odd = 0;
         for &i in &idx {
             let (a, b) = spans[i];
             let line = &text[a..b];
+            // A plain row under a decimal point: every cell a plain number (each one
+            // `Num::Value`), as the loop below would count it.
+            plain_cells.clear();
+            if !dc && let Some(n) = plain_row(line.as_bytes(), d, &mut plain_cells) {
+                rows += usize::from(n >= 2);
+                continue;
+            }
             if is_comment(line) {
                 continue;
             }

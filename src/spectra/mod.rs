@@ -138,6 +138,17 @@ pub fn read_bytes(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<RawSpe
 /// JCAMP-DX opens with labelled data records: a `##TITLE=` or `##JCAMP-DX=` line near the top.
 /// A Markdown heading (`## Results`) is not one.
 fn looks_jcamp(text: &str) -> bool {
+    // The first 50 lines end at the 50th LF (as `lines` splits them); most files have no '#'
+    // in them, so no record, which one look at those bytes says.
+    let head_end = text
+        .bytes()
+        .enumerate()
+        .filter(|(_, c)| *c == b'\n')
+        .nth(49)
+        .map_or(text.len(), |(i, _)| i);
+    if !text.as_bytes()[..head_end].contains(&b'#') {
+        return false;
+    }
     text.lines().take(50).any(|l| {
         let Some(rest) = l.trim_start().strip_prefix("##") else {
             return false;
@@ -316,13 +327,27 @@ impl RawSpectrum {
                 &format!("x unit '{unit_name}' cannot be converted to nm (use --x-unit nm|eV|1/cm|um)"),
             )
         })?;
-        let mut pts: Vec<(f64, f64)> = self.x.iter().zip(&self.y).map(|(&x, &y)| (unit.to_nm(x), y)).collect();
-        if pts.iter().any(|p| !p.0.is_finite() || p.0 <= 0.0) {
+        let n = self.x.len().min(self.y.len());
+        let mut nm: Vec<f64> = self.x[..n].iter().map(|&x| unit.to_nm(x)).collect();
+        if nm.iter().any(|v| !v.is_finite() || *v <= 0.0) {
             return Err(spectrum_error(file, None, "x values convert to no positive wavelength"));
         }
-        pts.sort_by(|a, b| a.0.total_cmp(&b.0));
-        let lo = pts[0].0;
-        let hi = pts[pts.len() - 1].0;
+        // The points in a stable sort by wavelength. Files are in order one way or the other,
+        // so the sort is mostly not needed: strictly ascending stays as it is, strictly
+        // descending (no ties) is exactly reversed; anything else is sorted.
+        let mut stated_y = self.y[..n].to_vec();
+        let strictly = |o: std::cmp::Ordering| nm.windows(2).all(|w| w[0].total_cmp(&w[1]) == o);
+        if strictly(std::cmp::Ordering::Greater) {
+            nm.reverse();
+            stated_y.reverse();
+        } else if !strictly(std::cmp::Ordering::Less) {
+            let mut pts: Vec<(f64, f64)> = nm.iter().copied().zip(stated_y.iter().copied()).collect();
+            pts.sort_by(|a, b| a.0.total_cmp(&b.0));
+            nm = pts.iter().map(|p| p.0).collect();
+            stated_y = pts.iter().map(|p| p.1).collect();
+        }
+        let lo = nm[0];
+        let hi = nm[nm.len() - 1];
         if lo < PLAUSIBLE_NM.0 || hi > PLAUSIBLE_NM.1 || (hi - lo) < 5.0 {
             return Err(spectrum_error(
                 file,
@@ -333,8 +358,6 @@ impl RawSpectrum {
                 ),
             ));
         }
-        let nm = pts.iter().map(|p| p.0).collect();
-        let stated_y: Vec<f64> = pts.iter().map(|p| p.1).collect();
         let y = quantity::y_as_analysed(self.y_unit.as_deref(), &stated_y);
         Ok(Trace { nm, y })
     }
