@@ -68,6 +68,16 @@ pub(crate) trait RowSource {
     fn scan(&mut self, i: usize, out: &mut Vec<Option<f64>>) -> Result<RowKind>;
     /// The cells of row `i` as text, trimmed, trailing empty cells dropped.
     fn texts(&self, i: usize) -> Vec<String>;
+    /// Row `i` when it is a plain row of numbers (every cell a plain number, nothing else):
+    /// its numbers appended to `out` and their count returned, exactly as [`RowSource::scan`]
+    /// would append them and count them in `RowKind::Numbers`. None, with nothing appended,
+    /// for any other row. A source without such a fast reading takes none.
+    fn plain(&mut self, _i: usize, _out: &mut Vec<Option<f64>>) -> Option<usize> {
+        None
+    }
+    /// Forgets what scanning noted about rows (for judging afterwards), so that a walk that
+    /// starts over notes each row once.
+    fn forget(&mut self) {}
 }
 
 struct GridRows<'a> {
@@ -207,8 +217,109 @@ struct Block {
 
 /// Walks rows `range` of a source: finds the data block, its header, and what lies around it.
 pub(crate) fn walk<R: RowSource>(file: &str, src: &mut R, range: std::ops::Range<usize>) -> Result<Table> {
+    if let Some(table) = walk_plain(src, range.clone()) {
+        return Ok(table);
+    }
+    walk_rows(file, src, range)
+}
+
+/// The walk of the commonest table, in one pass and without keeping every row's kind: a
+/// preamble with no row of numbers in it (a header, key/value lines, comments, blank lines),
+/// then plain rows of numbers of one width (two or more) to the last row. For such a table
+/// the general walk ([`walk_rows`]) finds exactly this: one block (the plain rows, so the
+/// data), no bad cell below it (nothing is below it) and none above (the row above the data
+/// is no row of numbers, and nothing above that is a row of numbers to wedge it, so only a
+/// text row beginning with a number would be refused, and that one is left to the general
+/// walk), the header as the last non-empty row above when it is text or a commented
+/// list, every other non-empty preamble row that is a key/value line as metadata, and no
+/// notes, trailing block or warning. Any other table (a row that is not plain after the
+/// first plain one, rows of numbers in the preamble, uneven widths) returns None, with what
+/// scanning noted forgotten, and is walked by the general walk.
+fn walk_plain<R: RowSource>(src: &mut R, range: std::ops::Range<usize>) -> Option<Table> {
+    let mut row: Vec<Option<f64>> = Vec::with_capacity(8);
+    // A table that ends in anything but a plain row (notes, a trailing block) is not this
+    // shape: seen at once, before any work.
+    let last = range.end.checked_sub(1).filter(|l| range.contains(l))?;
+    src.plain(last, &mut row)?;
+    row.clear();
+    let first = range.clone().find(|&i| {
+        row.clear();
+        src.plain(i, &mut row).is_some()
+    })?;
+    let width = row.len();
+    if width < 2 {
+        return None;
+    }
+    let rows = range.end - first;
+    let mut columns: Vec<Vec<Option<f64>>> = vec![Vec::with_capacity(rows); width];
+    for (col, v) in columns.iter_mut().zip(&row) {
+        col.push(*v);
+    }
+    for i in first + 1..range.end {
+        row.clear();
+        if src.plain(i, &mut row) != Some(width) {
+            return None;
+        }
+        for (col, v) in columns.iter_mut().zip(&row) {
+            col.push(*v);
+        }
+    }
+    // The preamble, scanned as the general walk scans it.
+    let mut kinds = Vec::with_capacity(first - range.start);
+    for i in range.start..first {
+        row.clear();
+        match src.scan(i, &mut row) {
+            Ok(RowKind::Numbers { .. }) | Err(_) => {
+                src.forget();
+                return None;
+            }
+            Ok(kind) => kinds.push(kind),
+        }
+    }
+    let kind_of = |i: usize| kinds[i - range.start];
+    let mut table = Table::default();
+    let above = (range.start..first)
+        .rev()
+        .find(|&j| !matches!(kind_of(j), RowKind::Empty));
+    let mut header_row = None;
+    if let Some(j) = above {
+        let cells = src.texts(j);
+        match kind_of(j) {
+            RowKind::Text { first_text } => {
+                if first_text > 0 && cells.first().is_some_and(|c| looks_numeric(c)) {
+                    // A word in a row of numbers: the general walk names it.
+                    src.forget();
+                    return None;
+                }
+                header_row = Some(j);
+            }
+            RowKind::Comment if cells.len() >= 2 && !cells.iter().any(|c| c.contains(':') || c.contains('=')) => {
+                header_row = Some(j);
+            }
+            _ => {}
+        }
+        if header_row.is_some() {
+            table.header = Some(cells);
+        }
+    }
+    for i in range.start..first {
+        if Some(i) == header_row || matches!(kind_of(i), RowKind::Empty) {
+            continue;
+        }
+        if let Some(kv) = key_value(&src.texts(i)) {
+            table.metadata.push(kv);
+        }
+    }
+    table.columns = columns;
+    table.lines = (first..range.end).map(|i| src.line(i)).collect();
+    Some(table)
+}
+
+/// The general walk: every row scanned and its kind kept, then the data block found among them.
+fn walk_rows<R: RowSource>(file: &str, src: &mut R, range: std::ops::Range<usize>) -> Result<Table> {
     // One flat store of every scanned number, so a row costs no allocation of its own.
-    let mut flat: Vec<Option<f64>> = Vec::new();
+    // Room for two numbers a row (x and y), the common table, so it seldom grows.
+    let mut flat: Vec<Option<f64>> = Vec::with_capacity(2 * range.len());
     let mut starts: Vec<(usize, usize)> = Vec::with_capacity(range.len());
     let mut kinds: Vec<RowKind> = Vec::with_capacity(range.len());
     let mut blocks: Vec<Block> = Vec::new();

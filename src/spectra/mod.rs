@@ -139,6 +139,17 @@ pub fn read_bytes(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<RawSpe
 /// JCAMP-DX opens with labelled data records: a `##TITLE=` or `##JCAMP-DX=` line near the top.
 /// A Markdown heading (`## Results`) is not one.
 fn looks_jcamp(text: &str) -> bool {
+    // The first 50 lines end at the 50th LF (as `lines` splits them); most files have no '#'
+    // in them, so no record, which one look at those bytes says.
+    let head_end = text
+        .bytes()
+        .enumerate()
+        .filter(|(_, c)| *c == b'\n')
+        .nth(49)
+        .map_or(text.len(), |(i, _)| i);
+    if !text.as_bytes()[..head_end].contains(&b'#') {
+        return false;
+    }
     text.lines().take(50).any(|l| {
         let Some(rest) = l.trim_start().strip_prefix("##") else {
             return false;
@@ -317,13 +328,27 @@ impl RawSpectrum {
                 &format!("x unit '{unit_name}' cannot be converted to nm (use --x-unit nm|eV|1/cm|um)"),
             )
         })?;
-        let mut pts: Vec<(f64, f64)> = self.x.iter().zip(&self.y).map(|(&x, &y)| (unit.to_nm(x), y)).collect();
-        if pts.iter().any(|p| !p.0.is_finite() || p.0 <= 0.0) {
+        let n = self.x.len().min(self.y.len());
+        let mut nm: Vec<f64> = self.x[..n].iter().map(|&x| unit.to_nm(x)).collect();
+        if nm.iter().any(|v| !v.is_finite() || *v <= 0.0) {
             return Err(spectrum_error(file, None, "x values convert to no positive wavelength"));
         }
-        pts.sort_by(|a, b| a.0.total_cmp(&b.0));
-        let lo = pts[0].0;
-        let hi = pts[pts.len() - 1].0;
+        // The points in a stable sort by wavelength. Files are in order one way or the other,
+        // so the sort is mostly not needed: strictly ascending stays as it is, strictly
+        // descending (no ties) is exactly reversed; anything else is sorted.
+        let mut stated_y = self.y[..n].to_vec();
+        let strictly = |o: std::cmp::Ordering| nm.windows(2).all(|w| w[0].total_cmp(&w[1]) == o);
+        if strictly(std::cmp::Ordering::Greater) {
+            nm.reverse();
+            stated_y.reverse();
+        } else if !strictly(std::cmp::Ordering::Less) {
+            let mut pts: Vec<(f64, f64)> = nm.iter().copied().zip(stated_y.iter().copied()).collect();
+            pts.sort_by(|a, b| a.0.total_cmp(&b.0));
+            nm = pts.iter().map(|p| p.0).collect();
+            stated_y = pts.iter().map(|p| p.1).collect();
+        }
+        let lo = nm[0];
+        let hi = nm[nm.len() - 1];
         if lo < PLAUSIBLE_NM.0 || hi > PLAUSIBLE_NM.1 || (hi - lo) < 5.0 {
             return Err(spectrum_error(
                 file,
@@ -334,9 +359,112 @@ impl RawSpectrum {
                 ),
             ));
         }
-        let nm = pts.iter().map(|p| p.0).collect();
-        let stated_y: Vec<f64> = pts.iter().map(|p| p.1).collect();
         let y = quantity::y_as_analysed(self.y_unit.as_deref(), &stated_y);
         Ok(Trace { nm, y })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    /// The sniff as it was before the look at the bytes: the reference it must equal.
+    fn looks_jcamp_reference(text: &str) -> bool {
+        text.lines().take(50).any(|l| {
+            let Some(rest) = l.trim_start().strip_prefix("##") else {
+                return false;
+            };
+            let Some((label, _)) = rest.split_once('=') else {
+                return false;
+            };
+            let squashed: String = label
+                .chars()
+                .filter(|c| !matches!(c, ' ' | '-' | '/' | '_'))
+                .flat_map(char::to_uppercase)
+                .collect();
+            squashed == "TITLE" || squashed == "JCAMPDX"
+        })
+    }
+
+    /// The conversion as it was before the sort was skipped for points in order: the
+    /// reference (nm and y, bit for bit).
+    fn trace_reference(raw: &RawSpectrum) -> (Vec<u64>, Vec<u64>) {
+        let unit = XUnit::parse(&raw.x_unit).unwrap_or(XUnit::Nanometre);
+        let mut pts: Vec<(f64, f64)> = raw.x.iter().zip(&raw.y).map(|(&x, &y)| (unit.to_nm(x), y)).collect();
+        pts.sort_by(|a, b| a.0.total_cmp(&b.0));
+        let stated: Vec<f64> = pts.iter().map(|p| p.1).collect();
+        let y = quantity::y_as_analysed(raw.y_unit.as_deref(), &stated);
+        (
+            pts.iter().map(|p| p.0.to_bits()).collect(),
+            y.iter().map(|v| v.to_bits()).collect(),
+        )
+    }
+
+    fn raw(x: Vec<f64>, y: Vec<f64>, x_unit: &str, y_unit: Option<&str>) -> RawSpectrum {
+        RawSpectrum {
+            format: "test".into(),
+            title: None,
+            label: None,
+            x_unit: x_unit.into(),
+            y_unit: y_unit.map(str::to_string),
+            x,
+            y,
+            checks: Vec::new(),
+            warnings: Vec::new(),
+        }
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(2000))]
+
+        #[test]
+        fn the_jcamp_sniff_equals_the_line_by_line_one(
+            lines in proptest::collection::vec(
+                prop_oneof![
+                    Just("##TITLE= a".to_string()),
+                    Just("  ## jcamp-dx = 5.01".to_string()),
+                    Just("## Results".to_string()),
+                    Just("# note".to_string()),
+                    Just("400,0.5".to_string()),
+                    "[#A-Za-z=,. \\r-]{0,10}",
+                ],
+                0..70,
+            ),
+        ) {
+            let text = lines.join("\n");
+            prop_assert_eq!(looks_jcamp(&text), looks_jcamp_reference(&text), "{:?}", text);
+        }
+
+        /// Ascending, descending, shuffled and tied x in nm or eV, with absorbance or %T.
+        #[test]
+        fn traces_equal_the_sorted_conversion(
+            start in 300.0f64..600.0,
+            step in prop_oneof![Just(0.5f64), Just(-0.5f64), Just(1.0f64), Just(0.0f64)],
+            jitter in proptest::collection::vec(0.0f64..40.0, 10..40),
+            shuffle in any::<bool>(),
+            ev in any::<bool>(),
+            percent_t in any::<bool>(),
+        ) {
+            let mut x: Vec<f64> = jitter
+                .iter()
+                .enumerate()
+                .map(|(i, j)| if shuffle { start + j } else { start + step * i as f64 })
+                .collect();
+            if ev {
+                x = x.iter().map(|nm| HC_EV_NM / nm).collect();
+            }
+            let y: Vec<f64> = jitter.iter().map(|j| 1.0 + j).collect();
+            let r = raw(x, y, if ev { "eV" } else { "nm" }, percent_t.then_some("%T"));
+            match r.to_trace("f", None) {
+                Ok(t) => {
+                    let (nm, y) = trace_reference(&r);
+                    prop_assert_eq!(t.nm.iter().map(|v| v.to_bits()).collect::<Vec<_>>(), nm);
+                    prop_assert_eq!(t.y.iter().map(|v| v.to_bits()).collect::<Vec<_>>(), y);
+                }
+                // Only a span too narrow for UV-Vis (equal x) is refused here.
+                Err(e) => prop_assert!(e.to_string().contains("not plausible"), "{}", e),
+            }
+        }
     }
 }
