@@ -63,3 +63,18 @@ fn no_focusing_verdict_from_changes_below_the_uncertainty() {
     ];
     assert_eq!(growth(&series).regime, "focusing then defocusing");
 }
+
+mod common;
+
+/// The batch sheet says the reaction yield in words a chemist reads (the JSON carries its terms).
+#[test]
+fn the_batch_sheet_shows_the_reaction_yield() {
+    let lab = common::Lab::new();
+    lab.ok(&["demo"]);
+    let sheet = lab.ok(&["batch", "show", "1"]).stdout;
+    let line = sheet
+        .lines()
+        .find(|l| l.contains("reaction yield"))
+        .unwrap_or_else(|| panic!("no reaction yield on the sheet:\n{sheet}"));
+    assert!(line.contains("% against the limiting"), "{line}");
+}

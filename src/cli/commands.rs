@@ -749,6 +749,24 @@ fn print_batch(v: &Value) -> Result<()> {
     if g["stale"].as_bool() == Some(true) {
         line("  growth: STALE values (run `cuvette recompute`)")?;
     }
+    for j in g["jumps"].as_array().into_iter().flatten() {
+        line(&format!(
+            "  ! aliquot {}: first exciton {:.1} -> {:.1} nm at {} min, a step blue while the crystals grow (beyond {:.1} nm): check that reading",
+            j["aliquot_id"],
+            j["from_nm"].as_f64().unwrap_or(f64::NAN),
+            j["to_nm"].as_f64().unwrap_or(f64::NAN),
+            j["minutes"],
+            j["tolerance_nm"].as_f64().unwrap_or(f64::NAN)
+        ))?;
+    }
+    let ry = &v["reaction_yield"];
+    if let Some(f) = ry["yield_fraction"].as_f64() {
+        line(&format!(
+            "  reaction yield {:.0} % against the limiting {} (`batch show --json` has the terms)",
+            100.0 * f,
+            ry["limiting_element"].as_str().unwrap_or("precursor"),
+        ))?;
+    }
     for x in v["vials"].as_array().into_iter().flatten() {
         line(&format!(
             "  vial {} {} {:.2} mL at {} ({})",
