@@ -119,13 +119,22 @@ pub fn energy_grid(t: &Trace) -> Option<EnergyGrid> {
         return None;
     }
     let e: Vec<f64> = t.nm.iter().rev().map(|l| HC_EV_NM / l).collect();
-    let y: Vec<f64> = t.y.iter().rev().copied().collect();
-    let mut steps: Vec<f64> = e.windows(2).map(|w| w[1] - w[0]).filter(|d| *d > 0.0).collect();
-    if steps.is_empty() {
-        return None;
-    }
-    let mid = steps.len() / 2;
-    let (_, med, _) = steps.select_nth_unstable_by(mid, f64::total_cmp);
+    // Red to blue: native point j of the energy axis is the trace's point n-1-j.
+    let y = |j: usize| t.y[n - 1 - j];
+    // The median step. On an even wavelength grid (the common case) the energy steps grow
+    // steadily towards the blue, so the middle one is the median; otherwise select it.
+    let rising = e.windows(3).all(|w| w[1] - w[0] > 0.0 && w[2] - w[1] >= w[1] - w[0]);
+    let med = if rising {
+        let mid = (n - 1) / 2;
+        e[mid + 1] - e[mid]
+    } else {
+        let mut steps: Vec<f64> = e.windows(2).map(|w| w[1] - w[0]).filter(|d| *d > 0.0).collect();
+        if steps.is_empty() {
+            return None;
+        }
+        let mid = steps.len() / 2;
+        *steps.select_nth_unstable_by(mid, f64::total_cmp).1
+    };
     let step = med.clamp(MIN_STEP_EV, MAX_STEP_EV);
     let (first, last) = (e[0], e[n - 1]);
     let m = ((last - first) / step).floor() as usize + 1;
@@ -142,7 +151,7 @@ pub fn energy_grid(t: &Trace) -> Option<EnergyGrid> {
         }
         let (mut k, mut sum) = (j, 0.0);
         while k < n && e[k] < hi {
-            sum += y[k];
+            sum += y(k);
             k += 1;
         }
         let count = k - j;
@@ -160,9 +169,9 @@ pub fn energy_grid(t: &Trace) -> Option<EnergyGrid> {
             }
             let (e0, e1) = (e[r - 1], e[r]);
             if e1 > e0 {
-                y[r - 1] + (y[r] - y[r - 1]) * ((c - e0) / (e1 - e0)).clamp(0.0, 1.0)
+                y(r - 1) + (y(r) - y(r - 1)) * ((c - e0) / (e1 - e0)).clamp(0.0, 1.0)
             } else {
-                y[r]
+                y(r)
             }
         };
         out.push(v);
@@ -177,16 +186,18 @@ pub fn energy_grid(t: &Trace) -> Option<EnergyGrid> {
 /// Noise per point, measured locally: the median absolute residual from a light smooth in
 /// blocks, never below half the median over blocks (a flat stretch is not noise-free).
 pub struct LocalNoise {
-    block: usize,
+    /// Each block's noise, already floored at half the typical value.
     per_block: Vec<f64>,
     pub typical: f64,
     pub smooth: Vec<f64>,
 }
 
+/// Points per noise block.
+const NOISE_BLOCK: usize = 48;
+
 impl LocalNoise {
     pub fn at(&self, i: usize) -> f64 {
-        let b = (i / self.block).min(self.per_block.len() - 1);
-        self.per_block[b].max(0.5 * self.typical)
+        self.per_block[(i / NOISE_BLOCK).min(self.per_block.len() - 1)]
     }
 }
 
@@ -196,7 +207,7 @@ fn local_noise(y: &[f64]) -> Option<LocalNoise> {
     // The residual from a least-squares smooth has variance σ²(1 - c₀), c₀ the centre weight.
     let c0 = savgol::coefficients(half, 2, 0).ok()?[half];
     let scale = 1.4826 / (1.0 - c0).sqrt();
-    let block = 48usize;
+    let block = NOISE_BLOCK;
     let mut r = Vec::with_capacity(block);
     let mut per_block = Vec::with_capacity(y.len() / block + 1);
     for (yc, sc) in y.chunks(block).zip(smooth.chunks(block)) {
@@ -215,8 +226,10 @@ fn local_noise(y: &[f64]) -> Option<LocalNoise> {
     let mid = sorted.len() / 2;
     let (_, typical, _) = sorted.select_nth_unstable_by(mid, f64::total_cmp);
     let typical = *typical;
+    for v in &mut per_block {
+        *v = v.max(0.5 * typical);
+    }
     Some(LocalNoise {
-        block,
         per_block,
         typical,
         smooth,
@@ -241,7 +254,8 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
     for &h_ev in &SCALES_EV {
         let f = ((h_ev / (5.0 * g.step_ev)).floor() as usize).max(1);
         binned.clear();
-        binned.extend(g.y.chunks_exact(f).map(|c| c.iter().sum::<f64>() / f as f64));
+        let per = 1.0 / f as f64;
+        binned.extend(g.y.chunks_exact(f).map(|c| c.iter().sum::<f64>() * per));
         let step = f as f64 * g.step_ev;
         let e_at = |k: f64| g.e0_ev + 0.5 * (f - 1) as f64 * g.step_ev + k * step;
         let nb = binned.len();
@@ -255,10 +269,17 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
         let Ok(c2) = savgol::coefficients(half, 2, 2) else {
             continue;
         };
-        let gain = c2.iter().map(|c| c * c).sum::<f64>().sqrt() / (step * step);
+        // The derivative's noise sd at bin k is sd_gain x the point noise there.
+        let sd_gain = c2.iter().map(|c| c * c).sum::<f64>().sqrt() / (step * step) / (f as f64).sqrt();
         let smoothing_var = h_ev * h_ev / 3.0;
         for k in half.max(1)..nb - half.max(1) {
             if !(d2[k] < 0.0 && d2[k] < d2[k - 1] && d2[k] <= d2[k + 1]) {
+                continue;
+            }
+            let sd = sd_gain * noise.at(k * f + f / 2);
+            // The prominence never exceeds the depth: most noise wiggles are let go here,
+            // before their ridges are walked.
+            if -d2[k] < 3.0 * sd {
                 continue;
             }
             // Significance is the minimum's prominence, not its depth: a wiggle of noise inside
@@ -282,7 +303,6 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
                 hi.min(0.0)
             };
             let prominence = ridge(-1).min(ridge(1)) - d2[k];
-            let sd = gain * noise.at(k * f + f / 2) / (f as f64).sqrt();
             let significance = if sd > 0.0 { prominence / sd } else { f64::INFINITY };
             if significance < 3.0 {
                 continue;
@@ -665,60 +685,162 @@ fn solve_in_place(a: &mut [f64], b: &mut [f64], n: usize) -> bool {
     b.iter().all(|v| v.is_finite())
 }
 
+/// The fitted stretch of the spectrum: an even energy grid `e0_ev + i·step_ev`, the binned
+/// absorbance and each bin's weight (1/σ²), with scratch space for the Gaussian columns.
 struct Window<'a> {
-    e: &'a [f64],
+    e0_ev: f64,
+    step_ev: f64,
     y: &'a [f64],
     w: &'a [f64],
     e_ref: f64,
 }
 
-/// Weighted normal equations JᵀWJ and JᵀW r at p; returns χ².
-fn normal_equations(win: &Window, p: &[f64], jtj: &mut [f64], jtr: &mut [f64], row: &mut [f64]) -> f64 {
-    let np = p.len();
-    jtj.iter_mut().for_each(|v| *v = 0.0);
-    jtr.iter_mut().for_each(|v| *v = 0.0);
-    let mut chi2 = 0.0;
-    for ((&e, &y), &w) in win.e.iter().zip(win.y).zip(win.w) {
-        let x = e - win.e_ref;
-        row[0] = 1.0;
-        row[1] = x;
-        let mut v = p[0] + p[1] * x;
-        for (k, q) in p[G..].chunks_exact(3).enumerate() {
-            let d = e - q[1];
-            let inv = 1.0 / q[2];
-            let z = d * inv;
-            let gk = (-0.5 * z * z).exp();
-            v += q[0] * gk;
-            row[G + 3 * k] = gk;
-            row[G + 1 + 3 * k] = q[0] * gk * z * inv;
-            row[G + 2 + 3 * k] = q[0] * gk * z * z * inv;
+impl Window<'_> {
+    fn len(&self) -> usize {
+        self.y.len()
+    }
+    fn e(&self, i: usize) -> f64 {
+        self.e0_ev + i as f64 * self.step_ev
+    }
+    /// Fills `cols` (one column of `len()` values per Gaussian of `p`) with each Gaussian's
+    /// unit-height shape at the window's points.
+    fn columns(&self, p: &[f64], cols: &mut Vec<f64>) {
+        let m = self.len();
+        let ng = (p.len() - G) / 3;
+        cols.resize(ng * m, 0.0);
+        for (k, col) in cols.chunks_exact_mut(m).enumerate() {
+            let q = &p[G + 3 * k..G + 3 + 3 * k];
+            gaussian_column(self.e0_ev, self.step_ev, q[1], q[2], col);
         }
-        let r = v - y;
-        chi2 += w * r * r;
-        for a in 0..np {
-            let wa = w * row[a];
-            jtr[a] += wa * r;
-            for b in a..np {
-                jtj[a * np + b] += wa * row[b];
+    }
+}
+
+/// exp(-(eᵢ - c)²/2σ²) at eᵢ = e0 + i·h. On an even grid each point's value is the last one's
+/// times a ratio, and each ratio the last one's times exp(-h²/σ²): four exponentials a column
+/// instead of one a point (the exponential was most of the fit's cost). The walk starts at the
+/// point nearest the centre and moves away from it, so values only shrink: nothing overflows,
+/// an underflow is a true zero, and the rounding carried over a window (under 200 points) stays
+/// near 1e-14.
+fn gaussian_column(e0: f64, h: f64, c: f64, sigma: f64, out: &mut [f64]) {
+    let m = out.len();
+    if m == 0 {
+        return;
+    }
+    let d = h / sigma;
+    let q = (-d * d).exp();
+    let k = ((c - e0) / h).round().clamp(0.0, (m - 1) as f64) as usize;
+    let zk = (e0 + k as f64 * h - c) / sigma;
+    let gk = (-0.5 * zk * zk).exp();
+    out[k] = gk;
+    let (mut g, mut r) = (gk, (-zk * d - 0.5 * d * d).exp());
+    for v in &mut out[k + 1..] {
+        g *= r;
+        r *= q;
+        *v = g;
+    }
+    let (mut g, mut r) = (gk, (zk * d - 0.5 * d * d).exp());
+    for v in out[..k].iter_mut().rev() {
+        g *= r;
+        r *= q;
+        *v = g;
+    }
+}
+
+/// Scratch space of one fit, reused across its iterations.
+struct Scratch {
+    cols: Vec<f64>,
+    /// The Jacobian, one contiguous column of `len()` values per parameter, each already
+    /// multiplied by the point's weight; then the weighted residual.
+    jac: Vec<f64>,
+    res: Vec<f64>,
+}
+
+/// Weighted normal equations JᵀWJ and JᵀW r at p; returns χ². The Jacobian is built column
+/// by column so every entry of JᵀWJ is one dot product of contiguous columns, which the
+/// compiler vectorises (an outer product per point did not).
+fn normal_equations(win: &Window, p: &[f64], jtj: &mut [f64], jtr: &mut [f64], sc: &mut Scratch) -> f64 {
+    let np = p.len();
+    let m = win.len();
+    win.columns(p, &mut sc.cols);
+    sc.jac.resize(np * m, 0.0);
+    sc.res.resize(m, 0.0);
+    let (jac, res, cols) = (&mut sc.jac, &mut sc.res, &sc.cols);
+    // The model and residual first.
+    for (i, r) in res.iter_mut().enumerate() {
+        let mut v = p[0] + p[1] * (win.e(i) - win.e_ref);
+        for k in 0..(np - G) / 3 {
+            v += p[G + 3 * k] * cols[k * m + i];
+        }
+        *r = v - win.y[i];
+    }
+    let chi2: f64 = res.iter().zip(win.w).map(|(r, w)| w * r * r).sum();
+    {
+        let (c0, rest) = jac.split_at_mut(m);
+        let (c1, rest) = rest.split_at_mut(m);
+        for i in 0..m {
+            c0[i] = 1.0;
+            c1[i] = win.e(i) - win.e_ref;
+        }
+        for (k, q) in p[G..].chunks_exact(3).enumerate() {
+            let g = &cols[k * m..(k + 1) * m];
+            let (ca, rest2) = rest[3 * k * m..].split_at_mut(m);
+            let (cc, cs) = rest2.split_at_mut(m);
+            let inv = 1.0 / q[2];
+            for i in 0..m {
+                let z = (win.e(i) - q[1]) * inv;
+                let ag = q[0] * g[i];
+                ca[i] = g[i];
+                cc[i] = ag * z * inv;
+                cs[i] = ag * z * z * inv;
             }
         }
     }
     for a in 0..np {
-        for b in 0..a {
-            jtj[a * np + b] = jtj[b * np + a];
+        let ja = &jac[a * m..(a + 1) * m];
+        jtr[a] = dot3(ja, win.w, res);
+        for b in a..np {
+            let v = dot3(ja, win.w, &jac[b * m..(b + 1) * m]);
+            jtj[a * np + b] = v;
+            jtj[b * np + a] = v;
         }
     }
     chi2
 }
 
-fn chi2_of(win: &Window, p: &[f64]) -> f64 {
-    win.e
+/// Σ aᵢ wᵢ bᵢ in four independent sums (so it vectorises and pipelines).
+fn dot3(a: &[f64], w: &[f64], b: &[f64]) -> f64 {
+    let mut s = [0.0f64; 4];
+    let n = a.len().min(w.len()).min(b.len());
+    let (a, w, b) = (&a[..n], &w[..n], &b[..n]);
+    let mut ca = a.chunks_exact(4);
+    let mut cw = w.chunks_exact(4);
+    let mut cb = b.chunks_exact(4);
+    for ((x, y), z) in (&mut ca).zip(&mut cw).zip(&mut cb) {
+        for j in 0..4 {
+            s[j] += x[j] * y[j] * z[j];
+        }
+    }
+    let tail: f64 = ca
+        .remainder()
         .iter()
-        .zip(win.y)
-        .zip(win.w)
-        .map(|((&e, &y), &w)| {
-            let r = model(p, win.e_ref, e) - y;
-            w * r * r
+        .zip(cw.remainder())
+        .zip(cb.remainder())
+        .map(|((x, y), z)| x * y * z)
+        .sum();
+    (s[0] + s[1]) + (s[2] + s[3]) + tail
+}
+
+fn chi2_of(win: &Window, p: &[f64], sc: &mut Scratch) -> f64 {
+    let m = win.len();
+    win.columns(p, &mut sc.cols);
+    (0..m)
+        .map(|i| {
+            let mut v = p[0] + p[1] * (win.e(i) - win.e_ref);
+            for k in 0..(p.len() - G) / 3 {
+                v += p[G + 3 * k] * sc.cols[k * m + i];
+            }
+            let r = v - win.y[i];
+            win.w[i] * r * r
         })
         .sum()
 }
@@ -745,25 +867,25 @@ fn constrain(p: &mut [f64], lo: f64, hi: f64) {
 
 /// Heights and background for fixed centres and widths (the linear half of the problem),
 /// used for starting values.
-fn linear_start(win: &Window, p: &mut [f64]) -> bool {
+fn linear_start(win: &Window, p: &mut [f64], sc: &mut Scratch) -> bool {
     let ng = (p.len() - G) / 3;
     let nl = G + ng;
+    let m = win.len();
     let mut a = vec![0.0; nl * nl];
     let mut b = vec![0.0; nl];
     let mut row = vec![0.0; nl];
-    for ((&e, &y), &w) in win.e.iter().zip(win.y).zip(win.w) {
-        let x = e - win.e_ref;
+    win.columns(p, &mut sc.cols);
+    for i in 0..m {
         row[0] = 1.0;
-        row[1] = x;
+        row[1] = win.e(i) - win.e_ref;
         for k in 0..ng {
-            let q = &p[G + 3 * k..G + 3 + 3 * k];
-            let z = (e - q[1]) / q[2];
-            row[G + k] = (-0.5 * z * z).exp();
+            row[G + k] = sc.cols[k * m + i];
         }
-        for i in 0..nl {
-            b[i] += w * row[i] * y;
-            for j in 0..nl {
-                a[i * nl + j] += w * row[i] * row[j];
+        let (y, w) = (win.y[i], win.w[i]);
+        for r in 0..nl {
+            b[r] += w * row[r] * y;
+            for c in 0..nl {
+                a[r * nl + c] += w * row[r] * row[c];
             }
         }
     }
@@ -783,16 +905,16 @@ fn linear_start(win: &Window, p: &mut [f64]) -> bool {
 
 /// Weighted Levenberg-Marquardt from `p`; returns the parameters, χ² and the normal matrix
 /// at the end (for the covariance).
-fn levenberg_marquardt(win: &Window, mut p: Vec<f64>, lo: f64, hi: f64) -> (Vec<f64>, f64, Vec<f64>) {
+fn levenberg_marquardt(win: &Window, mut p: Vec<f64>, lo: f64, hi: f64, sc: &mut Scratch) -> (Vec<f64>, f64, Vec<f64>) {
     let np = p.len();
     let mut jtj = vec![0.0; np * np];
     let mut jtr = vec![0.0; np];
-    let mut row = vec![0.0; np];
     let mut a = vec![0.0; np * np];
     let mut b = vec![0.0; np];
     let mut trial = p.clone();
     let mut lambda = 1e-3;
-    let mut chi2 = normal_equations(win, &p, &mut jtj, &mut jtr, &mut row);
+    let dof = win.len().saturating_sub(np).max(1) as f64;
+    let mut chi2 = normal_equations(win, &p, &mut jtj, &mut jtr, sc);
     for _ in 0..120 {
         a.copy_from_slice(&jtj);
         for d in 0..np {
@@ -810,11 +932,22 @@ fn levenberg_marquardt(win: &Window, mut p: Vec<f64>, lo: f64, hi: f64) -> (Vec<
             *t = p0 + d;
         }
         constrain(&mut trial, lo, hi);
-        let c2 = chi2_of(win, &trial);
+        let c2 = chi2_of(win, &trial, sc);
         if c2 < chi2 {
-            let done = chi2 - c2 < 1e-8 * chi2.max(1e-300);
+            // Converged when χ² falls by less than a hundredth of one standard deviation's
+            // worth (Δχ² = 1 bounds a parameter's 1σ range; scaled by the reduced χ² where the
+            // model leaves more than noise): further steps move nothing by more than a small
+            // fraction of its own uncertainty. Or when no centre or width moves by more than a
+            // micro-electronvolt.
+            let moved = trial[G..]
+                .chunks_exact(3)
+                .zip(p[G..].chunks_exact(3))
+                .map(|(t, q)| (t[1] - q[1]).abs().max((t[2] - q[2]).abs()))
+                .fold(0.0f64, f64::max);
+            let unit = (c2 / dof).max(1.0);
+            let done = chi2 - c2 < 0.01 * unit || (moved < 1e-6 && lambda < 1.0);
             p.copy_from_slice(&trial);
-            chi2 = normal_equations(win, &p, &mut jtj, &mut jtr, &mut row);
+            chi2 = normal_equations(win, &p, &mut jtj, &mut jtr, sc);
             lambda = (lambda / 3.0).max(1e-9);
             if done {
                 break;
@@ -841,31 +974,38 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
     };
     let lo = (first.e_ev - (3.5 * s1).max(0.10)).max(g.e0_ev);
     let hi = (first.e_ev + blue_reach).min(g.e((g.y.len() - 1) as f64));
-    // Bin the window so a transition spans about ten points or more, not hundreds.
-    let f = ((0.2 * s1 / g.step_ev).floor() as usize).max(1);
+    // Bin the window to about a third of the first transition's σ: its FWHM spans eight bins
+    // or more, not hundreds of points (the fit's cost is linear in bins). Averaging over a
+    // bin of width b widens a Gaussian's variance by b²/12; that is taken out of the reported
+    // widths below.
+    let f = ((s1 / (3.0 * g.step_ev)).floor() as usize).max(1);
     let i0 = g.index(lo).ceil().max(0.0) as usize;
     let i1 = (g.index(hi).floor() as usize).min(g.y.len() - 1);
     if i1 <= i0 + 10 * f {
         return None;
     }
-    let mut e = Vec::with_capacity((i1 - i0) / f + 1);
-    let mut y = Vec::with_capacity(e.capacity());
-    let mut w = Vec::with_capacity(e.capacity());
+    let mut y = Vec::with_capacity((i1 - i0) / f + 1);
+    let mut w = Vec::with_capacity(y.capacity());
     let mut i = i0;
     while i + f <= i1 + 1 {
         let ys = &g.y[i..i + f];
-        e.push(g.e(i as f64 + 0.5 * (f - 1) as f64));
         y.push(ys.iter().sum::<f64>() / f as f64);
         let sd = noise.at(i + f / 2) / (f as f64).sqrt();
         w.push(1.0 / (sd * sd).max(1e-16));
         i += f;
     }
-    let m = e.len();
+    let m = y.len();
     let win = Window {
-        e: &e,
+        e0_ev: g.e(i0 as f64 + 0.5 * (f - 1) as f64),
+        step_ev: f as f64 * g.step_ev,
         y: &y,
         w: &w,
         e_ref: first.e_ev,
+    };
+    let mut sc = Scratch {
+        cols: Vec::with_capacity(2 * m),
+        jac: Vec::with_capacity((G + 6) * m),
+        res: Vec::with_capacity(m),
     };
     // Starting values: the first transition from the derivative, the next one or two from
     // bluer derivative minima inside the window, else one placed where a second transition
@@ -892,7 +1032,7 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
         return None;
     }
     constrain(&mut p, lo, hi);
-    if !linear_start(&win, &mut p) {
+    if !linear_start(&win, &mut p, &mut sc) {
         return None;
     }
     let start = p.clone();
@@ -927,7 +1067,7 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
         (!at_bound && inside && significant && moved && sd_e1.is_finite() && sd_s1.is_finite())
             .then_some((sd_e1, sd_s1))
     };
-    let (p1, c1, j1) = levenberg_marquardt(&win, p, lo, hi);
+    let (p1, c1, j1) = levenberg_marquardt(&win, p, lo, hi, &mut sc);
     let mut best = judge(&p1, c1, &j1).map(|sd| (p1.clone(), c1, sd));
     // A second transition that vanished, or a fit that failed its checks, is often a local
     // minimum: start once more from the derivative's first transition with the second where
@@ -939,8 +1079,8 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
         again[G + 4] = start[G + 1] + (2.5 * s1).max(0.12);
         again[G + 5] = 1.2 * s1;
         constrain(&mut again, lo, hi);
-        if linear_start(&win, &mut again) {
-            let (p2, c2, j2) = levenberg_marquardt(&win, again, lo, hi);
+        if linear_start(&win, &mut again, &mut sc) {
+            let (p2, c2, j2) = levenberg_marquardt(&win, again, lo, hi, &mut sc);
             if let Some(sd) = judge(&p2, c2, &j2)
                 && best.as_ref().is_none_or(|b| c2 < b.1)
             {
@@ -950,10 +1090,14 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
     }
     let (p, _chi2, (sd_e1, sd_s1)) = best?;
     let (a1, e1, sig1) = (p[G], p[G + 1], p[G + 2]);
+    // The fitted σ is of the bin-averaged curve: σ² = σ₀² + b²/12, the height falls as the
+    // area is kept.
+    let bin_var = win.step_ev * win.step_ev / 12.0;
+    let unbinned = |sigma: f64| (sigma * sigma - bin_var).max(0.25 * sigma * sigma).sqrt();
     let rms = (y
         .iter()
-        .zip(&e)
-        .map(|(y, e)| (model(&p, first.e_ev, *e) - y).powi(2))
+        .enumerate()
+        .map(|(i, y)| (model(&p, first.e_ev, win.e(i)) - y).powi(2))
         .sum::<f64>()
         / m as f64)
         .sqrt();
@@ -973,7 +1117,7 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
             "the band-edge model leaves structure in the residual ({over:.1} x the noise): first exciton and width are less certain"
         ));
     }
-    if e1 - sig1 * 2.0 < e[0] {
+    if e1 - sig1 * 2.0 < win.e(0) {
         warnings
             .push("the scan does not reach the transparent red side of the first exciton: width less certain".into());
     }
@@ -983,40 +1127,40 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
         .map(|q| Transition {
             centre_nm: HC_EV_NM / q[1],
             centre_ev: q[1],
-            hwhm_ev: q[2] * HWHM_PER_SIGMA,
-            height: q[0],
+            hwhm_ev: unbinned(q[2]) * HWHM_PER_SIGMA,
+            height: q[0] * q[2] / unbinned(q[2]),
         })
         .collect();
     transitions.sort_by(|a, b| a.centre_ev.total_cmp(&b.centre_ev));
     let composite = model(&p, first.e_ev, e1);
-    // A shoulder: the composite keeps rising through the first transition's centre.
-    let slope = |x: f64| {
-        let h = 0.002;
-        model(&p, first.e_ev, x + h) - model(&p, first.e_ev, x - h)
-    };
-    let mut shoulder = true;
+    // A shoulder: the composite keeps rising through the first transition's centre (its
+    // slope, analytic, never turns from rising to falling within ±σ of it).
     let steps = 40;
-    for s in 0..steps {
-        let x0 = e1 - sig1 + 2.0 * sig1 * s as f64 / steps as f64;
-        let x1 = x0 + 2.0 * sig1 / steps as f64;
-        if slope(x0) > 0.0 && slope(x1) <= 0.0 {
-            shoulder = false;
-            break;
+    let h = 2.0 * sig1 / steps as f64;
+    let x0 = e1 - sig1;
+    let mut slope = vec![p[1]; steps + 1];
+    let mut col = vec![0.0; steps + 1];
+    for q in p[G..].chunks_exact(3) {
+        gaussian_column(x0, h, q[1], q[2], &mut col);
+        for (i, (s, g)) in slope.iter_mut().zip(&col).enumerate() {
+            let x = x0 + i as f64 * h;
+            *s -= q[0] * g * (x - q[1]) / (q[2] * q[2]);
         }
     }
+    let shoulder = !slope.windows(2).any(|w| w[0] > 0.0 && w[1] <= 0.0);
     Some(BandEdge {
         method: "gaussian fit in energy",
         quality,
         centre_ev: e1,
         centre_sd_ev: sd_e1,
-        hwhm_ev: sig1 * HWHM_PER_SIGMA,
-        hwhm_sd_ev: sd_s1 * HWHM_PER_SIGMA,
-        height: a1,
+        hwhm_ev: unbinned(sig1) * HWHM_PER_SIGMA,
+        hwhm_sd_ev: sd_s1 * HWHM_PER_SIGMA * sig1 / unbinned(sig1),
+        height: a1 * sig1 / unbinned(sig1),
         composite_abs: composite,
         residual_rms: rms,
         residual_over_noise: over,
-        fit_from_nm: HC_EV_NM / e[0],
-        fit_to_nm: HC_EV_NM / e[m - 1],
+        fit_from_nm: HC_EV_NM / win.e(0),
+        fit_to_nm: HC_EV_NM / win.e(m - 1),
         transitions,
         shoulder,
         warnings,
@@ -1039,6 +1183,25 @@ mod tests {
             })
             .collect();
         Trace { nm: nm.to_vec(), y }
+    }
+
+    #[test]
+    fn the_ratio_recurrence_gives_the_gaussian_at_every_point() {
+        // Against the definition exp(-(e-c)²/2σ²) evaluated directly, for a centre inside,
+        // left of and right of the window, narrow and wide.
+        for &(c, sigma) in &[(2.10, 0.012), (2.10, 0.35), (1.90, 0.05), (2.40, 0.05), (2.0004, 0.02)] {
+            let (e0, h, m) = (2.0, 0.004, 120);
+            let mut col = vec![0.0; m];
+            gaussian_column(e0, h, c, sigma, &mut col);
+            for (i, v) in col.iter().enumerate() {
+                let e = e0 + i as f64 * h;
+                let want = (-0.5 * ((e - c) / sigma).powi(2)).exp();
+                assert!(
+                    (v - want).abs() <= 1e-12 * want.max(1e-300) + 1e-300,
+                    "c {c} σ {sigma} at {e}: {v} vs {want}"
+                );
+            }
+        }
     }
 
     #[test]
