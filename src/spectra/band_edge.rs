@@ -443,12 +443,17 @@ pub fn first_transition(t: &Trace, hint: &BandEdgeHint, saturation_abs: f64) -> 
             .any(|o| c.height < 0.08 * o.height)
     };
     // A faint trough on the flank of a far stronger one next to it is the flank's noise, not
-    // a transition of its own.
+    // a transition of its own; and a weaker minimum inside a stronger one's trough (closer
+    // than its σ, where the trough's zero crossings lie) is a wiggle of noise within the same
+    // band seen at a narrower smoothing, not a first transition: first and second transitions
+    // lie 0.1 eV or more apart (common practice) and each has its own trough.
     let shadowed = |c: &Candidate| {
         found.iter().any(|o| {
-            o.e_ev > c.e_ev
-                && o.e_ev - c.e_ev < 1.5 * o.sigma_ev.max(c.sigma_ev)
-                && o.significance > 10.0 * c.significance
+            let apart = o.e_ev - c.e_ev;
+            let reach = o.sigma_ev.max(c.sigma_ev);
+            apart > 0.0
+                && ((apart < 1.5 * reach && o.significance > 10.0 * c.significance)
+                    || (apart < reach && o.significance > 4.0 * c.significance))
         })
     };
     let strong = |c: &Candidate| {
@@ -964,15 +969,21 @@ fn levenberg_marquardt(win: &Window, mut p: Vec<f64>, lo: f64, hi: f64, sc: &mut
 
 fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: &[&Candidate]) -> Option<BandEdge> {
     let s1 = first.sigma_ev.clamp(MIN_SIGMA_EV, MAX_SIGMA_EV);
-    // The window: the transparent red side, the first transition, and the next one up to a
-    // little past its centre. Going further blue adds the continuum's curvature, which a
-    // smooth background follows less well than it biases the first transition's width.
+    // The window: the transparent red side, the first transition, and the next one up to its
+    // centre. Going further blue adds the continuum's rise and curvature, which a linear
+    // background cannot follow: it tilts the background and narrows and reddens the first
+    // transition. The red side reaches well past the first transition's foot (5 σ, where a
+    // Gaussian is below 1e-5 of its height), so the transparent stretch pins the background's
+    // level and slope instead of leaving the slope to trade against the transitions' heights;
+    // with 3.5 σ a broad band edge on a strong continuum drew the fit to a tilted background
+    // and a first transition 10-20 % too narrow. Much further (5.5 σ) takes in enough of a
+    // real scan's red tail that the open-data growth series' imperfect fits start to jump.
     let next = higher.iter().find(|c| c.e_ev < first.e_ev + 0.45);
     let blue_reach = match next {
-        Some(c) => (c.e_ev - first.e_ev + 0.5 * c.sigma_ev).max(2.5 * s1),
+        Some(c) => (c.e_ev - first.e_ev).max(2.5 * s1),
         None => (3.0 * s1).max(0.20),
     };
-    let lo = (first.e_ev - (3.5 * s1).max(0.10)).max(g.e0_ev);
+    let lo = (first.e_ev - (5.0 * s1).max(0.10)).max(g.e0_ev);
     let hi = (first.e_ev + blue_reach).min(g.e((g.y.len() - 1) as f64));
     // Bin the window to about a third of the first transition's σ: its FWHM spans eight bins
     // or more, not hundreds of points (the fit's cost is linear in bins). Averaging over a
