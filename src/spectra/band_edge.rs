@@ -985,11 +985,13 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
     };
     let lo = (first.e_ev - (5.0 * s1).max(0.10)).max(g.e0_ev);
     let hi = (first.e_ev + blue_reach).min(g.e((g.y.len() - 1) as f64));
-    // Bin the window to about a third of the first transition's σ: its FWHM spans eight bins
-    // or more, not hundreds of points (the fit's cost is linear in bins). Averaging over a
+    // Bin the window to about a quarter of the first transition's σ: its FWHM spans ten bins
+    // or more, not hundreds of points (the fit's cost is linear in bins). A third of σ was
+    // tried: on real high-signal scans, whose lineshape a Gaussian only approximates, it let
+    // one aliquot of a growth series settle in another minimum (a width twice its neighbours'). Averaging over a
     // bin of width b widens a Gaussian's variance by b²/12; that is taken out of the reported
     // widths below.
-    let f = ((s1 / (3.0 * g.step_ev)).floor() as usize).max(1);
+    let f = ((s1 / (4.0 * g.step_ev)).floor() as usize).max(1);
     let i0 = g.index(lo).ceil().max(0.0) as usize;
     let i1 = (g.index(hi).floor() as usize).min(g.y.len() - 1);
     if i1 <= i0 + 10 * f {
@@ -1080,11 +1082,13 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
     };
     let (p1, c1, j1) = levenberg_marquardt(&win, p, lo, hi, &mut sc);
     let mut best = judge(&p1, c1, &j1).map(|sd| (p1.clone(), c1, sd));
-    // A second transition that vanished, or a fit that failed its checks, is often a local
-    // minimum: start once more from the derivative's first transition with the second where
-    // it commonly is (0.12 eV or 2.5 σ above), and keep the better believed fit.
+    // A second transition that vanished or ran out of the window (where no data hold it), or
+    // a fit that failed its checks, is often a local minimum: start once more from the
+    // derivative's first transition with the second where it commonly is (0.12 eV or 2.5 σ
+    // above), and keep the better believed fit.
     let collapsed = p1[G + 3] < 0.02 * p1[G] || p1[G + 5] <= MIN_SIGMA_EV * 1.0001;
-    if collapsed || best.is_none() {
+    let escaped = p1[G + 4] > hi + 0.5 * p1[G + 5];
+    if collapsed || escaped || best.is_none() {
         let mut again = start.clone();
         again.truncate(G + 6);
         again[G + 4] = start[G + 1] + (2.5 * s1).max(0.12);
