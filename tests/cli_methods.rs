@@ -138,7 +138,10 @@ fn a_shelled_batchs_core_follows_a_parent_set_or_changed_by_batch_edit() {
         .as_i64()
         .unwrap();
     assert_eq!(chain_value(&lab, la, "core_diameter_nm").unwrap()["value"], Value::Null);
-    lab.ok(&["batch", "edit", &late.to_string(), "--parent", &p1.to_string()]);
+    let said = lab
+        .ok(&["batch", "edit", &late.to_string(), "--parent", &p1.to_string()])
+        .stdout;
+    assert!(said.contains("derived again"), "{said}");
     close(chain_number(&lab, la, "core_diameter_nm"), d1, 1e-12);
 }
 

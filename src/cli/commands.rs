@@ -649,9 +649,9 @@ fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
             let (row, followed) = row;
             if a.json {
                 json(&row)?
-            } else if followed > 0 {
+            } else if let (true, Some(p)) = (followed > 0, a.parent) {
                 line(&format!(
-                    "batch {} updated; {followed} aliquots derived again with their new parent's core",
+                    "batch {} updated; {followed} aliquots of batch {p}'s shelled batches derived again with its core",
                     row.id
                 ))?
             } else {
