@@ -242,6 +242,12 @@ fn aliquot_add_records_the_pl_cuvettes_own_path_and_dilution_and_the_qy_uses_the
     let pl_row = spectra.iter().find(|s| s["kind"] == "pl").unwrap();
     assert_eq!(pl_row["path_cm"].as_f64(), Some(1.0), "{pl_row}");
     assert_eq!(pl_row["dilution_factor"].as_f64(), Some(2.0), "{pl_row}");
+    // The audit log keeps what was recorded.
+    let log = lab
+        .ok(&["log", "--entity", "spectrum", "--limit", "1", "--json"])
+        .json();
+    assert_eq!(log[0]["after"]["path_cm"].as_f64(), Some(1.0), "{log}");
+    assert_eq!(log[0]["after"]["dilution_factor"].as_f64(), Some(2.0), "{log}");
     let abs_row = spectra.iter().find(|s| s["kind"] == "abs").unwrap();
     assert_eq!(
         abs_row["path_cm"],

@@ -1033,7 +1033,8 @@ pub fn insert_spectrum(tx: &Connection, who: &str, s: &NewSpectrum) -> Result<i6
         None,
         Some(
             &json!({"aliquot_id": s.aliquot_id, "vial_id": s.vial_id, "kind": s.kind,
-                     "file_name": s.file_name, "label": s.label, "sha256": s.sha256, "npoints": s.x.len()}),
+                     "file_name": s.file_name, "label": s.label, "sha256": s.sha256, "npoints": s.x.len(),
+                     "excitation_nm": s.excitation_nm, "path_cm": s.path_cm, "dilution_factor": s.dilution_factor}),
         ),
     )?;
     Ok(id)
