@@ -22,11 +22,74 @@ pub struct Door {
 }
 
 /// A spectrum file to attach, with its kind.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, Default)]
 pub struct SpectrumFile {
     pub path: PathBuf,
     pub kind: &'static str,
     pub excitation_nm: Option<f64>,
+    /// The spectrum's own cuvette when it was measured in another than the aliquot's: a PL
+    /// spectrum taken in a 1 cm fluorescence cuvette at its own dilution while the absorbance
+    /// was read in a 0.2 cm one. None: not recorded (the engine says what it takes then).
+    pub cuvette: OwnCuvette,
+}
+
+/// The path and dilution a spectrum was measured at, when given apart from the aliquot's.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct OwnCuvette {
+    pub path_cm: Option<f64>,
+    pub dilution_factor: Option<f64>,
+}
+
+impl OwnCuvette {
+    /// Refuses a path that is not above zero (or beyond 100 cm) and a dilution below 1 (or
+    /// beyond 1e6), naming each with `path_name` and `dilution_name` (the flags they came from),
+    /// the same bounds an aliquot's own cuvette is held to.
+    pub fn checked(self, path_name: &str, dilution_name: &str) -> Result<OwnCuvette> {
+        if let Some(p) = self.path_cm
+            && !(p.is_finite() && p > 0.0 && p <= 100.0)
+        {
+            return Err(Error::Invalid(format!(
+                "{path_name} must be a path length above 0 and at most 100 cm, got {p}"
+            )));
+        }
+        if let Some(d) = self.dilution_factor
+            && !(d.is_finite() && (1.0..=1e6).contains(&d))
+        {
+            return Err(Error::Invalid(format!(
+                "{dilution_name} must be a dilution factor of 1 or more (at most 1e6), got {d}"
+            )));
+        }
+        Ok(self)
+    }
+}
+
+/// How the PL spectra of an import were measured: the excitation wavelength, and the PL
+/// cuvette's own path and dilution when they were given.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct PlSetup {
+    pub excitation_nm: Option<f64>,
+    pub cuvette: OwnCuvette,
+}
+
+impl PlSetup {
+    /// Excited at `excitation_nm`, the PL cuvette not recorded apart from the aliquot's.
+    pub fn excited_at(excitation_nm: Option<f64>) -> PlSetup {
+        PlSetup {
+            excitation_nm,
+            cuvette: OwnCuvette::default(),
+        }
+    }
+
+    /// What a file of `kind` carries of this setup: all of it for PL, nothing otherwise.
+    fn file(&self, path: PathBuf, kind: &'static str) -> SpectrumFile {
+        let pl = kind == "pl";
+        SpectrumFile {
+            path,
+            kind,
+            excitation_nm: if pl { self.excitation_nm } else { None },
+            cuvette: if pl { self.cuvette } else { OwnCuvette::default() },
+        }
+    }
 }
 
 /// Reads and checks a file for import: it must read and be a plausible UV-Vis-NIR spectrum.
@@ -176,8 +239,8 @@ pub fn new_spectrum(aliquot_id: Option<i64>, f: &SpectrumFile, raw: &RawSpectrum
         sha256: sha.to_string(),
         excitation_nm: f.excitation_nm,
         instrument: None,
-        dilution_factor: None,
-        path_cm: None,
+        dilution_factor: f.cuvette.dilution_factor,
+        path_cm: f.cuvette.path_cm,
         label: raw.label.clone(),
     }
 }
@@ -267,7 +330,7 @@ fn import_series(
     batch_id: i64,
     folder: &Path,
     template: &NewAliquot,
-    excitation_nm: Option<f64>,
+    pl: PlSetup,
     door: &Door,
     mut progress: impl FnMut(usize, usize),
 ) -> Result<ImportReport> {
@@ -310,12 +373,8 @@ fn import_series(
                         })?
                 }
             };
-            let file = SpectrumFile {
-                path: p.clone(),
-                kind,
-                excitation_nm: if kind == "pl" { excitation_nm } else { None },
-            };
-            if kind == "pl" && excitation_nm.is_none() {
+            let file = pl.file(p.clone(), kind);
+            if kind == "pl" && pl.excitation_nm.is_none() {
                 return Err(Error::Invalid(format!("PL file {} needs --excitation-nm", p.display())));
             }
             let (spectra, sha) = read_series_for_logging(p, &ReadOptions::default(), kind, door.kind_as_is)?;
@@ -370,7 +429,7 @@ pub fn measure_vial(store: &mut Store, vial: i64, abs: &Path, dilution: f64, pat
         let f = SpectrumFile {
             path: abs.to_path_buf(),
             kind: "abs",
-            excitation_nm: None,
+            ..Default::default()
         };
         let mut ns = new_spectrum(None, &f, &raw, &sha);
         ns.vial_id = Some(vial);
@@ -595,11 +654,7 @@ pub fn group_folder(folder: &Path, excitation_nm: Option<f64>) -> Result<Vec<Fol
                 p.display()
             )));
         }
-        let file = SpectrumFile {
-            path: p,
-            kind,
-            excitation_nm: if kind == "pl" { excitation_nm } else { None },
-        };
+        let file = PlSetup::excited_at(excitation_nm).file(p, kind);
         match groups.iter_mut().find(|g| g.minutes == minutes && g.stage == stage) {
             Some(g) => {
                 if g.files.iter().any(|f| f.kind == kind) {
@@ -673,14 +728,19 @@ pub fn import_folder(
     batch_id: i64,
     folder: &Path,
     template: &NewAliquot,
-    excitation_nm: Option<f64>,
+    pl: PlSetup,
     door: &Door,
     mut progress: impl FnMut(usize, usize),
 ) -> Result<ImportReport> {
     if door.series {
-        return import_series(store, batch_id, folder, template, excitation_nm, door, progress);
+        return import_series(store, batch_id, folder, template, pl, door, progress);
     }
-    let groups = group_folder(folder, excitation_nm)?;
+    let mut groups = group_folder(folder, pl.excitation_nm)?;
+    for f in groups.iter_mut().flat_map(|g| g.files.iter_mut()) {
+        if f.kind == "pl" {
+            f.cuvette = pl.cuvette;
+        }
+    }
     if groups.is_empty() {
         return Err(Error::Invalid(format!("no spectrum files in {}", folder.display())));
     }

@@ -416,6 +416,13 @@ pub struct AliquotAddArgs {
     /// Excitation wavelength of the PL spectrum, nm.
     #[arg(long)]
     pub excitation_nm: Option<f64>,
+    /// Path length of the cuvette the PL was measured in, cm, when it is not the absorbance
+    /// cuvette's (default: not recorded; 1 cm is taken, with a warning when --path-cm differs).
+    #[arg(long, value_name = "CM")]
+    pub pl_path_cm: Option<f64>,
+    /// Dilution factor of the solution the PL was measured in (default: --dilution's).
+    #[arg(long, value_name = "FACTOR")]
+    pub pl_dilution: Option<f64>,
     /// Minutes after injection.
     #[arg(long)]
     pub minutes: Option<f64>,
@@ -648,9 +655,17 @@ pub struct SizeArgs {
     pub json: bool,
 }
 
+/// `qy` alone is the single-point method on numbers or files; `qy gradient` works on aliquots
+/// of the lab.
 #[derive(Debug, Args)]
-#[command(allow_negative_numbers = true)]
+#[command(
+    allow_negative_numbers = true,
+    args_conflicts_with_subcommands = true,
+    subcommand_negates_reqs = true
+)]
 pub struct QyArgs {
+    #[command(subcommand)]
+    pub method: Option<QyMethod>,
     #[arg(long)]
     pub sample_integral: Option<f64>,
     #[arg(long)]
@@ -676,12 +691,26 @@ pub struct QyArgs {
     pub ref_qy: Option<f64>,
     #[arg(long)]
     pub ref_dye: Option<String>,
-    #[arg(long)]
-    pub solvent: String,
-    #[arg(long)]
-    pub ref_solvent: String,
+    #[arg(long, required = true)]
+    pub solvent: Option<String>,
+    #[arg(long, required = true)]
+    pub ref_solvent: Option<String>,
     #[arg(long)]
     pub json: bool,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum QyMethod {
+    /// The gradient method (Williams, Winfield & Miller 1983) over a dilution series logged as
+    /// aliquots: PL integral against absorbance at excitation in the PL cuvette, against the
+    /// calibration's QY reference. At least four dilutions are wanted.
+    Gradient {
+        /// The aliquots of the series, one per dilution.
+        #[arg(required = true, num_args = 1.., value_name = "ALIQUOT")]
+        aliquots: Vec<i64>,
+        #[arg(long)]
+        json: bool,
+    },
 }
 
 #[derive(Debug, Args)]
@@ -817,6 +846,22 @@ pub enum CalibCmd {
         #[arg(long)]
         json: bool,
     },
+    /// The homogeneous (single-crystal) HWHM of a material's first exciton, taken out of the
+    /// measured width in quadrature before it becomes a size dispersion; off by default.
+    #[command(allow_negative_numbers = true)]
+    SetHomogeneousHwhm {
+        material: String,
+        /// The homogeneous HWHM in meV (above 0, at most 200).
+        #[arg(value_name = "MEV", required_unless_present = "off", conflicts_with = "off")]
+        mev: Option<f64>,
+        /// Take no homogeneous width out (the default).
+        #[arg(long)]
+        off: bool,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
     /// Bulk parameters for the effective-mass model.
     #[command(allow_negative_numbers = true)]
     SetBulk {
@@ -932,6 +977,12 @@ pub struct ImportArgs {
     pub solvent: String,
     #[arg(long)]
     pub excitation_nm: Option<f64>,
+    /// Path length of the cuvette the PL files were measured in, cm (default: not recorded).
+    #[arg(long, value_name = "CM")]
+    pub pl_path_cm: Option<f64>,
+    /// Dilution factor of the solutions the PL files were measured in (default: --dilution's).
+    #[arg(long, value_name = "FACTOR")]
+    pub pl_dilution: Option<f64>,
     /// Take every file as a series: each sample column (or block) of a file becomes an aliquot,
     /// timed by its column header ("20 s", "5 min") or, for a file of one spectrum, by its name.
     #[arg(long)]
@@ -949,7 +1000,7 @@ pub struct ImportArgs {
 #[derive(Debug, Args)]
 pub struct ManifestArgs {
     /// CSV with a header: batch_id, folder, and optionally dilution, path_cm, solvent,
-    /// excitation_nm. Folders are relative to the manifest.
+    /// excitation_nm, pl_path_cm, pl_dilution. Folders are relative to the manifest.
     pub manifest: PathBuf,
     #[arg(long)]
     pub json: bool,

@@ -174,7 +174,10 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
         Cmd::Analyze(a) => return analyze(a),
         Cmd::Read(a) => read(a)?,
         Cmd::Size(a) => size(a)?,
-        Cmd::Qy(a) => qy_cmd(a)?,
+        Cmd::Qy(a) => match &a.method {
+            Some(QyMethod::Gradient { aliquots, json: j }) => qy_gradient(&cli, aliquots, *j)?,
+            None => qy_cmd(a)?,
+        },
         Cmd::ShellPlan(a) => {
             let plan = yields::shell_plan(&a.shell, a.core_nm, a.crystals_umol, a.layers, a.ml_nm)?;
             if a.json {
@@ -635,10 +638,22 @@ fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
                 if e.product_aliquot_id.is_some() {
                     engine::refresh_vials(tx, Some(a.id), false)?;
                 }
-                Ok(r)
+                // A shelled batch takes its core's size from its parent's product: a new parent
+                // moves it, in this same transaction.
+                let followed = match e.parent_batch_id {
+                    Some(p) => engine::follow_parent_cores(tx, Some(p))?,
+                    None => 0,
+                };
+                Ok((r, followed))
             })?;
+            let (row, followed) = row;
             if a.json {
                 json(&row)?
+            } else if let (true, Some(p)) = (followed > 0, a.parent) {
+                line(&format!(
+                    "batch {} updated; {followed} aliquots of batch {p}'s shelled batches derived again with its core",
+                    row.id
+                ))?
             } else {
                 line(&format!("batch {} updated", row.id))?
             }
@@ -793,12 +808,16 @@ fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
             if a.excitation_nm.is_some() && a.pl.is_none() {
                 bail!("--excitation-nm goes with --pl");
             }
+            let pl_cuvette = pl_cuvette(a.pl_path_cm, a.pl_dilution)?;
+            if pl_cuvette != bench::OwnCuvette::default() && a.pl.is_none() {
+                bail!("--pl-path-cm and --pl-dilution go with --pl");
+            }
             let mut files = Vec::new();
             if let Some(p) = &a.abs {
                 files.push(SpectrumFile {
                     path: p.clone(),
                     kind: "abs",
-                    excitation_nm: None,
+                    ..Default::default()
                 });
             }
             if let Some(p) = &a.pl {
@@ -806,13 +825,14 @@ fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
                     path: p.clone(),
                     kind: "pl",
                     excitation_nm: a.excitation_nm,
+                    cuvette: pl_cuvette,
                 });
             }
             if let Some(p) = &a.ple {
                 files.push(SpectrumFile {
                     path: p.clone(),
                     kind: "ple",
-                    excitation_nm: None,
+                    ..Default::default()
                 });
             }
             let na = model::NewAliquot {
@@ -935,6 +955,15 @@ fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
         }
     }
     Ok(())
+}
+
+/// The PL cuvette as the flags give it, refused (naming the flag) when out of range.
+fn pl_cuvette(path_cm: Option<f64>, dilution: Option<f64>) -> Result<bench::OwnCuvette> {
+    Ok(bench::OwnCuvette {
+        path_cm,
+        dilution_factor: dilution,
+    }
+    .checked("--pl-path-cm", "--pl-dilution")?)
 }
 
 fn location(cli: &Cli, c: &LocationCmd) -> Result<()> {
@@ -1552,17 +1581,15 @@ fn size(a: &SizeArgs) -> Result<()> {
 }
 
 fn qy_cmd(a: &QyArgs) -> Result<()> {
-    let n = solvents::refractive_index(&a.solvent).ok_or_else(|| {
+    // clap requires both when no subcommand is given.
+    let (Some(solvent), Some(ref_solvent)) = (&a.solvent, &a.ref_solvent) else {
+        bail!("give --solvent and --ref-solvent");
+    };
+    let n = solvents::refractive_index(solvent)
+        .ok_or_else(|| anyhow!("unknown solvent '{solvent}' (known: {})", solvents::names().join(", ")))?;
+    let nr = solvents::refractive_index(ref_solvent).ok_or_else(|| {
         anyhow!(
-            "unknown solvent '{}' (known: {})",
-            a.solvent,
-            solvents::names().join(", ")
-        )
-    })?;
-    let nr = solvents::refractive_index(&a.ref_solvent).ok_or_else(|| {
-        anyhow!(
-            "unknown reference solvent '{}' (known: {})",
-            a.ref_solvent,
+            "unknown reference solvent '{ref_solvent}' (known: {})",
             solvents::names().join(", ")
         )
     })?;
@@ -1576,10 +1603,10 @@ fn qy_cmd(a: &QyArgs) -> Result<()> {
                     solvents::DYES.iter().map(|d| d.name).collect::<Vec<_>>().join(", ")
                 )
             })?;
-            if !dye.solvent.eq_ignore_ascii_case(&a.ref_solvent) {
+            if !dye.solvent.eq_ignore_ascii_case(ref_solvent) {
                 extra.push(format!(
-                    "{} has its tabulated value in {}, not {}",
-                    dye.name, dye.solvent, a.ref_solvent
+                    "{} has its tabulated value in {}, not {ref_solvent}",
+                    dye.name, dye.solvent
                 ));
             }
             dye.qy
@@ -1629,6 +1656,36 @@ fn qy_cmd(a: &QyArgs) -> Result<()> {
     Ok(())
 }
 
+/// `qy gradient`: the gradient quantum yield of a dilution series logged as aliquots.
+fn qy_gradient(cli: &Cli, aliquots: &[i64], j: bool) -> Result<()> {
+    let mut store = open_read(cli)?;
+    let g = store.read(|tx| engine::gradient_qy_series(tx, aliquots))?;
+    if j {
+        return json(&g);
+    }
+    line(&format!(
+        "QY = {:.3}{} ({:.1} %), {}",
+        g.qy,
+        g.qy_sd.map(|sd| format!(" ± {sd:.3}")).unwrap_or_default(),
+        g.qy * 100.0,
+        g.method
+    ))?;
+    line(&format!(
+        "  {} dilutions: slope {:.4e} per unit absorbance, R² {:.4}; n {} against the reference's {} (calibration v{})",
+        g.dilutions, g.sample_fit.slope, g.sample_fit.r_squared, g.n_sample, g.n_ref, g.calibration_version
+    ))?;
+    for p in &g.points {
+        line(&format!(
+            "  aliquot {:>5}  A(ex, PL cuvette) {:.4}  PL integral {:.4e}",
+            p.aliquot_id, p.abs_at_excitation_pl, p.pl_integral
+        ))?;
+    }
+    for w in &g.warnings {
+        line(&format!("  warning: {w}"))?;
+    }
+    Ok(())
+}
+
 fn core_of(tx: &rusqlite::Connection, material: &str) -> crate::Result<String> {
     match model::material_by_name(tx, material) {
         Ok(m) => Ok(m.core),
@@ -1642,6 +1699,11 @@ fn core_of(tx: &rusqlite::Connection, material: &str) -> crate::Result<String> {
         }
     }
 }
+
+/// A homogeneous HWHM above this is a typing slip, not a linewidth: single crystals' room-
+/// temperature linewidths are of order tens of meV (from memory; the calibration itself
+/// refuses 500).
+const MAX_HOMOGENEOUS_HWHM_MEV: f64 = 200.0;
 
 fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
     let mut store = open_for(
@@ -1709,6 +1771,14 @@ fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
                     .map(|d| d.name.clone())
                     .unwrap_or("none".into())
             ))?;
+            if v.body.homogeneous_hwhm_mev.is_empty() {
+                line("  homogeneous HWHM: off (size dispersions hold the whole width)")?;
+            }
+            for (core, h) in &v.body.homogeneous_hwhm_mev {
+                line(&format!(
+                    "  homogeneous HWHM: {core} {h} meV (taken out of the first-exciton width in quadrature)"
+                ))?;
+            }
             line(&format!(
                 "  analysis: smoothing {} nm, order {}, saturation A {}",
                 v.body.analysis.smoothing_nm, v.body.analysis.smoothing_order, v.body.analysis.saturation_abs
@@ -1894,6 +1964,27 @@ fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
                 Ok(())
             })?;
         }
+        CalibCmd::SetHomogeneousHwhm {
+            material,
+            mev,
+            off,
+            why,
+            json: j,
+        } => {
+            let mev = if *off { None } else { *mev };
+            if let Some(h) = mev
+                && !(h.is_finite() && h > 0.0 && h <= MAX_HOMOGENEOUS_HWHM_MEV)
+            {
+                bail!(
+                    "the homogeneous HWHM must be above 0 and at most {MAX_HOMOGENEOUS_HWHM_MEV} meV, got {h} (give --off to take none out)"
+                );
+            }
+            let m = material.clone();
+            change(&mut store, why, *j, &|tx, body| {
+                body.set_homogeneous_hwhm(&core_of(tx, &m)?, mev);
+                Ok(())
+            })?;
+        }
         CalibCmd::SetBulk {
             material,
             eg_ev,
@@ -1981,8 +2072,16 @@ fn explain(cli: &Cli, a: &ExplainArgs) -> Result<()> {
         v["material"].as_str().unwrap_or("")
     ))?;
     for s in v["spectra"].as_array().into_iter().flatten() {
+        let own = match (s["path_cm"].as_f64(), s["dilution_factor"].as_f64()) {
+            (None, None) => String::new(),
+            (p, d) => format!(
+                " (own cuvette: {} cm, dilution {})",
+                p.map(|v| v.to_string()).unwrap_or("-".into()),
+                d.map(|v| v.to_string()).unwrap_or("-".into())
+            ),
+        };
         line(&format!(
-            "  spectrum {} {} {} sha256 {}",
+            "  spectrum {} {} {} sha256 {}{own}",
             s["id"],
             s["kind"].as_str().unwrap_or(""),
             s["file_name"].as_str().unwrap_or(""),
@@ -2139,6 +2238,10 @@ fn restore(cli: &Cli, file: &Path, recompute_after: bool) -> Result<()> {
 }
 
 fn import(cli: &Cli, a: &ImportArgs) -> Result<()> {
+    let pl = bench::PlSetup {
+        excitation_nm: a.excitation_nm,
+        cuvette: pl_cuvette(a.pl_path_cm, a.pl_dilution)?,
+    };
     let mut store = open_write(cli)?;
     let template = model::NewAliquot {
         batch_id: a.batch_id,
@@ -2155,15 +2258,9 @@ fn import(cli: &Cli, a: &ImportArgs) -> Result<()> {
         kind_as_is: a.kind_as_is,
         series: a.series,
     };
-    let r = bench::import_folder(
-        &mut store,
-        a.batch_id,
-        &a.folder,
-        &template,
-        a.excitation_nm,
-        &door,
-        |d, t| progress.tick(d, t),
-    )?;
+    let r = bench::import_folder(&mut store, a.batch_id, &a.folder, &template, pl, &door, |d, t| {
+        progress.tick(d, t)
+    })?;
     if a.json {
         return json(&json!({"batch_id": a.batch_id, "aliquots": r.aliquots, "skipped": r.skipped}));
     }
@@ -2189,6 +2286,8 @@ struct ManifestRow {
     path_cm: Option<f64>,
     solvent: Option<String>,
     excitation_nm: Option<f64>,
+    pl_path_cm: Option<f64>,
+    pl_dilution: Option<f64>,
 }
 
 fn import_manifest(cli: &Cli, a: &ManifestArgs) -> Result<ExitCode> {
@@ -2198,7 +2297,14 @@ fn import_manifest(cli: &Cli, a: &ManifestArgs) -> Result<ExitCode> {
         .from_reader(text.as_bytes());
     let mut rows = Vec::new();
     for (i, r) in rdr.deserialize::<ManifestRow>().enumerate() {
-        rows.push(r.map_err(|e| anyhow!("{} row {}: {e}", a.manifest.display(), i + 2))?);
+        let r = r.map_err(|e| anyhow!("{} row {}: {e}", a.manifest.display(), i + 2))?;
+        bench::OwnCuvette {
+            path_cm: r.pl_path_cm,
+            dilution_factor: r.pl_dilution,
+        }
+        .checked("pl_path_cm", "pl_dilution")
+        .map_err(|e| anyhow!("{} row {}: {e}", a.manifest.display(), i + 2))?;
+        rows.push(r);
     }
     let base = a.manifest.parent().map(Path::to_path_buf).unwrap_or_default();
     let mut store = open_write(cli)?;
@@ -2221,7 +2327,13 @@ fn import_manifest(cli: &Cli, a: &ManifestArgs) -> Result<ExitCode> {
             r.batch_id,
             &folder,
             &template,
-            r.excitation_nm,
+            bench::PlSetup {
+                excitation_nm: r.excitation_nm,
+                cuvette: bench::OwnCuvette {
+                    path_cm: r.pl_path_cm,
+                    dilution_factor: r.pl_dilution,
+                },
+            },
             &bench::Door::default(),
             |_, _| {},
         ) {

@@ -2166,8 +2166,57 @@ pub fn reaction_yield_of(conn: &Connection, batch_id: i64) -> Result<ReactionYie
 /// integral, against the calibration's reference series (or its single point, through the
 /// origin). Fewer than four dilutions, solvents that differ or stale values are said.
 pub fn gradient_qy(conn: &Connection, aliquot_ids: &[i64]) -> Result<qy::QyResult> {
+    let g = gradient_qy_series(conn, aliquot_ids)?;
+    Ok(qy::QyResult {
+        qy: g.qy,
+        qy_sd: g.qy_sd,
+        method: g.method,
+        warnings: g.warnings,
+    })
+}
+
+/// One dilution of a gradient series, as the method took it.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct GradientPoint {
+    pub aliquot_id: i64,
+    /// Scatter-corrected, in the PL cuvette.
+    pub abs_at_excitation_pl: f64,
+    pub pl_integral: f64,
+}
+
+/// A gradient quantum yield with what it was computed from.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct GradientQy {
+    pub qy: f64,
+    /// One standard deviation from the two slopes' standard errors, when both have one.
+    pub qy_sd: Option<f64>,
+    pub method: String,
+    /// How many of the sample's dilutions the line went through.
+    pub dilutions: usize,
+    pub points: Vec<GradientPoint>,
+    /// The sample's line of PL integral on absorbance.
+    pub sample_fit: qy::LineFit,
+    pub reference_dye: String,
+    pub reference_qy: f64,
+    /// The reference's dilutions in the calibration; 1 when it holds a single point (its line
+    /// is then taken through the origin).
+    pub reference_dilutions: usize,
+    pub n_sample: f64,
+    pub n_ref: f64,
+    /// The calibration version the reference and indices came from (the first aliquot's).
+    pub calibration_version: i64,
+    pub warnings: Vec<String>,
+}
+
+/// [`gradient_qy`] with its points, fit and reference. An aliquot named twice or void is
+/// refused.
+pub fn gradient_qy_series(conn: &Connection, aliquot_ids: &[i64]) -> Result<GradientQy> {
     if aliquot_ids.is_empty() {
         return crate::error::invalid("the gradient method needs the aliquots of a dilution series");
+    }
+    let mut seen = std::collections::HashSet::new();
+    if let Some(dup) = aliquot_ids.iter().find(|id| !seen.insert(**id)) {
+        return crate::error::invalid(format!("aliquot {dup} is named twice: each dilution counts once"));
     }
     let first = crate::store::model::get_aliquot(conn, aliquot_ids[0])?;
     let version = effective_calibration_version(conn, first.batch_id)?;
@@ -2180,6 +2229,9 @@ pub fn gradient_qy(conn: &Connection, aliquot_ids: &[i64]) -> Result<qy::QyResul
     let mut warnings = Vec::new();
     for id in aliquot_ids {
         let a = crate::store::model::get_aliquot(conn, *id)?;
+        if a.voided {
+            return crate::error::invalid(format!("aliquot {id} is void: it counts for nothing"));
+        }
         if !a.solvent.eq_ignore_ascii_case(&first.solvent) {
             warnings.push(format!(
                 "aliquot {id} is in {}, the first in {}: one series, one solvent",
@@ -2199,25 +2251,43 @@ pub fn gradient_qy(conn: &Connection, aliquot_ids: &[i64]) -> Result<qy::QyResul
         if values.iter().any(|v| v.stale) {
             warnings.push(format!("aliquot {id}'s values are stale: recompute"));
         }
-        points.push((av, iv));
+        points.push(GradientPoint {
+            aliquot_id: *id,
+            abs_at_excitation_pl: av,
+            pl_integral: iv,
+        });
     }
     let (Some(n), Some(nr)) = (cal.refractive_index(&first.solvent), cal.refractive_index(&r.solvent)) else {
         return crate::error::invalid("no refractive index for a solvent");
     };
+    let xy: Vec<(f64, f64)> = points.iter().map(|p| (p.abs_at_excitation_pl, p.pl_integral)).collect();
     let mut q = if cal.qy_reference_dilutions.is_empty() {
-        qy::gradient_single_reference(&points, r.abs_at_excitation, r.integral, r.qy, n, nr)?
+        qy::gradient_single_reference(&xy, r.abs_at_excitation, r.integral, r.qy, n, nr)?
     } else {
         let reference: Vec<(f64, f64)> = cal
             .qy_reference_dilutions
             .iter()
             .map(|p| (p.abs_at_excitation, p.integral))
             .collect();
-        qy::gradient(&points, &reference, r.qy, n, nr)?
+        qy::gradient(&xy, &reference, r.qy, n, nr)?
     };
     if cal.detector_correction.is_none() {
         q.warnings.push(qy::NO_DETECTOR_CORRECTION.into());
     }
     q.warnings.extend(warnings);
-    q.method = format!("{} against {} ({})", q.method, r.dye, r.qy);
-    Ok(q)
+    Ok(GradientQy {
+        qy: q.qy,
+        qy_sd: q.qy_sd,
+        method: format!("{} against {} ({})", q.method, r.dye, r.qy),
+        dilutions: points.len(),
+        sample_fit: qy::line_fit(&xy)?,
+        points,
+        reference_dye: r.dye.clone(),
+        reference_qy: r.qy,
+        reference_dilutions: cal.qy_reference_dilutions.len().max(1),
+        n_sample: n,
+        n_ref: nr,
+        calibration_version: version,
+        warnings: q.warnings,
+    })
 }

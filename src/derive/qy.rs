@@ -355,6 +355,11 @@ pub fn gradient(
         ));
     }
     let qy = ref_qy * (fs.slope / fr.slope) * (n_sample * n_sample) / (n_ref * n_ref);
+    if qy > 1.0 {
+        warnings.push(format!(
+            "quantum yield {qy:.3} is above 1: check the reference and the spectral correction"
+        ));
+    }
     let qy_sd = match (fs.slope_se, fr.slope_se) {
         (Some(a), Some(b)) if fs.slope != 0.0 => {
             Some(qy.abs() * ((a / fs.slope).powi(2) + (b / fr.slope).powi(2)).sqrt())

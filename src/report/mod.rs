@@ -174,7 +174,9 @@ pub fn explain(conn: &Connection, aliquot_id: i64) -> Result<Value> {
             "qy_reference": c.body.qy_reference, "analysis": c.body.analysis,
         })),
         "spectra": spectra.iter().map(|s| json!({"id": s.id, "kind": s.kind, "file_name": s.file_name, "sha256": s.sha256,
-            "npoints": s.npoints, "x_unit": s.x_unit, "excitation_nm": s.excitation_nm})).collect::<Vec<_>>(),
+            "npoints": s.npoints, "x_unit": s.x_unit, "excitation_nm": s.excitation_nm,
+            // The spectrum's own cuvette (a PL measurement's), null when it is the aliquot's.
+            "path_cm": s.path_cm, "dilution_factor": s.dilution_factor})).collect::<Vec<_>>(),
         "chain": chain,
         "history": history,
     }))

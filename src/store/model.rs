@@ -754,6 +754,20 @@ pub fn edit_batch(tx: &Connection, who: &str, id: i64, e: &BatchEdit) -> Result<
             return invalid("a batch cannot be its own parent");
         }
         get_batch(tx, p)?;
+        // A parent that grew from this batch would make each the other's core.
+        let mut seen = std::collections::HashSet::new();
+        let mut up = Some(p);
+        while let Some(b) = up {
+            if b == id {
+                return invalid(format!(
+                    "batch {p} descends from batch {id}: it cannot be batch {id}'s parent"
+                ));
+            }
+            if !seen.insert(b) {
+                break;
+            }
+            up = tx.query_row("SELECT parent_batch_id FROM batch WHERE id = ?1", [b], |r| r.get(0))?;
+        }
         tx.execute("UPDATE batch SET parent_batch_id = ?1 WHERE id = ?2", params![p, id])?;
     }
     let after = get_batch(tx, id)?;
@@ -977,6 +991,13 @@ pub fn insert_spectrum(tx: &Connection, who: &str, s: &NewSpectrum) -> Result<i6
     if let Some(e) = s.excitation_nm {
         check_number("excitation wavelength (nm)", e, false)?;
     }
+    // The spectrum's own cuvette is held to the bounds `aliquot edit` holds an aliquot's to.
+    if let Some(p) = s.path_cm {
+        check_bounded("the spectrum's path length", p, false, 100.0, "cm")?;
+    }
+    if let Some(d) = s.dilution_factor {
+        check_bounded("the spectrum's dilution factor", d, false, 1e6, "x")?;
+    }
     let data = encode_xy(&s.x, &s.y);
     let data_sha = crate::spectra::sha256_hex(&data);
     tx.execute(
@@ -1012,7 +1033,8 @@ pub fn insert_spectrum(tx: &Connection, who: &str, s: &NewSpectrum) -> Result<i6
         None,
         Some(
             &json!({"aliquot_id": s.aliquot_id, "vial_id": s.vial_id, "kind": s.kind,
-                     "file_name": s.file_name, "label": s.label, "sha256": s.sha256, "npoints": s.x.len()}),
+                     "file_name": s.file_name, "label": s.label, "sha256": s.sha256, "npoints": s.x.len(),
+                     "excitation_nm": s.excitation_nm, "path_cm": s.path_cm, "dilution_factor": s.dilution_factor}),
         ),
     )?;
     Ok(id)

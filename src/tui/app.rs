@@ -825,7 +825,7 @@ impl App {
                     files.push(SpectrumFile {
                         path: f.get("abs file").into(),
                         kind: "abs",
-                        excitation_nm: None,
+                        ..Default::default()
                     });
                 }
                 if !f.get("pl file").is_empty() {
@@ -833,6 +833,7 @@ impl App {
                         path: f.get("pl file").into(),
                         kind: "pl",
                         excitation_nm: ex,
+                        ..Default::default()
                     });
                 }
                 let stage = Some(f.get("stage")).filter(|s| !s.is_empty());
@@ -1090,13 +1091,21 @@ impl App {
                 solvent: "hexane".into(),
                 taken_at: None,
             };
-            let r = bench::import_folder(&mut store, batch, &folder, &t, ex, &bench::Door::default(), |d, n| {
-                let _ = tx.send(Note::Progress {
-                    label: "import".into(),
-                    done: d,
-                    total: n,
-                });
-            });
+            let r = bench::import_folder(
+                &mut store,
+                batch,
+                &folder,
+                &t,
+                bench::PlSetup::excited_at(ex),
+                &bench::Door::default(),
+                |d, n| {
+                    let _ = tx.send(Note::Progress {
+                        label: "import".into(),
+                        done: d,
+                        total: n,
+                    });
+                },
+            );
             let _ = tx.send(match r {
                 Ok(r) if r.skipped.is_empty() => Note::Done(format!("imported {} aliquots", r.aliquots.len())),
                 Ok(r) => Note::Done(format!(
@@ -1190,7 +1199,7 @@ impl App {
                     let f = SpectrumFile {
                         path: p.clone(),
                         kind,
-                        excitation_nm: None,
+                        ..Default::default()
                     };
                     let mut logged = bench::add_aliquot(
                         &mut store,
