@@ -199,6 +199,10 @@ impl LocalNoise {
     pub fn at(&self, i: usize) -> f64 {
         self.per_block[(i / NOISE_BLOCK).min(self.per_block.len() - 1)]
     }
+    /// The lowest noise of any block.
+    fn quietest(&self) -> f64 {
+        self.per_block.iter().copied().fold(f64::INFINITY, f64::min)
+    }
 }
 
 fn local_noise(y: &[f64]) -> Option<LocalNoise> {
@@ -246,11 +250,16 @@ struct Candidate {
     /// The derivative's positive lobes (red side, blue side) over its minimum's depth. A lone
     /// Gaussian's are equal (about 0.45 each); a step's are one-sided (about 1 and 0).
     lobes: (f64, f64),
+    /// Where it was found: the scale's slot, the bin and the reach of its lobes (the lobes
+    /// are measured only for the candidates that survive the merge across scales).
+    found_at: (usize, usize, usize),
 }
 
 fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
     let mut all: Vec<Candidate> = Vec::new();
     let mut binned: Vec<f64> = Vec::new();
+    let mut derivatives: Vec<Vec<f64>> = Vec::with_capacity(SCALES_EV.len());
+    let (mut run_start, mut run_end): (Vec<usize>, Vec<usize>) = (Vec::new(), Vec::new());
     for &h_ev in &SCALES_EV {
         let f = ((h_ev / (5.0 * g.step_ev)).floor() as usize).max(1);
         binned.clear();
@@ -272,8 +281,33 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
         // The derivative's noise sd at bin k is sd_gain x the point noise there.
         let sd_gain = c2.iter().map(|c| c * c).sum::<f64>().sqrt() / (step * step) / (f as f64).sqrt();
         let smoothing_var = h_ev * h_ev / 3.0;
+        // No minimum shallower than this can pass the depth test below wherever it is (the
+        // quietest block's noise): tested first, it lets most of a noisy derivative go with
+        // one well-predicted comparison.
+        let shallow = -3.0 * sd_gain * noise.quietest();
+        // Each bin's run of negative curvature (the trough it lies in), found in two passes
+        // rather than walked from every minimum.
+        run_start.clear();
+        run_end.clear();
+        run_start.resize(nb, 0);
+        run_end.resize(nb, 0);
+        for k in 0..nb {
+            run_start[k] = if k > 0 && d2[k] < 0.0 && d2[k - 1] < 0.0 {
+                run_start[k - 1]
+            } else {
+                k
+            };
+        }
+        for k in (0..nb).rev() {
+            run_end[k] = if k + 1 < nb && d2[k] < 0.0 && d2[k + 1] < 0.0 {
+                run_end[k + 1]
+            } else {
+                k
+            };
+        }
+        let slot = derivatives.len();
         for k in half.max(1)..nb - half.max(1) {
-            if !(d2[k] < 0.0 && d2[k] < d2[k - 1] && d2[k] <= d2[k + 1]) {
+            if d2[k] >= shallow || !(d2[k] < 0.0 && d2[k] < d2[k - 1] && d2[k] <= d2[k + 1]) {
                 continue;
             }
             let sd = sd_gain * noise.at(k * f + f / 2);
@@ -315,14 +349,7 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
             };
             // The zero crossings either side of the minimum are at ±σ for a Gaussian,
             // widened by the smoothing window.
-            let mut l = k;
-            while l > 0 && d2[l - 1] < 0.0 {
-                l -= 1;
-            }
-            let mut r = k;
-            while r + 1 < nb && d2[r + 1] < 0.0 {
-                r += 1;
-            }
+            let (l, r) = (run_start[k], run_end[k]);
             let zl = if l > 0 {
                 l as f64 - d2[l] / (d2[l] - d2[l - 1])
             } else {
@@ -348,19 +375,16 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
                 0.0
             };
             let reach = ((3.0 * wh / step).ceil() as usize).max(2);
-            let lobe = |range: &mut dyn Iterator<Item = usize>| range.map(|j| d2[j]).fold(0.0f64, f64::max) / -d2[k];
-            let lobes = (
-                lobe(&mut (k.saturating_sub(reach)..k)),
-                lobe(&mut (k + 1..(k + reach + 1).min(nb))),
-            );
             all.push(Candidate {
                 e_ev: e_at(kc),
                 sigma_ev: sigma,
                 height,
                 significance,
-                lobes,
+                lobes: (0.0, 0.0),
+                found_at: (slot, k, reach),
             });
         }
+        derivatives.push(d2);
     }
     // A minimum narrower than any excitonic band is a wiggle, a step or a spike at this
     // width; the same feature seen at a wider window is judged there.
@@ -375,6 +399,15 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
         if !near {
             kept.push(c);
         }
+    }
+    for c in &mut kept {
+        let (slot, k, reach) = c.found_at;
+        let d2 = &derivatives[slot];
+        let lobe = |range: std::ops::Range<usize>| d2[range].iter().copied().fold(0.0f64, f64::max) / -d2[k];
+        c.lobes = (
+            lobe(k.saturating_sub(reach)..k),
+            lobe(k + 1..(k + reach + 1).min(d2.len())),
+        );
     }
     kept.sort_by(|a, b| a.e_ev.total_cmp(&b.e_ev));
     kept
@@ -652,40 +685,46 @@ fn model(p: &[f64], e_ref: f64, e: f64) -> f64 {
     v
 }
 
-fn solve_in_place(a: &mut [f64], b: &mut [f64], n: usize) -> bool {
-    for col in 0..n {
-        let mut piv = col;
-        for r in col + 1..n {
-            if a[r * n + col].abs() > a[piv * n + col].abs() {
-                piv = r;
-            }
+/// Cholesky factor (lower, in place) of a symmetric positive-definite n x n matrix; false
+/// when it is not positive definite. The normal matrices of the fit are, and this costs half
+/// a pivoted elimination.
+fn cholesky_in_place(a: &mut [f64], n: usize) -> bool {
+    for j in 0..n {
+        let mut d = a[j * n + j];
+        for k in 0..j {
+            d -= a[j * n + k] * a[j * n + k];
         }
-        if !(a[piv * n + col].abs() > 1e-300) {
+        if !(d > 0.0) || !d.is_finite() {
             return false;
         }
-        if piv != col {
-            for c in 0..n {
-                a.swap(col * n + c, piv * n + c);
+        let d = d.sqrt();
+        a[j * n + j] = d;
+        for i in j + 1..n {
+            let mut v = a[i * n + j];
+            for k in 0..j {
+                v -= a[i * n + k] * a[j * n + k];
             }
-            b.swap(col, piv);
-        }
-        let d = a[col * n + col];
-        for r in col + 1..n {
-            let f = a[r * n + col] / d;
-            if f != 0.0 {
-                for c in col..n {
-                    a[r * n + c] -= f * a[col * n + c];
-                }
-                b[r] -= f * b[col];
-            }
+            a[i * n + j] = v / d;
         }
     }
-    for col in (0..n).rev() {
-        let mut s = b[col];
-        for c in col + 1..n {
-            s -= a[col * n + c] * b[c];
+    true
+}
+
+/// Solves L Lᵀ x = b in place with the factor from [`cholesky_in_place`].
+fn cholesky_solve(l: &[f64], b: &mut [f64], n: usize) -> bool {
+    for i in 0..n {
+        let mut v = b[i];
+        for k in 0..i {
+            v -= l[i * n + k] * b[k];
         }
-        b[col] = s / a[col * n + col];
+        b[i] = v / l[i * n + i];
+    }
+    for i in (0..n).rev() {
+        let mut v = b[i];
+        for k in i + 1..n {
+            v -= l[k * n + i] * b[k];
+        }
+        b[i] = v / l[i * n + i];
     }
     b.iter().all(|v| v.is_finite())
 }
@@ -898,7 +937,7 @@ fn linear_start(win: &Window, p: &mut [f64], sc: &mut Scratch) -> bool {
     for i in 0..nl {
         a[i * nl + i] *= 1.0 + 1e-9;
     }
-    if !solve_in_place(&mut a, &mut b, nl) {
+    if !(cholesky_in_place(&mut a, nl) && cholesky_solve(&a, &mut b, nl)) {
         return false;
     }
     p[..G].copy_from_slice(&b[..G]);
@@ -926,7 +965,7 @@ fn levenberg_marquardt(win: &Window, mut p: Vec<f64>, lo: f64, hi: f64, sc: &mut
             a[d * np + d] += lambda * jtj[d * np + d].max(1e-12);
         }
         b.iter_mut().zip(&jtr).for_each(|(bi, g)| *bi = -g);
-        if !solve_in_place(&mut a, &mut b, np) {
+        if !(cholesky_in_place(&mut a, np) && cholesky_solve(&a, &mut b, np)) {
             lambda *= 10.0;
             if lambda > 1e10 {
                 break;
@@ -1057,15 +1096,23 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
         let red = chi2 / dof;
         // Variances from the noise alone, and scaled by the reduced χ² where the model leaves
         // more than noise (the reported uncertainties).
+        // (JᵀWJ)⁻¹ᵢᵢ = |L⁻¹ eᵢ|², from one factorisation.
+        let mut l = jtj.to_vec();
+        let factored = cholesky_in_place(&mut l, np);
         let raw_var = |idx: usize| -> f64 {
-            let mut a = jtj.to_vec();
-            let mut unit = vec![0.0; np];
-            unit[idx] = 1.0;
-            if solve_in_place(&mut a, &mut unit, np) {
-                unit[idx].max(0.0)
-            } else {
-                f64::INFINITY
+            if !factored {
+                return f64::INFINITY;
             }
+            let mut y = vec![0.0; np];
+            for i in idx..np {
+                let mut v = if i == idx { 1.0 } else { 0.0 };
+                for k in idx..i {
+                    v -= l[i * np + k] * y[k];
+                }
+                y[i] = v / l[i * np + i];
+            }
+            let var: f64 = y.iter().map(|v| v * v).sum();
+            if var.is_finite() { var } else { f64::INFINITY }
         };
         let (a1, e1, sig1) = (p[G], p[G + 1], p[G + 2]);
         let scale = red.max(1.0).sqrt();
