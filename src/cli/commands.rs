@@ -1352,24 +1352,36 @@ fn analyze(a: &AnalyzeArgs) -> Result<ExitCode> {
         use std::io::IsTerminal;
         std::io::stdout().is_terminal()
     };
-    let results: Vec<(Value, Result<String>)> = crate::report::parallel_map(&files, workers, |p| {
+    // For output to a file or a pipe the workers keep only the rendered text and the error,
+    // so each result's JSON value is dropped by the worker that made it, not kept to the end.
+    enum Done {
+        Terminal(Value),
+        Rendered {
+            error: Option<String>,
+            text: Result<String>,
+        },
+    }
+    let error_of = |v: &Value| v.get("error").and_then(|e| e.as_str()).map(str::to_string);
+    let results: Vec<Done> = crate::report::parallel_map(&files, workers, |p| {
         analyze_file(p, a, &cal)
             .into_iter()
             .map(|v| {
-                let text = if to_terminal {
-                    Ok(String::new())
-                } else {
-                    analyze_lines(&v, a).map(|lines| {
-                        let mut text = String::new();
-                        for l in lines {
-                            // As `output::line` writes each line.
-                            text.push_str(&crate::safe_text::for_terminal_lines(&l));
-                            text.push('\n');
-                        }
-                        text
-                    })
-                };
-                (v, text)
+                if to_terminal {
+                    return Done::Terminal(v);
+                }
+                let text = analyze_lines(&v, a).map(|lines| {
+                    let mut text = String::new();
+                    for l in lines {
+                        // As `output::line` writes each line.
+                        text.push_str(&crate::safe_text::for_terminal_lines(&l));
+                        text.push('\n');
+                    }
+                    text
+                });
+                Done::Rendered {
+                    error: error_of(&v),
+                    text,
+                }
             })
             .collect::<Vec<_>>()
     })
@@ -1380,22 +1392,27 @@ fn analyze(a: &AnalyzeArgs) -> Result<ExitCode> {
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::with_capacity(1 << 16, stdout.lock());
     let mut outcome = Ok(());
-    for (v, text) in results {
-        if let Some(e) = v.get("error").and_then(|e| e.as_str()) {
+    for done in results {
+        let error = match &done {
+            Done::Terminal(v) => error_of(v),
+            Done::Rendered { error, .. } => error.clone(),
+        };
+        if let Some(e) = error {
             failed = true;
             // What came before is on stdout before the warning, as when each line was
             // written at once (the two streams often share one terminal or file).
             print_or_quit(out.flush())?;
             output::warn(&format!("refused {e}"));
         }
-        let printed = if to_terminal {
-            if a.json {
-                json_line(&v)
-            } else {
-                analyze_lines(&v, a).and_then(|lines| lines.iter().try_for_each(|l| line(l)))
+        let printed = match done {
+            Done::Terminal(v) => {
+                if a.json {
+                    json_line(&v)
+                } else {
+                    analyze_lines(&v, a).and_then(|lines| lines.iter().try_for_each(|l| line(l)))
+                }
             }
-        } else {
-            text.and_then(|t| print_or_quit(out.write_all(t.as_bytes())))
+            Done::Rendered { text, .. } => text.and_then(|t| print_or_quit(out.write_all(t.as_bytes()))),
         };
         if let Err(e) = printed {
             outcome = Err(e);

@@ -226,46 +226,96 @@ fn fast_decimal(s: &[u8], mark: u8) -> Option<f64> {
 /// on the fast path. What follows it is the caller's to judge.
 #[inline]
 fn decimal_prefix(s: &[u8], mark: u8) -> Option<(f64, usize)> {
-    let (neg, mut i) = match s.first()? {
-        b'-' => (true, 1),
-        b'+' => (false, 1),
-        _ => (false, 0),
+    decimal_at(s, 0, s.len(), mark)
+}
+
+/// [`decimal_prefix`] of `buf[start..end]`, returning where the number ends (an index into
+/// `buf`). The bytes of `buf` past `end` are only ever looked at, never read as part of the
+/// number, so a caller passes the whole text and a line's end.
+#[inline(always)]
+fn decimal_at(buf: &[u8], start: usize, end: usize, mark: u8) -> Option<(f64, usize)> {
+    let (mantissa, frac, i) = mantissa_at(buf, start, end, mark)?;
+    // The sign goes on before the division: rounding to nearest is symmetric, so -(m/p) and
+    // (-m)/p are the same double (and "-0" stays -0.0).
+    Some((mantissa / POW10[frac], i))
+}
+
+/// The signed digits of the plain decimal at `buf[start..end]` as a whole number (exact in
+/// f64), how many of them follow the mark, and where the number ends; the value is the first
+/// divided by ten to the second. None where [`decimal_prefix`] reads none.
+#[inline(always)]
+fn mantissa_at(buf: &[u8], start: usize, end: usize, mark: u8) -> Option<(f64, usize, usize)> {
+    let (neg, mut i) = match buf[..end].get(start)? {
+        b'-' => (true, start + 1),
+        b'+' => (false, start + 1),
+        _ => (false, start),
     };
-    let mut mantissa: u64 = 0;
     let int_start = i;
-    while let Some(&c) = s.get(i) {
-        let d = c.wrapping_sub(b'0');
-        if d > 9 {
-            break;
-        }
-        // Wrapping: a mantissa of more than 19 digits is refused below, before it is used.
-        mantissa = mantissa.wrapping_mul(10).wrapping_add(u64::from(d));
-        i += 1;
-    }
+    let (next, mut mantissa) = digit_run(buf, i, end, 0);
+    i = next;
     let int_digits = i - int_start;
     let mut frac = 0;
-    if s.get(i) == Some(&mark) {
+    if i < end && buf[i] == mark {
         i += 1;
         let frac_start = i;
-        while let Some(&c) = s.get(i) {
-            let d = c.wrapping_sub(b'0');
-            if d > 9 {
-                break;
-            }
-            mantissa = mantissa.wrapping_mul(10).wrapping_add(u64::from(d));
-            i += 1;
-        }
+        (i, mantissa) = digit_run(buf, i, end, mantissa);
         frac = i - frac_start;
     }
     let digits = int_digits + frac;
     if digits == 0 || digits > 19 || mantissa > EXACT_MANTISSA || frac >= POW10.len() {
         return None;
     }
-    let v = mantissa as f64 / POW10[frac];
-    Some((if neg { -v } else { v }, i))
+    let m = mantissa as f64;
+    Some((if neg { -m } else { m }, frac, i))
 }
 
-/// A row of plain decimals (decimal point) and nothing else, parsed in one pass: the cells are
+/// Ten to the power of each count of digits one word holds.
+const POW10_U64: [u64; 9] = [1, 10, 100, 1_000, 10_000, 100_000, 1_000_000, 10_000_000, 100_000_000];
+
+/// Reads the run of ASCII digits at `buf[i..end]` onto `mantissa` (wrapping: a run of more
+/// than 19 digits is refused by the caller before the value is used, and wrapping arithmetic
+/// gives the same bits whether the digits are taken one or eight at a time) and returns where
+/// the run ends and the new mantissa. Eight bytes are looked at as one word where the text has
+/// eight left; the digits among them are found and combined with word arithmetic.
+#[inline(always)]
+fn digit_run(buf: &[u8], mut i: usize, end: usize, mut mantissa: u64) -> (usize, u64) {
+    while let Some(word) = buf.get(i..i + 8) {
+        let mut w = [0u8; 8];
+        w.copy_from_slice(word);
+        // Each byte less '0': a digit is 0..=9; any other byte has its high bit set here or
+        // once 0x76 is added (no digit carries into the next byte; a non-digit may, but only
+        // into bytes after the first non-digit, which are not read).
+        let d = u64::from_le_bytes(w).wrapping_sub(0x3030_3030_3030_3030);
+        let not_digit = (d.wrapping_add(0x7676_7676_7676_7676) | d) & 0x8080_8080_8080_8080;
+        let n = ((not_digit.trailing_zeros() / 8) as usize).min(end.saturating_sub(i));
+        if n == 0 {
+            return (i, mantissa);
+        }
+        // The n digits to the top of the word (first digit lowest), then pairs, fours and
+        // eights combined: each step's sums fit their lanes.
+        let mut x = (d << (64 - 8 * n as u32)) & 0x0f0f_0f0f_0f0f_0f0f;
+        x = (x.wrapping_mul(10).wrapping_add(x >> 8)) & 0x00ff_00ff_00ff_00ff;
+        x = (x.wrapping_mul(100).wrapping_add(x >> 16)) & 0x0000_ffff_0000_ffff;
+        x = (x.wrapping_mul(10_000).wrapping_add(x >> 32)) & 0xffff_ffff;
+        mantissa = mantissa.wrapping_mul(POW10_U64[n]).wrapping_add(x);
+        i += n;
+        if n < 8 {
+            return (i, mantissa);
+        }
+    }
+    while i < end {
+        let d = buf[i].wrapping_sub(b'0');
+        if d > 9 {
+            break;
+        }
+        mantissa = mantissa.wrapping_mul(10).wrapping_add(u64::from(d));
+        i += 1;
+    }
+    (i, mantissa)
+}
+
+/// The line `buf[a..n]` when it is a row of plain decimals (decimal point) and nothing else,
+/// parsed in one pass: the cells are
 /// separated by the one delimiter byte (or, for whitespace, by runs of blanks and tabs, with
 /// blanks allowed around the row), and every cell is a number [`decimal_prefix`] reads. Its
 /// numbers are appended to `out` and their count returned. Such a row reads exactly as the
@@ -273,53 +323,76 @@ fn decimal_prefix(s: &[u8], mark: u8) -> Option<(f64, usize)> {
 /// `str::parse` gives); on anything else nothing is appended and the general path reads the
 /// row.
 #[inline]
-fn plain_row(line: &[u8], delim: Delim, out: &mut Vec<Option<f64>>) -> Option<usize> {
+fn plain_row(buf: &[u8], a: usize, n: usize, delim: Delim, out: &mut Vec<Option<f64>>) -> Option<usize> {
     let start = out.len();
-    let n = line.len();
-    let space = delim == Delim::Space;
-    let d = delim.byte();
-    let blank = |c: u8| c == b' ' || c == b'\t';
-    let mut i = 0;
-    if space {
-        while i < n && blank(line[i]) {
-            i += 1;
-        }
-    }
-    let ok = loop {
-        let Some((v, used)) = decimal_prefix(&line[i..], b'.') else {
-            break false;
-        };
-        out.push(Some(v));
-        i += used;
-        if i == n {
-            break true;
-        }
-        if space {
-            if !blank(line[i]) {
-                break false;
-            }
-            while i < n && blank(line[i]) {
-                i += 1;
-            }
-            if i == n {
-                break true;
-            }
-        } else {
-            if line[i] != d {
-                break false;
-            }
-            i += 1;
-            // An empty cell at the end is the general path's to drop.
-            if i == n {
-                break false;
-            }
-        }
-    };
+    let ok = plain_cells(buf, a, n, delim, usize::MAX, |_, m, frac| {
+        out.push(Some(m / POW10[frac]))
+    })
+    .is_some();
     if ok {
         Some(out.len() - start)
     } else {
         out.truncate(start);
         None
+    }
+}
+
+/// The one-pass reading of the line `buf[a..n]` behind [`plain_row`]: hands each number to
+/// `take` with its 0-based cell, as [`mantissa_at`] gives it (the number is the mantissa over
+/// `POW10[frac]`), and returns how many there were; None for a line that is not a plain row,
+/// or that holds more than `most` numbers (what was handed on is then of no use). Numbers are
+/// read with the text past the line's end in view (see [`decimal_at`]), so a number at the end
+/// of a line is read a word at a time like any other.
+#[inline(always)]
+fn plain_cells(
+    buf: &[u8],
+    a: usize,
+    n: usize,
+    delim: Delim,
+    most: usize,
+    mut take: impl FnMut(usize, f64, usize),
+) -> Option<usize> {
+    let space = delim == Delim::Space;
+    let d = delim.byte();
+    let blank = |c: u8| c == b' ' || c == b'\t';
+    let mut i = a;
+    if space {
+        while i < n && blank(buf[i]) {
+            i += 1;
+        }
+    }
+    let mut count = 0;
+    loop {
+        if count == most {
+            return None;
+        }
+        let (m, frac, next) = mantissa_at(buf, i, n, b'.')?;
+        take(count, m, frac);
+        count += 1;
+        i = next;
+        if i == n {
+            return Some(count);
+        }
+        if space {
+            if !blank(buf[i]) {
+                return None;
+            }
+            while i < n && blank(buf[i]) {
+                i += 1;
+            }
+            if i == n {
+                return Some(count);
+            }
+        } else {
+            if buf[i] != d {
+                return None;
+            }
+            i += 1;
+            // An empty cell at the end is the general path's to drop.
+            if i == n {
+                return None;
+            }
+        }
     }
 }
 
@@ -515,6 +588,50 @@ struct Endings {
     cr: usize,
 }
 
+/// A column of plain decimals read with the division by the power of ten put off: while every
+/// value has the same number of digits after the mark, `values` holds the mantissas and one
+/// pass at the end divides them all (a loop the compiler runs two or four values at a time;
+/// none at all for whole numbers). A value with another count settles the column: what it
+/// holds is divided then, and later values are divided as they come. IEEE division is
+/// correctly rounded however it is done, so each value is the double [`decimal_at`] gives.
+struct DeferredColumn {
+    values: Vec<f64>,
+    /// The digits after the mark of every value so far, or [`SETTLED`].
+    frac: usize,
+}
+
+/// A [`DeferredColumn`] whose values are already divided.
+const SETTLED: usize = usize::MAX;
+
+impl DeferredColumn {
+    #[inline(always)]
+    fn push(&mut self, mantissa: f64, frac: usize) {
+        if frac == self.frac {
+            self.values.push(mantissa);
+        } else {
+            self.settle();
+            self.values.push(mantissa / POW10[frac]);
+        }
+    }
+
+    fn settle(&mut self) {
+        if self.frac != SETTLED {
+            let p = POW10[self.frac];
+            if self.frac > 0 {
+                for v in &mut self.values {
+                    *v /= p;
+                }
+            }
+            self.frac = SETTLED;
+        }
+    }
+
+    fn finish(mut self) -> Vec<f64> {
+        self.settle();
+        self.values
+    }
+}
+
 /// A cell that could be misread, as met, for judging once the data block is known.
 #[derive(Debug, Clone)]
 struct Oddity {
@@ -660,7 +777,62 @@ impl RowSource for TextRows<'_> {
             return None;
         }
         let (a, b) = self.spans[i];
-        plain_row(&self.text.as_bytes()[a..b], self.delim, out)
+        plain_row(self.text.as_bytes(), a, b, self.delim, out)
+    }
+
+    /// The block as the trait's reading finds it, each row read straight into the columns.
+    fn plain_block(&mut self, range: std::ops::Range<usize>) -> Option<(usize, Vec<Vec<f64>>)> {
+        if !self.plain || self.comma_decimal {
+            return None;
+        }
+        let buf = self.text.as_bytes();
+        let delim = self.delim;
+        let spans = self.spans.get(range.clone())?;
+        let mut row: Vec<Option<f64>> = Vec::with_capacity(8);
+        let &(a, b) = spans.last()?;
+        plain_row(buf, a, b, delim, &mut row)?;
+        let first = spans.iter().position(|&(a, b)| {
+            row.clear();
+            plain_row(buf, a, b, delim, &mut row).is_some()
+        })?;
+        let width = row.len();
+        if width < 2 {
+            return None;
+        }
+        let block = &spans[first..];
+        let mut columns: Vec<DeferredColumn> = Vec::with_capacity(width);
+        plain_cells(buf, block[0].0, block[0].1, delim, width, |_, m, frac| {
+            let mut values = Vec::with_capacity(block.len());
+            values.push(m);
+            columns.push(DeferredColumn { values, frac });
+        })?;
+        if width == 2 {
+            // The commonest table, x and y: the two columns apart, so that each number goes
+            // straight to its own.
+            let (xs, ys) = columns.split_at_mut(1);
+            let (xs, ys) = (&mut xs[0], &mut ys[0]);
+            for &(a, b) in &block[1..] {
+                let n = plain_cells(buf, a, b, delim, 2, |k, m, frac| {
+                    if k == 0 {
+                        xs.push(m, frac);
+                    } else {
+                        ys.push(m, frac);
+                    }
+                });
+                if n != Some(2) {
+                    return None;
+                }
+            }
+        } else {
+            for &(a, b) in &block[1..] {
+                let n = plain_cells(buf, a, b, delim, width, |k, m, frac| columns[k].push(m, frac));
+                if n != Some(width) {
+                    return None;
+                }
+            }
+        }
+        let columns = columns.into_iter().map(DeferredColumn::finish).collect();
+        Some((range.start + first, columns))
     }
 
     fn forget(&mut self) {
@@ -850,7 +1022,7 @@ fn read_text(
     }
     table.shape.splice(0..0, shape);
     table.warnings.splice(0..0, warnings);
-    grid::spectra_from_table(file, &format, &table, opts)
+    grid::spectra_from_table(file, &format, table, opts)
 }
 
 /// Chooses the delimiter and decimal mark: the pair under which the most lines of a sample
@@ -902,7 +1074,7 @@ fn choose_reading(text: &str, spans: &[(usize, usize)], range: std::ops::Range<u
         candidates.push((Delim::Space, true));
     }
     let mut best: Option<((Delim, bool), usize, usize)> = None;
-    let mut plain_cells = Vec::new();
+    let mut scratch = Vec::new();
     for (d, dc) in candidates {
         let mut rows = 0;
         let mut odd = 0;
@@ -911,8 +1083,8 @@ fn choose_reading(text: &str, spans: &[(usize, usize)], range: std::ops::Range<u
             let line = &text[a..b];
             // A plain row under a decimal point: every cell a plain number (each one
             // `Num::Value`), as the loop below would count it.
-            plain_cells.clear();
-            if !dc && let Some(n) = plain_row(line.as_bytes(), d, &mut plain_cells) {
+            scratch.clear();
+            if !dc && let Some(n) = plain_row(text.as_bytes(), a, b, d, &mut scratch) {
                 rows += usize::from(n >= 2);
                 continue;
             }
@@ -1345,6 +1517,21 @@ mod tests {
             if let Some(v) = fast_decimal(comma.as_bytes(), b',') {
                 prop_assert_eq!(Some(v.to_bits()), std_bits(&comma.replace(',', ".")), "{}", comma);
             }
+        }
+
+        /// A number read in the middle of a text, with the text after its end in view (digits
+        /// too, which are never part of it), reads as the same number cut out on its own.
+        #[test]
+        fn numbers_read_in_place_equal_numbers_cut_out(
+            before in "[0-9.,]{0,9}",
+            s in "[+-]?[0-9]{0,12}(\\.[0-9]{0,12})?[,;\t \r\n]?",
+            after in "[0-9.\r\n]{0,12}",
+        ) {
+            let text = format!("{before}{s}{after}");
+            let (a, b) = (before.len(), before.len() + s.len());
+            let cut = decimal_prefix(s.as_bytes(), b'.').map(|(v, used)| (v.to_bits(), a + used));
+            let in_place = decimal_at(text.as_bytes(), a, b, b'.').map(|(v, end)| (v.to_bits(), end));
+            prop_assert_eq!(in_place, cut, "{:?} in {:?}", s, text);
         }
 
         /// Random doubles written the ways exports write them read back as `str::parse` reads

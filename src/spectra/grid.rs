@@ -40,7 +40,7 @@ pub fn spectra_from_grid(file: &str, format: &str, grid: &Grid, opts: &ReadOptio
     let mut src = GridRows { grid };
     let mut table = walk(file, &mut src, 0..grid.rows.len())?;
     table.metadata.splice(0..0, grid.metadata.iter().cloned());
-    spectra_from_table(file, format, &table, opts)
+    spectra_from_table(file, format, table, opts)
 }
 
 /// What one row turned out to be.
@@ -74,6 +74,40 @@ pub(crate) trait RowSource {
     /// for any other row. A source without such a fast reading takes none.
     fn plain(&mut self, _i: usize, _out: &mut Vec<Option<f64>>) -> Option<usize> {
         None
+    }
+    /// Rows `range` when they end in a block of plain rows (see [`RowSource::plain`]) of one
+    /// width, two or more, that runs from the first plain row of the range to its last row:
+    /// the first row of the block and the block's numbers by columns. None for any other rows
+    /// (the last row not plain, the first plain row narrower than two, a row of the block not
+    /// plain or of another width). A source may read the block faster; it must read the same.
+    fn plain_block(&mut self, range: std::ops::Range<usize>) -> Option<(usize, Vec<Vec<f64>>)> {
+        let mut row: Vec<Option<f64>> = Vec::with_capacity(8);
+        // A table that ends in anything but a plain row (notes, a trailing block) is not this
+        // shape: seen at once, before any work.
+        let last = range.end.checked_sub(1).filter(|l| range.contains(l))?;
+        self.plain(last, &mut row)?;
+        let first = range.clone().find(|&i| {
+            row.clear();
+            self.plain(i, &mut row).is_some()
+        })?;
+        let width = row.len();
+        if width < 2 {
+            return None;
+        }
+        let rows = range.end - first;
+        let mut columns: Vec<Vec<f64>> = (0..width).map(|_| Vec::with_capacity(rows)).collect();
+        for i in first..range.end {
+            if i > first {
+                row.clear();
+                if self.plain(i, &mut row) != Some(width) {
+                    return None;
+                }
+            }
+            for (col, v) in columns.iter_mut().zip(&row) {
+                col.push((*v)?);
+            }
+        }
+        Some((first, columns))
     }
     /// Forgets what scanning noted about rows (for judging afterwards), so that a walk that
     /// starts over notes each row once.
@@ -148,12 +182,44 @@ impl RowSource for GridRows<'_> {
     }
 }
 
+/// The data block by columns.
+#[derive(Debug, Clone)]
+pub(crate) enum Columns {
+    /// None where a row has no value in that column.
+    Sparse(Vec<Vec<Option<f64>>>),
+    /// Every row has a value in every column (the one-pass walk's block), kept without the
+    /// Option so that a spectrum takes its column as it is.
+    Dense(Vec<Vec<f64>>),
+}
+
+impl Default for Columns {
+    fn default() -> Columns {
+        Columns::Sparse(Vec::new())
+    }
+}
+
+impl Columns {
+    pub fn len(&self) -> usize {
+        match self {
+            Columns::Sparse(c) => c.len(),
+            Columns::Dense(c) => c.len(),
+        }
+    }
+
+    /// Whether column `c` holds a number in any row.
+    fn has_values(&self, c: usize) -> bool {
+        match self {
+            Columns::Sparse(cols) => cols.get(c).is_some_and(|col| col.iter().any(Option::is_some)),
+            Columns::Dense(cols) => cols.get(c).is_some_and(|col| !col.is_empty()),
+        }
+    }
+}
+
 /// A table after the walk: the header, the data block by columns, and what lay around it.
 #[derive(Debug, Clone, Default)]
 pub(crate) struct Table {
     pub header: Option<Vec<String>>,
-    /// Data block by columns; None where a row has no value in that column.
-    pub columns: Vec<Vec<Option<f64>>>,
+    pub columns: Columns,
     /// 1-based line of each data row.
     pub lines: Vec<usize>,
     pub metadata: Vec<(String, String)>,
@@ -236,34 +302,8 @@ pub(crate) fn walk<R: RowSource>(file: &str, src: &mut R, range: std::ops::Range
 /// first plain one, rows of numbers in the preamble, uneven widths) returns None, with what
 /// scanning noted forgotten, and is walked by the general walk.
 fn walk_plain<R: RowSource>(src: &mut R, range: std::ops::Range<usize>) -> Option<Table> {
+    let (first, columns) = src.plain_block(range.clone())?;
     let mut row: Vec<Option<f64>> = Vec::with_capacity(8);
-    // A table that ends in anything but a plain row (notes, a trailing block) is not this
-    // shape: seen at once, before any work.
-    let last = range.end.checked_sub(1).filter(|l| range.contains(l))?;
-    src.plain(last, &mut row)?;
-    row.clear();
-    let first = range.clone().find(|&i| {
-        row.clear();
-        src.plain(i, &mut row).is_some()
-    })?;
-    let width = row.len();
-    if width < 2 {
-        return None;
-    }
-    let rows = range.end - first;
-    let mut columns: Vec<Vec<Option<f64>>> = vec![Vec::with_capacity(rows); width];
-    for (col, v) in columns.iter_mut().zip(&row) {
-        col.push(*v);
-    }
-    for i in first + 1..range.end {
-        row.clear();
-        if src.plain(i, &mut row) != Some(width) {
-            return None;
-        }
-        for (col, v) in columns.iter_mut().zip(&row) {
-            col.push(*v);
-        }
-    }
     // The preamble, scanned as the general walk scans it.
     let mut kinds = Vec::with_capacity(first - range.start);
     for i in range.start..first {
@@ -310,7 +350,7 @@ fn walk_plain<R: RowSource>(src: &mut R, range: std::ops::Range<usize>) -> Optio
             table.metadata.push(kv);
         }
     }
-    table.columns = columns;
+    table.columns = Columns::Dense(columns);
     table.lines = (first..range.end).map(|i| src.line(i)).collect();
     Some(table)
 }
@@ -419,7 +459,7 @@ fn walk_rows<R: RowSource>(file: &str, src: &mut R, range: std::ops::Range<usize
         })
         .max()
         .unwrap_or(0);
-    table.columns = vec![Vec::with_capacity(data.rows); width];
+    let mut columns: Vec<Vec<Option<f64>>> = (0..width).map(|_| Vec::with_capacity(data.rows)).collect();
     table.lines.reserve(data.rows);
     for i in data.first..=data.last {
         if !matches!(kind_of(i), RowKind::Numbers { .. }) {
@@ -427,11 +467,12 @@ fn walk_rows<R: RowSource>(file: &str, src: &mut R, range: std::ops::Range<usize
         }
         let (a, b) = starts[i - base];
         // A row of numbers inside the block, one number only (an x without its y) still counts.
-        for (c, col) in table.columns.iter_mut().enumerate() {
+        for (c, col) in columns.iter_mut().enumerate() {
             col.push(if a + c < b { flat[a + c] } else { None });
         }
         table.lines.push(src.line(i));
     }
+    table.columns = Columns::Sparse(columns);
 
     // Around the data: key/value lines become metadata; stray rows of numbers are reported.
     let mut trailing_lines = 0;
@@ -630,11 +671,19 @@ struct Pairing {
 }
 
 /// The one path from a walked table to spectra.
-pub(crate) fn spectra_from_table(file: &str, format: &str, t: &Table, opts: &ReadOptions) -> Result<Vec<RawSpectrum>> {
-    let width = t.columns.len();
-    let has_values = |c: usize| t.columns.get(c).is_some_and(|col| col.iter().any(Option::is_some));
+pub(crate) fn spectra_from_table(file: &str, format: &str, t: Table, opts: &ReadOptions) -> Result<Vec<RawSpectrum>> {
+    let Table {
+        header: t_header,
+        mut columns,
+        lines: t_lines,
+        metadata: t_metadata,
+        shape: t_shape,
+        warnings: t_warnings,
+    } = t;
+    let width = columns.len();
+    let has_values = |c: usize| columns.has_values(c);
     let header = |c: usize| -> Option<&str> {
-        t.header
+        t_header
             .as_ref()
             .and_then(|h| h.get(c))
             .map(|s| s.trim().trim_matches('"').trim())
@@ -650,7 +699,7 @@ pub(crate) fn spectra_from_table(file: &str, format: &str, t: &Table, opts: &Rea
         if need > width {
             return Err(spectrum_error(
                 file,
-                t.lines.first().copied(),
+                t_lines.first().copied(),
                 &format!("has {width} columns; column {need} was asked for"),
             ));
         }
@@ -659,7 +708,7 @@ pub(crate) fn spectra_from_table(file: &str, format: &str, t: &Table, opts: &Rea
         if x > width {
             return Err(spectrum_error(
                 file,
-                t.lines.first().copied(),
+                t_lines.first().copied(),
                 &format!("has {width} columns; column {x} was asked for"),
             ));
         }
@@ -708,8 +757,8 @@ pub(crate) fn spectra_from_table(file: &str, format: &str, t: &Table, opts: &Rea
         Some(want) => vec![pick_column(file, want, &pairings, &|c| header(c).map(str::to_string))?],
     };
 
-    let meta_y = metadata_y_unit(&t.metadata);
-    let meta_x = metadata_x_unit(&t.metadata);
+    let meta_y = metadata_y_unit(&t_metadata);
+    let meta_x = metadata_x_unit(&t_metadata);
     let n_samples = pairings.len();
     let mut shape: Vec<String> = Vec::new();
     if pairs_layout {
@@ -717,13 +766,15 @@ pub(crate) fn spectra_from_table(file: &str, format: &str, t: &Table, opts: &Rea
     } else if n_samples > 1 {
         shape.push(format!("{n_samples} sample columns"));
     }
-    shape.extend(t.shape.iter().cloned());
+    shape.extend(t_shape);
     let format = with_shape(format, &shape);
 
     let mut out = Vec::with_capacity(chosen.len());
+    // A lone spectrum takes its columns instead of copying them.
+    let take = chosen.len() == 1;
     for p in chosen {
-        let mut warnings = t.warnings.clone();
-        let (xs, ys, lines) = points(file, t, p, &name_of, &mut warnings)?;
+        let mut warnings = t_warnings.clone();
+        let (xs, ys, lines) = points(file, &mut columns, &t_lines, p, take, &name_of, &mut warnings)?;
         validate_xy(file, &xs, &ys, Some(&lines)).map_err(|e| match e {
             crate::error::Error::Spectrum { file, line, reason } if n_samples > 1 => crate::error::Error::Spectrum {
                 file,
@@ -770,18 +821,42 @@ pub(crate) fn with_shape(format: &str, shape: &[String]) -> String {
     }
 }
 
+/// x, y and the line of each point.
+type Points<'l> = (Vec<f64>, Vec<f64>, std::borrow::Cow<'l, [usize]>);
+
 /// The (x, y) points of one pairing, in file order, with the line of each. A row with a y but
 /// no x is refused (the y would be put at the wrong wavelength); a y column that ends early,
-/// starts late or has a gap is read where it has values, with a warning.
-fn points(
+/// starts late or has a gap is read where it has values, with a warning. `take` lets the
+/// points take their columns out of a dense table (the last use of them) instead of copying.
+fn points<'l>(
     file: &str,
-    t: &Table,
+    columns: &mut Columns,
+    t_lines: &'l [usize],
     p: &Pairing,
+    take: bool,
     name_of: &dyn Fn(usize) -> String,
     warnings: &mut Vec<String>,
-) -> Result<(Vec<f64>, Vec<f64>, Vec<usize>)> {
-    let xc = &t.columns[p.x];
-    let yc = &t.columns[p.y];
+) -> Result<Points<'l>> {
+    let cols = match columns {
+        // Every row has both values: the points are the columns as they are, on every line of
+        // the block (no gap, no uneven length, so nothing to say).
+        Columns::Dense(cols) => {
+            let ys = if take && p.x != p.y {
+                std::mem::take(&mut cols[p.y])
+            } else {
+                cols[p.y].clone()
+            };
+            let xs = if take {
+                std::mem::take(&mut cols[p.x])
+            } else {
+                cols[p.x].clone()
+            };
+            return Ok((xs, ys, std::borrow::Cow::Borrowed(t_lines)));
+        }
+        Columns::Sparse(cols) => cols,
+    };
+    let xc = &cols[p.x];
+    let yc = &cols[p.y];
     let n = xc.len();
     let mut xs = Vec::with_capacity(n);
     let mut ys = Vec::with_capacity(n);
@@ -795,12 +870,12 @@ fn points(
             (Some(x), Some(y)) => {
                 xs.push(x);
                 ys.push(y);
-                lines.push(t.lines[i]);
+                lines.push(t_lines[i]);
             }
             (None, Some(_)) => {
                 return Err(spectrum_error(
                     file,
-                    Some(t.lines[i]),
+                    Some(t_lines[i]),
                     &format!(
                         "column {} has a value but its x column {} has none",
                         name_of(p.y),
@@ -810,7 +885,7 @@ fn points(
             }
             (Some(_), None) if i > first_y && i < last_y => {
                 gaps += 1;
-                first_gap.get_or_insert(t.lines[i]);
+                first_gap.get_or_insert(t_lines[i]);
             }
             _ => {}
         }
@@ -832,7 +907,7 @@ fn points(
             name_of(p.x)
         ));
     }
-    Ok((xs, ys, lines))
+    Ok((xs, ys, std::borrow::Cow::Owned(lines)))
 }
 
 /// The pairing `want` names: a y column header (without case or surrounding spaces), or a

@@ -109,27 +109,36 @@ pub fn read_all(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<Vec<RawS
         return sheet::read(file, bytes, opts);
     }
     let (text, encoding) = decode_text(bytes);
+    if looks_jcamp(&text) {
+        // An empty text holds no record, so the empty test below may come after this one.
+        jcamp::read_blocks(file, &text, opts)
+    } else {
+        read_delimited(file, &text, encoding, opts)
+    }
+}
+
+/// A text that is not JCAMP-DX: refused when empty, else read as delimited text.
+fn read_delimited(file: &str, text: &str, encoding: Option<&str>, opts: &ReadOptions) -> Result<Vec<RawSpectrum>> {
     if text.trim().is_empty() {
         return Err(spectrum_error(file, None, "the file is empty"));
     }
-    if looks_jcamp(&text) {
-        jcamp::read_blocks(file, &text, opts)
-    } else {
-        delimited::read_all_decoded(file, &text, encoding, opts)
-    }
+    delimited::read_all_decoded(file, text, encoding, opts)
 }
 
 /// One spectrum. A file with several spectra and no `opts.column` is refused with a message
 /// that lists them; it is never silently read as its first.
 pub fn read_bytes(file: &str, bytes: &[u8], opts: &ReadOptions) -> Result<RawSpectrum> {
-    // JCAMP-DX chooses among its blocks itself (`--block`), with its own listing.
-    if !sheet::is_workbook(bytes) {
-        let (text, _) = decode_text(bytes);
+    let mut all = if sheet::is_workbook(bytes) {
+        sheet::read(file, bytes, opts)?
+    } else {
+        // The text is decoded and sniffed once, as `read_all` would: JCAMP-DX chooses among
+        // its blocks itself (`--block`), with its own listing.
+        let (text, encoding) = decode_text(bytes);
         if looks_jcamp(&text) {
             return jcamp::read(file, &text, opts);
         }
-    }
-    let mut all = read_all(file, bytes, opts)?;
+        read_delimited(file, &text, encoding, opts)?
+    };
     if all.len() > 1 {
         return Err(grid::several_spectra_error(file, &all));
     }
@@ -233,8 +242,16 @@ pub fn file_bytes_into(path: &std::path::Path, bytes: &mut Vec<u8>) -> Result<()
 }
 
 pub fn sha256_hex(bytes: &[u8]) -> String {
+    const HEX: &[u8; 16] = b"0123456789abcdef";
     let d = Sha256::digest(bytes);
-    d.iter().map(|b| format!("{b:02x}")).collect()
+    // Two hex digits a byte, written straight into the string (a `format!` per byte cost
+    // more than a tenth of the hash itself).
+    let mut s = String::with_capacity(2 * d.len());
+    for b in d {
+        s.push(char::from(HEX[usize::from(b >> 4)]));
+        s.push(char::from(HEX[usize::from(b & 0xf)]));
+    }
+    s
 }
 
 /// The text of a file: UTF-8 where it is (borrowed, not copied), UTF-16 where a byte-order mark
@@ -277,9 +294,14 @@ pub(crate) fn spectrum_error(file: &str, line: Option<usize>, reason: &str) -> E
 /// Checks shared by every reader: finite values, enough points, strictly monotonic x.
 pub(crate) fn validate_xy(file: &str, x: &[f64], y: &[f64], lines: Option<&[usize]>) -> Result<()> {
     let line_of = |i: usize| lines.and_then(|l| l.get(i).copied());
-    for (i, (a, b)) in x.iter().zip(y).enumerate() {
-        if !a.is_finite() || !b.is_finite() {
-            return Err(spectrum_error(file, line_of(i), "NaN or infinite value"));
+    // One look at every value first (a loop without an early exit, which the compiler runs
+    // several values at a time); the first bad point is looked for only when there is one.
+    let n = x.len().min(y.len());
+    if !x[..n].iter().chain(&y[..n]).fold(true, |ok, v| ok & v.is_finite()) {
+        for (i, (a, b)) in x.iter().zip(y).enumerate() {
+            if !a.is_finite() || !b.is_finite() {
+                return Err(spectrum_error(file, line_of(i), "NaN or infinite value"));
+            }
         }
     }
     if x.len() < MIN_POINTS {
@@ -329,24 +351,36 @@ impl RawSpectrum {
             )
         })?;
         let n = self.x.len().min(self.y.len());
-        let mut nm: Vec<f64> = self.x[..n].iter().map(|&x| unit.to_nm(x)).collect();
-        if nm.iter().any(|v| !v.is_finite() || *v <= 0.0) {
+        let mut nm: Vec<f64> = match unit {
+            // nm to nm is the identity: the values as they are.
+            XUnit::Nanometre => self.x[..n].to_vec(),
+            _ => self.x[..n].iter().map(|&x| unit.to_nm(x)).collect(),
+        };
+        if !nm.iter().fold(true, |ok, v| ok & (v.is_finite() && *v > 0.0)) {
             return Err(spectrum_error(file, None, "x values convert to no positive wavelength"));
         }
         // The points in a stable sort by wavelength. Files are in order one way or the other,
         // so the sort is mostly not needed: strictly ascending stays as it is, strictly
-        // descending (no ties) is exactly reversed; anything else is sorted.
-        let mut stated_y = self.y[..n].to_vec();
+        // descending (no ties) is exactly reversed; anything else is sorted. The y conversion
+        // is point by point (and what it reads of the values, whether any exceeds 1.5, does not
+        // depend on their order), so it is done before the reordering, on the stated values.
         let strictly = |o: std::cmp::Ordering| nm.windows(2).all(|w| w[0].total_cmp(&w[1]) == o);
-        if strictly(std::cmp::Ordering::Greater) {
+        let stated_y = &self.y[..n];
+        let y_unit = self.y_unit.as_deref();
+        let y = if strictly(std::cmp::Ordering::Less) {
+            quantity::y_as_analysed(y_unit, stated_y)
+        } else if strictly(std::cmp::Ordering::Greater) {
             nm.reverse();
-            stated_y.reverse();
-        } else if !strictly(std::cmp::Ordering::Less) {
+            let mut y = quantity::y_as_analysed(y_unit, stated_y);
+            y.reverse();
+            y
+        } else {
             let mut pts: Vec<(f64, f64)> = nm.iter().copied().zip(stated_y.iter().copied()).collect();
             pts.sort_by(|a, b| a.0.total_cmp(&b.0));
             nm = pts.iter().map(|p| p.0).collect();
-            stated_y = pts.iter().map(|p| p.1).collect();
-        }
+            let sorted_y: Vec<f64> = pts.iter().map(|p| p.1).collect();
+            quantity::y_as_analysed(y_unit, &sorted_y)
+        };
         let lo = nm[0];
         let hi = nm[nm.len() - 1];
         if lo < PLAUSIBLE_NM.0 || hi > PLAUSIBLE_NM.1 || (hi - lo) < 5.0 {
@@ -359,7 +393,6 @@ impl RawSpectrum {
                 ),
             ));
         }
-        let y = quantity::y_as_analysed(self.y_unit.as_deref(), &stated_y);
         Ok(Trace { nm, y })
     }
 }

@@ -262,12 +262,13 @@ fn stated_from(y_unit: Option<&str>, y: &[f64]) -> Stated {
             label: None,
         };
     };
-    let over_one = y.iter().any(|v| *v > 1.5);
+    // Asked only of a transmittance or reflectance label that does not say per cent.
+    let over_one = || y.iter().any(|v| *v > 1.5);
     let (quantity, kind_hint) = match parse_label(label) {
         None => (YQuantity::Unknown, None),
         Some((Parsed::Known(q), h)) => (q, h),
         Some((Parsed::Transmittance { percent }, h)) => (
-            if percent || over_one {
+            if percent || over_one() {
                 YQuantity::TransmittancePercent
             } else {
                 YQuantity::TransmittanceFraction
@@ -275,7 +276,7 @@ fn stated_from(y_unit: Option<&str>, y: &[f64]) -> Stated {
             h,
         ),
         Some((Parsed::Reflectance { percent }, h)) => (
-            if percent || over_one {
+            if percent || over_one() {
                 YQuantity::ReflectancePercent
             } else {
                 YQuantity::ReflectanceFraction
@@ -313,7 +314,12 @@ pub fn to_absorbance(quantity: YQuantity, value: f64) -> f64 {
 /// `RawSpectrum::to_trace` uses this, so analysis and the door convert alike.
 pub fn y_as_analysed(y_unit: Option<&str>, y: &[f64]) -> Vec<f64> {
     let q = stated_from(y_unit, y).quantity;
-    y.iter().map(|&v| to_absorbance(q, v)).collect()
+    if q.is_optical() {
+        y.iter().map(|&v| to_absorbance(q, v)).collect()
+    } else {
+        // Every other quantity passes `to_absorbance` unchanged.
+        y.to_vec()
+    }
 }
 
 /// What the door decided.
