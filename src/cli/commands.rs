@@ -774,6 +774,27 @@ fn print_batch(v: &Value) -> Result<()> {
             j["tolerance_nm"].as_f64().unwrap_or(f64::NAN)
         ))?;
     }
+    for r in g["reassigned"].as_array().into_iter().flatten() {
+        line(&format!(
+            "  ~ aliquot {}: first exciton reassigned {:.1} -> {:.1} nm: the series grows through {:.1}-{:.1} nm there and a feature at {:.1} nm stands on its own (`explain {}` keeps the first reading)",
+            r["aliquot_id"],
+            r["as_read_nm"].as_f64().unwrap_or(f64::NAN),
+            r["first_exciton_nm"].as_f64().unwrap_or(f64::NAN),
+            r["expected_lo_nm"].as_f64().unwrap_or(f64::NAN),
+            r["expected_hi_nm"].as_f64().unwrap_or(f64::NAN),
+            r["first_exciton_nm"].as_f64().unwrap_or(f64::NAN),
+            r["aliquot_id"],
+        ))?;
+    }
+    for r in g["unsupported"].as_array().into_iter().flatten() {
+        line(&format!(
+            "  ! aliquot {}: first exciton {:.1} nm lies outside the {:.1}-{:.1} nm its neighbours give, and no feature there stands on its own: kept as read; check it",
+            r["aliquot_id"],
+            r["as_read_nm"].as_f64().unwrap_or(f64::NAN),
+            r["expected_lo_nm"].as_f64().unwrap_or(f64::NAN),
+            r["expected_hi_nm"].as_f64().unwrap_or(f64::NAN),
+        ))?;
+    }
     let ry = &v["reaction_yield"];
     if let Some(f) = ry["yield_fraction"].as_f64() {
         line(&format!(

@@ -4,8 +4,15 @@
 //! stored hash differs from the hash its inputs give now is stale. `recompute` streams the
 //! aliquots, recomputes only stale values (or all, when asked), keeps superseded values as
 //! history and, in a dry run, writes nothing.
+//!
+//! One value looks beyond its aliquot: a growth series may give an aliquot a second look at its
+//! first exciton (see [`super::series`]). The range it is looked at in is stored with the
+//! aliquot's stage-one values (`series_expected_lo_nm`/`_hi_nm`), so recomputing it needs only
+//! the aliquot's own rows; [`series_pass`], run after any aliquot of a batch is (re)derived and
+//! after a recompute, keeps those ranges in step with the neighbours' readings.
 
 use super::calibration::{self, Calibration};
+use super::series::{self, SecondLook, SeriesHint, SeriesPoint};
 use super::{extinction, qy, sizing, solvents};
 use crate::error::Result;
 use crate::spectra::HC_EV_NM;
@@ -234,6 +241,13 @@ pub const SPECTRAL: &[&str] = &[
     "pl_fwhm_nm",
     "pl_fwhm_mev",
     "pl_integral",
+    // The growth series' second look (see `series`): the range the neighbours give and, where
+    // the first exciton was reassigned, the reading as first made.
+    "series_expected_lo_nm",
+    "series_expected_hi_nm",
+    "first_exciton_as_read_nm",
+    "hwhm_as_read_nm",
+    "shoulder_as_read",
 ];
 
 /// The hash of what stage one depends on: the spectra and the analysis settings.
@@ -312,6 +326,74 @@ pub fn absorbance_values_with(
     hint: &crate::spectra::band_edge::BandEdgeHint,
 ) -> Result<(Vec<Derived>, AbsResult)> {
     let r = analysis::analyze_absorbance_with(t, &cal.analysis, hint)?;
+    Ok((absorbance_rows(t, &r, cal), r))
+}
+
+/// Stage one of an aliquot's absorbance trace, knowing what its growth series expects: with a
+/// `hint` the spectrum gets a second look inside the range (see [`series::second_look`]); a
+/// transition there that stands on its own becomes the reading, with the first one kept as
+/// `first_exciton_as_read_nm`, `hwhm_as_read_nm` and `shoulder_as_read`; else the first reading
+/// stays, with a warning. Either way the range is stored (`series_expected_lo_nm`/`_hi_nm`),
+/// so a recompute repeats the same second look.
+pub fn series_absorbance_values(
+    t: &Trace,
+    cal: &Calibration,
+    core: &str,
+    hint: Option<&SeriesHint>,
+) -> Result<(Vec<Derived>, AbsResult)> {
+    let (mut v, first) = absorbance_values(t, cal)?;
+    let Some(h) = hint else {
+        return Ok((v, first));
+    };
+    let range = |v: &mut Vec<Derived>| {
+        v.push(d("series_expected_lo_nm", Some(h.lo_nm), "nm", &h.basis, vec![]));
+        v.push(d("series_expected_hi_nm", Some(h.hi_nm), "nm", &h.basis, vec![]));
+    };
+    match series::second_look(t, &cal.analysis, &band_edge_hint(core, cal), &first, h)? {
+        SecondLook::Unsupported(w) => {
+            if let Some(f) = v.iter_mut().find(|x| x.quantity == "first_exciton_nm") {
+                f.warnings.insert(0, w);
+            }
+            range(&mut v);
+            Ok((v, first))
+        }
+        SecondLook::Reassigned(r) => {
+            let mut v = absorbance_rows(t, &r, cal);
+            let as_read = "the reading as first made, before the growth series reassigned the first exciton";
+            v.push(d(
+                "first_exciton_as_read_nm",
+                first.first_exciton_nm,
+                "nm",
+                as_read,
+                first.warnings.clone(),
+            ));
+            v.push(d("hwhm_as_read_nm", first.hwhm_nm, "nm", as_read, vec![]));
+            v.push(d(
+                "shoulder_as_read",
+                first.first_exciton_nm.map(|_| if first.shoulder { 1.0 } else { 0.0 }),
+                "flag",
+                as_read,
+                vec![],
+            ));
+            range(&mut v);
+            Ok((v, *r))
+        }
+    }
+}
+
+/// The range a stored second look used, to repeat it (the method holds its basis).
+pub fn stored_series_hint(values: &[StoredValue]) -> Option<SeriesHint> {
+    let lo = values.iter().find(|v| v.quantity == "series_expected_lo_nm")?;
+    let hi = values.iter().find(|v| v.quantity == "series_expected_hi_nm")?;
+    Some(SeriesHint {
+        lo_nm: lo.value?,
+        hi_nm: hi.value?,
+        basis: lo.method.clone(),
+    })
+}
+
+/// The stage-one rows of one absorbance analysis.
+fn absorbance_rows(t: &Trace, r: &AbsResult, cal: &Calibration) -> Vec<Derived> {
     let m = peak_method(cal);
     let width = "the first transition's own half width at half maximum (fitted in energy)";
     let v = vec![
@@ -360,10 +442,10 @@ pub fn absorbance_values_with(
             "interpolated at 400 nm",
             vec![],
         ),
-        corrected_at(t, &r, 400.0, "abs_400nm_corrected"),
-        corrected_at(t, &r, 350.0, "abs_350nm_corrected"),
+        corrected_at(t, r, 400.0, "abs_400nm_corrected"),
+        corrected_at(t, r, 350.0, "abs_350nm_corrected"),
     ];
-    Ok((v, r))
+    v
 }
 
 /// The absorbance at `nm` with the analysis's fitted scattering background taken off.
@@ -426,6 +508,17 @@ pub fn find_value<'a>(values: &'a [Derived], quantity: &str) -> Option<&'a Deriv
 
 /// Stage one: analyses the spectra. Pure.
 pub fn analyse(spectra: &[SpectrumRow], cal: &Calibration) -> (Vec<Derived>, Option<AbsResult>, Option<PlResult>) {
+    analyse_in_series(spectra, cal, "", None)
+}
+
+/// Stage one knowing what the aliquot's growth series expects of its first exciton (see
+/// [`series_absorbance_values`]). Pure.
+pub fn analyse_in_series(
+    spectra: &[SpectrumRow],
+    cal: &Calibration,
+    core: &str,
+    hint: Option<&SeriesHint>,
+) -> (Vec<Derived>, Option<AbsResult>, Option<PlResult>) {
     let mut out = Vec::new();
     let set = &cal.analysis;
     let peak_method = peak_method(cal);
@@ -434,7 +527,7 @@ pub fn analyse(spectra: &[SpectrumRow], cal: &Calibration) -> (Vec<Derived>, Opt
     let mut abs_res = None;
     let mut abs_trace = None;
     if let Some(s) = abs_spec {
-        match trace_of(s).and_then(|t| absorbance_values(&t, cal).map(|(v, r)| (t, v, r))) {
+        match trace_of(s).and_then(|t| series_absorbance_values(&t, cal, core, hint).map(|(v, r)| (t, v, r))) {
             Err(e) => out.push(d("first_exciton_nm", None, "nm", &peak_method, vec![e.to_string()])),
             Ok((t, v, r)) => {
                 out.extend(v);
@@ -867,7 +960,20 @@ pub fn compute(
     cal: &Calibration,
     ctx: &BatchContext,
 ) -> Computation {
-    let (mut values, absorbance, pl) = analyse(spectra, cal);
+    compute_in_series(a, core, spectra, cal, ctx, None)
+}
+
+/// As [`compute`], with the range the aliquot's growth series expects (stored with its values
+/// by [`series_pass`]). Pure.
+pub fn compute_in_series(
+    a: &AliquotRow,
+    core: &str,
+    spectra: &[SpectrumRow],
+    cal: &Calibration,
+    ctx: &BatchContext,
+    hint: Option<&SeriesHint>,
+) -> Computation {
+    let (mut values, absorbance, pl) = analyse_in_series(spectra, cal, core, hint);
     let metas: Vec<SpectrumMeta> = spectra.iter().map(SpectrumMeta::from).collect();
     let (more, sizing, extinction) = derive_values(a, core, &metas, &values, cal, ctx);
     values.extend(more);
@@ -1116,8 +1222,29 @@ fn count_changes(new: &[Derived], old: &[StoredValue]) -> usize {
     n
 }
 
-/// Derives (or re-derives) one aliquot now, inside the caller's transaction.
+/// Derives (or re-derives) one aliquot now, inside the caller's transaction, then looks at its
+/// growth series again: its reading can move its neighbours' second looks (see [`series_pass`]).
 pub fn derive_aliquot(tx: &Connection, aliquot_id: i64) -> Result<Vec<Derived>> {
+    let old = current_values(tx, aliquot_id)?;
+    let values = derive_aliquot_with(tx, aliquot_id, stored_series_hint(&old).as_ref())?;
+    let a = crate::store::model::get_aliquot(tx, aliquot_id)?;
+    if series_pass(tx, a.batch_id)? > 0 {
+        return Ok(current_values(tx, aliquot_id)?
+            .into_iter()
+            .map(|o| Derived {
+                quantity: o.quantity,
+                value: o.value,
+                unit: o.unit,
+                method: o.method,
+                warnings: o.warnings,
+            })
+            .collect());
+    }
+    Ok(values)
+}
+
+/// Derives one aliquot with the range its growth series gives (None: no second look).
+fn derive_aliquot_with(tx: &Connection, aliquot_id: i64, hint: Option<&SeriesHint>) -> Result<Vec<Derived>> {
     let a = crate::store::model::get_aliquot(tx, aliquot_id)?;
     let batch = crate::store::model::get_batch(tx, a.batch_id)?;
     let version = effective_calibration_version(tx, a.batch_id)?;
@@ -1127,11 +1254,85 @@ pub fn derive_aliquot(tx: &Connection, aliquot_id: i64) -> Result<Vec<Derived>> 
     let ctx = batch_context(tx, a.batch_id)?;
     let hash = inputs_hash(&a, &batch.core, &metas, &cal, &ctx);
     let stage1 = analysis_hash(&metas, &cal);
-    let comp = compute(&a, &batch.core, &spectra, &cal, &ctx);
+    let comp = compute_in_series(&a, &batch.core, &spectra, &cal, &ctx, hint);
     let old = current_values(tx, aliquot_id)?;
     apply(tx, aliquot_id, version, &stage1, &hash, &comp.values, &old)?;
     follow_parent_cores(tx, Some(a.batch_id))?;
     Ok(comp.values)
+}
+
+/// Gives every aliquot of a batch the second look its growth series calls for, and takes it
+/// away where the series no longer does. The ranges come from the readings as first made, so
+/// the pass does not depend on the order aliquots were derived in, and a second pass finds
+/// nothing to do. Runs inside the caller's transaction after any aliquot of the batch is
+/// (re)derived; each aliquot it derives again is recorded in the audit log. Returns how many.
+pub fn series_pass(tx: &Connection, batch_id: i64) -> Result<usize> {
+    let aliquots = crate::store::model::all_aliquots_of(tx, batch_id)?;
+    let mut points = Vec::new();
+    let mut stored: Vec<(i64, Option<SeriesHint>)> = Vec::new();
+    for a in &aliquots {
+        let vals = current_values(tx, a.id)?;
+        if vals.is_empty() {
+            continue;
+        }
+        let get = |q: &str| vals.iter().find(|v| v.quantity == q).and_then(|v| v.value);
+        let as_read = get("first_exciton_as_read_nm");
+        let (nm, hwhm, shoulder) = match as_read {
+            Some(nm) => (Some(nm), get("hwhm_as_read_nm"), get("shoulder_as_read")),
+            None => (get("first_exciton_nm"), get("hwhm_nm"), get("shoulder")),
+        };
+        if let (Some(minutes), Some(nm), false) = (a.minutes, nm, a.voided) {
+            points.push(SeriesPoint {
+                aliquot_id: a.id,
+                minutes,
+                first_exciton_nm: nm,
+                hwhm_nm: hwhm,
+                shoulder: shoulder.map(|f| f > 0.5),
+            });
+        }
+        stored.push((a.id, stored_series_hint(&vals)));
+    }
+    let wanted = series::expected_ranges(&points);
+    let mut n = 0;
+    for (id, had) in stored {
+        let want = wanted.iter().find(|w| w.0 == id).map(|w| &w.1);
+        let unchanged = match (&had, want) {
+            (None, None) => true,
+            (Some(h), Some(w)) => {
+                same(Some(h.lo_nm), Some(w.lo_nm)) && same(Some(h.hi_nm), Some(w.hi_nm)) && h.basis == w.basis
+            }
+            _ => false,
+        };
+        if unchanged {
+            continue;
+        }
+        derive_aliquot_with(tx, id, want)?;
+        let now = current_values(tx, id)?;
+        let get = |q: &str| now.iter().find(|v| v.quantity == q).and_then(|v| v.value);
+        crate::store::audit(
+            tx,
+            "cuvette (growth series)",
+            "derived_value",
+            Some(id),
+            match (want, get("first_exciton_as_read_nm")) {
+                (None, _) => "series look withdrawn",
+                (Some(_), Some(_)) => "series reassign",
+                (Some(_), None) => "series flag",
+            },
+            had.as_ref()
+                .map(|h| serde_json::json!({"expected_lo_nm": h.lo_nm, "expected_hi_nm": h.hi_nm}))
+                .as_ref(),
+            Some(&serde_json::json!({
+                "expected_lo_nm": want.map(|w| w.lo_nm),
+                "expected_hi_nm": want.map(|w| w.hi_nm),
+                "basis": want.map(|w| w.basis.clone()),
+                "first_exciton_nm": get("first_exciton_nm"),
+                "first_exciton_as_read_nm": get("first_exciton_as_read_nm"),
+            })),
+        )?;
+        n += 1;
+    }
+    Ok(n)
 }
 
 /// Aliquots of shelled batches take their core's size from their parent batch's product: when
@@ -1391,6 +1592,8 @@ pub fn recompute(
     let thresholds = search_thresholds(conn)?;
     let products = product_aliquots(conn)?;
     let mut moves: Vec<Move> = Vec::new();
+    // Batches with a value that moved: their growth series is looked at again afterwards.
+    let mut touched: std::collections::BTreeSet<i64> = std::collections::BTreeSet::new();
     let mut scan = Scanner::new(conn)?;
     let mut done = 0usize;
     while let Some(chunk) = scan.next_chunk(conn)? {
@@ -1493,7 +1696,8 @@ pub fn recompute(
         let computed: Vec<Vec<Derived>> = crate::par::parallel_map(&todo, workers, |&i| {
             let w = &work[i];
             let ctx = contexts.get(&w.a.batch_id).cloned().unwrap_or_default();
-            compute(&w.a, &w.core, &w.spectra, &cals[&w.version], &ctx).values
+            let hint = stored_series_hint(&w.old);
+            compute_in_series(&w.a, &w.core, &w.spectra, &cals[&w.version], &ctx, hint.as_ref()).values
         });
         for (i, v) in todo.into_iter().zip(computed) {
             work[i].values = Some(v);
@@ -1526,6 +1730,7 @@ pub fn recompute(
             };
             report.changed += n_changed;
             if n_changed > 0 {
+                touched.insert(a.batch_id);
                 for v in &comp.values {
                     let o = old.iter().find(|o| o.quantity == v.quantity).and_then(|o| o.value);
                     if same(o, v.value) {
@@ -1575,6 +1780,18 @@ pub fn recompute(
     moves.truncate(10);
     report.largest_moves = moves;
     if !dry_run {
+        // Second looks follow the readings they rest on. With `all`, every batch is looked at,
+        // so a lab whose values predate series awareness gets its second looks.
+        if all {
+            let mut st = conn.prepare("SELECT id FROM batch ORDER BY id")?;
+            let ids = st.query_map([], |r| r.get::<_, i64>(0))?;
+            for id in ids {
+                touched.insert(id?);
+            }
+        }
+        for b in touched {
+            report.changed += series_pass(conn, b)?;
+        }
         // Shelled batches computed before their parent's product moved in this pass follow it.
         report.changed += follow_parent_cores(conn, None)?;
     }
@@ -1904,7 +2121,7 @@ pub fn verify_values(conn: &Connection, deep: bool) -> Result<(usize, Vec<Proble
         let ctx = batch_context(conn, a.batch_id)?;
         let hash = inputs_hash(&a, &core, &metas, cal, &ctx);
         let stage1 = analysis_hash(&metas, cal);
-        let comp = compute(&a, &core, &spectra, cal, &ctx);
+        let comp = compute_in_series(&a, &core, &spectra, cal, &ctx, stored_series_hint(&old).as_ref());
         for o in old.iter().filter(|o| !o.stale && o.calibration_version == version) {
             if o.inputs_hash != expected_hash(&o.quantity, &stage1, &hash) {
                 problems.push(Problem::new(

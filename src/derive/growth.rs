@@ -32,6 +32,12 @@ pub struct AliquotSummary {
     pub pl_integral: Option<f64>,
     pub stokes_shift_mev: Option<f64>,
     pub qy: Option<f64>,
+    /// The first exciton as first read, where the growth series reassigned it (see
+    /// [`super::series`]); `first_exciton_nm` is then the reassigned reading.
+    pub first_exciton_as_read_nm: Option<f64>,
+    /// The range (nm) the aliquot's neighbours put its first exciton in, where its own reading
+    /// fell outside it.
+    pub series_expected_nm: Option<(f64, f64)>,
     /// The sizing curve id behind `diameter_nm`.
     pub curve: Option<String>,
     /// The calibration version behind `diameter_nm` (or the newest of the values).
@@ -87,6 +93,13 @@ pub fn aliquot_summary(conn: &Connection, a: &model::AliquotRow) -> Result<Aliqu
             "pl_integral" => s.pl_integral = x,
             "stokes_shift_mev" => s.stokes_shift_mev = x,
             "qy" => s.qy = x,
+            "first_exciton_as_read_nm" => s.first_exciton_as_read_nm = x,
+            "series_expected_lo_nm" => {
+                s.series_expected_nm = x.map(|lo| (lo, s.series_expected_nm.map_or(f64::NAN, |r| r.1)))
+            }
+            "series_expected_hi_nm" => {
+                s.series_expected_nm = x.map(|hi| (s.series_expected_nm.map_or(f64::NAN, |r| r.0), hi))
+            }
             _ => {}
         }
         s.stale |= v.stale;
@@ -133,6 +146,25 @@ pub struct Growth {
     /// readings' uncertainty: the crystals did not shrink; one of the two is misread (a
     /// shoulder taken for a peak, a dilution error) and is worth a look.
     pub jumps: Vec<Jump>,
+    /// Aliquots whose first exciton the series reassigned: the reading as first made, the one
+    /// that replaced it and the range the neighbours gave.
+    pub reassigned: Vec<Reassigned>,
+    /// Aliquots read outside the range their neighbours give with nothing there to take
+    /// instead: kept as read, worth a look.
+    pub unsupported: Vec<Reassigned>,
+}
+
+/// A first exciton the growth series looked at twice.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct Reassigned {
+    pub aliquot_id: i64,
+    pub minutes: Option<f64>,
+    /// The reading as first made.
+    pub as_read_nm: Option<f64>,
+    /// The reading now used (the same as `as_read_nm` when unsupported).
+    pub first_exciton_nm: Option<f64>,
+    pub expected_lo_nm: f64,
+    pub expected_hi_nm: f64,
 }
 
 /// A first exciton that moved against the growth direction.
@@ -149,9 +181,13 @@ pub struct Jump {
 /// One reading's uncertainty of the first exciton (nm): a tenth of its half width, at least
 /// 1 nm, doubled for a shoulder (common practice for a fitted centre on real spectra; the
 /// fit's own standard deviation is usually smaller and too optimistic on real lineshapes).
-fn first_exciton_uncertainty_nm(a: &AliquotSummary) -> f64 {
-    let base = a.hwhm_nm.map(|h| 0.1 * h).unwrap_or(2.0).max(1.0);
-    if a.shoulder == Some(true) { 2.0 * base } else { base }
+pub(crate) fn first_exciton_uncertainty_nm(hwhm_nm: Option<f64>, shoulder: Option<bool>) -> f64 {
+    let base = hwhm_nm.map(|h| 0.1 * h).unwrap_or(2.0).max(1.0);
+    if shoulder == Some(true) { 2.0 * base } else { base }
+}
+
+fn uncertainty_of(a: &AliquotSummary) -> f64 {
+    first_exciton_uncertainty_nm(a.hwhm_nm, a.shoulder)
 }
 
 /// First excitons that step blue against the growth by more than their uncertainty.
@@ -168,7 +204,7 @@ pub fn growth_jumps(timed: &[&AliquotSummary]) -> Vec<Jump> {
         let (Some(pa), Some(pb), Some(t)) = (a.first_exciton_nm, b.first_exciton_nm, b.minutes) else {
             continue;
         };
-        let tol = 2.0 * first_exciton_uncertainty_nm(a).hypot(first_exciton_uncertainty_nm(b));
+        let tol = 2.0 * uncertainty_of(a).hypot(uncertainty_of(b));
         if pb < pa - tol {
             out.push(Jump {
                 aliquot_id: b.id,
@@ -245,7 +281,27 @@ pub fn growth(series: &[AliquotSummary]) -> Growth {
         mixed_calibrations: mixed,
         stale,
         jumps: growth_jumps(&timed),
+        reassigned: second_looks(&timed, true),
+        unsupported: second_looks(&timed, false),
     }
+}
+
+/// The aliquots the series looked at twice: those reassigned (`reassigned`) or kept as read.
+fn second_looks(timed: &[&AliquotSummary], reassigned: bool) -> Vec<Reassigned> {
+    timed
+        .iter()
+        .filter_map(|a| {
+            let (lo, hi) = a.series_expected_nm?;
+            (a.first_exciton_as_read_nm.is_some() == reassigned).then(|| Reassigned {
+                aliquot_id: a.id,
+                minutes: a.minutes,
+                as_read_nm: a.first_exciton_as_read_nm.or(a.first_exciton_nm),
+                first_exciton_nm: a.first_exciton_nm,
+                expected_lo_nm: lo,
+                expected_hi_nm: hi,
+            })
+        })
+        .collect()
 }
 
 /// The product aliquot of a batch: the one marked, else the last of the growth series, else

@@ -117,6 +117,11 @@ pub fn explain(conn: &Connection, aliquot_id: i64) -> Result<Value> {
     };
     let order = [
         "first_exciton_nm",
+        "first_exciton_as_read_nm",
+        "hwhm_as_read_nm",
+        "shoulder_as_read",
+        "series_expected_lo_nm",
+        "series_expected_hi_nm",
         "first_exciton_abs",
         "shoulder",
         "hwhm_nm",
