@@ -1129,12 +1129,12 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
     };
     let (p1, c1, j1) = levenberg_marquardt(&win, p, lo, hi, &mut sc);
     let mut best = judge(&p1, c1, &j1).map(|sd| (p1.clone(), c1, sd));
-    // A second transition that vanished or ran out of the window (where no data hold it), or
-    // a fit that failed its checks, is often a local minimum: start once more from the
-    // derivative's first transition with the second where it commonly is (0.12 eV or 2.5 σ
-    // above), and keep the better believed fit.
+    // A second transition that vanished, or one that ran out of the window (where no data
+    // hold it) leaving more than noise behind, or a fit that failed its checks, is often a
+    // local minimum: start once more from the derivative's first transition with the second
+    // where it commonly is (0.12 eV or 2.5 σ above), and keep the better believed fit.
     let collapsed = p1[G + 3] < 0.02 * p1[G] || p1[G + 5] <= MIN_SIGMA_EV * 1.0001;
-    let escaped = p1[G + 4] > hi + 0.5 * p1[G + 5];
+    let escaped = p1[G + 4] > hi + 0.5 * p1[G + 5] && c1 / dof > 4.0;
     if collapsed || escaped || best.is_none() {
         let mut again = start.clone();
         again.truncate(G + 6);
