@@ -797,6 +797,9 @@ pub enum CalibCmd {
         smoothing_order: Option<usize>,
         #[arg(long)]
         saturation_abs: Option<f64>,
+        /// Flag size dispersions (σ/D) above this many per cent as implausible (default 20).
+        #[arg(long)]
+        plausible_dispersion_pct: Option<f64>,
         #[arg(long)]
         why: String,
         #[arg(long)]

@@ -1812,6 +1812,15 @@ fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
             if v.body.homogeneous_hwhm_mev.is_empty() {
                 line("  homogeneous HWHM: off (size dispersions hold the whole width)")?;
             }
+            line(&format!(
+                "  plausible size dispersion: up to {} % σ/D{} (above it a value is flagged)",
+                v.body.plausible_dispersion_pct(),
+                if v.body.plausible_dispersion_pct.is_none() {
+                    ", the default"
+                } else {
+                    ""
+                }
+            ))?;
             for (core, h) in &v.body.homogeneous_hwhm_mev {
                 line(&format!(
                     "  homogeneous HWHM: {core} {h} meV (taken out of the first-exciton width in quadrature)"
@@ -1900,11 +1909,16 @@ fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
             smoothing_nm,
             smoothing_order,
             saturation_abs,
+            plausible_dispersion_pct,
             why,
             json: j,
         } => {
             let (a, b, c2) = (*smoothing_nm, *smoothing_order, *saturation_abs);
+            let pd = *plausible_dispersion_pct;
             change(&mut store, why, *j, &|_, body| {
+                if let Some(v) = pd {
+                    body.plausible_dispersion_pct = Some(v);
+                }
                 if let Some(v) = a {
                     body.analysis.smoothing_nm = v;
                 }

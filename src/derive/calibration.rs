@@ -81,7 +81,16 @@ pub struct Calibration {
     /// point through the origin, with a warning.
     #[serde(default)]
     pub qy_reference_dilutions: Vec<QyDilution>,
+    /// The size dispersion (σ/D, %) above which a value is flagged as implausible; None: the
+    /// built-in [`DEFAULT_PLAUSIBLE_DISPERSION_PCT`].
+    #[serde(default)]
+    pub plausible_dispersion_pct: Option<f64>,
 }
+
+/// σ/D above which a hot-injection product is flagged: such syntheses commonly give 5-15 %,
+/// and a reading above 20 % more often comes from a misread width (a shoulder, overlap,
+/// scattering) than from the crystals (common practice).
+pub const DEFAULT_PLAUSIBLE_DISPERSION_PCT: f64 = 20.0;
 
 /// One dilution of a gradient-method series.
 #[derive(Debug, Clone, Copy, Serialize, Deserialize, PartialEq)]
@@ -117,6 +126,7 @@ impl Default for Calibration {
             lab_extinction: BTreeMap::new(),
             homogeneous_hwhm_mev: BTreeMap::new(),
             qy_reference_dilutions: Vec::new(),
+            plausible_dispersion_pct: None,
         }
     }
 }
@@ -135,6 +145,12 @@ fn lab_peak_span(c: &LabCurve) -> Option<(f64, f64)> {
 }
 
 impl Calibration {
+    /// σ/D (%) above which a size dispersion is flagged.
+    pub fn plausible_dispersion_pct(&self) -> f64 {
+        self.plausible_dispersion_pct
+            .unwrap_or(DEFAULT_PLAUSIBLE_DISPERSION_PCT)
+    }
+
     /// The homogeneous HWHM (eV) to take out of a core's width, if the lab set one.
     pub fn homogeneous_hwhm_ev(&self, core: &str) -> Option<f64> {
         self.homogeneous_hwhm_mev
@@ -332,6 +348,13 @@ impl Calibration {
             if d.factor.iter().any(|f| !(*f > 0.0) || !f.is_finite()) {
                 return invalid("detector correction factors must be positive");
             }
+        }
+        if let Some(p) = self.plausible_dispersion_pct
+            && !(p.is_finite() && p > 0.0 && p <= 100.0)
+        {
+            return invalid(format!(
+                "the plausible size dispersion must be above 0 and at most 100 %, got {p}"
+            ));
         }
         for (core, h) in &self.homogeneous_hwhm_mev {
             if !(h.is_finite() && *h > 0.0 && *h < 500.0) {

@@ -61,6 +61,9 @@ fn relevant(cal: &Calibration, core: &str, solvent: &str, has_pl: bool) -> serde
     if let Some(h) = cal.homogeneous_hwhm_ev(core) {
         v["homogeneous_hwhm_ev"] = serde_json::json!(h);
     }
+    if let Some(p) = cal.plausible_dispersion_pct {
+        v["plausible_dispersion_pct"] = serde_json::json!(p);
+    }
     if has_pl {
         v["qy_reference"] = serde_json::to_value(&cal.qy_reference).unwrap_or_default();
         v["detector"] = serde_json::to_value(&cal.detector_correction).unwrap_or_default();
@@ -772,7 +775,7 @@ pub fn derive_values(
             Some(mev),
             "meV",
             "first exciton minus PL peak",
-            vec![],
+            stokes_shift_warnings(mev),
         ));
     }
     if let (Some(pl), Some(integral)) = (pl_meta, value_of(stage1, "pl_integral")) {
@@ -941,14 +944,44 @@ fn dispersion_value(
     };
     let size_at = |l: f64| cal.size(curve, core, l).ok().map(|s| s.diameter_nm);
     match sizing::size_dispersion(peak, hwhm_ev, hom, &size_at) {
-        Ok(disp) => d(
-            "size_dispersion_pct",
-            Some(disp.sigma_over_d_pct),
-            "%",
-            &method,
-            disp.warnings,
-        ),
+        Ok(disp) => {
+            let mut warnings = disp.warnings;
+            let plausible = cal.plausible_dispersion_pct();
+            if disp.sigma_over_d_pct > plausible {
+                warnings.push(format!(
+                    "σ/D {:.1} % is above the {plausible:.0} % this lab takes as plausible: the first transition's width may be misread (a shoulder, overlapping transitions, scattering), or the batch is very polydisperse",
+                    disp.sigma_over_d_pct
+                ));
+            }
+            d(
+                "size_dispersion_pct",
+                Some(disp.sigma_over_d_pct),
+                "%",
+                &method,
+                warnings,
+            )
+        }
         Err(e) => d("size_dispersion_pct", None, "%", &method, vec![e.to_string()]),
+    }
+}
+
+/// Band-edge emission of these crystals sits a few to about 150 meV red of the first exciton
+/// (common practice; larger for the smallest lead-chalcogenide crystals): a PL peak bluer than
+/// the absorption, or far redder, means one of the two readings is likely wrong.
+const STOKES_SHIFT_FLOOR_MEV: f64 = -15.0;
+const STOKES_SHIFT_CEILING_MEV: f64 = 250.0;
+
+fn stokes_shift_warnings(mev: f64) -> Vec<String> {
+    if mev < STOKES_SHIFT_FLOOR_MEV {
+        vec![format!(
+            "negative Stokes shift ({mev:.0} meV): the PL peak is bluer than the first exciton, so one of the two readings is likely wrong"
+        )]
+    } else if mev > STOKES_SHIFT_CEILING_MEV {
+        vec![format!(
+            "Stokes shift of {mev:.0} meV is far larger than band-edge emission commonly shows (up to about 150 meV): trap emission read as the band edge, or a misread first exciton"
+        )]
+    } else {
+        vec![]
     }
 }
 
