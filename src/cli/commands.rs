@@ -2158,7 +2158,12 @@ fn explain(cli: &Cli, a: &ExplainArgs) -> Result<()> {
             line(&format!("  {:<20} source: {src}", ""))?;
         }
         // A value's warnings belong beside it: a chemist reading the chain must see them.
-        for w in step["warnings"].as_array().into_iter().flatten().filter_map(|w| w.as_str()) {
+        for w in step["warnings"]
+            .as_array()
+            .into_iter()
+            .flatten()
+            .filter_map(|w| w.as_str())
+        {
             line(&format!("  {:<20} ! {w}", ""))?;
         }
     }
