@@ -260,11 +260,22 @@ pub fn analysis_hash(spectra: &[SpectrumMeta], cal: &Calibration) -> String {
 }
 
 fn analysis_part(cal: &Calibration, has_pl: bool) -> String {
-    let mut s = serde_json::json!({"analysis": cal.analysis}).to_string();
+    let mut s = serde_json::json!({"analysis": cal.analysis, "method": analysis::METHOD_VERSION}).to_string();
     if has_pl {
         s.push_str(&serde_json::to_string(&cal.detector_correction).unwrap_or_default());
     }
     s
+}
+
+/// The stage-one hash as cuvette computed it before the method had a version: how values
+/// stored by an earlier cuvette are recognised (and told apart from a real inconsistency).
+pub fn analysis_hash_before_method_versions(spectra: &[SpectrumMeta], cal: &Calibration) -> String {
+    let has_pl = spectra.iter().any(|s| s.kind == "pl");
+    let mut s = serde_json::json!({"analysis": cal.analysis}).to_string();
+    if has_pl {
+        s.push_str(&serde_json::to_string(&cal.detector_correction).unwrap_or_default());
+    }
+    analysis_hash_with(spectra, &s)
 }
 
 fn analysis_hash_with(spectra: &[SpectrumMeta], part: &str) -> String {
@@ -2126,6 +2137,7 @@ pub fn verify_values(conn: &Connection, deep: bool) -> Result<(usize, Vec<Proble
     };
     let mut problems = Vec::new();
     let mut checked = 0;
+    let mut earlier_method = 0usize;
     let mut cals: BTreeMap<i64, Calibration> = BTreeMap::new();
     for id in ids.iter().step_by(step) {
         let a = crate::store::model::get_aliquot(conn, *id)?;
@@ -2154,7 +2166,21 @@ pub fn verify_values(conn: &Connection, deep: bool) -> Result<(usize, Vec<Proble
         let ctx = batch_context(conn, a.batch_id)?;
         let hash = inputs_hash(&a, &core, &metas, cal, &ctx);
         let stage1 = analysis_hash(&metas, cal);
+        let stage1_before = analysis_hash_before_method_versions(&metas, cal);
         let comp = compute_in_series(&a, &core, &spectra, cal, &ctx, stored_series_hint(&old).as_ref());
+        // Computed by an earlier analysis method: out of date, not inconsistent; its stage-two
+        // values follow from those spectral values, so none of the aliquot's is compared.
+        let by_earlier_method = old.iter().any(|o| {
+            !o.stale
+                && o.calibration_version == version
+                && SPECTRAL.contains(&o.quantity.as_str())
+                && o.inputs_hash != stage1
+                && o.inputs_hash == stage1_before
+        });
+        if by_earlier_method {
+            earlier_method += 1;
+            continue;
+        }
         for o in old.iter().filter(|o| !o.stale && o.calibration_version == version) {
             if o.inputs_hash != expected_hash(&o.quantity, &stage1, &hash) {
                 problems.push(Problem::new(
@@ -2180,6 +2206,15 @@ pub fn verify_values(conn: &Connection, deep: bool) -> Result<(usize, Vec<Proble
                 ));
             }
         }
+    }
+    if earlier_method > 0 {
+        problems.push(Problem::new(
+            "derived_value",
+            format!(
+                "{earlier_method} aliquot(s) checked hold values an earlier version of cuvette's analysis computed ({} now): run `cuvette recompute` to derive them again",
+                analysis::METHOD_VERSION
+            ),
+        ));
     }
     for row in crate::store::model::derived_vial_concentrations(conn, None)? {
         if row.stale {

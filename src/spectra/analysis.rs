@@ -21,6 +21,13 @@ use serde::{Deserialize, Serialize};
 
 pub use super::pl::{PlResult, analyze_pl};
 
+/// The analysis method's version: it changes whenever the same spectrum under the same
+/// settings would give other numbers (a new band-edge search or fit, a new PL baseline). It
+/// is part of the stage-one inputs hash, so values an earlier cuvette stored read as out of
+/// date, and `recompute` derives them again, instead of silently standing beside numbers the
+/// current method would not give.
+pub const METHOD_VERSION: &str = "2026-12: band edge fitted in energy on quarter-σ bins";
+
 /// Settings that shape the analysis; part of the calibration, so a change is versioned.
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
 pub struct AnalysisSettings {
