@@ -365,7 +365,7 @@ fn broad_band_edges_and_shoulders() {
     let mut rng = Rng(99);
     let (mut within, mut total, mut hw) = (0usize, 0usize, 0usize);
     let mut errs = Vec::new();
-    let mut shoulders = 0;
+    let (mut shoulders, mut shoulders_within) = (0, 0);
     for &snr in &[25.0, 50.0, 100.0, 300.0] {
         for _ in 0..60 {
             let (t, c) = visible_with(&mut rng, snr, (0.14, 0.28), (0.20, 0.35));
@@ -379,9 +379,13 @@ fn broad_band_edges_and_shoulders() {
             let d = (got - HC / c.e1).abs();
             errs.push(d);
             within += (d <= 3.0) as usize;
+            if !c.resolved {
+                shoulders_within += (d <= 3.0) as usize;
+            }
             hw += ((h / (c.sigma1 * 1.177_410_022_5) - 1.0).abs() <= 0.10) as usize;
         }
     }
+    eprintln!("broad, shoulders alone: {shoulders_within} of {shoulders} within 3 nm");
     eprintln!(
         "broad: {shoulders} of {total} shoulders; within 3 nm {:.1} %, HWHM within 10 % {:.1} %, |Δλ| median {:.2} p95 {:.2} nm",
         100.0 * within as f64 / total as f64,
@@ -392,5 +396,12 @@ fn broad_band_edges_and_shoulders() {
     // The targets, as on ordinary widths: 95 % of cases (all at SNR ≥ 25). Reached
     // with little room on the first-exciton rate (about 95.4 %, 229 of 240).
     assert!(within as f64 >= 0.95 * total as f64, "{within}/{total} within 3 nm");
+    // The shoulders on their own: 20 of 25 measured (80 %, below the 95 % target); the misses
+    // are 3.3-4.1 nm on bands of σ ≈ 0.11 eV whose second transition lies within about 2σ,
+    // where the fitted second transition takes up the continuum. A floor against regression.
+    assert!(
+        shoulders_within >= 18,
+        "{shoulders_within}/{shoulders} shoulders within 3 nm"
+    );
     assert!(hw as f64 >= 0.95 * total as f64, "{hw}/{total} HWHM within 10 %");
 }
