@@ -30,6 +30,22 @@ pub fn edit_aliquot(store: &mut Store, id: i64, edit: &AliquotEdit, why: &str) -
     })
 }
 
+/// Corrects a spectrum's own cuvette (path, dilution); its aliquot is recomputed. Returns the
+/// aliquot.
+pub fn set_spectrum_cuvette(
+    store: &mut Store,
+    spectrum: i64,
+    path_cm: Option<f64>,
+    dilution_factor: Option<f64>,
+    why: &str,
+) -> Result<i64> {
+    store.write(|tx, who| {
+        let aliquot = model::set_spectrum_cuvette(tx, who, spectrum, path_cm, dilution_factor, why)?;
+        engine::after_correction(tx, aliquot)?;
+        Ok(aliquot)
+    })
+}
+
 /// Moves a spectrum to another aliquot; both are recomputed. Returns (from, to).
 pub fn move_spectrum(store: &mut Store, spectrum: i64, to_aliquot: i64, why: &str) -> Result<(i64, i64)> {
     store.write(|tx, who| {

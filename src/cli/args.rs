@@ -136,6 +136,21 @@ pub enum SpectrumCmd {
         #[arg(long)]
         json: bool,
     },
+    /// Correct the cuvette a spectrum was measured in (its own path length and dilution, as a
+    /// PL cuvette's); the aliquot's values are recomputed.
+    Cuvette {
+        spectrum: i64,
+        /// Path length of the cuvette, cm.
+        #[arg(long)]
+        path_cm: Option<f64>,
+        /// The factor by which the sample in this cuvette was diluted (1 or more).
+        #[arg(long)]
+        dilution: Option<f64>,
+        #[arg(long)]
+        why: String,
+        #[arg(long)]
+        json: bool,
+    },
 }
 
 #[derive(Debug, Args)]

@@ -244,6 +244,23 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
                 ))?;
             }
         }
+        Cmd::Spectrum(SpectrumCmd::Cuvette {
+            spectrum,
+            path_cm,
+            dilution,
+            why,
+            json: j,
+        }) => {
+            let mut store = open_write(&cli)?;
+            let aliquot = crate::corrections::set_spectrum_cuvette(&mut store, *spectrum, *path_cm, *dilution, why)?;
+            if *j {
+                json(&json!({"spectrum_id": spectrum, "aliquot_id": aliquot}))?;
+            } else {
+                line(&format!(
+                    "spectrum {spectrum}: cuvette corrected; aliquot {aliquot} recomputed"
+                ))?;
+            }
+        }
         Cmd::Whoami(a) => {
             if let Some(n) = &a.set {
                 let p = identity::remember(n)?;

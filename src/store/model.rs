@@ -1850,6 +1850,56 @@ pub fn edit_aliquot(tx: &Connection, who: &str, id: i64, e: &AliquotEdit, why: &
 
 /// Moves a spectrum to another aliquot (of any batch). Returns (from, to) aliquot ids; the
 /// caller re-derives both. An aliquot left without spectra is voided, since it holds nothing.
+/// Corrects the cuvette a spectrum of an aliquot was measured in: its own path length (cm)
+/// and dilution factor. Returns the aliquot, whose values the caller derives again. Audited
+/// with before and after.
+pub fn set_spectrum_cuvette(
+    tx: &Connection,
+    who: &str,
+    spectrum_id: i64,
+    path_cm: Option<f64>,
+    dilution_factor: Option<f64>,
+    why: &str,
+) -> Result<i64> {
+    let why = check_reason(why)?;
+    if path_cm.is_none() && dilution_factor.is_none() {
+        return invalid("nothing to change: give --path-cm or --dilution");
+    }
+    if let Some(p) = path_cm {
+        check_bounded("path length", p, false, 100.0, "cm")?;
+    }
+    if let Some(d) = dilution_factor {
+        check_bounded("dilution factor", d, false, 1e6, "x")?;
+        if d < 1.0 {
+            return invalid(format!(
+                "dilution factor {d} is below 1; it is the factor by which the sample was diluted"
+            ));
+        }
+    }
+    let s = get_spectrum(tx, spectrum_id)?;
+    let Some(aliquot) = s.aliquot_id else {
+        return invalid(format!(
+            "spectrum {spectrum_id} belongs to vial {}, not an aliquot: measure the vial again instead",
+            s.vial_id.unwrap_or(0)
+        ));
+    };
+    let (path, dilution) = (path_cm.or(s.path_cm), dilution_factor.or(s.dilution_factor));
+    tx.execute(
+        "UPDATE spectrum SET path_cm = ?1, dilution_factor = ?2 WHERE id = ?3",
+        params![path, dilution, spectrum_id],
+    )?;
+    audit(
+        tx,
+        who,
+        "spectrum",
+        Some(spectrum_id),
+        "cuvette",
+        Some(&json!({"path_cm": s.path_cm, "dilution_factor": s.dilution_factor})),
+        Some(&json!({"path_cm": path, "dilution_factor": dilution, "why": why})),
+    )?;
+    Ok(aliquot)
+}
+
 pub fn move_spectrum(tx: &Connection, who: &str, spectrum_id: i64, to_aliquot: i64, why: &str) -> Result<(i64, i64)> {
     let why = check_reason(why)?;
     let s = get_spectrum(tx, spectrum_id)?;
