@@ -39,8 +39,14 @@ pub fn set_spectrum_cuvette(
     dilution_factor: Option<f64>,
     why: &str,
 ) -> Result<i64> {
+    // The bounds a PL cuvette is held to when it is logged.
+    let c = crate::bench::OwnCuvette {
+        path_cm,
+        dilution_factor,
+    }
+    .checked("--path-cm", "--dilution")?;
     store.write(|tx, who| {
-        let aliquot = model::set_spectrum_cuvette(tx, who, spectrum, path_cm, dilution_factor, why)?;
+        let aliquot = model::set_spectrum_cuvette(tx, who, spectrum, c.path_cm, c.dilution_factor, why)?;
         engine::after_correction(tx, aliquot)?;
         Ok(aliquot)
     })

@@ -118,7 +118,7 @@ fn a_pl_cuvettes_dilution_corrected_moves_its_absorbance_and_quantum_yield_as_be
     lab.refuses(&["spectrum", "cuvette", &sp, "--why", "x"], "nothing to change");
     lab.refuses(
         &["spectrum", "cuvette", &sp, "--dilution", "0.5", "--why", "x"],
-        "below 1",
+        "a dilution factor of 1 or more",
     );
     lab.refuses(
         &["spectrum", "cuvette", &sp, "--path-cm", "0", "--why", "x"],
@@ -126,7 +126,7 @@ fn a_pl_cuvettes_dilution_corrected_moves_its_absorbance_and_quantum_yield_as_be
     );
     lab.refuses(
         &["spectrum", "cuvette", &sp, "--path-cm", "500", "--why", "x"],
-        "path length",
+        "at most 100 cm",
     );
     lab.refuses(&["spectrum", "cuvette", "999", "--path-cm", "1", "--why", "x"], "999");
     assert_eq!(chain_number(&lab, a, "qy"), qy2, "a refused correction changes nothing");

@@ -260,7 +260,17 @@ pub fn analysis_hash(spectra: &[SpectrumMeta], cal: &Calibration) -> String {
 }
 
 fn analysis_part(cal: &Calibration, has_pl: bool) -> String {
-    let mut s = serde_json::json!({"analysis": cal.analysis, "method": analysis::METHOD_VERSION}).to_string();
+    analysis_part_with(cal, has_pl, Some(analysis::METHOD_VERSION))
+}
+
+/// What stage one depends on besides the spectra; `method` None is the form from before the
+/// analysis method had a version.
+fn analysis_part_with(cal: &Calibration, has_pl: bool, method: Option<&str>) -> String {
+    let mut v = serde_json::json!({"analysis": cal.analysis});
+    if let Some(m) = method {
+        v["method"] = serde_json::json!(m);
+    }
+    let mut s = v.to_string();
     if has_pl {
         s.push_str(&serde_json::to_string(&cal.detector_correction).unwrap_or_default());
     }
@@ -271,11 +281,7 @@ fn analysis_part(cal: &Calibration, has_pl: bool) -> String {
 /// stored by an earlier cuvette are recognised (and told apart from a real inconsistency).
 pub fn analysis_hash_before_method_versions(spectra: &[SpectrumMeta], cal: &Calibration) -> String {
     let has_pl = spectra.iter().any(|s| s.kind == "pl");
-    let mut s = serde_json::json!({"analysis": cal.analysis}).to_string();
-    if has_pl {
-        s.push_str(&serde_json::to_string(&cal.detector_correction).unwrap_or_default());
-    }
-    analysis_hash_with(spectra, &s)
+    analysis_hash_with(spectra, &analysis_part_with(cal, has_pl, None))
 }
 
 fn analysis_hash_with(spectra: &[SpectrumMeta], part: &str) -> String {

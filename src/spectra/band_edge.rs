@@ -805,19 +805,9 @@ struct Scratch {
 fn normal_equations(win: &Window, p: &[f64], jtj: &mut [f64], jtr: &mut [f64], sc: &mut Scratch) -> f64 {
     let np = p.len();
     let m = win.len();
-    win.columns(p, &mut sc.cols);
+    let chi2 = residuals(win, p, sc);
     sc.jac.resize(np * m, 0.0);
-    sc.res.resize(m, 0.0);
-    let (jac, res, cols) = (&mut sc.jac, &mut sc.res, &sc.cols);
-    // The model and residual first.
-    for (i, r) in res.iter_mut().enumerate() {
-        let mut v = p[0] + p[1] * (win.e(i) - win.e_ref);
-        for k in 0..(np - G) / 3 {
-            v += p[G + 3 * k] * cols[k * m + i];
-        }
-        *r = v - win.y[i];
-    }
-    let chi2: f64 = res.iter().zip(win.w).map(|(r, w)| w * r * r).sum();
+    let (jac, res, cols) = (&mut sc.jac, &sc.res, &sc.cols);
     {
         let (c0, rest) = jac.split_at_mut(m);
         let (c1, rest) = rest.split_at_mut(m);
@@ -874,19 +864,20 @@ fn dot3(a: &[f64], w: &[f64], b: &[f64]) -> f64 {
     (s[0] + s[1]) + (s[2] + s[3]) + tail
 }
 
-fn chi2_of(win: &Window, p: &[f64], sc: &mut Scratch) -> f64 {
+/// The model minus the data at every point of the window (into `sc.res`, with the Gaussian
+/// columns in `sc.cols`); returns the weighted χ².
+fn residuals(win: &Window, p: &[f64], sc: &mut Scratch) -> f64 {
     let m = win.len();
     win.columns(p, &mut sc.cols);
-    (0..m)
-        .map(|i| {
-            let mut v = p[0] + p[1] * (win.e(i) - win.e_ref);
-            for k in 0..(p.len() - G) / 3 {
-                v += p[G + 3 * k] * sc.cols[k * m + i];
-            }
-            let r = v - win.y[i];
-            win.w[i] * r * r
-        })
-        .sum()
+    sc.res.resize(m, 0.0);
+    for (i, r) in sc.res.iter_mut().enumerate() {
+        let mut v = p[0] + p[1] * (win.e(i) - win.e_ref);
+        for k in 0..(p.len() - G) / 3 {
+            v += p[G + 3 * k] * sc.cols[k * m + i];
+        }
+        *r = v - win.y[i];
+    }
+    sc.res.iter().zip(win.w).map(|(r, w)| w * r * r).sum()
 }
 
 /// Keeps parameters physical: positive heights, widths in the excitonic range, the first
@@ -976,7 +967,7 @@ fn levenberg_marquardt(win: &Window, mut p: Vec<f64>, lo: f64, hi: f64, sc: &mut
             *t = p0 + d;
         }
         constrain(&mut trial, lo, hi);
-        let c2 = chi2_of(win, &trial, sc);
+        let c2 = residuals(win, &trial, sc);
         if c2 < chi2 {
             // Converged when χ² falls by less than a hundredth of one standard deviation's
             // worth (Δχ² = 1 bounds a parameter's 1σ range; scaled by the reduced χ² where the
@@ -1156,13 +1147,8 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
     // area is kept.
     let bin_var = win.step_ev * win.step_ev / 12.0;
     let unbinned = |sigma: f64| (sigma * sigma - bin_var).max(0.25 * sigma * sigma).sqrt();
-    let rms = (y
-        .iter()
-        .enumerate()
-        .map(|(i, y)| (model(&p, first.e_ev, win.e(i)) - y).powi(2))
-        .sum::<f64>()
-        / m as f64)
-        .sqrt();
+    residuals(&win, &p, &mut sc);
+    let rms = (sc.res.iter().map(|r| r * r).sum::<f64>() / m as f64).sqrt();
     let mean_noise = w.iter().map(|w| 1.0 / w.sqrt()).sum::<f64>() / m as f64;
     let over = if mean_noise > 0.0 {
         rms / mean_noise

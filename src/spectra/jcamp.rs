@@ -86,7 +86,7 @@ impl Block {
 }
 
 /// Labels compare without case, spaces, dashes, slashes or underscores (the standard's rule).
-fn normalise_label(l: &str) -> String {
+pub(crate) fn normalise_label(l: &str) -> String {
     l.chars()
         .filter(|c| !matches!(c, ' ' | '-' | '/' | '_' | '\t'))
         .flat_map(char::to_uppercase)

@@ -166,13 +166,8 @@ fn looks_jcamp(text: &str) -> bool {
         let Some((label, _)) = rest.split_once('=') else {
             return false;
         };
-        // Labels compare without case, spaces, dashes, slashes or underscores (as the standard says).
-        let squashed: String = label
-            .chars()
-            .filter(|c| !matches!(c, ' ' | '-' | '/' | '_'))
-            .flat_map(char::to_uppercase)
-            .collect();
-        squashed == "TITLE" || squashed == "JCAMPDX"
+        let label = jcamp::normalise_label(label);
+        label == "TITLE" || label == "JCAMPDX"
     })
 }
 

@@ -1851,8 +1851,8 @@ pub fn edit_aliquot(tx: &Connection, who: &str, id: i64, e: &AliquotEdit, why: &
 /// Moves a spectrum to another aliquot (of any batch). Returns (from, to) aliquot ids; the
 /// caller re-derives both. An aliquot left without spectra is voided, since it holds nothing.
 /// Corrects the cuvette a spectrum of an aliquot was measured in: its own path length (cm)
-/// and dilution factor. Returns the aliquot, whose values the caller derives again. Audited
-/// with before and after.
+/// and dilution factor, already checked by the caller (`bench::OwnCuvette::checked`). Returns
+/// the aliquot, whose values the caller derives again. Audited with before and after.
 pub fn set_spectrum_cuvette(
     tx: &Connection,
     who: &str,
@@ -1864,17 +1864,6 @@ pub fn set_spectrum_cuvette(
     let why = check_reason(why)?;
     if path_cm.is_none() && dilution_factor.is_none() {
         return invalid("nothing to change: give --path-cm or --dilution");
-    }
-    if let Some(p) = path_cm {
-        check_bounded("path length", p, false, 100.0, "cm")?;
-    }
-    if let Some(d) = dilution_factor {
-        check_bounded("dilution factor", d, false, 1e6, "x")?;
-        if d < 1.0 {
-            return invalid(format!(
-                "dilution factor {d} is below 1; it is the factor by which the sample was diluted"
-            ));
-        }
     }
     let s = get_spectrum(tx, spectrum_id)?;
     let Some(aliquot) = s.aliquot_id else {
