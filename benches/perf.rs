@@ -158,7 +158,7 @@ fn search(c: &mut Criterion) {
     let path = lab(10000);
     let st = Store::open(&path, "bench").expect("open");
     let facts = cuvette::search::load_facts(&st.conn).expect("facts");
-    let q = cuvette::search::parse("CdSe size:3..3.5 qy>30% stock").expect("parse");
+    let q = cuvette::search::parse("CdSe size 3 to 3.5 qy > 30% stock").expect("parse");
     let words = cuvette::search::parse("Halloway oleylamine").expect("parse");
     let mut g = c.benchmark_group("search 10,000 batches");
     g.bench_function("filters", |b| b.iter(|| cuvette::search::filter(black_box(&facts), &q)));

@@ -158,7 +158,7 @@ fn text_output_shows_escapes_as_visible_harmless_characters() {
         &["location", "list"],
         &["log", "--limit", "50"],
         &["explain", "1"],
-        &["find", "material:CdSe"],
+        &["find", "material CdSe"],
     ] {
         let o = lab.ok(args);
         assert_clean_text(&o.stdout, &format!("{args:?}"));
@@ -545,7 +545,7 @@ fn demo_keeps_a_demo_lab_that_holds_real_work_unless_forced() {
     lab.ok(&["demo", "--no-ui"]);
     // Reading, listing and searching a demo lab is not work: it can be rebuilt freely.
     lab.ok(&["batch", "list", "--json"]);
-    lab.ok(&["find", "material:CdSe"]);
+    lab.ok(&["find", "material CdSe"]);
     lab.ok(&["demo", "--no-ui"]);
     // One real aliquot logged into the demo lab.
     let f = lab.abs_file("mine.csv", 550.0);

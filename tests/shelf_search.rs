@@ -55,24 +55,24 @@ fn prod(b: &Value, k: &str) -> Option<f64> {
 
 #[test]
 fn ranges_comparisons_and_fields_give_exact_sets() {
-    let set = found("material:CdSe size:2.9..3.2");
+    let set = found("material CdSe size 2.9 to 3.2");
     assert_eq!(
         set,
         expect(|b| b["material"] == "CdSe" && prod(b, "diameter_nm").is_some_and(|d| (2.9..=3.2).contains(&d)))
     );
     assert!(!set.is_empty(), "the demo lab has CdSe near 3 nm");
-    assert_eq!(found("qy>50%"), expect(|b| prod(b, "qy").is_some_and(|q| q > 0.5)));
-    assert_eq!(found("qy>0.5"), found("qy>50%"));
+    assert_eq!(found("qy > 50%"), expect(|b| prod(b, "qy").is_some_and(|q| q > 0.5)));
+    assert_eq!(found("qy>0.5"), found("qy > 50%"));
     assert_eq!(
-        found("peak:..560 pl>530"),
+        found("peak <= 560 pl>530"),
         expect(|b| prod(b, "first_exciton_nm").is_some_and(|p| p <= 560.0)
             && prod(b, "pl_peak_nm").is_some_and(|p| p > 530.0))
     );
-    assert_eq!(found("status:failed"), expect(|b| b["status"] == "failed"));
-    assert_eq!(found("by:wren"), expect(|b| b["operator"] == "Wren Halloway"));
+    assert_eq!(found("status failed"), expect(|b| b["status"] == "failed"));
+    assert_eq!(found("by wren"), expect(|b| b["operator"] == "Wren Halloway"));
     assert_eq!(found("stock"), expect(|b| b["stock_ml"].as_f64().unwrap() > 0.0));
     assert_eq!(
-        found("at:freezer"),
+        found("at freezer"),
         expect(|b| b["vials"]
             .as_array()
             .unwrap()
@@ -80,14 +80,14 @@ fn ranges_comparisons_and_fields_give_exact_sets() {
             .any(|v| v["status"] != "disposed" && v["location"] == "Freezer F1"))
     );
     assert_eq!(
-        found("date:2026-06-01..2026-06-30"),
+        found("date 2026-06-01 to 2026-06-30"),
         expect(|b| {
             let d = &b["started_at"].as_str().unwrap()[..10];
             ("2026-06-01"..="2026-06-30").contains(&d)
         })
     );
     assert_eq!(
-        found("material:PbS size>=4"),
+        found("material PbS size>=4"),
         expect(|b| b["material"] == "PbS" && prod(b, "diameter_nm").is_some_and(|d| d >= 4.0))
     );
 }
@@ -101,9 +101,9 @@ fn range_edges_are_inclusive_and_comparisons_strict() {
         .unwrap();
     let id = b["id"].as_i64().unwrap();
     let d = prod(b, "diameter_nm").unwrap();
-    assert!(found(&format!("size:{d}..")).contains(&id));
-    assert!(found(&format!("size:..{d}")).contains(&id));
-    assert!(found(&format!("size:{d}..{d}")).contains(&id));
+    assert!(found(&format!("size {d} to {d}")).contains(&id));
+    assert!(found(&format!("size {d}-{d}")).contains(&id));
+    assert!(found(&format!("size <= {d}")).contains(&id));
     assert!(found(&format!("size>={d}")).contains(&id));
     assert!(!found(&format!("size>{d}")).contains(&id));
     assert!(!found(&format!("size<{d}")).contains(&id));
@@ -120,7 +120,7 @@ fn fuzzy_words_forgive_typos_and_a_query_can_match_nothing() {
         amine,
         expect(|b| b["recipe"].as_str().is_some_and(|r| r.contains("ZnS shell")))
     );
-    assert!(found("material:CdSe size>50").is_empty());
+    assert!(found("material CdSe size>50").is_empty());
     assert!(found("zzyzx").is_empty());
     let o = demo().lab.ok(&["find", "zzyzx"]);
     assert!(o.stdout.contains("no batches match"));
@@ -149,15 +149,18 @@ fn bad_queries_name_the_column_and_change_nothing() {
     lab.ok(&["init"]);
     lab.refuses(
         &["find", "CdSe size>abc"],
-        "query error at column 11: expected a number for size, got 'abc'",
+        "query error at column 11: expected a number for size, got `abc`",
     );
     lab.refuses(
-        &["find", "colour:red"],
-        "query error at column 1: unknown field 'colour'",
+        &["find", "size:3.5..4"],
+        "query error at column 1: `size:3.5..4` is the old form; write `size 3.5 to 4`",
     );
-    lab.refuses(&["find", "size:.."], "expected a number on at least one side of '..'");
-    lab.refuses(&["find", "status:cooking"], "unknown status 'cooking'");
-    lab.refuses(&["find", "date:2026-02-30"], "expected a date YYYY-MM-DD");
+    lab.refuses(
+        &["find", "size 4 to 3"],
+        "query error at column 6: the range 4 to 3 is empty",
+    );
+    lab.refuses(&["find", "status cooking"], "unknown status 'cooking'");
+    lab.refuses(&["find", "date 2026-02-30"], "expected a date YYYY-MM-DD");
     lab.refuses(&["find", "\"open quote"], "never closed");
 }
 

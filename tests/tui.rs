@@ -80,7 +80,7 @@ fn every_view_renders_its_content_at_80x24() {
 fn live_search_filters_and_reports_errors_in_place() {
     let (_lab, mut app) = demo_app();
     press(&mut app, KeyCode::Char('/'));
-    typ(&mut app, "material:PbS");
+    typ(&mut app, "material PbS");
     let s = screen(&app);
     assert!(s.contains("of 25 batches") && s.contains("PS-"), "{s}");
     assert!(!s.contains("CS-2605"), "{s}");

@@ -154,7 +154,7 @@ pub fn load_facts(conn: &Connection) -> Result<Vec<Facts>> {
     for f in &facts {
         let mut t: Vec<u32> = f
             .haystack
-            .split(|c: char| !c.is_alphanumeric() && c != '-' && c != '/')
+            .split(|c: char| !is_word_char(c))
             .filter(|w| !w.is_empty())
             .map(|w| {
                 *ids.entry(w.to_string()).or_insert_with(|| {
@@ -173,6 +173,11 @@ pub fn load_facts(conn: &Connection) -> Result<Vec<Facts>> {
         f.table = table.clone();
     }
     Ok(facts)
+}
+
+/// The characters of a word of a batch's text; any other splits the text into words.
+fn is_word_char(c: char) -> bool {
+    c.is_alphanumeric() || c == '-' || c == '/'
 }
 
 fn within(v: Option<f64>, lo: Option<f64>, hi: Option<f64>, strict_lo: bool, strict_hi: bool) -> bool {
@@ -319,8 +324,9 @@ pub fn filter(facts: &[Facts], q: &Query) -> Vec<Hit> {
         }
         let mut score = 0;
         for (w, scores) in words.iter().zip(&word_scores) {
-            // A quoted phrase is matched against the whole text.
-            let best = if w.contains(' ') {
+            // A phrase, or a word holding a character that splits the text into words (`12:30`,
+            // `3.5`, `CdSe:Mn`), can match no single word: it is matched against the whole text.
+            let best = if w.contains(|c: char| !is_word_char(c)) {
                 f.haystack.contains(w).then_some(1000 + 10 * w.len() as i64)
             } else {
                 f.tokens

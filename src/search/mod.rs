@@ -1,38 +1,38 @@
-//! Finding past batches. A small query language of our own:
+//! Finding past batches. A small query language of our own, read like a lab-notebook phrase:
+//! a field word, then its condition.
 //!
 //! ```text
-//! CdSe oleylamine            free words, matched fuzzily against name, recipe, notes,
-//!                            operator and material (typos of a letter or two are forgiven)
-//! material:CdSe by:ada       field equals value (case does not matter)
-//! size:3.5..4  peak:..560    inclusive ranges; either end may be left open
-//! qy>50%  size>=3  pl<620    comparisons; qy takes a fraction or a per cent
-//! date:2026-03-01..2026-03-31  at:fridge  status:done  stock
+//! CdSe oleylamine "ZnS shell"    free words and phrases, matched fuzzily against name, recipe,
+//!                                notes, operator and material (a typo or two is forgiven)
+//! material CdSe  by Halloway     a field and its value (case does not matter)
+//! size 3.5 to 4   pl 610-630     inclusive ranges
+//! qy >= 50%  size>3.2  conc < 2 uM   comparisons; units converted (nm, %, M to pM)
+//! date 2026-06-01 to 2026-06-30  at fridge  status done  stock
 //! ```
 //! Filters narrow; the fuzzy score ranks. Values are each batch's product values (the marked
 //! product aliquot, else the last of the growth series), current (not superseded) ones only.
-//! A parse error names the 1-based column where the query goes wrong and what was expected.
+//! A parse error names the 1-based column where the query goes wrong and what was expected;
+//! [`describe`] tells a parsed query back in words.
 
+mod describe;
 mod eval;
 mod parse;
 
+pub use describe::describe;
 pub use eval::{Facts, Hit, filter, load_facts, run};
-pub use parse::{Clause, Cmp, Field, Query, parse};
+pub use parse::{Clause, Cmp, FIELD_NAMES, Field, MAX_FREE_WORDS, MAX_QUERY_CHARS, MAX_WORD_CHARS, Query, parse};
 
 use crate::error::Result;
 use rusqlite::{Connection, params};
 
 /// Stores the numeric bounds of a query so that recompute previews can name crossings.
 pub fn record_thresholds(tx: &Connection, q: &Query) -> Result<()> {
-    for c in &q.clauses {
-        if let Clause::Numeric { field, lo, hi, .. } = c {
-            for v in [lo, hi].into_iter().flatten() {
-                tx.execute(
-                    "INSERT INTO search_threshold (field, value, last_used) VALUES (?1, ?2, ?3)
-                     ON CONFLICT(field, value) DO UPDATE SET uses = uses + 1, last_used = excluded.last_used",
-                    params![field.name(), v, crate::store::now()],
-                )?;
-            }
-        }
+    for (field, v) in bounds_of(q) {
+        tx.execute(
+            "INSERT INTO search_threshold (field, value, last_used) VALUES (?1, ?2, ?3)
+             ON CONFLICT(field, value) DO UPDATE SET uses = uses + 1, last_used = excluded.last_used",
+            params![field, v, crate::store::now()],
+        )?;
     }
     Ok(())
 }
