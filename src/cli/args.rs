@@ -929,7 +929,9 @@ pub struct FindArgs {
     /// written), a range (`size 3.5-4`, `size 3.5 to 4`) or a comparison (`size > 3.2`,
     /// `qy>=45%`); a text field takes a word or a "quoted phrase" (`by "Wren Halloway"`);
     /// dates take `to` for a range (`date 2026-06-01 to 2026-06-30`). `stock`: has volume
-    /// left. Quote a field word to search for it as text. The README has the whole language.
+    /// left. Quote a field word to search for it as text. Give the whole query in single
+    /// quotes so that its own double quotes reach cuvette: 'by "Wren Halloway" stock'. The
+    /// README has the whole language.
     #[arg(num_args = 0..)]
     pub query: Vec<String>,
     #[arg(long)]
