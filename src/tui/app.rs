@@ -610,7 +610,7 @@ impl App {
                 "  aliquot {} (batch {}) {}: {} → {}",
                 m.aliquot_id,
                 m.batch_id,
-                units::words(&m.quantity),
+                units::quantity_name(&m.quantity),
                 units::quantity(&m.quantity, m.old),
                 units::quantity(&m.quantity, m.new)
             ));

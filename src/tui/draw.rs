@@ -604,7 +604,7 @@ fn draw_calibrations(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
                     "  aliquot {} (batch {}) {} {} → {}{}",
                     m.aliquot_id,
                     m.batch_id,
-                    units::words(&m.quantity),
+                    units::quantity_name(&m.quantity),
                     units::quantity(&m.quantity, m.old),
                     units::quantity(&m.quantity, m.new),
                     m.relative_change
@@ -796,7 +796,7 @@ fn draw_form(f: &mut Frame, app: &App, form: &super::app::Form, p: &Palette) {
     let full = f.area();
     // Wide terminals give long values (folders, file paths) room; never wider than 100.
     let width = full.width.saturating_sub(4).clamp(full.width.min(70), 100);
-    let area = centred(full, width, form.fields.len() as u16 + 4);
+    let area = centred(full, width, form.fields.len() as u16 + 3);
     f.render_widget(Clear, area);
     let room = (area.width as usize).saturating_sub(2 + 16).max(4);
     let mut lines: Vec<Line> = form
@@ -827,7 +827,10 @@ fn draw_form(f: &mut Frame, app: &App, form: &super::app::Form, p: &Palette) {
 fn draw_confirm(f: &mut Frame, app: &App, c: &super::app::Confirm, p: &Palette) {
     let full = f.area();
     let width = full.width.min(96);
-    let area = centred(full, width, (c.lines.len() as u16 + 5).min(full.height));
+    // Room for every line as wrapped, so the answer keys at the bottom are never cut off.
+    let inner_w = width.saturating_sub(2).max(1) as usize;
+    let rows: usize = c.lines.iter().map(|l| l.chars().count().div_ceil(inner_w).max(1)).sum();
+    let area = centred(full, width, (rows as u16 + 4).min(full.height));
     f.render_widget(Clear, area);
     let mut lines: Vec<Line> = c.lines.iter().map(|l| Line::from(l.clone())).collect();
     lines.push(Line::from(""));

@@ -563,7 +563,12 @@ pub fn describe(k: &Key) -> String {
         KeyCode::Char(c) => c.to_string(),
         _ => "?".to_string(),
     };
-    if k.ctrl { format!("Ctrl-{base}") } else { base }
+    // Terminals send Ctrl-a and Ctrl-A alike; keyboards and manuals print the capital.
+    if k.ctrl {
+        format!("Ctrl-{}", base.to_uppercase())
+    } else {
+        base
+    }
 }
 
 /// The largest key overrides file read; the full table is well under a kilobyte.

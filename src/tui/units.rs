@@ -48,6 +48,16 @@ pub fn words(code: &str) -> String {
     code.replace('_', " ")
 }
 
+/// A stored quantity's name without its unit suffix, as words: `concentration_molar` is
+/// "concentration", `first_exciton_nm` "first exciton" (the value carries the unit).
+pub fn quantity_name(name: &str) -> String {
+    let bare = ["_molar", "_nm", "_pct"]
+        .iter()
+        .find_map(|u| name.strip_suffix(u))
+        .unwrap_or(name);
+    words(bare)
+}
+
 /// A value of a recompute's move, in the unit people read it in: concentrations in µM,
 /// lengths in nm, percentages with %, anything else to 3 significant figures.
 pub fn quantity(name: &str, v: Option<f64>) -> String {
@@ -119,6 +129,9 @@ mod tests {
         assert_eq!(words("in_use"), "in use");
         assert_eq!(quantity("concentration_molar", Some(2.5e-6)), "2.50 µM");
         assert_eq!(quantity("diameter_nm", Some(3.456)), "3.46 nm");
+        assert_eq!(quantity_name("concentration_molar"), "concentration");
+        assert_eq!(quantity_name("first_exciton_nm"), "first exciton");
+        assert_eq!(quantity_name("qy"), "qy");
     }
 
     #[test]
