@@ -1042,6 +1042,9 @@ fn the_ui_voids_reinstates_and_corrects_an_aliquot() {
     );
     typ(&mut app, "a PL export");
     press(&mut app, KeyCode::Enter);
+    // Voiding asks first, with what will change.
+    assert!(screen_at(&app, 80, 24).contains("Void aliquot"));
+    press(&mut app, KeyCode::Enter);
     assert!(app.message.as_ref().is_some_and(|m| !m.0), "{:?}", app.message);
     assert_eq!(
         scalar(
@@ -1133,6 +1136,9 @@ fn the_ui_shows_stale_at_every_width_and_audits_its_recompute() {
     }
     press(&mut app, KeyCode::Char('3'));
     press(&mut app, KeyCode::Char('A'));
+    wait_idle(&mut app);
+    // A previews first and asks; y recomputes.
+    press(&mut app, KeyCode::Char('y'));
     wait_idle(&mut app);
     let log = lab.ok(&["log", "--json", "--limit", "1"]).json();
     assert_eq!(log[0]["action"], "recompute", "{log}");
@@ -1359,7 +1365,7 @@ fn the_ui_follows_others_writes_and_closes_a_sheet_the_restore_removed() {
     app.check_lab();
     assert_eq!(
         app.view,
-        cuvette::tui::app::View::Ledger,
+        cuvette::tui::app::View::Batches,
         "the sheet of a batch the lab no longer has closes"
     );
     assert!(app.sheet.is_none());

@@ -4,6 +4,7 @@
 //! connection and reports back over a channel, so the screen stays responsive.
 
 use super::keys::{Action, KeyMap, Scope};
+use super::units;
 use crate::bench::{self, SpectrumFile};
 use crate::derive::{calibration, engine};
 use crate::report::plot::SeriesItem;
@@ -13,10 +14,12 @@ use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
 use serde_json::Value;
 use std::path::PathBuf;
 use std::sync::mpsc::{Receiver, Sender, channel};
+use std::time::{Duration, Instant};
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum View {
-    Ledger,
+    /// The list of batches (the first view).
+    Batches,
     Sheet,
     Shelf,
     Calibrations,
@@ -42,13 +45,22 @@ pub enum FormKind {
     GoToBatch,
     ReinstateVial,
     MoveSpectrum,
+    Handover,
+}
+
+/// One text field of a form: its label, its text and where the cursor is (a character index).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Field {
+    pub label: String,
+    pub text: String,
+    pub cursor: usize,
 }
 
 #[derive(Debug, Clone)]
 pub struct Form {
     pub kind: FormKind,
     pub title: String,
-    pub fields: Vec<(String, String)>,
+    pub fields: Vec<Field>,
     pub focus: usize,
     /// The aliquot, batch or vial the form acts on, fixed when it opened (named in its title).
     pub target: Option<i64>,
@@ -59,7 +71,14 @@ impl Form {
         Form {
             kind,
             title: title.into(),
-            fields: fields.iter().map(|(a, b)| (a.to_string(), b.to_string())).collect(),
+            fields: fields
+                .iter()
+                .map(|(a, b)| Field {
+                    label: a.to_string(),
+                    text: b.to_string(),
+                    cursor: b.chars().count(),
+                })
+                .collect(),
             focus: 0,
             target: None,
         }
@@ -71,15 +90,136 @@ impl Form {
     fn get(&self, label: &str) -> String {
         self.fields
             .iter()
-            .find(|f| f.0 == label)
-            .map(|f| f.1.trim().to_string())
+            .find(|f| f.label == label)
+            .map(|f| f.text.trim().to_string())
             .unwrap_or_default()
     }
+    fn push(&mut self, label: &str, text: String) {
+        let cursor = text.chars().count();
+        self.fields.push(Field {
+            label: label.into(),
+            text,
+            cursor,
+        });
+    }
+}
+
+/// One change to a line of text being edited.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Edit {
+    Left,
+    Right,
+    Start,
+    End,
+    Back,
+    Forward,
+    KillToStart,
+    WordBack,
+    Insert(char),
+}
+
+fn byte_at(s: &str, chars: usize) -> usize {
+    s.char_indices().nth(chars).map(|(b, _)| b).unwrap_or(s.len())
+}
+
+/// Applies an edit to `text` with its cursor (a character index, kept within the text).
+/// Returns whether the text changed. A word, for Ctrl-W, ends at whitespace, as in a shell.
+pub fn edit_line(text: &mut String, cursor: &mut usize, e: Edit) -> bool {
+    let len = text.chars().count();
+    *cursor = (*cursor).min(len);
+    match e {
+        Edit::Left => *cursor = cursor.saturating_sub(1),
+        Edit::Right => *cursor = (*cursor + 1).min(len),
+        Edit::Start => *cursor = 0,
+        Edit::End => *cursor = len,
+        Edit::Back if *cursor > 0 => {
+            let b = byte_at(text, *cursor - 1);
+            text.remove(b);
+            *cursor -= 1;
+            return true;
+        }
+        Edit::Forward if *cursor < len => {
+            text.remove(byte_at(text, *cursor));
+            return true;
+        }
+        Edit::KillToStart if *cursor > 0 => {
+            text.replace_range(..byte_at(text, *cursor), "");
+            *cursor = 0;
+            return true;
+        }
+        Edit::WordBack if *cursor > 0 => {
+            let before: Vec<char> = text.chars().take(*cursor).collect();
+            let mut i = before.len();
+            while i > 0 && before[i - 1].is_whitespace() {
+                i -= 1;
+            }
+            while i > 0 && !before[i - 1].is_whitespace() {
+                i -= 1;
+            }
+            let (from, to) = (byte_at(text, i), byte_at(text, *cursor));
+            text.replace_range(from..to, "");
+            *cursor = i;
+            return true;
+        }
+        Edit::Insert(c) if !c.is_control() => {
+            text.insert(byte_at(text, *cursor), c);
+            *cursor += 1;
+            return true;
+        }
+        _ => {}
+    }
+    false
+}
+
+/// What a confirmation goes on to do when the user says yes.
+#[derive(Debug, Clone)]
+pub enum Pending {
+    /// Submit this form (dispose, void, handover).
+    Form(Form),
+    /// Repeat this batch as a new one.
+    Repeat(i64),
+    /// Recompute every stale value, as the preview in the summary showed.
+    Recompute,
+}
+
+/// A one-screen summary of what an action will change, asked before it is done.
+#[derive(Debug, Clone)]
+pub struct Confirm {
+    pub title: String,
+    pub lines: Vec<String>,
+    pub then: Pending,
+    opened: Instant,
+}
+
+impl Confirm {
+    fn new(title: impl Into<String>, lines: Vec<String>, then: Pending) -> Confirm {
+        Confirm {
+            title: title.into(),
+            lines,
+            then,
+            opened: Instant::now(),
+        }
+    }
+}
+
+/// How long after a form, the search box or a confirmation closes (or a confirmation opens)
+/// typed letters and Enter are held back rather than acted on: a person still typing into the
+/// form as it closes must not fire the view's keys, nor confirm with a doubled Enter. Long
+/// enough for typing already under way, short enough not to be noticed.
+pub const SETTLE: Duration = Duration::from_millis(400);
+
+/// What the selection should land on once the lists are reloaded after an action.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Follow {
+    Batch(i64),
+    Vial(i64),
 }
 
 /// Choosing export files from a folder.
 #[derive(Debug, Clone, Default)]
 pub struct Picker {
+    /// The batch the chosen files will be logged into.
+    pub batch: Option<i64>,
     pub folder: PathBuf,
     pub files: Vec<PathBuf>,
     pub selected: usize,
@@ -94,6 +234,7 @@ pub enum Mode {
     Help,
     Form(Form),
     Picker(Picker),
+    Confirm(Box<Confirm>),
 }
 
 /// What a worker reports.
@@ -135,6 +276,8 @@ pub struct App {
     pub quit: bool,
     pub facts: Vec<Facts>,
     pub query: String,
+    /// Where the cursor is in the search box (a character index).
+    pub query_cursor: usize,
     pub hits: Vec<Hit>,
     pub query_error: Option<String>,
     pub sort: SortKey,
@@ -149,7 +292,7 @@ pub struct App {
     pub show_disposed: bool,
     /// The aliquot selected in the batch sheet's growth table.
     pub aliquot_selected: usize,
-    /// Batches whose product values or vial concentrations are stale (the ledger marks them).
+    /// Batches whose product values or vial concentrations are stale (the batch list marks them).
     pub stale_batches: std::collections::HashSet<i64>,
     pub calibrations: Vec<calibration::CalibrationVersion>,
     pub preview: Option<engine::RecomputeReport>,
@@ -165,6 +308,22 @@ pub struct App {
     last_lab_check: std::time::Instant,
     /// SQLite's count of commits by others when the UI last read: a change means reload.
     data_version: Option<i64>,
+    /// How long typing is held back after a form closes (see [`SETTLE`]). `App::new` leaves it
+    /// at zero, so a program driving the app key by key gets every key; `tui::run`, which
+    /// serves a person at a keyboard, sets [`SETTLE`].
+    pub settle: Duration,
+    /// When a form, the search box, the picker or a confirmation last closed.
+    closed_at: Option<Instant>,
+    /// Keys held back as a form closed, shown on the status line until the next key.
+    pub held_back: String,
+    /// The help's first line shown.
+    pub help_scroll: usize,
+    /// The terminal's size (columns, rows), for paging the help; the event loop keeps it.
+    pub size: (u16, u16),
+    /// `A` asked for a recompute: the preview running now ends in a confirmation.
+    apply_after_preview: bool,
+    /// The vial the last new-vial form made, for the selection to follow.
+    new_vial: Option<i64>,
 }
 
 fn num(v: Option<f64>, d: usize) -> String {
@@ -179,11 +338,12 @@ impl App {
             store,
             db_path,
             keys,
-            view: View::Ledger,
+            view: View::Batches,
             mode: Mode::Normal,
             quit: false,
             facts: Vec::new(),
             query: String::new(),
+            query_cursor: 0,
             hits: Vec::new(),
             query_error: None,
             sort: SortKey::Id,
@@ -209,6 +369,13 @@ impl App {
             busy: false,
             last_lab_check: std::time::Instant::now(),
             data_version: None,
+            settle: Duration::ZERO,
+            closed_at: None,
+            held_back: String::new(),
+            help_scroll: 0,
+            size: (80, 24),
+            apply_after_preview: false,
+            new_vial: None,
         };
         app.reload();
         app
@@ -252,7 +419,7 @@ impl App {
                         self.sheet = None;
                         self.series.clear();
                         if self.view == View::Sheet {
-                            self.view = View::Ledger;
+                            self.view = View::Batches;
                         }
                     }
                     Err(e) => return Err(e),
@@ -266,7 +433,7 @@ impl App {
         }
     }
 
-    /// Re-filters the ledger from the facts in memory: cheap enough for every keystroke.
+    /// Re-filters the batch list from the facts in memory: cheap enough for every keystroke.
     pub fn refilter(&mut self) {
         match search::parse(&self.query) {
             Ok(q) => {
@@ -322,14 +489,14 @@ impl App {
             .clone();
         let label = a["minutes"]
             .as_f64()
-            .map(|m| format!("{m} min"))
+            .map(|m| format!("{} min", units::minutes(m)))
             .unwrap_or_else(|| a["stage"].as_str().unwrap_or("").to_string());
         Some((a["id"].as_i64()?, label, a["voided"].as_bool() == Some(true)))
     }
 
     pub fn scope(&self) -> Scope {
         match self.view {
-            View::Ledger => Scope::Ledger,
+            View::Batches => Scope::Batches,
             View::Sheet => Scope::Sheet,
             View::Shelf => Scope::Shelf,
             View::Calibrations => Scope::Calibrations,
@@ -353,6 +520,9 @@ impl App {
             Ok(Some(what)) => match self.store.reopen() {
                 Ok(s) => {
                     self.store = s;
+                    if !matches!(self.mode, Mode::Normal | Mode::Help) {
+                        self.closed_at = Some(Instant::now());
+                    }
                     self.mode = Mode::Normal;
                     self.reload();
                     let why = if what.contains("restored") {
@@ -402,10 +572,58 @@ impl App {
                         "preview: {} values would be recomputed, {} would change",
                         r.recomputed, r.changed
                     ));
+                    if std::mem::take(&mut self.apply_after_preview) {
+                        self.ask_to_recompute(&r);
+                    }
                     self.preview = Some(r);
                 }
             }
         }
+    }
+
+    /// Opens the recompute's confirmation from a fresh preview, unless nothing would change or
+    /// the user is busy in a form (then the preview waits on screen for another A).
+    fn ask_to_recompute(&mut self, r: &engine::RecomputeReport) {
+        if r.stale_found == 0 && r.changed == 0 && r.vials_changed == 0 {
+            self.info("nothing is stale: a recompute would change nothing");
+            return;
+        }
+        if !matches!(self.mode, Mode::Normal | Mode::Help) {
+            self.info("preview ready; press A again to recompute");
+            return;
+        }
+        let mut lines = vec![
+            format!(
+                "{} stale aliquots: {} values recomputed, {} of them change",
+                r.stale_found, r.recomputed, r.changed
+            ),
+            format!(
+                "{} of {} vial concentrations change",
+                r.vials_changed, r.vials_considered
+            ),
+        ];
+        if !r.largest_moves.is_empty() {
+            lines.push("largest moves:".into());
+        }
+        for m in r.largest_moves.iter().take(4) {
+            lines.push(format!(
+                "  aliquot {} (batch {}) {}: {} → {}",
+                m.aliquot_id,
+                m.batch_id,
+                units::quantity_name(&m.quantity),
+                units::quantity(&m.quantity, m.old),
+                units::quantity(&m.quantity, m.new)
+            ));
+        }
+        for c in r.threshold_crossings.iter().take(3) {
+            lines.push(format!("  batch {} crosses {} {}", c.batch_id, c.field, c.threshold));
+        }
+        lines.push("The old values stay in the record, superseded; the audit log notes the run.".into());
+        self.mode = Mode::Confirm(Box::new(Confirm::new(
+            "Recompute stale values?",
+            lines,
+            Pending::Recompute,
+        )));
     }
 
     pub fn on_key(&mut self, ev: KeyEvent) {
@@ -413,40 +631,212 @@ impl App {
             self.quit = true;
             return;
         }
+        let was_open = !matches!(self.mode, Mode::Normal | Mode::Help);
         match std::mem::replace(&mut self.mode, Mode::Normal) {
             Mode::Search => self.search_key(ev),
-            Mode::Help => {
-                if !matches!(ev.code, KeyCode::Esc | KeyCode::Char('?') | KeyCode::Char('q')) {
-                    self.mode = Mode::Help;
-                }
-            }
+            Mode::Help => self.help_key(ev),
             Mode::Form(f) => self.form_key(f, ev),
             Mode::Picker(p) => self.picker_key(p, ev),
+            Mode::Confirm(c) => self.confirm_key(*c, ev),
             Mode::Normal => {
+                if self.holds_back(&ev) {
+                    return;
+                }
+                // Any other key means the person is with the view again.
+                self.held_back.clear();
+                self.closed_at = None;
                 if let Some(a) = self.keys.action(&ev, self.scope()) {
                     self.act(a);
                 }
             }
         }
+        // Esc closes on purpose; Enter (or a confirmation's answer) closes where the person may
+        // still be typing, so only then are the next letters held back.
+        if was_open && ev.code != KeyCode::Esc && matches!(self.mode, Mode::Normal | Mode::Help) {
+            self.closed_at = Some(Instant::now());
+        }
+    }
+
+    /// Text pasted into the terminal (bracketed paste): into the field being edited, as typed
+    /// text with line breaks as spaces, so a pasted newline never submits a form.
+    pub fn on_paste(&mut self, text: &str) {
+        let clean = text.replace(['\r', '\n', '\t'], " ");
+        match &mut self.mode {
+            Mode::Form(f) => {
+                if let Some(field) = f.fields.get_mut(f.focus) {
+                    for c in clean.chars() {
+                        edit_line(&mut field.text, &mut field.cursor, Edit::Insert(c));
+                    }
+                }
+            }
+            Mode::Search => {
+                for c in clean.chars() {
+                    edit_line(&mut self.query, &mut self.query_cursor, Edit::Insert(c));
+                }
+                self.selected = 0;
+                self.refilter();
+            }
+            _ => self.error("pasted text goes into a form's field or the search box (/)"),
+        }
+    }
+
+    /// A letter or Enter arriving just after a form closed was typed for the form: it is held
+    /// back (and shown), never taken as a view's key.
+    fn holds_back(&mut self, ev: &KeyEvent) -> bool {
+        let typing = match ev.code {
+            KeyCode::Char(_) => !ev.modifiers.intersects(KeyModifiers::CONTROL | KeyModifiers::ALT),
+            KeyCode::Enter => true,
+            _ => false,
+        };
+        let recent = self.closed_at.is_some_and(|t| t.elapsed() < self.settle);
+        if typing && recent {
+            match ev.code {
+                KeyCode::Char(c) => self.held_back.push(c),
+                _ => self.held_back.push('⏎'),
+            }
+            return true;
+        }
+        false
+    }
+
+    /// The edit a key asks for in a text field: the key table's editing keys, Home and End,
+    /// and any plain character typed. Other keys (an unbound Ctrl-letter) do nothing at all.
+    fn field_edit(&self, ev: &KeyEvent) -> Option<Edit> {
+        if let Some(a) = self.keys.action_in(ev, Scope::Field) {
+            return match a {
+                Action::CursorLeft => Some(Edit::Left),
+                Action::CursorRight => Some(Edit::Right),
+                Action::LineStart => Some(Edit::Start),
+                Action::LineEnd => Some(Edit::End),
+                Action::DeleteBack => Some(Edit::Back),
+                Action::DeleteForward => Some(Edit::Forward),
+                Action::KillToStart => Some(Edit::KillToStart),
+                Action::DeleteWordBack => Some(Edit::WordBack),
+                _ => None,
+            };
+        }
+        match ev.code {
+            KeyCode::Home => Some(Edit::Start),
+            KeyCode::End => Some(Edit::End),
+            KeyCode::Char(c) if !ev.modifiers.intersects(KeyModifiers::CONTROL | KeyModifiers::ALT) => {
+                Some(Edit::Insert(c))
+            }
+            _ => None,
+        }
     }
 
     fn search_key(&mut self, ev: KeyEvent) {
         match ev.code {
-            KeyCode::Esc | KeyCode::Enter => {
-                self.mode = Mode::Normal;
-                return;
-            }
-            KeyCode::Backspace => {
-                self.query.pop();
-            }
-            KeyCode::Char(c) => self.query.push(c),
+            KeyCode::Esc | KeyCode::Enter => return,
             KeyCode::Down => self.selected = (self.selected + 1).min(self.hits.len().saturating_sub(1)),
             KeyCode::Up => self.selected = self.selected.saturating_sub(1),
-            _ => {}
+            _ => {
+                if let Some(e) = self.field_edit(&ev)
+                    && edit_line(&mut self.query, &mut self.query_cursor, e)
+                {
+                    self.selected = 0;
+                    self.refilter();
+                }
+            }
         }
-        self.selected = 0;
-        self.refilter();
         self.mode = Mode::Search;
+    }
+
+    fn help_key(&mut self, ev: KeyEvent) {
+        let page = super::draw::help_page_lines(self.size.0, self.size.1);
+        let total = self.keys.help().len() + super::keys::SCOPES.len();
+        let last = total.saturating_sub(page);
+        match self.keys.action_in(&ev, Scope::Help) {
+            Some(Action::HelpPageDown) => self.help_scroll = (self.help_scroll + page).min(last),
+            Some(Action::HelpPageUp) => self.help_scroll = self.help_scroll.saturating_sub(page),
+            _ => match ev.code {
+                KeyCode::Esc | KeyCode::Char('?') | KeyCode::Char('q') => {
+                    self.help_scroll = 0;
+                    return;
+                }
+                KeyCode::Down | KeyCode::Char('j') => self.help_scroll = (self.help_scroll + 1).min(last),
+                KeyCode::Up | KeyCode::Char('k') => self.help_scroll = self.help_scroll.saturating_sub(1),
+                KeyCode::Char(' ') => self.help_scroll = (self.help_scroll + page).min(last),
+                KeyCode::Home => self.help_scroll = 0,
+                KeyCode::End => self.help_scroll = last,
+                _ => {}
+            },
+        }
+        self.mode = Mode::Help;
+    }
+
+    fn confirm_key(&mut self, c: Confirm, ev: KeyEvent) {
+        let a = self.keys.action_in(&ev, Scope::Confirm).or(match ev.code {
+            KeyCode::Enter => Some(Action::Confirm),
+            KeyCode::Esc => Some(Action::Decline),
+            _ => None,
+        });
+        match a {
+            // A doubled Enter (the form's, then one more) must not say yes unseen.
+            Some(Action::Confirm) if c.opened.elapsed() < self.settle => {
+                self.held_back.push(if ev.code == KeyCode::Enter { '⏎' } else { 'y' });
+                self.mode = Mode::Confirm(Box::new(c));
+            }
+            Some(Action::Confirm) => {
+                self.held_back.clear();
+                self.go(c.then);
+            }
+            Some(Action::Decline) => {
+                self.held_back.clear();
+                self.info("not done: nothing changed");
+                if let Pending::Form(f) = c.then {
+                    self.mode = Mode::Form(f);
+                }
+            }
+            _ => self.mode = Mode::Confirm(Box::new(c)),
+        }
+    }
+
+    /// Carries out what a confirmation was about.
+    fn go(&mut self, then: Pending) {
+        match then {
+            Pending::Form(f) => match self.submit(&f) {
+                Ok(msg) => self.finished(msg, &f),
+                Err(e) => {
+                    self.error(e);
+                    self.mode = Mode::Form(f);
+                }
+            },
+            Pending::Repeat(id) => self.repeat(id),
+            Pending::Recompute => self.spawn_recompute(false),
+        }
+    }
+
+    /// After a form's action: say what was done, reload, and keep the selection on the thing
+    /// acted on (a moved vial sorts elsewhere on the shelf; the highlight goes with it).
+    fn finished(&mut self, msg: String, f: &Form) {
+        self.info(msg);
+        let follow = match f.kind {
+            FormKind::Draw | FormKind::Move | FormKind::Dispose | FormKind::ReinstateVial => f.target.map(Follow::Vial),
+            FormKind::NewVial => self.new_vial.take().map(Follow::Vial),
+            FormKind::VoidBatch | FormKind::ReinstateBatch | FormKind::GoToBatch => f.target.map(Follow::Batch),
+            FormKind::NewBatch => self.sheet.as_ref().and_then(|s| s["id"].as_i64()).map(Follow::Batch),
+            _ => None,
+        };
+        self.reload();
+        if let Some(to) = follow {
+            self.follow(to);
+        }
+    }
+
+    fn follow(&mut self, to: Follow) {
+        match to {
+            Follow::Vial(id) => {
+                if let Some(i) = self.vials.iter().position(|v| v.id == id) {
+                    self.vial_selected = i;
+                }
+            }
+            Follow::Batch(id) => {
+                if let Some(i) = self.hits.iter().position(|h| h.id == id) {
+                    self.selected = i;
+                }
+            }
+        }
     }
 
     fn selected_batch(&self) -> Option<i64> {
@@ -459,13 +849,16 @@ impl App {
     fn act(&mut self, a: Action) {
         match a {
             Action::Quit => self.quit = true,
-            Action::Help => self.mode = Mode::Help,
-            Action::Ledger => self.view = View::Ledger,
+            Action::Help => {
+                self.help_scroll = 0;
+                self.mode = Mode::Help;
+            }
+            Action::Batches => self.view = View::Batches,
             Action::Shelf => self.view = View::Shelf,
             Action::Calibrations => self.view = View::Calibrations,
             Action::Trail => self.view = View::Trail,
             Action::Search => {
-                self.view = View::Ledger;
+                self.view = View::Batches;
                 self.mode = Mode::Search;
             }
             Action::Up => match self.view {
@@ -487,7 +880,7 @@ impl App {
             },
             Action::Back => {
                 if self.view == View::Sheet {
-                    self.view = View::Ledger;
+                    self.view = View::Batches;
                 }
             }
             Action::Open => {
@@ -516,88 +909,115 @@ impl App {
                     &[("material", "CdSe"), ("name", ""), ("recipe", ""), ("operator", "")],
                 ));
             }
-            Action::Repeat => {
-                if let Some(id) = self.selected_batch() {
-                    let r = self.store.write(|tx, who| {
-                        let b = model::get_batch(tx, id)?;
-                        model::insert_batch(
-                            tx,
-                            who,
-                            &model::NewBatch {
-                                name: format!("{} (repeat)", b.name),
-                                material: b.material,
-                                recipe: b.recipe,
-                                recipe_version: b.recipe_version,
-                                parent_batch_id: Some(b.id),
-                                parent_relation: Some("repeat".into()),
-                                ..Default::default()
-                            },
-                        )
-                    });
-                    match r {
-                        Ok(nid) => {
-                            self.info(format!("batch {nid} repeats batch {id}"));
-                            self.reload();
-                            let _ = self.open_sheet(nid);
-                            self.view = View::Sheet;
-                        }
-                        Err(e) => self.error(e.to_string()),
-                    }
+            Action::Repeat => match self.selected_batch() {
+                None => self.error("no batch selected"),
+                Some(id) => match self.repeat_summary(id) {
+                    Ok(c) => self.mode = Mode::Confirm(Box::new(c)),
+                    Err(e) => self.error(e),
+                },
+            },
+            Action::AddAliquot => match self.selected_batch() {
+                None => self.error("no batch open"),
+                Some(id) => {
+                    let mut p = self.picker();
+                    p.batch = Some(id);
+                    self.mode = Mode::Picker(p);
                 }
-            }
-            Action::AddAliquot => {
-                let p = self.picker();
-                self.mode = Mode::Picker(p);
-            }
-            Action::ImportFolder => {
-                let dir = self.export_dir.display().to_string();
-                self.mode = Mode::Form(Form::new(
-                    FormKind::Import,
-                    "Import a folder of exports",
-                    &[("folder", &dir), ("dilution", "1"), ("excitation nm", "")],
-                ));
-            }
-            Action::Watch => {
-                let dir = self.export_dir.display().to_string();
-                self.mode = Mode::Form(Form::new(
-                    FormKind::Watch,
-                    "Watch a folder: each new export becomes an aliquot",
-                    &[("folder", &dir), ("dilution", "1"), ("seconds", "120")],
-                ));
-            }
-            Action::NewVial => {
-                let loc = model::list_locations(&self.store.conn)
-                    .ok()
-                    .and_then(|l| l.first().map(|l| l.name.clone()))
-                    .unwrap_or_default();
-                self.mode = Mode::Form(Form::new(
-                    FormKind::NewVial,
-                    "New vial",
-                    &[("mL", ""), ("location", &loc), ("label", ""), ("solvent", "hexane")],
-                ));
-            }
+            },
+            Action::ImportFolder | Action::Watch => match self.selected_batch() {
+                None => self.error("no batch open"),
+                Some(id) => {
+                    let dir = self.export_dir.display().to_string();
+                    let batch = self.batch_words(id);
+                    let form = if a == Action::ImportFolder {
+                        Form::new(
+                            FormKind::Import,
+                            &format!("Import a folder of exports into {batch}"),
+                            &[("folder", &dir), ("dilution", "1"), ("excitation nm", "")],
+                        )
+                    } else {
+                        Form::new(
+                            FormKind::Watch,
+                            &format!("Watch a folder for {batch}: new exports become aliquots"),
+                            &[("folder", &dir), ("dilution", "1"), ("seconds", "120")],
+                        )
+                    };
+                    self.mode = Mode::Form(form.on(id));
+                }
+            },
+            Action::NewVial => match self.selected_batch() {
+                None => self.error("no batch open"),
+                Some(id) => {
+                    let loc = model::list_locations(&self.store.conn)
+                        .ok()
+                        .and_then(|l| l.first().map(|l| l.name.clone()))
+                        .unwrap_or_default();
+                    self.mode = Mode::Form(
+                        Form::new(
+                            FormKind::NewVial,
+                            &format!("New vial of {}", self.batch_words(id)),
+                            &[("mL", ""), ("location", &loc), ("label", ""), ("solvent", "hexane")],
+                        )
+                        .on(id),
+                    );
+                }
+            },
             Action::Draw | Action::Move | Action::Dispose => {
-                if self.vials.get(self.vial_selected).is_none() {
+                let Some(v) = self.vials.get(self.vial_selected) else {
                     self.error("no vial selected");
                     return;
-                }
-                let form = match a {
-                    Action::Draw => Form::new(FormKind::Draw, "Draw from vial", &[("mL", ""), ("why", "")]),
-                    Action::Move => Form::new(FormKind::Move, "Move vial", &[("to", ""), ("position", "")]),
-                    _ => Form::new(FormKind::Dispose, "Dispose of vial", &[("why", "")]),
                 };
-                self.mode = Mode::Form(form);
+                if v.status == "disposed" {
+                    let label = v.label.clone();
+                    self.error(format!("vial {label} is disposed of (u puts it back)"));
+                    return;
+                }
+                let what = format!(
+                    "vial {} (batch {}, {} mL at {})",
+                    v.label,
+                    v.batch_id,
+                    units::ml(v.volume_ml),
+                    v.location
+                );
+                let form = match a {
+                    Action::Draw => Form::new(FormKind::Draw, &format!("Draw from {what}"), &[("mL", ""), ("why", "")]),
+                    Action::Move => Form::new(FormKind::Move, &format!("Move {what}"), &[("to", ""), ("position", "")]),
+                    _ => Form::new(FormKind::Dispose, &format!("Dispose of {what}"), &[("why", "")]),
+                };
+                self.mode = Mode::Form(form.on(v.id));
+            }
+            Action::Handover => {
+                let from = self
+                    .vials
+                    .get(self.vial_selected)
+                    .and_then(|v| v.owner.clone())
+                    .unwrap_or_default();
+                let dir = self.export_dir.display().to_string();
+                self.mode = Mode::Form(Form::new(
+                    FormKind::Handover,
+                    "Hand a person's vials and open batches to another",
+                    &[("from", &from), ("to", ""), ("pack folder", &dir)],
+                ));
             }
             Action::ToggleSpectrum => self.show_pl = !self.show_pl,
             Action::ChangeCurve => {
+                let after = self.calibrations.last().map(|c| c.version).unwrap_or(0);
                 self.mode = Mode::Form(Form::new(
                     FormKind::ChangeCurve,
-                    "Choose a sizing curve (a new calibration version)",
+                    &format!("Choose a sizing curve: calibration v{} after v{after}", after + 1),
                     &[("material", "CdSe"), ("curve", "jasieniak2009"), ("why", "")],
                 ));
             }
             Action::Preview => self.spawn_recompute(true),
-            Action::Apply => self.spawn_recompute(false),
+            Action::Apply => {
+                // A fresh preview first: the confirmation shows what this recompute will change
+                // now, not what an older preview said.
+                if !self.busy {
+                    self.apply_after_preview = true;
+                    self.info("previewing the recompute: it asks before changing anything");
+                }
+                self.spawn_recompute(true);
+            }
             Action::VoidAliquot => match self.selected_aliquot() {
                 None => self.error("no aliquot selected"),
                 Some((id, label, voided)) => {
@@ -624,6 +1044,7 @@ impl App {
                         Ok(a) => a,
                         Err(e) => return self.error(e.to_string()),
                     };
+                    // Prefilled exactly as stored, so a field left alone is not a change.
                     let minutes = a.minutes.map(|m| m.to_string()).unwrap_or_default();
                     let stage = a.stage.clone().unwrap_or_default();
                     let (d, pcm) = (a.dilution_factor.to_string(), a.path_cm.to_string());
@@ -690,8 +1111,28 @@ impl App {
                 }
             },
             Action::GoToBatch => {
-                self.mode = Mode::Form(Form::new(FormKind::GoToBatch, "Open batch by id", &[("id", "")]));
+                self.mode = Mode::Form(Form::new(
+                    FormKind::GoToBatch,
+                    "Open a batch by its id (void ones too)",
+                    &[("id", "")],
+                ));
             }
+            Action::HelpPageDown
+            | Action::HelpPageUp
+            | Action::NextField
+            | Action::PrevField
+            | Action::Save
+            | Action::Cancel
+            | Action::CursorLeft
+            | Action::CursorRight
+            | Action::LineStart
+            | Action::LineEnd
+            | Action::DeleteBack
+            | Action::DeleteForward
+            | Action::KillToStart
+            | Action::DeleteWordBack
+            | Action::Confirm
+            | Action::Decline => {}
             Action::ToggleDisposed => {
                 self.show_disposed = !self.show_disposed;
                 self.reload();
@@ -735,9 +1176,10 @@ impl App {
                 if p.abs.is_none() && p.pl.is_none() {
                     self.error("choose a file first: Enter for absorbance, p for PL");
                 } else {
+                    let batch = p.batch.map(|id| self.batch_words(id)).unwrap_or_default();
                     let mut f = Form::new(
                         FormKind::AddAliquot,
-                        "Add aliquot",
+                        &format!("Add an aliquot to {batch}"),
                         &[
                             ("minutes", ""),
                             ("stage", ""),
@@ -747,14 +1189,15 @@ impl App {
                             ("excitation nm", ""),
                         ],
                     );
-                    f.fields.push((
-                        "abs file".into(),
+                    f.push(
+                        "abs file",
                         p.abs.as_ref().map(|x| x.display().to_string()).unwrap_or_default(),
-                    ));
-                    f.fields.push((
-                        "pl file".into(),
+                    );
+                    f.push(
+                        "pl file",
                         p.pl.as_ref().map(|x| x.display().to_string()).unwrap_or_default(),
-                    ));
+                    );
+                    f.target = p.batch;
                     self.mode = Mode::Form(f);
                     return;
                 }
@@ -765,35 +1208,262 @@ impl App {
     }
 
     fn form_key(&mut self, mut f: Form, ev: KeyEvent) {
-        match ev.code {
-            KeyCode::Esc => return,
-            KeyCode::Tab | KeyCode::Down => f.focus = (f.focus + 1) % f.fields.len(),
-            KeyCode::BackTab | KeyCode::Up => f.focus = (f.focus + f.fields.len() - 1) % f.fields.len(),
-            KeyCode::Backspace => {
-                f.fields[f.focus].1.pop();
-            }
-            KeyCode::Char(c) => f.fields[f.focus].1.push(c),
-            KeyCode::Enter => match self.submit(&f) {
-                Ok(msg) => {
-                    self.info(msg);
-                    self.reload();
+        let n = f.fields.len().max(1);
+        let action = self.keys.action_in(&ev, Scope::Form).or(match ev.code {
+            KeyCode::Down => Some(Action::NextField),
+            KeyCode::Up => Some(Action::PrevField),
+            _ => None,
+        });
+        match action {
+            Some(Action::Cancel) => return,
+            Some(Action::NextField) => f.focus = (f.focus + 1) % n,
+            Some(Action::PrevField) => f.focus = (f.focus + n - 1) % n,
+            Some(Action::Save) => match self.confirmation(&f) {
+                Ok(Some(c)) => {
+                    self.mode = Mode::Confirm(Box::new(c));
                     return;
                 }
+                Ok(None) => match self.submit(&f) {
+                    Ok(msg) => {
+                        self.finished(msg, &f);
+                        return;
+                    }
+                    Err(e) => self.error(e),
+                },
                 Err(e) => self.error(e),
             },
-            _ => {}
+            _ => {
+                if let Some(e) = self.field_edit(&ev)
+                    && let Some(field) = f.fields.get_mut(f.focus)
+                {
+                    edit_line(&mut field.text, &mut field.cursor, e);
+                }
+            }
         }
         self.mode = Mode::Form(f);
     }
 
     fn number(f: &Form, label: &str) -> Result<Option<f64>, String> {
-        let v = f.get(label);
-        if v.is_empty() {
+        units::parse_number(label, &f.get(label))
+    }
+
+    /// "batch 3 CdSe-0412": how a form names the batch it acts on.
+    fn batch_words(&self, id: i64) -> String {
+        let name = match &self.sheet {
+            Some(s) if s["id"].as_i64() == Some(id) => s["name"].as_str().map(String::from),
+            _ => self.facts.iter().find(|b| b.id == id).map(|b| b.name.clone()),
+        };
+        match name {
+            Some(n) if !n.is_empty() => format!("batch {id} {n}"),
+            _ => format!("batch {id}"),
+        }
+    }
+
+    fn repeat_summary(&self, id: i64) -> Result<Confirm, String> {
+        let b = model::get_batch(&self.store.conn, id).map_err(|e| e.to_string())?;
+        let recipe = match (&b.recipe, b.recipe_version) {
+            (Some(r), Some(v)) => format!("recipe {r} v{v}"),
+            (Some(r), None) => format!("recipe {r}"),
+            _ => "no recipe".into(),
+        };
+        Ok(Confirm::new(
+            format!("Repeat batch {id} {}?", b.name),
+            vec![
+                format!("A new batch \"{} (repeat)\" is logged:", b.name),
+                format!("  {}, {recipe}, status planned", b.material),
+                format!("  linked to batch {id} as its repeat"),
+                format!("Batch {id} itself does not change."),
+            ],
+            Pending::Repeat(id),
+        ))
+    }
+
+    fn repeat(&mut self, id: i64) {
+        let r = self.store.write(|tx, who| {
+            let b = model::get_batch(tx, id)?;
+            model::insert_batch(
+                tx,
+                who,
+                &model::NewBatch {
+                    name: format!("{} (repeat)", b.name),
+                    material: b.material,
+                    recipe: b.recipe,
+                    recipe_version: b.recipe_version,
+                    parent_batch_id: Some(b.id),
+                    parent_relation: Some("repeat".into()),
+                    ..Default::default()
+                },
+            )
+        });
+        match r {
+            Ok(nid) => {
+                self.info(format!("batch {nid} repeats batch {id}"));
+                self.reload();
+                self.follow(Follow::Batch(nid));
+                match self.open_sheet(nid) {
+                    Ok(()) => self.view = View::Sheet,
+                    Err(e) => self.error(e.to_string()),
+                }
+            }
+            Err(e) => self.error(e.to_string()),
+        }
+    }
+
+    /// The summary a destructive or bulk form's action is confirmed with, or None when the form
+    /// needs no confirmation. A missing reason is refused here, before anything is asked.
+    fn confirmation(&self, f: &Form) -> Result<Option<Confirm>, String> {
+        let needs_why = matches!(f.kind, FormKind::Dispose | FormKind::VoidAliquot | FormKind::VoidBatch);
+        if !needs_why && f.kind != FormKind::Handover {
             return Ok(None);
         }
-        v.parse::<f64>()
-            .map(Some)
-            .map_err(|_| format!("{label}: '{v}' is not a number"))
+        let why = f.get("why");
+        if needs_why && why.is_empty() {
+            return Err("why: give a reason (the record keeps it beside the change)".into());
+        }
+        let id = f.target.unwrap_or(0);
+        let (title, mut lines) = match f.kind {
+            FormKind::Dispose => {
+                let v = self
+                    .vials
+                    .iter()
+                    .find(|v| v.id == id)
+                    .ok_or("that vial is no longer on the shelf")?;
+                let conc = v
+                    .concentration_molar
+                    .map(|c| format!(", {} µM", units::micromolar(c)))
+                    .unwrap_or_default();
+                (
+                    format!("Dispose of vial {}?", v.label),
+                    vec![
+                        format!(
+                            "vial {} of batch {} {} ({})",
+                            v.label, v.batch_id, v.batch_name, v.material
+                        ),
+                        format!(
+                            "  at {}{}: {} mL left{conc}, owner {}",
+                            v.location,
+                            v.position.as_ref().map(|p| format!(" {p}")).unwrap_or_default(),
+                            units::ml(v.volume_ml),
+                            v.owner.as_deref().unwrap_or("none")
+                        ),
+                        "It leaves the shelf and the stock counts; t still lists it, u puts it back.".into(),
+                    ],
+                )
+            }
+            FormKind::VoidAliquot => {
+                let a = self
+                    .sheet
+                    .as_ref()
+                    .and_then(|s| {
+                        s["aliquots"]
+                            .as_array()?
+                            .iter()
+                            .find(|a| a["id"].as_i64() == Some(id))
+                            .cloned()
+                    })
+                    .ok_or("that aliquot is not in the open batch")?;
+                let batch = self.sheet.as_ref().and_then(|s| s["id"].as_i64()).unwrap_or(0);
+                let when = a["minutes"]
+                    .as_f64()
+                    .map(|m| format!("{} min", units::minutes(m)))
+                    .unwrap_or_else(|| a["stage"].as_str().unwrap_or("").to_string());
+                let product = self.sheet.as_ref().and_then(|s| s["product"]["id"].as_i64()) == Some(id);
+                let mut l = vec![
+                    format!(
+                        "aliquot {id} ({when}) of {}: peak {} nm, D {} nm",
+                        self.batch_words(batch),
+                        num(a["first_exciton_nm"].as_f64(), 1),
+                        num(a["diameter_nm"].as_f64(), 2)
+                    ),
+                    "It is left out of the growth series, product, search, plots and pack;".into(),
+                    "  its spectra and values stay in the record, and x reinstates it.".into(),
+                ];
+                if product {
+                    l.push("It is the batch's product aliquot: the product moves to the one before.".into());
+                }
+                (format!("Void aliquot {id}?"), l)
+            }
+            FormKind::VoidBatch => {
+                let s = self.sheet.as_ref().ok_or("no batch open")?;
+                let count = |k: &str| s[k].as_array().map(|a| a.len()).unwrap_or(0);
+                (
+                    format!("Void {}?", self.batch_words(id)),
+                    vec![
+                        format!(
+                            "{} ({}, {}): {} aliquots, {} vials",
+                            self.batch_words(id),
+                            s["material"].as_str().unwrap_or(""),
+                            s["status"].as_str().map(units::words).unwrap_or_default(),
+                            count("aliquots"),
+                            count("vials")
+                        ),
+                        "It is left out of the batch list, search and the pack;".into(),
+                        "  nothing is deleted: g opens it by id, and X there reinstates it.".into(),
+                    ],
+                )
+            }
+            _ => {
+                let (from, to, dir) = (f.get("from"), f.get("to"), f.get("pack folder"));
+                if from.is_empty() || to.is_empty() {
+                    return Err("from and to: name both people".into());
+                }
+                let conn = &self.store.conn;
+                let e = |x: crate::Error| x.to_string();
+                let (a, b) = (
+                    model::person_id(conn, &from).map_err(e)?,
+                    model::person_id(conn, &to).map_err(e)?,
+                );
+                if a == b {
+                    return Err("to: hand over to someone else than from".into());
+                }
+                let vials: Vec<String> = model::list_vials(conn, false)
+                    .map_err(e)?
+                    .into_iter()
+                    .filter(|v| v.owner.as_deref() == Some(from.as_str()))
+                    .map(|v| v.label)
+                    .collect();
+                let open = model::list_batches(conn)
+                    .map_err(e)?
+                    .into_iter()
+                    .filter(|b| {
+                        b.operator.as_deref() == Some(from.as_str())
+                            && matches!(b.status.as_str(), "planned" | "growing")
+                    })
+                    .count();
+                let mut shown = vials.iter().take(6).cloned().collect::<Vec<_>>().join(", ");
+                if vials.len() > 6 {
+                    shown.push_str(&format!(" and {} more", vials.len() - 6));
+                }
+                (
+                    format!("Hand over from {from} to {to}?"),
+                    vec![
+                        format!(
+                            "{} vials and {open} open batches (planned or growing) go to {to}.",
+                            vials.len()
+                        ),
+                        format!("  vials: {}", if shown.is_empty() { "none".into() } else { shown }),
+                        "Finished batches keep their operator: who ran a synthesis stays a fact.".into(),
+                        format!(
+                            "A handover pack is written to {}",
+                            Self::handover_dir(&dir, &from, &to).display()
+                        ),
+                    ],
+                )
+            }
+        };
+        if needs_why {
+            lines.push(format!("why: {why}"));
+        }
+        Ok(Some(Confirm::new(title, lines, Pending::Form(f.clone()))))
+    }
+
+    /// The handover pack's folder: a new folder named for the two people inside the one given.
+    fn handover_dir(dir: &str, from: &str, to: &str) -> PathBuf {
+        PathBuf::from(dir).join(format!(
+            "handover-{}-to-{}",
+            from.replace(' ', "_"),
+            to.replace(' ', "_")
+        ))
     }
 
     /// Carries out a form. Errors come back as a message; the form stays open to correct it.
@@ -818,7 +1488,7 @@ impl App {
                 Ok(format!("batch {id} logged"))
             }
             FormKind::AddAliquot => {
-                let batch = self.selected_batch().ok_or("no batch open")?;
+                let batch = f.target.ok_or("no batch open")?;
                 let mut files = Vec::new();
                 let ex = Self::number(f, "excitation nm")?;
                 if !f.get("abs file").is_empty() {
@@ -864,7 +1534,7 @@ impl App {
                 ))
             }
             FormKind::NewVial => {
-                let batch = self.selected_batch().ok_or("no batch open")?;
+                let batch = f.target.ok_or("no batch open")?;
                 let ml = Self::number(f, "mL")?.ok_or("mL: give the volume")?;
                 let nv = model::NewVial {
                     batch_id: batch,
@@ -885,14 +1555,11 @@ impl App {
                         Ok(id)
                     })
                     .map_err(e)?;
-                Ok(format!("vial {id} on the shelf"))
+                self.new_vial = Some(id);
+                Ok(format!("vial {id} of batch {batch} on the shelf: {} mL", units::ml(ml)))
             }
             FormKind::Draw | FormKind::Move | FormKind::Dispose => {
-                let vial = self
-                    .vials
-                    .get(self.vial_selected)
-                    .map(|v| v.id)
-                    .ok_or("no vial selected")?;
+                let vial = f.target.ok_or("no vial selected")?;
                 let v = match f.kind {
                     FormKind::Draw => {
                         let ml = Self::number(f, "mL")?.ok_or("mL: give the volume to draw")?;
@@ -914,8 +1581,11 @@ impl App {
                 }
                 .map_err(e)?;
                 Ok(format!(
-                    "vial {}: {:.3} mL left at {} ({})",
-                    v.label, v.volume_ml, v.location, v.status
+                    "vial {}: {} mL left at {} ({})",
+                    v.label,
+                    units::ml(v.volume_ml),
+                    v.location,
+                    units::words(&v.status)
                 ))
             }
             FormKind::ChangeCurve => {
@@ -1017,12 +1687,20 @@ impl App {
                 let why = f.get("why");
                 let v = crate::corrections::reinstate_vial(&mut self.store, id, &why).map_err(e)?;
                 Ok(format!(
-                    "vial {} is back: {:.3} mL at {}",
-                    v.label, v.volume_ml, v.location
+                    "vial {} is back: {} mL at {}",
+                    v.label,
+                    units::ml(v.volume_ml),
+                    v.location
                 ))
             }
+            FormKind::Handover => {
+                let (from, to) = (f.get("from"), f.get("to"));
+                let out = Self::handover_dir(&f.get("pack folder"), &from, &to);
+                self.spawn_handover(from, to, out)?;
+                Ok("handing over in the background".into())
+            }
             FormKind::Import | FormKind::Watch => {
-                let batch = self.selected_batch().ok_or("no batch open")?;
+                let batch = f.target.ok_or("no batch open")?;
                 let folder = PathBuf::from(f.get("folder"));
                 let dilution = Self::number(f, "dilution")?.unwrap_or(1.0);
                 if f.kind == FormKind::Import {
@@ -1075,6 +1753,36 @@ impl App {
                 Err(e) => Note::Failed(e.to_string()),
             });
         });
+    }
+
+    fn spawn_handover(&mut self, from: String, to: String, out: PathBuf) -> Result<(), String> {
+        if self.busy {
+            return Err("busy: wait for the running job".into());
+        }
+        let mut store = self.worker_store()?;
+        let tx = self.tx.clone();
+        self.busy = true;
+        std::thread::spawn(move || {
+            let r = crate::report::handover(&mut store, &from, &to, &out, None, &mut |d, t| {
+                let _ = tx.send(Note::Progress {
+                    label: "handover".into(),
+                    done: d,
+                    total: t,
+                });
+            });
+            let _ = tx.send(match r {
+                Ok(r) => Note::Done(format!(
+                    "handed {} vials and {} open batches from {} to {}; pack in {}",
+                    r.vials,
+                    r.batches,
+                    r.from,
+                    r.to,
+                    out.display()
+                )),
+                Err(e) => Note::Failed(e.to_string()),
+            });
+        });
+        Ok(())
     }
 
     fn spawn_import(&mut self, batch: i64, folder: PathBuf, dilution: f64, ex: Option<f64>) -> Result<(), String> {

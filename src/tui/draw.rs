@@ -4,6 +4,7 @@
 
 use super::app::{App, Mode, SortKey, View};
 use super::keys::Scope;
+use super::units;
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Layout, Rect};
 use ratatui::style::{Color, Modifier, Style};
@@ -13,14 +14,6 @@ use ratatui::widgets::{Axis, Block, Cell, Chart, Clear, Dataset, GraphType, Para
 
 fn n(v: Option<f64>, d: usize) -> String {
     v.map(|x| format!("{x:.d$}")).unwrap_or_else(|| "-".into())
-}
-
-/// A number readable at any scale: small ones (concentrations in M) in scientific form.
-fn g(v: Option<f64>) -> String {
-    match v {
-        Some(x) if x != 0.0 && x.abs() < 0.01 => format!("{x:.3e}"),
-        other => n(other, 3),
-    }
 }
 
 struct Palette {
@@ -72,7 +65,7 @@ pub fn draw(f: &mut Frame, app: &App) {
     .areas(f.area());
     draw_tabs(f, app, top, &p);
     match app.view {
-        View::Ledger => draw_ledger(f, app, body, &p),
+        View::Batches => draw_batches(f, app, body, &p),
         View::Sheet => draw_sheet(f, app, body, &p),
         View::Shelf => draw_shelf(f, app, body, &p),
         View::Calibrations => draw_calibrations(f, app, body, &p),
@@ -82,8 +75,9 @@ pub fn draw(f: &mut Frame, app: &App) {
     draw_footer(f, app, footer, &p);
     match &app.mode {
         Mode::Help => draw_help(f, app, &p),
-        Mode::Form(form) => draw_form(f, form, &p),
+        Mode::Form(form) => draw_form(f, app, form, &p),
         Mode::Picker(pk) => draw_picker(f, pk, &p),
+        Mode::Confirm(c) => draw_confirm(f, app, c, &p),
         _ => {}
     }
     scrub(f);
@@ -102,14 +96,14 @@ fn scrub(f: &mut Frame) {
 
 fn draw_tabs(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     let names = [
-        ("1", "Ledger", View::Ledger),
+        ("1", "Batches", View::Batches),
         ("2", "Shelf", View::Shelf),
         ("3", "Calibrations", View::Calibrations),
         ("4", "Trail", View::Trail),
     ];
     let mut spans = vec![Span::styled(" cuvette ", p.head())];
     for (k, name, v) in names {
-        let on = app.view == v || (v == View::Ledger && app.view == View::Sheet);
+        let on = app.view == v || (v == View::Batches && app.view == View::Sheet);
         let style = if on { p.sel() } else { Style::default() };
         spans.push(Span::raw(" "));
         spans.push(Span::styled(format!("{k} {name}"), style));
@@ -133,12 +127,37 @@ fn sort_mark(app: &App, k: SortKey, label: &str) -> String {
     }
 }
 
-fn draw_ledger(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
+/// A line of text being edited, with the cursor shown as a reversed cell (a space at the end)
+/// and the text scrolled so the cursor stays within `width` cells.
+fn edited(text: &str, cursor: usize, width: usize, style: Style) -> Vec<Span<'static>> {
+    let chars: Vec<char> = text.chars().collect();
+    let cursor = cursor.min(chars.len());
+    let width = width.max(2);
+    let start = (cursor + 1).saturating_sub(width);
+    let before: String = chars[start..cursor].iter().collect();
+    let at: String = chars.get(cursor).map(|c| c.to_string()).unwrap_or_else(|| " ".into());
+    let after: String = chars
+        .iter()
+        .skip(cursor + 1)
+        .take(width.saturating_sub(cursor - start + 1))
+        .collect();
+    vec![
+        Span::styled(before, style),
+        Span::styled(at, style.add_modifier(Modifier::REVERSED)),
+        Span::styled(after, style),
+    ]
+}
+
+fn draw_batches(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     let [search, table] = Layout::vertical([Constraint::Length(1), Constraint::Min(3)]).areas(area);
     let searching = matches!(app.mode, Mode::Search);
-    let mut line = vec![Span::styled("/ ", p.head()), Span::raw(app.query.clone())];
+    let mut line = vec![Span::styled("/ ", p.head())];
     if searching {
-        line.push(Span::styled("▏", p.head()));
+        let room = (area.width as usize / 2).max(20);
+        line.extend(edited(&app.query, app.query_cursor, room, Style::default()));
+        f.set_cursor_position((search.x + 2 + app.query_cursor.min(room - 1) as u16, search.y));
+    } else {
+        line.push(Span::raw(app.query.clone()));
     }
     match &app.query_error {
         Some(e) => line.push(Span::styled(format!("  {e}"), p.err())),
@@ -173,7 +192,7 @@ fn draw_ledger(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
             n(h.first_exciton_nm, 1),
             n(h.diameter_nm, 2),
             n(h.qy, 2),
-            format!("{:.1}", h.stock_ml),
+            units::ml(h.stock_ml),
             if stale { "STALE".to_string() } else { String::new() },
             format!(
                 "{} {}",
@@ -280,7 +299,7 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
                 Cell::from(
                     a["minutes"]
                         .as_f64()
-                        .map(|m| format!("{m}"))
+                        .map(units::minutes)
                         .unwrap_or_else(|| a["stage"].as_str().unwrap_or("").to_string()),
                 ),
                 Cell::from(format!(
@@ -326,9 +345,9 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         .filter(|v| v["status"] != "disposed")
         .map(|v| {
             format!(
-                "{} {:.2} mL @ {}",
+                "{} {} mL @ {}",
                 v["label"].as_str().unwrap_or(""),
-                v["volume_ml"].as_f64().unwrap_or(0.0),
+                units::ml(v["volume_ml"].as_f64().unwrap_or(0.0)),
                 v["location"].as_str().unwrap_or("")
             )
         })
@@ -502,11 +521,15 @@ fn draw_shelf(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
             if disposed {
                 "disposed".to_string()
             } else {
-                format!("{:.2}{}", v.volume_ml, if low { " low" } else { "" })
+                format!("{}{}", units::ml(v.volume_ml), if low { " low" } else { "" })
             },
-            n(v.concentration_molar.map(|c| c * 1e6), 2),
+            v.concentration_molar
+                .map(units::micromolar)
+                .unwrap_or_else(|| "-".into()),
             crate::report::concentration_note(v).to_string(),
-            n(v.concentration_molar.map(|c| c * v.volume_ml * 1e6), 1),
+            v.concentration_molar
+                .map(|c| units::sig3(c * v.volume_ml * 1e6))
+                .unwrap_or_else(|| "-".into()),
             v.owner.clone().unwrap_or_default(),
         ]);
         if low || v.concentration_stale || disposed {
@@ -565,7 +588,9 @@ fn draw_calibrations(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     );
     let mut lines = Vec::new();
     match &app.preview {
-        None => lines.push(Line::from("p previews what a recompute would change; A applies it.")),
+        None => lines.push(Line::from(
+            "p previews what a recompute would change; A recomputes (it previews, then asks).",
+        )),
         Some(r) => {
             lines.push(Line::styled(
                 format!(
@@ -579,9 +604,9 @@ fn draw_calibrations(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
                     "  aliquot {} (batch {}) {} {} → {}{}",
                     m.aliquot_id,
                     m.batch_id,
-                    m.quantity,
-                    g(m.old),
-                    g(m.new),
+                    units::quantity_name(&m.quantity),
+                    units::quantity(&m.quantity, m.old),
+                    units::quantity(&m.quantity, m.new),
                     m.relative_change
                         .map(|r| format!(" ({:+.0} %)", r * 100.0))
                         .unwrap_or_default()
@@ -606,9 +631,9 @@ fn draw_trail(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         Row::new(vec![
             r.at.get(..16).unwrap_or("").replace('T', " "),
             r.who.clone(),
-            r.entity.clone(),
+            units::words(&r.entity),
             r.entity_id.map(|i| i.to_string()).unwrap_or_default(),
-            r.action.clone(),
+            units::words(&r.action),
         ])
     });
     let widths = [
@@ -627,8 +652,18 @@ fn draw_trail(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
 fn draw_status(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     // A message answers the user's last action, so it is never hidden behind a job's progress:
     // both share the line, the message first.
+    // Keys held back as a form closed come first: they are what the person just typed.
     let mut spans = Vec::new();
+    if !app.held_back.is_empty() {
+        spans.push(Span::styled(
+            format!("held back \"{}\": typed as the form closed", app.held_back),
+            p.warn(),
+        ));
+    }
     if let Some((err, msg)) = &app.message {
+        if !spans.is_empty() {
+            spans.push(Span::raw("  ·  "));
+        }
         spans.push(Span::styled(msg.clone(), if *err { p.err() } else { Style::default() }));
     }
     if let Some((label, done, total)) = &app.progress {
@@ -644,13 +679,20 @@ fn draw_status(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
 fn draw_footer(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     let scope = match app.mode {
         Mode::Search => None,
+        Mode::Form(_) => Some(Scope::Form),
+        Mode::Confirm(_) => Some(Scope::Confirm),
         _ => Some(app.scope()),
     };
     let spans: Vec<Span> = match scope {
         None => vec![Span::raw("type a query · Enter/Esc leave the search box")],
         Some(s) => {
             let mut v = Vec::new();
-            for (k, name) in app.keys.footer(s) {
+            let keys = if matches!(s, Scope::Form | Scope::Confirm) {
+                app.keys.footer_in(s)
+            } else {
+                app.keys.footer(s)
+            };
+            for (k, name) in keys {
                 v.push(Span::styled(k, p.head()));
                 v.push(Span::raw(format!(" {name}  ")));
             }
@@ -675,13 +717,36 @@ fn centred(area: Rect, w: u16, h: u16) -> Rect {
     }
 }
 
+/// The help box: nearly the whole screen, so at 80x24 most of the table shows at once.
+fn help_area(w: u16, h: u16) -> Rect {
+    let area = Rect::new(0, 0, w, h);
+    centred(
+        area,
+        w.min(if w >= 150 { 150 } else { 100 }),
+        h.saturating_sub(1).max(3),
+    )
+}
+
+fn help_columns(w: u16) -> usize {
+    if w >= 150 { 2 } else { 1 }
+}
+
+/// How many lines of help one page shows at a terminal size (the key handler pages by it).
+pub fn help_page_lines(w: u16, h: u16) -> usize {
+    let inner = help_area(w, h).height.saturating_sub(2) as usize;
+    (inner * help_columns(w)).max(1)
+}
+
 fn draw_help(f: &mut Frame, app: &App, p: &Palette) {
-    let area = centred(f.area(), 80, 22);
+    let full = f.area();
+    let area = help_area(full.width, full.height);
+    let area = Rect {
+        x: area.x + full.x,
+        y: area.y + full.y,
+        ..area
+    };
     f.render_widget(Clear, area);
-    let block = Block::bordered().title("keys · Esc or ? closes");
-    let inner = block.inner(area);
-    f.render_widget(block, area);
-    // Grouped by where they apply, in two columns so the whole table fits 80x24.
+    // Grouped by where they apply, one scope after another in the key table's order.
     let mut lines: Vec<Line> = Vec::new();
     let mut last = "";
     for (scope, key, help) in app.keys.help() {
@@ -690,38 +755,95 @@ fn draw_help(f: &mut Frame, app: &App, p: &Palette) {
             last = scope;
         }
         lines.push(Line::from(vec![
-            Span::styled(format!("{key:>6} "), p.head()),
+            Span::styled(format!("{key:>10} "), p.head()),
             Span::raw(help),
         ]));
     }
-    let half = lines.len().div_ceil(2);
-    let right = lines.split_off(half);
-    let [l, r] = Layout::horizontal([Constraint::Percentage(50), Constraint::Percentage(50)]).areas(inner);
-    f.render_widget(Paragraph::new(lines), l);
-    f.render_widget(Paragraph::new(right), r);
+    let total = lines.len();
+    let page = help_page_lines(full.width, full.height);
+    let start = app.help_scroll.min(total.saturating_sub(page));
+    let end = (start + page).min(total);
+    let more = if total > page {
+        format!(" · lines {}-{end} of {total}, ↓/PgDn more, ↑/PgUp back", start + 1)
+    } else {
+        String::new()
+    };
+    let block = Block::bordered().title(format!("keys{more} · Esc or ? closes"));
+    let inner = block.inner(area);
+    f.render_widget(block, area);
+    let mut shown: Vec<Line> = lines.drain(start..end).collect();
+    if help_columns(full.width) == 2 {
+        let half = (inner.height as usize).min(shown.len());
+        let right = shown.split_off(half);
+        let [l, r] = Layout::horizontal([Constraint::Percentage(50), Constraint::Percentage(50)]).areas(inner);
+        f.render_widget(Paragraph::new(shown), l);
+        f.render_widget(Paragraph::new(right), r);
+    } else {
+        f.render_widget(Paragraph::new(shown), inner);
+    }
 }
 
-fn draw_form(f: &mut Frame, form: &super::app::Form, p: &Palette) {
-    let area = centred(f.area(), 70, form.fields.len() as u16 + 4);
+fn key_line(keys: Vec<(String, &'static str)>, p: &Palette) -> Line<'static> {
+    let mut v = Vec::new();
+    for (k, name) in keys {
+        v.push(Span::styled(k, p.head()));
+        v.push(Span::raw(format!(" {name}  ")));
+    }
+    Line::from(v)
+}
+
+fn draw_form(f: &mut Frame, app: &App, form: &super::app::Form, p: &Palette) {
+    let full = f.area();
+    // Wide terminals give long values (folders, file paths) room; never wider than 100.
+    let width = full.width.saturating_sub(4).clamp(full.width.min(70), 100);
+    let area = centred(full, width, form.fields.len() as u16 + 3);
     f.render_widget(Clear, area);
+    let room = (area.width as usize).saturating_sub(2 + 16).max(4);
     let mut lines: Vec<Line> = form
         .fields
         .iter()
         .enumerate()
-        .map(|(i, (label, value))| {
-            let focus = i == form.focus;
-            Line::from(vec![
-                Span::styled(format!("{label:>14}: "), p.head()),
-                Span::styled(
-                    format!("{value}{}", if focus { "▏" } else { "" }),
-                    if focus { p.sel() } else { Style::default() },
-                ),
-            ])
+        .map(|(i, field)| {
+            let mut spans = vec![Span::styled(format!("{:>14}: ", field.label), p.head())];
+            if i == form.focus {
+                spans.extend(edited(&field.text, field.cursor, room, p.sel()));
+            } else {
+                spans.push(Span::raw(field.text.clone()));
+            }
+            Line::from(spans)
         })
         .collect();
-    lines.push(Line::from("Tab next field · Enter save · Esc cancel"));
+    if let Some(field) = form.fields.get(form.focus) {
+        let col = field.cursor.min(room - 1) as u16;
+        f.set_cursor_position((area.x + 1 + 16 + col, area.y + 1 + form.focus as u16));
+    }
+    lines.push(key_line(app.keys.footer_in(Scope::Form), p));
     f.render_widget(
         Paragraph::new(lines).block(Block::bordered().title(form.title.clone())),
+        area,
+    );
+}
+
+fn draw_confirm(f: &mut Frame, app: &App, c: &super::app::Confirm, p: &Palette) {
+    let full = f.area();
+    let width = full.width.min(96);
+    // Room for every line as wrapped, so the answer keys at the bottom are never cut off.
+    let inner_w = width.saturating_sub(2).max(1) as usize;
+    let rows: usize = c.lines.iter().map(|l| l.chars().count().div_ceil(inner_w).max(1)).sum();
+    let area = centred(full, width, (rows as u16 + 4).min(full.height));
+    f.render_widget(Clear, area);
+    let mut lines: Vec<Line> = c.lines.iter().map(|l| Line::from(l.clone())).collect();
+    lines.push(Line::from(""));
+    let mut keys = Vec::new();
+    for (k, b) in app.keys.entries.iter().filter(|(_, b)| b.scope == Scope::Confirm) {
+        keys.push(Span::styled(super::keys::describe(k), p.head()));
+        keys.push(Span::raw(format!(" {}   ", b.help)));
+    }
+    lines.push(Line::from(keys));
+    f.render_widget(
+        Paragraph::new(lines)
+            .wrap(Wrap { trim: false })
+            .block(Block::bordered().title(c.title.clone()).border_style(p.warn())),
         area,
     );
 }
@@ -751,8 +873,9 @@ fn draw_picker(f: &mut Frame, pk: &super::app::Picker, p: &Palette) {
         lines.push(Line::from("no files here"));
     }
     lines.push(Line::from("Enter absorbance · p PL · Tab continue · Esc cancel"));
-    f.render_widget(
-        Paragraph::new(lines).block(Block::bordered().title("add aliquot: pick export files")),
-        area,
-    );
+    let title = match pk.batch {
+        Some(id) => format!("add an aliquot to batch {id}: pick export files"),
+        None => "add an aliquot: pick export files".into(),
+    };
+    f.render_widget(Paragraph::new(lines).block(Block::bordered().title(title)), area);
 }

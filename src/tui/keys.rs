@@ -13,7 +13,7 @@ pub enum Action {
     Quit,
     Help,
     Search,
-    Ledger,
+    Batches,
     Shelf,
     Calibrations,
     Trail,
@@ -43,17 +43,58 @@ pub enum Action {
     ReinstateVial,
     ToggleDisposed,
     MoveSpectrum,
+    Handover,
+    HelpPageDown,
+    HelpPageUp,
+    // A form.
+    NextField,
+    PrevField,
+    Save,
+    Cancel,
+    // Any text field (a form's fields and the search box).
+    CursorLeft,
+    CursorRight,
+    LineStart,
+    LineEnd,
+    DeleteBack,
+    DeleteForward,
+    KillToStart,
+    DeleteWordBack,
+    // A confirmation.
+    Confirm,
+    Decline,
 }
 
 /// Where an action applies.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Scope {
     Everywhere,
-    Ledger,
+    Batches,
     Sheet,
     Shelf,
     Calibrations,
+    /// The help overlay.
+    Help,
+    /// An open form: moving between fields, saving, cancelling.
+    Form,
+    /// Editing the text of a field or the search box.
+    Field,
+    /// A confirmation showing what an action will change.
+    Confirm,
 }
+
+/// The order scopes are listed in the help, and their titles there.
+pub const SCOPES: &[(Scope, &str)] = &[
+    (Scope::Everywhere, "anywhere"),
+    (Scope::Batches, "batches"),
+    (Scope::Sheet, "batch sheet"),
+    (Scope::Shelf, "shelf"),
+    (Scope::Calibrations, "calibrations"),
+    (Scope::Form, "in a form"),
+    (Scope::Field, "in a text field (forms and the search box)"),
+    (Scope::Confirm, "when asked to confirm"),
+    (Scope::Help, "in this help"),
+];
 
 pub struct Binding {
     pub action: Action,
@@ -83,11 +124,11 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         footer: true,
     },
     Binding {
-        action: Action::Ledger,
-        name: "ledger",
+        action: Action::Batches,
+        name: "batches",
         key: "1",
         scope: Scope::Everywhere,
-        help: "batch ledger",
+        help: "the batch list",
         footer: false,
     },
     Binding {
@@ -142,7 +183,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         action: Action::Search,
         name: "search",
         key: "/",
-        scope: Scope::Ledger,
+        scope: Scope::Batches,
         help: "search with the query language",
         footer: true,
     },
@@ -150,7 +191,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         action: Action::Open,
         name: "open",
         key: "enter",
-        scope: Scope::Ledger,
+        scope: Scope::Batches,
         help: "open the batch sheet",
         footer: true,
     },
@@ -158,7 +199,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         action: Action::SortNext,
         name: "sort",
         key: "s",
-        scope: Scope::Ledger,
+        scope: Scope::Batches,
         help: "sort by the next column",
         footer: true,
     },
@@ -166,7 +207,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         action: Action::SortReverse,
         name: "reverse",
         key: "S",
-        scope: Scope::Ledger,
+        scope: Scope::Batches,
         help: "reverse the sort",
         footer: false,
     },
@@ -174,7 +215,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         action: Action::NewBatch,
         name: "new-batch",
         key: "n",
-        scope: Scope::Ledger,
+        scope: Scope::Batches,
         help: "log a new batch",
         footer: true,
     },
@@ -182,8 +223,8 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         action: Action::Repeat,
         name: "repeat",
         key: "r",
-        scope: Scope::Ledger,
-        help: "repeat the selected batch",
+        scope: Scope::Batches,
+        help: "repeat the selected batch (confirms first)",
         footer: false,
     },
     Binding {
@@ -247,7 +288,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "dispose",
         key: "x",
         scope: Scope::Shelf,
-        help: "dispose of the vial",
+        help: "dispose of the vial (asks why, then confirms)",
         footer: true,
     },
     Binding {
@@ -268,17 +309,17 @@ pub const DEFAULT_KEYS: &[Binding] = &[
     },
     Binding {
         action: Action::Apply,
-        name: "apply",
+        name: "recompute",
         key: "A",
         scope: Scope::Calibrations,
-        help: "recompute now",
+        help: "recompute stale values (previews, then asks)",
         footer: true,
     },
     Binding {
         action: Action::GoToBatch,
         name: "go-to-batch",
         key: "g",
-        scope: Scope::Ledger,
+        scope: Scope::Batches,
         help: "open a batch by its id (void ones too)",
         footer: false,
     },
@@ -287,7 +328,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "void-batch",
         key: "X",
         scope: Scope::Sheet,
-        help: "void the batch, or reinstate a void one (asks why)",
+        help: "void the batch (asks why, then confirms), or reinstate it",
         footer: false,
     },
     Binding {
@@ -295,7 +336,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "void-aliquot",
         key: "x",
         scope: Scope::Sheet,
-        help: "void the selected aliquot, or reinstate it (asks why)",
+        help: "void the selected aliquot (asks why, confirms), or reinstate it",
         footer: true,
     },
     Binding {
@@ -303,7 +344,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "edit-aliquot",
         key: "e",
         scope: Scope::Sheet,
-        help: "correct the selected aliquot's minutes, dilution, path or solvent",
+        help: "correct the aliquot's minutes, dilution, path or solvent",
         footer: true,
     },
     Binding {
@@ -311,7 +352,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "move-spectrum",
         key: "M",
         scope: Scope::Sheet,
-        help: "move a spectrum of the selected aliquot to another aliquot (asks which and why)",
+        help: "move a spectrum of the aliquot to another aliquot",
         footer: false,
     },
     Binding {
@@ -329,6 +370,142 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         scope: Scope::Shelf,
         help: "put a disposed vial back (asks why)",
         footer: false,
+    },
+    Binding {
+        action: Action::Handover,
+        name: "handover",
+        key: "H",
+        scope: Scope::Shelf,
+        help: "hand a person's vials and open batches to another (confirms)",
+        footer: false,
+    },
+    Binding {
+        action: Action::HelpPageDown,
+        name: "help-page-down",
+        key: "pagedown",
+        scope: Scope::Help,
+        help: "next page (↓ scrolls a line, Space a page too)",
+        footer: false,
+    },
+    Binding {
+        action: Action::HelpPageUp,
+        name: "help-page-up",
+        key: "pageup",
+        scope: Scope::Help,
+        help: "previous page (↑ scrolls a line)",
+        footer: false,
+    },
+    Binding {
+        action: Action::NextField,
+        name: "next-field",
+        key: "tab",
+        scope: Scope::Form,
+        help: "next field (also ↓)",
+        footer: true,
+    },
+    Binding {
+        action: Action::PrevField,
+        name: "previous-field",
+        key: "backtab",
+        scope: Scope::Form,
+        help: "previous field (also ↑)",
+        footer: false,
+    },
+    Binding {
+        action: Action::Save,
+        name: "save",
+        key: "enter",
+        scope: Scope::Form,
+        help: "save (a disposal, void or handover asks first)",
+        footer: true,
+    },
+    Binding {
+        action: Action::Cancel,
+        name: "cancel",
+        key: "esc",
+        scope: Scope::Form,
+        help: "close the form; nothing is saved",
+        footer: true,
+    },
+    Binding {
+        action: Action::CursorLeft,
+        name: "cursor-left",
+        key: "left",
+        scope: Scope::Field,
+        help: "cursor one character left",
+        footer: false,
+    },
+    Binding {
+        action: Action::CursorRight,
+        name: "cursor-right",
+        key: "right",
+        scope: Scope::Field,
+        help: "cursor one character right",
+        footer: false,
+    },
+    Binding {
+        action: Action::LineStart,
+        name: "line-start",
+        key: "ctrl-a",
+        scope: Scope::Field,
+        help: "to the start of the text (also Home)",
+        footer: false,
+    },
+    Binding {
+        action: Action::LineEnd,
+        name: "line-end",
+        key: "ctrl-e",
+        scope: Scope::Field,
+        help: "to the end of the text (also End)",
+        footer: false,
+    },
+    Binding {
+        action: Action::DeleteBack,
+        name: "delete-back",
+        key: "backspace",
+        scope: Scope::Field,
+        help: "delete the character before the cursor",
+        footer: false,
+    },
+    Binding {
+        action: Action::DeleteForward,
+        name: "delete-forward",
+        key: "delete",
+        scope: Scope::Field,
+        help: "delete the character under the cursor",
+        footer: false,
+    },
+    Binding {
+        action: Action::KillToStart,
+        name: "delete-to-start",
+        key: "ctrl-u",
+        scope: Scope::Field,
+        help: "delete from the cursor back to the start",
+        footer: false,
+    },
+    Binding {
+        action: Action::DeleteWordBack,
+        name: "delete-word",
+        key: "ctrl-w",
+        scope: Scope::Field,
+        help: "delete the word before the cursor",
+        footer: false,
+    },
+    Binding {
+        action: Action::Confirm,
+        name: "confirm",
+        key: "y",
+        scope: Scope::Confirm,
+        help: "go ahead (also Enter)",
+        footer: true,
+    },
+    Binding {
+        action: Action::Decline,
+        name: "decline",
+        key: "n",
+        scope: Scope::Confirm,
+        help: "do not; nothing changes (also Esc)",
+        footer: true,
     },
 ];
 
@@ -352,6 +529,14 @@ pub fn parse_key(s: &str) -> Option<Key> {
         "tab" => KeyCode::Tab,
         "left" => KeyCode::Left,
         "right" => KeyCode::Right,
+        "backtab" => KeyCode::BackTab,
+        "home" => KeyCode::Home,
+        "end" => KeyCode::End,
+        "delete" => KeyCode::Delete,
+        "backspace" => KeyCode::Backspace,
+        "pageup" => KeyCode::PageUp,
+        "pagedown" => KeyCode::PageDown,
+        "space" => KeyCode::Char(' '),
         one if one.chars().count() == 1 => KeyCode::Char(one.chars().next()?),
         _ => return None,
     };
@@ -367,10 +552,23 @@ pub fn describe(k: &Key) -> String {
         KeyCode::Tab => "Tab".to_string(),
         KeyCode::Left => "←".to_string(),
         KeyCode::Right => "→".to_string(),
+        KeyCode::BackTab => "Shift-Tab".to_string(),
+        KeyCode::Home => "Home".to_string(),
+        KeyCode::End => "End".to_string(),
+        KeyCode::Delete => "Del".to_string(),
+        KeyCode::Backspace => "Backspace".to_string(),
+        KeyCode::PageUp => "PgUp".to_string(),
+        KeyCode::PageDown => "PgDn".to_string(),
+        KeyCode::Char(' ') => "Space".to_string(),
         KeyCode::Char(c) => c.to_string(),
         _ => "?".to_string(),
     };
-    if k.ctrl { format!("Ctrl-{base}") } else { base }
+    // Terminals send Ctrl-a and Ctrl-A alike; keyboards and manuals print the capital.
+    if k.ctrl {
+        format!("Ctrl-{}", base.to_uppercase())
+    } else {
+        base
+    }
 }
 
 /// The largest key overrides file read; the full table is well under a kilobyte.
@@ -449,6 +647,18 @@ impl KeyMap {
             .map(|(_, b)| b.action)
     }
 
+    /// The action a key asks for in exactly this scope: no keys of other scopes, no j/k
+    /// aliases. Forms, text fields and confirmations use it, so a letter meant as text never
+    /// reaches a view's binding.
+    pub fn action_in(&self, ev: &KeyEvent, scope: Scope) -> Option<Action> {
+        let ctrl = ev.modifiers.contains(KeyModifiers::CONTROL);
+        let want = Key { code: ev.code, ctrl };
+        self.entries
+            .iter()
+            .find(|(k, b)| *k == want && b.scope == scope)
+            .map(|(_, b)| b.action)
+    }
+
     fn bound(&self, code: KeyCode, scope: Scope) -> bool {
         self.entries
             .iter()
@@ -464,21 +674,24 @@ impl KeyMap {
             .collect()
     }
 
-    /// (scope title, key, help) for the help overlay.
-    pub fn help(&self) -> Vec<(&'static str, String, &'static str)> {
+    /// (key, description) for the footer of a form or a confirmation: only that scope's keys.
+    pub fn footer_in(&self, scope: Scope) -> Vec<(String, &'static str)> {
         self.entries
             .iter()
-            .map(|(k, b)| {
-                let scope = match b.scope {
-                    Scope::Everywhere => "anywhere",
-                    Scope::Ledger => "ledger",
-                    Scope::Sheet => "batch sheet",
-                    Scope::Shelf => "shelf",
-                    Scope::Calibrations => "calibrations",
-                };
-                (scope, describe(k), b.help)
-            })
+            .filter(|(_, b)| b.footer && b.scope == scope)
+            .map(|(k, b)| (describe(k), b.name))
             .collect()
+    }
+
+    /// (scope title, key, help) for the help overlay, grouped by scope in [`SCOPES`] order.
+    pub fn help(&self) -> Vec<(&'static str, String, &'static str)> {
+        let mut out = Vec::new();
+        for (scope, title) in SCOPES {
+            for (k, b) in self.entries.iter().filter(|(_, b)| b.scope == *scope) {
+                out.push((*title, describe(k), b.help));
+            }
+        }
+        out
     }
 }
 
@@ -509,7 +722,31 @@ mod tests {
         let d = KeyMap::new(&BTreeMap::new()).unwrap();
         assert_eq!(d.action(&ev('p'), Scope::Sheet), Some(Action::ToggleSpectrum));
         assert_eq!(d.action(&ev('p'), Scope::Calibrations), Some(Action::Preview));
-        assert_eq!(d.action(&ev('j'), Scope::Ledger), Some(Action::Down));
+        assert_eq!(d.action(&ev('j'), Scope::Batches), Some(Action::Down));
+    }
+
+    #[test]
+    fn text_scopes_take_only_their_own_keys() {
+        let d = KeyMap::new(&BTreeMap::new()).unwrap();
+        let ctrl = |c| KeyEvent::new(KeyCode::Char(c), KeyModifiers::CONTROL);
+        let ev = |c| KeyEvent::new(KeyCode::Char(c), KeyModifiers::NONE);
+        assert_eq!(d.action_in(&ctrl('w'), Scope::Field), Some(Action::DeleteWordBack));
+        assert_eq!(d.action_in(&ctrl('u'), Scope::Field), Some(Action::KillToStart));
+        assert_eq!(d.action_in(&ctrl('a'), Scope::Field), Some(Action::LineStart));
+        // q quits and 2 opens the shelf everywhere in the views, but in a field they are text.
+        assert_eq!(d.action_in(&ev('q'), Scope::Field), None);
+        assert_eq!(d.action_in(&ev('2'), Scope::Form), None);
+        assert_eq!(d.action_in(&ev('y'), Scope::Confirm), Some(Action::Confirm));
+    }
+
+    #[test]
+    fn the_help_lists_each_scope_once_with_every_binding() {
+        let d = KeyMap::new(&BTreeMap::new()).unwrap();
+        let help = d.help();
+        assert_eq!(help.len(), DEFAULT_KEYS.len());
+        let mut titles: Vec<&str> = help.iter().map(|(t, _, _)| *t).collect();
+        titles.dedup();
+        assert_eq!(titles.len(), SCOPES.len(), "{titles:?}");
     }
 
     #[test]

@@ -1,14 +1,15 @@
 //! The keyboard-driven terminal UI. `app` holds state and actions, `draw` renders it, `keys`
-//! is the one key table behind dispatch, help and footer. The terminal is restored on every
+//! is the one key table behind dispatch, help and footer, `units` rounds numbers for people. The terminal is restored on every
 //! way out, a panic included (ratatui's init installs the hook).
 
 pub mod app;
 pub mod draw;
 pub mod keys;
+pub mod units;
 
 use crate::error::{Error, Result};
 use crate::store::Store;
-use crossterm::event::{self, Event, KeyEventKind};
+use crossterm::event::{self, DisableBracketedPaste, EnableBracketedPaste, Event, KeyEventKind};
 use std::time::Duration;
 
 /// Runs the UI on the store it is given until the user quits. The UI opens no connection of
@@ -19,8 +20,15 @@ pub fn run(store: Store) -> Result<()> {
         return Err(Error::Invalid("the UI needs a database file".into()));
     }
     let mut app = app::App::new(store, keys);
+    // A person types as the screen changes under them: letters typed as a form closes are
+    // held back rather than taken as the view's keys.
+    app.settle = app::SETTLE;
     let mut terminal = ratatui::try_init()?;
+    // Pasted text arrives whole, so a newline in it cannot submit a form and spill the rest
+    // of the paste into the view as keys. A terminal without bracketed paste simply ignores it.
+    let _ = crossterm::execute!(std::io::stdout(), EnableBracketedPaste);
     let result = event_loop(&mut terminal, &mut app);
+    let _ = crossterm::execute!(std::io::stdout(), DisableBracketedPaste);
     ratatui::restore();
     result
 }
@@ -28,12 +36,16 @@ pub fn run(store: Store) -> Result<()> {
 fn event_loop(terminal: &mut ratatui::DefaultTerminal, app: &mut app::App) -> Result<()> {
     while !app.quit {
         app.poll_workers();
+        if let Ok(s) = terminal.size() {
+            app.size = (s.width, s.height);
+        }
         terminal.draw(|f| draw::draw(f, app))?;
-        if event::poll(Duration::from_millis(150))?
-            && let Event::Key(k) = event::read()?
-            && k.kind == KeyEventKind::Press
-        {
-            app.on_key(k);
+        if event::poll(Duration::from_millis(150))? {
+            match event::read()? {
+                Event::Key(k) if k.kind == KeyEventKind::Press => app.on_key(k),
+                Event::Paste(text) => app.on_paste(&text),
+                _ => {}
+            }
         }
     }
     Ok(())
