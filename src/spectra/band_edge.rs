@@ -250,70 +250,61 @@ struct Candidate {
     /// The derivative's positive lobes (red side, blue side) over its minimum's depth. A lone
     /// Gaussian's are equal (about 0.45 each); a step's are one-sided (about 1 and 0).
     lobes: (f64, f64),
-    /// Where it was found: the scale's slot, the bin and the reach of its lobes (the lobes
-    /// are measured only for the candidates that survive the merge across scales).
-    found_at: (usize, usize, usize),
 }
+
+/// The least significance a candidate needs to matter to any later choice: the first
+/// exciton needs [`MIN_SIGNIFICANCE`], a higher transition of the fit 4, and only a far more
+/// significant minimum can shadow another. Weaker minima (most of a noisy derivative's) are
+/// let go where they are found.
+const CANDIDATE_SIGNIFICANCE: f64 = 4.0;
 
 fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
     let mut all: Vec<Candidate> = Vec::new();
     let mut binned: Vec<f64> = Vec::new();
-    let mut derivatives: Vec<Vec<f64>> = Vec::with_capacity(SCALES_EV.len());
-    let (mut run_start, mut run_end): (Vec<usize>, Vec<usize>) = (Vec::new(), Vec::new());
+    let mut d2: Vec<f64> = Vec::new();
+    let quietest = noise.quietest();
     for &h_ev in &SCALES_EV {
         let f = ((h_ev / (5.0 * g.step_ev)).floor() as usize).max(1);
-        binned.clear();
-        let per = 1.0 / f as f64;
-        binned.extend(g.y.chunks_exact(f).map(|c| c.iter().sum::<f64>() * per));
+        let d2_of: &[f64] = if f == 1 {
+            &g.y
+        } else {
+            binned.clear();
+            let per = 1.0 / f as f64;
+            binned.extend(g.y.chunks_exact(f).map(|c| c.iter().sum::<f64>() * per));
+            &binned
+        };
         let step = f as f64 * g.step_ev;
         let e_at = |k: f64| g.e0_ev + 0.5 * (f - 1) as f64 * g.step_ev + k * step;
-        let nb = binned.len();
+        let nb = d2_of.len();
         let half = ((h_ev / step).round() as usize).max(3);
         if nb < 2 * half + 3 {
             continue;
         }
-        let Ok(d2) = savgol::filter(&binned, half, 2, 2, step) else {
+        if savgol::filter_into(d2_of, half, 2, 2, step, &mut d2).is_err() {
+            continue;
+        }
+        let Ok(gain) = savgol::noise_gain(half, 2, 2) else {
             continue;
         };
-        let Ok(c2) = savgol::coefficients(half, 2, 2) else {
-            continue;
-        };
+        let d2 = &d2[..];
         // The derivative's noise sd at bin k is sd_gain x the point noise there.
-        let sd_gain = c2.iter().map(|c| c * c).sum::<f64>().sqrt() / (step * step) / (f as f64).sqrt();
+        let sd_gain = gain / (step * step) / (f as f64).sqrt();
         let smoothing_var = h_ev * h_ev / 3.0;
-        // No minimum shallower than this can pass the depth test below wherever it is (the
-        // quietest block's noise): tested first, it lets most of a noisy derivative go with
-        // one well-predicted comparison.
-        let shallow = -3.0 * sd_gain * noise.quietest();
-        // Each bin's run of negative curvature (the trough it lies in), found in two passes
-        // rather than walked from every minimum.
-        run_start.clear();
-        run_end.clear();
-        run_start.resize(nb, 0);
-        run_end.resize(nb, 0);
-        for k in 0..nb {
-            run_start[k] = if k > 0 && d2[k] < 0.0 && d2[k - 1] < 0.0 {
-                run_start[k - 1]
-            } else {
-                k
-            };
-        }
-        for k in (0..nb).rev() {
-            run_end[k] = if k + 1 < nb && d2[k] < 0.0 && d2[k + 1] < 0.0 {
-                run_end[k + 1]
-            } else {
-                k
-            };
-        }
-        let slot = derivatives.len();
-        for k in half.max(1)..nb - half.max(1) {
-            if d2[k] >= shallow || !(d2[k] < 0.0 && d2[k] < d2[k - 1] && d2[k] <= d2[k + 1]) {
+        // No minimum shallower than this can reach the significance that matters wherever it
+        // is (the quietest block's noise): tested first, it lets most of a noisy derivative
+        // go with one well-predicted comparison.
+        let shallow = -CANDIDATE_SIGNIFICANCE * sd_gain * quietest;
+        let edge = half.max(1);
+        // Each position with its two neighbours (`w[1]` is bin k): no bounds to check in the
+        // one loop that visits every bin.
+        for (k, w) in (edge..).zip(d2[edge - 1..nb - edge + 1].windows(3)) {
+            if w[1] >= shallow || !(w[1] < 0.0 && w[1] < w[0] && w[1] <= w[2]) {
                 continue;
             }
             let sd = sd_gain * noise.at(k * f + f / 2);
             // The prominence never exceeds the depth: most noise wiggles are let go here,
             // before their ridges are walked.
-            if -d2[k] < 3.0 * sd {
+            if -d2[k] < CANDIDATE_SIGNIFICANCE * sd {
                 continue;
             }
             // Significance is the minimum's prominence, not its depth: a wiggle of noise inside
@@ -338,7 +329,7 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
             };
             let prominence = ridge(-1).min(ridge(1)) - d2[k];
             let significance = if sd > 0.0 { prominence / sd } else { f64::INFINITY };
-            if significance < 3.0 {
+            if significance < CANDIDATE_SIGNIFICANCE {
                 continue;
             }
             let denom = d2[k - 1] - 2.0 * d2[k] + d2[k + 1];
@@ -347,9 +338,16 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
             } else {
                 0.0
             };
-            // The zero crossings either side of the minimum are at ±σ for a Gaussian,
-            // widened by the smoothing window.
-            let (l, r) = (run_start[k], run_end[k]);
+            // The trough this minimum lies in: the run of negative curvature around it. Its
+            // zero crossings either side are at ±σ for a Gaussian, widened by the smoothing
+            // window.
+            let (mut l, mut r) = (k, k);
+            while l > 0 && d2[l - 1] < 0.0 {
+                l -= 1;
+            }
+            while r + 1 < nb && d2[r + 1] < 0.0 {
+                r += 1;
+            }
             let zl = if l > 0 {
                 l as f64 - d2[l] / (d2[l] - d2[l - 1])
             } else {
@@ -369,26 +367,23 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
             } * step;
             let sigma_obs = wh;
             let sigma = (wh * wh - smoothing_var).max(0.0).sqrt();
-            let height = if sigma > 0.0 {
-                -d2[k] * sigma_obs.powi(3) / sigma
-            } else {
-                0.0
-            };
+            // A minimum narrower than any excitonic band is a wiggle, a step or a spike at
+            // this width; the same feature seen at a wider window is judged there.
+            if !(sigma >= MIN_SIGMA_EV) {
+                continue;
+            }
+            let height = -d2[k] * sigma_obs.powi(3) / sigma;
             let reach = ((3.0 * wh / step).ceil() as usize).max(2);
+            let lobe = |range: std::ops::Range<usize>| d2[range].iter().copied().fold(0.0f64, f64::max) / -d2[k];
             all.push(Candidate {
                 e_ev: e_at(kc),
                 sigma_ev: sigma,
                 height,
                 significance,
-                lobes: (0.0, 0.0),
-                found_at: (slot, k, reach),
+                lobes: (lobe(k.saturating_sub(reach)..k), lobe(k + 1..(k + reach + 1).min(nb))),
             });
         }
-        derivatives.push(d2);
     }
-    // A minimum narrower than any excitonic band is a wiggle, a step or a spike at this
-    // width; the same feature seen at a wider window is judged there.
-    all.retain(|c| c.sigma_ev >= MIN_SIGMA_EV);
     // One feature shows at several widths: keep, for each, the width where it stands out most.
     all.sort_by(|a, b| b.significance.total_cmp(&a.significance));
     let mut kept: Vec<Candidate> = Vec::new();
@@ -399,15 +394,6 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
         if !near {
             kept.push(c);
         }
-    }
-    for c in &mut kept {
-        let (slot, k, reach) = c.found_at;
-        let d2 = &derivatives[slot];
-        let lobe = |range: std::ops::Range<usize>| d2[range].iter().copied().fold(0.0f64, f64::max) / -d2[k];
-        c.lobes = (
-            lobe(k.saturating_sub(reach)..k),
-            lobe(k + 1..(k + reach + 1).min(d2.len())),
-        );
     }
     kept.sort_by(|a, b| a.e_ev.total_cmp(&b.e_ev));
     kept
@@ -793,21 +779,53 @@ fn gaussian_column(e0: f64, h: f64, c: f64, sigma: f64, out: &mut [f64]) {
 /// Scratch space of one fit, reused across its iterations.
 struct Scratch {
     cols: Vec<f64>,
-    /// The Jacobian, one contiguous column of `len()` values per parameter, each already
-    /// multiplied by the point's weight; then the weighted residual.
+    /// The Jacobian, one contiguous column of `len()` values per parameter.
     jac: Vec<f64>,
+    /// One Jacobian column times the points' weights.
+    weighted: Vec<f64>,
     res: Vec<f64>,
 }
 
-/// Weighted normal equations JᵀWJ and JᵀW r at p; returns χ². The Jacobian is built column
-/// by column so every entry of JᵀWJ is one dot product of contiguous columns, which the
-/// compiler vectorises (an outer product per point did not).
+/// Weighted normal equations JᵀWJ and JᵀW r at p; returns χ².
 fn normal_equations(win: &Window, p: &[f64], jtj: &mut [f64], jtr: &mut [f64], sc: &mut Scratch) -> f64 {
+    let chi2 = residuals(win, p, sc);
+    jacobian_products(win, p, jtj, jtr, sc);
+    chi2
+}
+
+/// JᵀWJ and JᵀW r at p, from the residuals and Gaussian columns [`residuals`] left in `sc`
+/// for the same p (an accepted step has just computed them). The Jacobian is built column by
+/// column so every entry of JᵀWJ is one dot product of contiguous columns; each column is
+/// weighted once, not once for every product it enters.
+fn jacobian_products(win: &Window, p: &[f64], jtj: &mut [f64], jtr: &mut [f64], sc: &mut Scratch) {
+    #[cfg(target_arch = "x86_64")]
+    {
+        if std::is_x86_feature_detected!("avx") {
+            // SAFETY: `jacobian_products_avx` only differs from `jacobian_products_lanes` by
+            // being compiled for AVX; the CPU was checked just above to have it, which is all
+            // the `target_feature` attribute requires of its caller.
+            unsafe { jacobian_products_avx(win, p, jtj, jtr, sc) };
+            return;
+        }
+    }
+    jacobian_products_lanes(win, p, jtj, jtr, sc);
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx")]
+fn jacobian_products_avx(win: &Window, p: &[f64], jtj: &mut [f64], jtr: &mut [f64], sc: &mut Scratch) {
+    jacobian_products_lanes(win, p, jtj, jtr, sc);
+}
+
+/// The same operations in the same order with or without AVX (no fused multiply-add is
+/// enabled), so both give the same bits.
+#[inline(always)]
+fn jacobian_products_lanes(win: &Window, p: &[f64], jtj: &mut [f64], jtr: &mut [f64], sc: &mut Scratch) {
     let np = p.len();
     let m = win.len();
-    let chi2 = residuals(win, p, sc);
     sc.jac.resize(np * m, 0.0);
-    let (jac, res, cols) = (&mut sc.jac, &sc.res, &sc.cols);
+    sc.weighted.resize(m, 0.0);
+    let (jac, res, cols, weighted) = (&mut sc.jac, &sc.res, &sc.cols, &mut sc.weighted);
     {
         let (c0, rest) = jac.split_at_mut(m);
         let (c1, rest) = rest.split_at_mut(m);
@@ -831,36 +849,31 @@ fn normal_equations(win: &Window, p: &[f64], jtj: &mut [f64], jtr: &mut [f64], s
     }
     for a in 0..np {
         let ja = &jac[a * m..(a + 1) * m];
-        jtr[a] = dot3(ja, win.w, res);
+        for ((o, x), w) in weighted.iter_mut().zip(ja).zip(win.w) {
+            *o = x * w;
+        }
+        jtr[a] = dot(weighted, res);
         for b in a..np {
-            let v = dot3(ja, win.w, &jac[b * m..(b + 1) * m]);
+            let v = dot(weighted, &jac[b * m..(b + 1) * m]);
             jtj[a * np + b] = v;
             jtj[b * np + a] = v;
         }
     }
-    chi2
 }
 
-/// Σ aᵢ wᵢ bᵢ in four independent sums (so it vectorises and pipelines).
-fn dot3(a: &[f64], w: &[f64], b: &[f64]) -> f64 {
+/// Σ aᵢ bᵢ in four independent sums (so it vectorises and pipelines).
+#[inline(always)]
+fn dot(a: &[f64], b: &[f64]) -> f64 {
     let mut s = [0.0f64; 4];
-    let n = a.len().min(w.len()).min(b.len());
-    let (a, w, b) = (&a[..n], &w[..n], &b[..n]);
-    let mut ca = a.chunks_exact(4);
-    let mut cw = w.chunks_exact(4);
-    let mut cb = b.chunks_exact(4);
-    for ((x, y), z) in (&mut ca).zip(&mut cw).zip(&mut cb) {
+    let n = a.len().min(b.len());
+    let (ca, ta) = a[..n].as_chunks::<4>();
+    let (cb, tb) = b[..n].as_chunks::<4>();
+    for (x, z) in ca.iter().zip(cb) {
         for j in 0..4 {
-            s[j] += x[j] * y[j] * z[j];
+            s[j] += x[j] * z[j];
         }
     }
-    let tail: f64 = ca
-        .remainder()
-        .iter()
-        .zip(cw.remainder())
-        .zip(cb.remainder())
-        .map(|((x, y), z)| x * y * z)
-        .sum();
+    let tail: f64 = ta.iter().zip(tb).map(|(x, z)| x * z).sum();
     (s[0] + s[1]) + (s[2] + s[3]) + tail
 }
 
@@ -982,7 +995,9 @@ fn levenberg_marquardt(win: &Window, mut p: Vec<f64>, lo: f64, hi: f64, sc: &mut
             let unit = (c2 / dof).max(1.0);
             let done = chi2 - c2 < 0.01 * unit || (moved < 1e-6 && lambda < 1.0);
             p.copy_from_slice(&trial);
-            chi2 = normal_equations(win, &p, &mut jtj, &mut jtr, sc);
+            // `residuals` has just been evaluated at this p: only the products are new.
+            chi2 = c2;
+            jacobian_products(win, &p, &mut jtj, &mut jtr, sc);
             lambda = (lambda / 3.0).max(1e-9);
             if done {
                 break;
@@ -1048,6 +1063,7 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
     let mut sc = Scratch {
         cols: Vec::with_capacity(2 * m),
         jac: Vec::with_capacity((G + 6) * m),
+        weighted: Vec::with_capacity(m),
         res: Vec::with_capacity(m),
     };
     // Starting values: the first transition from the derivative, the next one or two from

@@ -246,6 +246,14 @@ pub fn at(y: &[f64], half: usize, order: usize, deriv: usize, dx: f64, i: usize)
 /// Applies the filter to evenly spaced data with spacing `dx`; returns the smoothed values
 /// (deriv 0) or the derivative in units of y per unit x.
 pub fn filter(y: &[f64], half: usize, order: usize, deriv: usize, dx: f64) -> Result<Vec<f64>> {
+    let mut out = Vec::new();
+    filter_into(y, half, order, deriv, dx, &mut out)?;
+    Ok(out)
+}
+
+/// [`filter`] into a buffer the caller keeps (an analysis that filters at several widths
+/// reuses one); `out` is resized to the length of `y`.
+pub fn filter_into(y: &[f64], half: usize, order: usize, deriv: usize, dx: f64, out: &mut Vec<f64>) -> Result<()> {
     let n = y.len();
     let w = 2 * half + 1;
     if n < w {
@@ -253,13 +261,23 @@ pub fn filter(y: &[f64], half: usize, order: usize, deriv: usize, dx: f64) -> Re
     }
     let window = window_rows(half, order, deriv)?;
     let scale = 1.0 / dx.powi(deriv as i32);
-    let mut out = vec![0.0; n];
+    out.resize(n, 0.0);
     interior(&window.rows[half], y, scale, &mut out[half..n - half]);
     // Near the ends the window is fitted off-centre: row i for output i, row 2·half - i for
     // output n - 1 - i.
     ends(&window.left, &y[..w], scale, &mut out[..half]);
     ends(&window.right, &y[n - w..], scale, &mut out[n - half..]);
-    Ok(out)
+    Ok(())
+}
+
+/// √(Σ cᵢ²) of the centred weights: how much the filter scales white noise of unit variance
+/// (per unit of point spacing, before the 1/dx^deriv of [`filter`]).
+pub fn noise_gain(half: usize, order: usize, deriv: usize) -> Result<f64> {
+    Ok(window_rows(half, order, deriv)?.rows[half]
+        .iter()
+        .map(|c| c * c)
+        .sum::<f64>()
+        .sqrt())
 }
 
 #[cfg(test)]
