@@ -120,7 +120,8 @@ pub fn energy_grid(t: &Trace) -> Option<EnergyGrid> {
     }
     let e: Vec<f64> = t.nm.iter().rev().map(|l| HC_EV_NM / l).collect();
     // Red to blue: native point j of the energy axis is the trace's point n-1-j.
-    let y = |j: usize| t.y[n - 1 - j];
+    let yr: Vec<f64> = t.y.iter().rev().copied().collect();
+    let (e, yr) = (&e[..n], &yr[..n]);
     // The median step. On an even wavelength grid (the common case) the energy steps grow
     // steadily towards the blue, so the middle one is the median; otherwise select it.
     let rising = e.windows(3).all(|w| w[1] - w[0] > 0.0 && w[2] - w[1] >= w[1] - w[0]);
@@ -141,9 +142,9 @@ pub fn energy_grid(t: &Trace) -> Option<EnergyGrid> {
     if m < 8 {
         return None;
     }
-    let mut out = Vec::with_capacity(m);
+    let mut out = vec![0.0; m];
     let mut j = 0usize; // first native point not left of the current bin
-    for i in 0..m {
+    for (i, v) in out.iter_mut().enumerate() {
         let c = first + i as f64 * step;
         let (lo, hi) = (c - 0.5 * step, c + 0.5 * step);
         while j < n && e[j] < lo {
@@ -151,11 +152,11 @@ pub fn energy_grid(t: &Trace) -> Option<EnergyGrid> {
         }
         let (mut k, mut sum) = (j, 0.0);
         while k < n && e[k] < hi {
-            sum += y(k);
+            sum += yr[k];
             k += 1;
         }
         let count = k - j;
-        let v = if count >= 2 {
+        *v = if count >= 2 {
             sum / count as f64
         } else {
             // Interpolate between the native points around the centre (j is the first point
@@ -169,12 +170,11 @@ pub fn energy_grid(t: &Trace) -> Option<EnergyGrid> {
             }
             let (e0, e1) = (e[r - 1], e[r]);
             if e1 > e0 {
-                y(r - 1) + (y(r) - y(r - 1)) * ((c - e0) / (e1 - e0)).clamp(0.0, 1.0)
+                yr[r - 1] + (yr[r] - yr[r - 1]) * ((c - e0) / (e1 - e0)).clamp(0.0, 1.0)
             } else {
-                y(r)
+                yr[r]
             }
         };
-        out.push(v);
     }
     Some(EnergyGrid {
         e0_ev: first,
