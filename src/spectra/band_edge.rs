@@ -212,14 +212,17 @@ fn local_noise(y: &[f64]) -> Option<LocalNoise> {
     let c0 = savgol::coefficients(half, 2, 0).ok()?[half];
     let scale = 1.4826 / (1.0 - c0).sqrt();
     let block = NOISE_BLOCK;
-    let mut r = Vec::with_capacity(block);
+    let mut r: Vec<u64> = Vec::with_capacity(block);
     let mut per_block = Vec::with_capacity(y.len() / block + 1);
     for (yc, sc) in y.chunks(block).zip(smooth.chunks(block)) {
+        // Absolute values have the sign bit clear, and for those the order of the bit
+        // patterns as integers is the order `f64::total_cmp` gives: the median is selected
+        // with integer comparisons.
         r.clear();
-        r.extend(yc.iter().zip(sc).map(|(a, b)| (a - b).abs()));
+        r.extend(yc.iter().zip(sc).map(|(a, b)| (a - b).abs().to_bits()));
         let mid = r.len() / 2;
-        let (_, m, _) = r.select_nth_unstable_by(mid, f64::total_cmp);
-        per_block.push(*m * scale);
+        let (_, m, _) = r.select_nth_unstable(mid);
+        per_block.push(f64::from_bits(*m) * scale);
     }
     // A last short block is a poor estimate: it takes its neighbour's where that is larger.
     if per_block.len() >= 2 && !y.len().is_multiple_of(block) && y.len() % block < block / 2 {
@@ -296,8 +299,22 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
         let shallow = -CANDIDATE_SIGNIFICANCE * sd_gain * quietest;
         let edge = half.max(1);
         // Each position with its two neighbours (`w[1]` is bin k): no bounds to check in the
-        // one loop that visits every bin.
-        for (k, w) in (edge..).zip(d2[edge - 1..nb - edge + 1].windows(3)) {
+        // one loop that visits every bin. Runs of eight bins none of which is below `shallow`
+        // (most of them) are passed over with one vectorised comparison.
+        let skip_runs = !shallow.is_nan();
+        let end = nb - edge;
+        let mut next = edge;
+        while next < end {
+            let k = next;
+            next += 1;
+            if skip_runs && k + 8 <= end {
+                let run: &[f64; 8] = d2[k..k + 8].as_array().unwrap_or(&[f64::NEG_INFINITY; 8]);
+                if !run.iter().fold(false, |any, &v| any | (v < shallow)) {
+                    next = k + 8;
+                    continue;
+                }
+            }
+            let w = [d2[k - 1], d2[k], d2[k + 1]];
             if w[1] >= shallow || !(w[1] < 0.0 && w[1] < w[0] && w[1] <= w[2]) {
                 continue;
             }
