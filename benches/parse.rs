@@ -40,10 +40,26 @@ fn series(points: usize, samples: usize) -> Vec<u8> {
     s.into_bytes()
 }
 
+/// The shape of the files `analyze` is timed on (benches/perf.rs writes 10,000 of them): whole
+/// nanometres and an absorbance with six decimals.
+fn analyze_file(points: usize) -> Vec<u8> {
+    let mut s = String::from("Wavelength (nm),Absorbance\n");
+    for i in 0..points {
+        let nm = 300 + i;
+        let a = 0.05 + 0.8 * (-(nm as f64 - 350.0) / 90.0).exp();
+        s.push_str(&format!("{nm},{a:.6}\n"));
+    }
+    s.into_bytes()
+}
+
 fn parse(c: &mut Criterion) {
     let opts = ReadOptions::default();
     let mut g = c.benchmark_group("parse");
-    for (name, bytes) in [("csv_601_points", csv(601)), ("csv_100k_points", csv(100_000))] {
+    for (name, bytes) in [
+        ("csv_601_points", csv(601)),
+        ("csv_100k_points", csv(100_000)),
+        ("analyze_shape_601_points", analyze_file(601)),
+    ] {
         g.throughput(Throughput::Bytes(bytes.len() as u64));
         g.bench_function(name, |b| {
             b.iter(|| read_bytes("bench.csv", black_box(&bytes), &opts).expect("reads"))

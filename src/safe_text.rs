@@ -50,8 +50,15 @@ fn cell_picture(c: char) -> char {
     }
 }
 
+/// Whether `s` is printable ASCII (and, where `keep` keeps them, newlines and tabs): text
+/// with no hazard in it, said from its bytes without decoding a character.
+fn plain_ascii(s: &str, keep: &impl Fn(char) -> bool) -> bool {
+    s.bytes()
+        .all(|b| (0x20..0x7f).contains(&b) || ((b == b'\n' || b == b'\t') && keep(char::from(b))))
+}
+
 fn replace_with(s: &str, keep: impl Fn(char) -> bool) -> Cow<'_, str> {
-    if !s.chars().any(|c| is_hazard(c) && !keep(c)) {
+    if plain_ascii(s, &keep) || !s.chars().any(|c| is_hazard(c) && !keep(c)) {
         return Cow::Borrowed(s);
     }
     let mut out = String::with_capacity(s.len() + 8);
@@ -98,7 +105,9 @@ pub fn json_text(json: String) -> String {
     // serde_json escapes every C0 control inside strings, so a raw newline, tab or carriage
     // return is whitespace between tokens (pretty printing) and must stay as it is.
     let escape = |c: char| is_hazard(c) && !matches!(c, '\n' | '\t' | '\r');
-    if !json.chars().any(escape) {
+    // The hazards left are DEL and code points beyond ASCII: text without such a byte (most
+    // JSON) has none, which one look at its bytes says.
+    if !json.bytes().any(|b| b >= 0x7f) || !json.chars().any(escape) {
         return json;
     }
     let mut out = String::with_capacity(json.len() + 16);
@@ -183,6 +192,31 @@ mod tests {
         assert_eq!(for_terminal("\u{202e}cod"), "<U+202E>cod");
         assert_eq!(for_terminal_lines("a\nb\tc\r"), "a\nb\tc\u{240d}");
         assert!(matches!(for_terminal("CdSe 560 nm µ"), Cow::Borrowed(_)));
+    }
+
+    /// The look at the bytes that lets plain ASCII through untouched agrees with the look at
+    /// every character, on text of printable ASCII, each control, DEL and code points beyond.
+    #[test]
+    fn plain_text_is_let_through_as_by_the_character_test() {
+        use proptest::prelude::*;
+        let mut runner = proptest::test_runner::TestRunner::default();
+        let text = "[ -~\u{0}-\u{1f}\u{7f}-\u{a0}\u{202e}\u{2028}é]{0,12}";
+        let checked = runner.run(&text, |s| {
+            let by_char = |keep: fn(char) -> bool| s.chars().any(|c| is_hazard(c) && !keep(c));
+            prop_assert_eq!(matches!(for_terminal(&s), Cow::Borrowed(_)), !by_char(|_| false));
+            prop_assert_eq!(
+                matches!(for_terminal_lines(&s), Cow::Borrowed(_)),
+                !by_char(|c| c == '\n' || c == '\t')
+            );
+            let json = serde_json::to_string(&s).unwrap_or_default();
+            let escaped = json_text(json.clone());
+            prop_assert_eq!(
+                escaped == json,
+                !json.chars().any(|c| is_hazard(c) && !matches!(c, '\n' | '\t' | '\r'))
+            );
+            Ok(())
+        });
+        assert!(checked.is_ok(), "{checked:?}");
     }
 
     #[test]

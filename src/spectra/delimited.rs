@@ -950,6 +950,15 @@ fn read_text(
     opts: &ReadOptions,
     plain: bool,
 ) -> Result<Vec<RawSpectrum>> {
+    if plain && let Some((delim, table)) = two_columns(text) {
+        let reading = Reading {
+            delim,
+            comma_decimal: false,
+            quoted: false,
+            cr_only: false,
+        };
+        return spectra_of(file, &reading, table, encoding, opts);
+    }
     let (spans, endings) = split_lines(text);
     let line_of = |i: usize| {
         let (a, b) = spans[i];
@@ -998,31 +1007,165 @@ fn read_text(
         }
     }
     judge_numbers(file, &src, &table, &mut warnings)?;
+    if endings.cr > 0 && endings.lf == 0 && endings.crlf == 0 {
+        warnings.push("old CR-only line endings read".to_string());
+    }
+    if comma_decimal {
+        warnings.push("decimal comma read".to_string());
+    }
+    table.shape.splice(0..0, shape);
+    table.warnings.splice(0..0, warnings);
+    let reading = Reading {
+        delim,
+        comma_decimal,
+        quoted: src.odd.quoted,
+        cr_only: endings.cr > 0 && endings.lf == 0 && endings.crlf == 0,
+    };
+    spectra_of(file, &reading, table, encoding, opts)
+}
 
+/// How a text was read, as `format` names it.
+struct Reading {
+    delim: Delim,
+    comma_decimal: bool,
+    quoted: bool,
+    cr_only: bool,
+}
+
+/// The spectra of a walked table, with the `format` its reading gives.
+fn spectra_of(
+    file: &str,
+    reading: &Reading,
+    table: Table,
+    encoding: Option<&str>,
+    opts: &ReadOptions,
+) -> Result<Vec<RawSpectrum>> {
     let mut format = format!(
         "{} ({}, decimal {}",
-        if delim == Delim::Comma { "csv" } else { "delimited text" },
-        delim.name(),
-        if comma_decimal { "comma" } else { "point" }
+        if reading.delim == Delim::Comma {
+            "csv"
+        } else {
+            "delimited text"
+        },
+        reading.delim.name(),
+        if reading.comma_decimal { "comma" } else { "point" }
     );
-    if src.odd.quoted {
+    if reading.quoted {
         format.push_str("; quoted numbers");
     }
-    if endings.cr > 0 && endings.lf == 0 && endings.crlf == 0 {
+    if reading.cr_only {
         format.push_str("; CR line endings");
-        warnings.push("old CR-only line endings read".to_string());
     }
     if let Some(enc) = encoding {
         format.push_str("; ");
         format.push_str(enc);
     }
     format.push(')');
-    if comma_decimal {
-        warnings.push("decimal comma read".to_string());
-    }
-    table.shape.splice(0..0, shape);
-    table.warnings.splice(0..0, warnings);
     grid::spectra_from_table(file, &format, table, opts)
+}
+
+/// The commonest export read in one pass over its bytes, without splitting it into lines
+/// first: an optional header line that starts with a letter, then rows of exactly two plain
+/// decimals (decimal point) separated by one comma, tab, semicolon or blank, each ending in LF
+/// or CRLF (the last one may end the text instead). For such a text the general reader finds
+/// exactly this table: no marker frames it (the header is none; a row of numbers never is);
+/// every sampled line that says what separates numbers is a row, so the reading is that
+/// delimiter with a decimal point (the first candidate with the most rows, see
+/// [`choose_reading`]); the header is text under every reading (its first cell begins with a
+/// letter and is not the float word `nan`, `inf` or `infinity`), so it is the header of the
+/// block of plain rows below it ([`grid::walk`]'s one-pass walk), with no metadata, oddity or
+/// warning. Any other text returns None and is read by the general reader; what the two
+/// give is compared in the tests on generated files.
+fn two_columns(text: &str) -> Option<(Delim, Table)> {
+    let b = text.as_bytes();
+    let n = b.len();
+    let first = *b.first()?;
+    let (header_end, data) = if first.is_ascii_alphabetic() {
+        let lf = b.iter().position(|&c| c == b'\n')?;
+        let end = if b[lf - 1] == b'\r' { lf - 1 } else { lf };
+        // A CR anywhere else makes the general split a byte-by-byte one.
+        if b[..end].contains(&b'\r') {
+            return None;
+        }
+        let head = &text[..end];
+        let word_end = head.bytes().position(|c| !c.is_ascii_alphabetic()).unwrap_or(end);
+        let word = &head[..word_end];
+        if ["nan", "inf", "infinity"].iter().any(|w| word.eq_ignore_ascii_case(w)) || marker(head).is_some() {
+            return None;
+        }
+        (Some(end), lf + 1)
+    } else if first.is_ascii_digit() {
+        (None, 0)
+    } else {
+        return None;
+    };
+    let (_, _, after) = mantissa_at(b, data, n, b'.')?;
+    let delim = match b.get(after)? {
+        b',' => Delim::Comma,
+        b'\t' => Delim::Tab,
+        b';' => Delim::Semicolon,
+        b' ' => Delim::Space,
+        _ => return None,
+    };
+    let d = delim.byte();
+    // Rows of the first row's length, for the columns' capacity.
+    let row_len = b[data..].iter().position(|&c| c == b'\n').map_or(n - data, |p| p + 1);
+    let rows_guess = (n - data) / row_len.max(1) + 1;
+    let mut xs = DeferredColumn {
+        values: Vec::with_capacity(rows_guess),
+        frac: SETTLED,
+    };
+    let mut ys = DeferredColumn {
+        values: Vec::with_capacity(rows_guess),
+        frac: SETTLED,
+    };
+    let mut i = data;
+    let mut rows = 0;
+    loop {
+        let (mx, fx, j) = mantissa_at(b, i, n, b'.')?;
+        if b.get(j) != Some(&d) {
+            return None;
+        }
+        let (my, fy, k) = mantissa_at(b, j + 1, n, b'.')?;
+        if rows == 0 {
+            // The first row sets the count of decimals each column defers.
+            xs.frac = fx;
+            ys.frac = fy;
+        }
+        xs.push(mx, fx);
+        ys.push(my, fy);
+        rows += 1;
+        i = match b.get(k) {
+            None => break,
+            Some(b'\n') => k + 1,
+            Some(b'\r') if b.get(k + 1) == Some(&b'\n') => k + 2,
+            Some(_) => return None,
+        };
+        if i == n {
+            break;
+        }
+    }
+    let first_row = usize::from(header_end.is_some());
+    let header = header_end.map(|end| {
+        let spans = [(0, end)];
+        TextRows {
+            text,
+            spans: &spans,
+            delim,
+            comma_decimal: false,
+            odd: Oddities::default(),
+            record: true,
+            plain: true,
+        }
+        .texts(0)
+    });
+    let table = Table {
+        header,
+        columns: grid::Columns::Dense(vec![xs.finish(), ys.finish()]),
+        lines: (first_row + 1..=first_row + rows).collect(),
+        ..Table::default()
+    };
+    Some((delim, table))
 }
 
 /// Chooses the delimiter and decimal mark: the pair under which the most lines of a sample
@@ -1641,6 +1784,139 @@ mod tests {
             let (want, w) = split_lines_reference(&text);
             prop_assert_eq!(spans, want);
             prop_assert_eq!((e.lf, e.crlf, e.cr), (w.lf, w.crlf, w.cr));
+        }
+    }
+
+    /// A first line for the one-pass two-column reading: headers it takes, and near misses it
+    /// must leave to the general reader (float words, markers, comments, a leading blank or
+    /// number, a CR inside, quotes, key/value lines).
+    fn two_column_header() -> impl Strategy<Value = String> {
+        prop_oneof![
+            4 => Just("Wavelength (nm),Absorbance".to_string()),
+            1 => Just("Wavelength (nm)\tAbsorbance".to_string()),
+            1 => Just("Energy (eV);Counts".to_string()),
+            1 => Just("nm  %T".to_string()),
+            1 => Just("Absorbance".to_string()),
+            1 => Just("nan,A".to_string()),
+            1 => Just("Inf nm,A".to_string()),
+            1 => Just("infinity\u{a0},x".to_string()),
+            1 => Just("NaN".to_string()),
+            1 => Just("Begin spectral data".to_string()),
+            1 => Just("End of data".to_string()),
+            1 => Just("# nm, A".to_string()),
+            1 => Just(" nm,A".to_string()),
+            1 => Just("1 nm,A".to_string()),
+            1 => Just("nm\r,A".to_string()),
+            1 => Just("\"nm\",\"A\"".to_string()),
+            1 => Just("X units: eV".to_string()),
+            1 => Just("x,1,5".to_string()),
+            1 => "[a-zA-Z][a-zA-Z0-9 ,;\t().%:=#\"-]{0,14}",
+        ]
+    }
+
+    /// A cell of a two-column row: mostly plain decimals, sometimes what the one-pass reading
+    /// refuses (an exponent, too many digits, a quote, a blank, a word, nothing).
+    fn two_column_cell() -> impl Strategy<Value = String> {
+        prop_oneof![
+            12 => "[+-]?[0-9]{1,4}(\\.[0-9]{0,7})?",
+            1 => "\\.[0-9]{1,3}",
+            1 => "[0-9]{1,2}e-?[0-9]",
+            1 => "[0-9]{20,21}",
+            1 => "\"[0-9]\\.[0-9]\"",
+            1 => " [0-9]",
+            1 => "[a-z]{1,3}",
+            1 => Just(String::new()),
+        ]
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(3000))]
+
+        /// The one-pass two-column reading gives what the general reader gives (the same
+        /// spectra bit for bit, or the same refusal) on files of its shape and on near misses:
+        /// odd first lines, odd cells, a row with another delimiter or another width, blanks
+        /// around a delimiter, CR, CRLF and mixed endings, blank lines and notes at the end.
+        #[test]
+        fn two_column_files_read_as_on_the_general_path(
+            header in proptest::option::of(two_column_header()),
+            rows in proptest::collection::vec(
+                ("[+-]?[0-9]{1,4}(\\.[0-9]{0,7})?", "[+-]?[0-9]{1,4}(\\.[0-9]{0,7})?"),
+                1..30,
+            ),
+            flaw in proptest::option::of((0usize..30, two_column_cell(), 0u8..7)),
+            delim in prop_oneof![Just(","), Just("\t"), Just(";"), Just(" ")],
+            eol in prop_oneof![4 => Just("\n"), 2 => Just("\r\n"), 1 => Just("\r")],
+            ending in prop_oneof![4 => Just(""), 4 => Just("\n"), 2 => Just("\r\n"), 1 => Just("\n\n"), 1 => Just("\nnotes: none\n")],
+            rising in prop_oneof![4 => Just(true), 1 => Just(false)],
+        ) {
+            let mut text = header.map(|h| format!("{h}{eol}")).unwrap_or_default();
+            let lines: Vec<String> = rows
+                .iter()
+                .enumerate()
+                .map(|(i, (x, y))| {
+                    // Mostly a rising x, so that most files read to the end.
+                    let x = if rising { format!("{}", 400 + 3 * i) } else { x.clone() };
+                    let Some((_, cell, how)) = flaw.as_ref().filter(|f| f.0 == i) else {
+                        return format!("{x}{delim}{y}");
+                    };
+                    match how {
+                        0 => format!("{x}{delim} {y}"),
+                        1 => format!("{x},{y};1"),
+                        2 => format!("{x}{delim}{y}{delim}"),
+                        3 => format!("{x}{delim}{y}\r"),
+                        4 => x.to_string(),
+                        5 => format!("{cell}{delim}{y}"),
+                        _ => format!("{x}{delim}{cell}"),
+                    }
+                })
+                .collect();
+            text.push_str(&lines.join(eol));
+            text.push_str(ending);
+            let show = |r: Result<Vec<RawSpectrum>>| match r {
+                Ok(v) => format!("{:?}", v.iter().map(|s| (s, s.x.iter().chain(&s.y).map(|v| v.to_bits()).collect::<Vec<_>>())).collect::<Vec<_>>()),
+                Err(e) => e.to_string(),
+            };
+            let fast = show(read_text("f.csv", &text, None, &opts(), true));
+            let general = show(read_text("f.csv", &text, None, &opts(), false));
+            prop_assert_eq!(fast, general, "{:?}", text);
+        }
+    }
+
+    /// The one-pass two-column reading is the one taken for the shape `analyze` is timed on,
+    /// for its blank-, tab- and semicolon-separated and CRLF relatives and for a file without
+    /// a header; and it is not taken where the general reader must look further.
+    #[test]
+    fn two_column_shapes_take_the_one_pass_reading() {
+        let rows = |sep: &str, eol: &str| -> String {
+            (0..20)
+                .map(|i| format!("{},{:.6}{eol}", 300 + i, 0.5 + 0.01 * i as f64).replace(',', sep))
+                .collect()
+        };
+        for (text, delim) in [
+            (format!("Wavelength (nm),Absorbance\n{}", rows(",", "\n")), Delim::Comma),
+            (format!("Wavelength (nm)\tA\r\n{}", rows("\t", "\r\n")), Delim::Tab),
+            (format!("nm;A\n{}", rows(";", "\n")), Delim::Semicolon),
+            (format!("nm A\n{}", rows(" ", "\n").trim_end()), Delim::Space),
+            (rows(",", "\n"), Delim::Comma),
+        ] {
+            let (got, table) = two_columns(&text).unwrap_or_else(|| panic!("not taken: {text:?}"));
+            assert_eq!(got, delim, "{text:?}");
+            assert_eq!(table.lines.len(), 20, "{text:?}");
+            assert_eq!(
+                format!("{:?}", read_text("f.csv", &text, None, &opts(), true).unwrap()),
+                format!("{:?}", read_text("f.csv", &text, None, &opts(), false).unwrap()),
+            );
+        }
+        for text in [
+            "nan,A\n400,0.1\n401,0.2\n",
+            "Begin spectral data\n400,0.1\n401,0.2\n",
+            "# nm, A\n400,0.1\n401,0.2\n",
+            "nm,A\n400,0.1\n401,0.2\n\n",
+            "nm,A\n400,0.1\r401,0.2\n",
+            "nm,A\n400,0.1\n401,1e-3\n",
+            "nm,A\n400,0.1,7\n401,0.2,8\n",
+        ] {
+            assert!(two_columns(text).is_none(), "{text:?}");
         }
     }
 
