@@ -51,7 +51,10 @@ fn every_view_renders_its_content_at_80x24() {
         s.contains("cadmium oxide H330") && s.contains("SDS"),
         "hazards and the SDS notice shown: {s}"
     );
-    assert!(s.contains("yu20 v2"), "curve and calibration version shown: {s}");
+    assert!(
+        s.contains("yu2003 v2"),
+        "curve (in full) and calibration version shown: {s}"
+    );
     press(&mut app, KeyCode::Char('p'));
     assert!(screen(&app).contains("PL (p: absorbance)"));
     press(&mut app, KeyCode::Char('2'));

@@ -1533,11 +1533,20 @@ pub struct AuditRow {
 }
 
 pub fn audit_log(conn: &Connection, entity: Option<&str>, limit: i64) -> Result<Vec<AuditRow>> {
+    audit_rows(conn, entity, None, limit)
+}
+
+/// The audit entries about one thing (a batch, vial, aliquot...), newest first.
+pub fn audit_log_of(conn: &Connection, entity: &str, entity_id: i64, limit: i64) -> Result<Vec<AuditRow>> {
+    audit_rows(conn, Some(entity), Some(entity_id), limit)
+}
+
+fn audit_rows(conn: &Connection, entity: Option<&str>, entity_id: Option<i64>, limit: i64) -> Result<Vec<AuditRow>> {
     let mut st = conn.prepare(
         "SELECT id, at, who, entity, entity_id, action, before, after FROM audit_log
-         WHERE (?1 IS NULL OR entity = ?1) ORDER BY id DESC LIMIT ?2",
+         WHERE (?1 IS NULL OR entity = ?1) AND (?2 IS NULL OR entity_id = ?2) ORDER BY id DESC LIMIT ?3",
     )?;
-    let rows = st.query_map(params![entity, limit], |r| {
+    let rows = st.query_map(params![entity, entity_id, limit], |r| {
         let b: Option<String> = r.get(6)?;
         let a: Option<String> = r.get(7)?;
         Ok(AuditRow {

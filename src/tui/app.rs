@@ -4,7 +4,7 @@
 //! connection and reports back over a channel, so the screen stays responsive.
 
 use super::keys::{Action, KeyMap, Scope};
-use super::units;
+use super::{shelf, units};
 use crate::bench::{self, SpectrumFile};
 use crate::derive::{calibration, engine};
 use crate::report::plot::SeriesItem;
@@ -267,6 +267,40 @@ pub const SORT_KEYS: &[SortKey] = &[
     SortKey::Stock,
 ];
 
+/// The shelf's own query, grouping and sort (see [`super::shelf`]).
+#[derive(Debug, Clone)]
+pub struct ShelfOrder {
+    pub query: String,
+    /// Where the cursor is in the shelf's search box (a character index).
+    pub cursor: usize,
+    pub error: Option<String>,
+    /// The 1-based column of the error, while the query has one.
+    pub error_column: Option<usize>,
+    /// What the last query that parsed means: the vials on screen are its vials.
+    pub meaning: String,
+    pub group: shelf::Group,
+    pub sort: shelf::Sort,
+    pub desc: bool,
+}
+
+impl Default for ShelfOrder {
+    fn default() -> ShelfOrder {
+        ShelfOrder {
+            query: String::new(),
+            cursor: 0,
+            error: None,
+            error_column: None,
+            meaning: "every vial".into(),
+            group: shelf::Group::Location,
+            sort: shelf::Sort::Added,
+            desc: false,
+        }
+    }
+}
+
+/// How many audit entries the trail reads at a time; scrolling past them reads more.
+pub const TRAIL_PAGE: i64 = 300;
+
 pub struct App {
     pub store: Store,
     pub db_path: Option<PathBuf>,
@@ -280,13 +314,22 @@ pub struct App {
     pub query_cursor: usize,
     pub hits: Vec<Hit>,
     pub query_error: Option<String>,
+    /// The 1-based column of the query's error, while it has one.
+    pub query_error_column: Option<usize>,
+    /// What the last query that parsed means, told back as it is typed: while the query has an
+    /// error, the results on screen are still this one's.
+    pub query_meaning: String,
     pub sort: SortKey,
     pub sort_desc: bool,
     pub selected: usize,
     pub sheet: Option<Value>,
     pub series: Vec<SeriesItem>,
     pub show_pl: bool,
+    /// The vials shown, as the shelf's query, grouping and sort arrange them.
     pub vials: Vec<model::VialRow>,
+    /// Every vial read (disposed ones too when shown), before the shelf's query.
+    pub all_vials: Vec<model::VialRow>,
+    pub shelf: ShelfOrder,
     pub vial_selected: usize,
     /// The shelf lists disposed vials too.
     pub show_disposed: bool,
@@ -297,6 +340,11 @@ pub struct App {
     pub calibrations: Vec<calibration::CalibrationVersion>,
     pub preview: Option<engine::RecomputeReport>,
     pub trail: Vec<model::AuditRow>,
+    pub trail_selected: usize,
+    /// How many of the newest entries the trail has read.
+    pub trail_limit: i64,
+    /// The trail shows only the entries about this thing (entity, id).
+    pub trail_focus: Option<(String, i64)>,
     pub message: Option<(bool, String)>,
     pub progress: Option<(String, usize, usize)>,
     pub export_dir: PathBuf,
@@ -326,6 +374,14 @@ pub struct App {
     new_vial: Option<i64>,
 }
 
+/// The 1-based column a query error names.
+fn error_column(e: &crate::Error) -> Option<usize> {
+    match e {
+        crate::Error::Query { column, .. } => Some(*column),
+        _ => None,
+    }
+}
+
 fn num(v: Option<f64>, d: usize) -> String {
     v.map(|x| format!("{x:.d$}")).unwrap_or_else(|| "-".into())
 }
@@ -346,6 +402,8 @@ impl App {
             query_cursor: 0,
             hits: Vec::new(),
             query_error: None,
+            query_error_column: None,
+            query_meaning: "every batch".into(),
             sort: SortKey::Id,
             sort_desc: true,
             selected: 0,
@@ -353,6 +411,8 @@ impl App {
             series: Vec::new(),
             show_pl: false,
             vials: Vec::new(),
+            all_vials: Vec::new(),
+            shelf: ShelfOrder::default(),
             vial_selected: 0,
             show_disposed: false,
             aliquot_selected: 0,
@@ -360,6 +420,9 @@ impl App {
             calibrations: Vec::new(),
             preview: None,
             trail: Vec::new(),
+            trail_selected: 0,
+            trail_limit: TRAIL_PAGE,
+            trail_focus: None,
             message: None,
             progress: None,
             export_dir: std::env::current_dir().unwrap_or_default(),
@@ -400,7 +463,8 @@ impl App {
             if let Some(i) = batch_was.and_then(|id| self.hits.iter().position(|h| h.id == id)) {
                 self.selected = i;
             }
-            self.vials = model::list_vials(&self.store.conn, self.show_disposed)?;
+            self.all_vials = model::list_vials(&self.store.conn, self.show_disposed)?;
+            self.reshelve();
             if let Some(i) = vial_was.and_then(|id| self.vials.iter().position(|v| v.id == id)) {
                 self.vial_selected = i;
             }
@@ -409,7 +473,7 @@ impl App {
             }
             self.stale_batches = engine::stale_batches(&self.store.conn)?;
             self.calibrations = calibration::history(&self.store.conn)?;
-            self.trail = model::audit_log(&self.store.conn, None, 300)?;
+            self.load_trail()?;
             if let Some(id) = self.sheet.as_ref().and_then(|s| s["id"].as_i64()) {
                 match self.open_sheet(id) {
                     Ok(()) => {}
@@ -434,19 +498,118 @@ impl App {
     }
 
     /// Re-filters the batch list from the facts in memory: cheap enough for every keystroke.
+    /// A query with an error leaves the last good results (and their meaning) in place.
     pub fn refilter(&mut self) {
         match search::parse(&self.query) {
             Ok(q) => {
                 self.query_error = None;
+                self.query_error_column = None;
+                self.query_meaning = search::describe(&q);
                 self.hits = search::filter(&self.facts, &q);
                 if q.words().is_empty() {
                     self.sort_hits();
                 }
             }
-            Err(e) => self.query_error = Some(e.to_string()),
+            Err(e) => {
+                self.query_error_column = error_column(&e);
+                self.query_error = Some(e.to_string());
+            }
         }
         if self.selected >= self.hits.len() {
             self.selected = self.hits.len().saturating_sub(1);
+        }
+    }
+
+    /// Arranges the shelf from the vials in memory: its query, grouping and sort. The
+    /// selection stays on the vial it was on while that vial still shows. A query with an error
+    /// leaves the last good arrangement in place.
+    pub fn reshelve(&mut self) {
+        let was = self.vials.get(self.vial_selected).map(|v| v.id);
+        match search::parse(&self.shelf.query) {
+            Ok(q) => {
+                self.shelf.error = None;
+                self.shelf.error_column = None;
+                self.shelf.meaning = if q.clauses.is_empty() {
+                    "every vial".into()
+                } else {
+                    search::describe(&q)
+                };
+                let o = &self.shelf;
+                self.vials = shelf::arrange(&self.all_vials, &self.facts, &q, o.group, o.sort, o.desc);
+            }
+            Err(e) => {
+                self.shelf.error_column = error_column(&e);
+                self.shelf.error = Some(e.to_string());
+                // The vials shown stay; their rows are refreshed from what was just read.
+                let fresh: std::collections::HashMap<i64, &model::VialRow> =
+                    self.all_vials.iter().map(|v| (v.id, v)).collect();
+                self.vials = self
+                    .vials
+                    .iter()
+                    .filter_map(|v| fresh.get(&v.id).map(|f| (*f).clone()))
+                    .collect();
+            }
+        }
+        if let Some(i) = was.and_then(|id| self.vials.iter().position(|v| v.id == id)) {
+            self.vial_selected = i;
+        }
+        if self.vial_selected >= self.vials.len() {
+            self.vial_selected = self.vials.len().saturating_sub(1);
+        }
+    }
+
+    /// Reads the trail (the newest `trail_limit` entries, or every entry about the focused
+    /// thing), keeping the selection on the entry it was on.
+    fn load_trail(&mut self) -> crate::Result<()> {
+        let was = self.trail.get(self.trail_selected).map(|r| r.id);
+        self.trail = match &self.trail_focus {
+            Some((entity, id)) => model::audit_log_of(&self.store.conn, entity, *id, i64::MAX)?,
+            None => model::audit_log(&self.store.conn, None, self.trail_limit)?,
+        };
+        if let Some(i) = was.and_then(|id| self.trail.iter().position(|r| r.id == id)) {
+            self.trail_selected = i;
+        }
+        self.trail_selected = self.trail_selected.min(self.trail.len().saturating_sub(1));
+        Ok(())
+    }
+
+    /// Moves the trail's selection by `step` entries, reading older entries when it passes
+    /// the last one read.
+    fn trail_step(&mut self, step: isize) {
+        let want = self.trail_selected as isize + step;
+        if want >= self.trail.len() as isize
+            && self.trail_focus.is_none()
+            && self.trail.len() as i64 >= self.trail_limit
+        {
+            self.trail_limit += TRAIL_PAGE.max(step as i64);
+            if let Err(e) = self.load_trail() {
+                self.error(e.to_string());
+            }
+        }
+        let last = self.trail.len().saturating_sub(1) as isize;
+        self.trail_selected = want.clamp(0, last.max(0)) as usize;
+    }
+
+    /// Rows a page of a list moves by: the body of the screen less its headers.
+    fn page_rows(&self) -> usize {
+        (self.size.1 as usize).saturating_sub(9).max(1)
+    }
+
+    /// Moves the selection of the view's list by `step` rows (negative: up).
+    fn step(&mut self, step: isize) {
+        let moved = |at: usize, len: usize| (at as isize + step).clamp(0, len.saturating_sub(1) as isize) as usize;
+        match self.view {
+            View::Shelf => self.vial_selected = moved(self.vial_selected, self.vials.len()),
+            View::Sheet => {
+                let n = self
+                    .sheet
+                    .as_ref()
+                    .and_then(|s| s["aliquots"].as_array().map(|a| a.len()))
+                    .unwrap_or(0);
+                self.aliquot_selected = moved(self.aliquot_selected, n);
+            }
+            View::Trail => self.trail_step(step),
+            _ => self.selected = moved(self.selected, self.hits.len()),
         }
     }
 
@@ -500,7 +663,7 @@ impl App {
             View::Sheet => Scope::Sheet,
             View::Shelf => Scope::Shelf,
             View::Calibrations => Scope::Calibrations,
-            View::Trail => Scope::Everywhere,
+            View::Trail => Scope::Trail,
         }
     }
 
@@ -671,10 +834,10 @@ impl App {
             }
             Mode::Search => {
                 for c in clean.chars() {
-                    edit_line(&mut self.query, &mut self.query_cursor, Edit::Insert(c));
+                    let (text, cursor) = self.search_text();
+                    edit_line(text, cursor, Edit::Insert(c));
                 }
-                self.selected = 0;
-                self.refilter();
+                self.searched();
             }
             _ => self.error("pasted text goes into a form's field or the search box (/)"),
         }
@@ -725,17 +888,38 @@ impl App {
         }
     }
 
+    /// The search box being typed in: the shelf's on the shelf, else the batch list's.
+    fn search_text(&mut self) -> (&mut String, &mut usize) {
+        if self.view == View::Shelf {
+            (&mut self.shelf.query, &mut self.shelf.cursor)
+        } else {
+            (&mut self.query, &mut self.query_cursor)
+        }
+    }
+
+    /// After the search box's text changed: the list re-filters, its first row selected.
+    fn searched(&mut self) {
+        if self.view == View::Shelf {
+            self.vial_selected = 0;
+            self.reshelve();
+            self.vial_selected = 0;
+        } else {
+            self.selected = 0;
+            self.refilter();
+        }
+    }
+
     fn search_key(&mut self, ev: KeyEvent) {
         match ev.code {
             KeyCode::Esc | KeyCode::Enter => return,
-            KeyCode::Down => self.selected = (self.selected + 1).min(self.hits.len().saturating_sub(1)),
-            KeyCode::Up => self.selected = self.selected.saturating_sub(1),
+            KeyCode::Down => self.step(1),
+            KeyCode::Up => self.step(-1),
             _ => {
-                if let Some(e) = self.field_edit(&ev)
-                    && edit_line(&mut self.query, &mut self.query_cursor, e)
-                {
-                    self.selected = 0;
-                    self.refilter();
+                if let Some(e) = self.field_edit(&ev) {
+                    let (text, cursor) = self.search_text();
+                    if edit_line(text, cursor, e) {
+                        self.searched();
+                    }
                 }
             }
         }
@@ -858,26 +1042,34 @@ impl App {
             Action::Calibrations => self.view = View::Calibrations,
             Action::Trail => self.view = View::Trail,
             Action::Search => {
-                self.view = View::Batches;
+                if self.view != View::Shelf {
+                    self.view = View::Batches;
+                }
                 self.mode = Mode::Search;
             }
-            Action::Up => match self.view {
-                View::Shelf => self.vial_selected = self.vial_selected.saturating_sub(1),
-                View::Sheet => self.aliquot_selected = self.aliquot_selected.saturating_sub(1),
-                _ => self.selected = self.selected.saturating_sub(1),
-            },
-            Action::Down => match self.view {
-                View::Shelf => self.vial_selected = (self.vial_selected + 1).min(self.vials.len().saturating_sub(1)),
-                View::Sheet => {
-                    let n = self
-                        .sheet
-                        .as_ref()
-                        .and_then(|s| s["aliquots"].as_array().map(|a| a.len()))
-                        .unwrap_or(0);
-                    self.aliquot_selected = (self.aliquot_selected + 1).min(n.saturating_sub(1));
+            Action::Up => self.step(-1),
+            Action::Down => self.step(1),
+            Action::PageUp => self.step(-(self.page_rows() as isize)),
+            Action::PageDown => self.step(self.page_rows() as isize),
+            Action::GroupNext => {
+                let i = shelf::GROUPS.iter().position(|g| *g == self.shelf.group).unwrap_or(0);
+                self.shelf.group = shelf::GROUPS[(i + 1) % shelf::GROUPS.len()];
+                self.reshelve();
+            }
+            Action::TrailFocus => {
+                self.trail_focus = match (&self.trail_focus, self.trail.get(self.trail_selected)) {
+                    (None, Some(r)) => match r.entity_id {
+                        Some(id) => Some((r.entity.clone(), id)),
+                        None => {
+                            return self.error("this entry is about no one thing (f needs a batch, vial, aliquot...)");
+                        }
+                    },
+                    _ => None,
+                };
+                if let Err(e) = self.load_trail() {
+                    self.error(e.to_string());
                 }
-                _ => self.selected = (self.selected + 1).min(self.hits.len().saturating_sub(1)),
-            },
+            }
             Action::Back => {
                 if self.view == View::Sheet {
                     self.view = View::Batches;
@@ -890,6 +1082,15 @@ impl App {
                         Err(e) => self.error(e.to_string()),
                     }
                 }
+            }
+            Action::SortNext if self.view == View::Shelf => {
+                let i = shelf::SORTS.iter().position(|k| *k == self.shelf.sort).unwrap_or(0);
+                self.shelf.sort = shelf::SORTS[(i + 1) % shelf::SORTS.len()];
+                self.reshelve();
+            }
+            Action::SortReverse if self.view == View::Shelf => {
+                self.shelf.desc = !self.shelf.desc;
+                self.reshelve();
             }
             Action::SortNext => {
                 let i = SORT_KEYS.iter().position(|k| *k == self.sort).unwrap_or(0);

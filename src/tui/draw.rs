@@ -5,6 +5,7 @@
 use super::app::{App, Mode, SortKey, View};
 use super::keys::Scope;
 use super::units;
+use crate::search::Facts;
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Layout, Rect};
 use ratatui::style::{Color, Modifier, Style};
@@ -44,6 +45,11 @@ impl Palette {
     }
     fn head(&self) -> Style {
         Style::default().add_modifier(Modifier::BOLD)
+    }
+    /// What is shown for context rather than as the answer: a query's meaning, results kept
+    /// from an earlier query.
+    fn dim(&self) -> Style {
+        Style::default().add_modifier(Modifier::DIM)
     }
     fn trace(&self, i: usize, count: usize) -> Style {
         if !self.on {
@@ -148,75 +154,222 @@ fn edited(text: &str, cursor: usize, width: usize, style: Style) -> Vec<Span<'st
     ]
 }
 
-fn draw_batches(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
-    let [search, table] = Layout::vertical([Constraint::Length(1), Constraint::Min(3)]).areas(area);
-    let searching = matches!(app.mode, Mode::Search);
-    let mut line = vec![Span::styled("/ ", p.head())];
-    if searching {
-        let room = (area.width as usize / 2).max(20);
-        line.extend(edited(&app.query, app.query_cursor, room, Style::default()));
-        f.set_cursor_position((search.x + 2 + app.query_cursor.min(room - 1) as u16, search.y));
+/// What a search box shows: its text, whether it is being typed in, what the last good query
+/// means, the current error and its column, and a count of what is listed.
+struct SearchBox<'a> {
+    text: &'a str,
+    cursor: usize,
+    typing: bool,
+    meaning: &'a str,
+    error: Option<&'a str>,
+    column: Option<usize>,
+    count: String,
+}
+
+impl SearchBox<'_> {
+    /// Lines it takes: the query and its meaning, and while the query has an error, the error
+    /// under its column and a line saying whose results are still listed.
+    fn height(&self) -> u16 {
+        if self.error.is_some() { 3 } else { 2 }
+    }
+}
+
+/// The search box: the query as typed, then what it means as parsed. While the query has an
+/// error the list keeps the last good query's results and says so, so a half-typed query never
+/// empties the screen.
+fn draw_search_box(f: &mut Frame, sb: &SearchBox, area: Rect, p: &Palette) {
+    let mut first = vec![Span::styled("/ ", p.head())];
+    let room = (area.width as usize / 2).max(20);
+    // The first character shown: the edited text scrolls to keep the cursor in view.
+    let start = if sb.typing {
+        first.extend(edited(sb.text, sb.cursor, room, Style::default()));
+        f.set_cursor_position((area.x + 2 + sb.cursor.min(room - 1) as u16, area.y));
+        (sb.cursor + 1).saturating_sub(room.max(2))
     } else {
-        line.push(Span::raw(app.query.clone()));
+        first.push(Span::raw(sb.text.to_string()));
+        0
+    };
+    let mut lines = Vec::new();
+    match sb.error {
+        None => {
+            first.push(Span::raw(format!("  {}", sb.count)));
+            lines.push(Line::from(first));
+            lines.push(Line::from(vec![
+                Span::styled("  means: ", p.dim()),
+                Span::styled(sb.meaning.to_string(), p.dim()),
+            ]));
+        }
+        Some(e) => {
+            lines.push(Line::from(first));
+            let caret = sb
+                .column
+                .and_then(|c| c.checked_sub(1 + start))
+                .map(|c| c + 2)
+                .filter(|at| at + 2 + e.chars().count() <= area.width as usize);
+            lines.push(match caret {
+                Some(at) => Line::from(vec![Span::raw(" ".repeat(at)), Span::styled(format!("^ {e}"), p.err())]),
+                None => Line::styled(format!("  {e}"), p.err()),
+            });
+            lines.push(Line::styled(
+                format!("  showing results for: {} ({})", sb.meaning, sb.count),
+                p.dim(),
+            ));
+        }
     }
-    match &app.query_error {
-        Some(e) => line.push(Span::styled(format!("  {e}"), p.err())),
-        None => line.push(Span::raw(format!(
-            "  {} of {} batches",
-            app.hits.len(),
-            app.facts.len()
-        ))),
+    f.render_widget(Paragraph::new(lines), area);
+}
+
+/// One column of the batch list: its header, its width and how a batch fills it.
+struct Column<'a> {
+    head: String,
+    width: u16,
+    cell: Box<dyn Fn(&Facts) -> String + 'a>,
+}
+
+impl<'a> Column<'a> {
+    /// A column as wide as its header (with room for the sort arrow) and its widest cell over
+    /// every batch, not only the hits, so columns stay put while a query is typed.
+    fn fitted(app: &App, head: String, cell: Box<dyn Fn(&Facts) -> String + 'a>) -> Column<'a> {
+        let widest = app.facts.iter().map(|b| cell(b).chars().count()).max().unwrap_or(0);
+        let width = widest.max(head.chars().count() + 1).min(48) as u16;
+        Column { head, width, cell }
     }
-    f.render_widget(Paragraph::new(Line::from(line)), search);
-    let header = Row::new(vec![
-        sort_mark(app, SortKey::Id, "id"),
-        sort_mark(app, SortKey::Date, "date"),
-        sort_mark(app, SortKey::Material, "material"),
-        sort_mark(app, SortKey::Peak, "peak"),
-        sort_mark(app, SortKey::Diameter, "D nm"),
-        sort_mark(app, SortKey::Qy, "QY"),
-        sort_mark(app, SortKey::Stock, "mL"),
-        "state".to_string(),
-        "name".to_string(),
-    ])
-    .style(p.head());
+}
+
+/// The batch list's columns for a width: at 80 columns id, date, material, peak, D, QY, mL,
+/// the STALE mark and the name (with its status); as the terminal widens, status, operator,
+/// σ/D, PL and recipe join, in that order, each only while the name still fits uncut (the
+/// recipe, last, may be cut once 12 cells are free for it).
+fn batch_columns<'a>(app: &'a App, width: u16) -> Vec<Column<'a>> {
+    let fit = |head: String, cell: Box<dyn Fn(&Facts) -> String + 'a>| Column::fitted(app, head, cell);
+    let bracketed = |b: &Facts| {
+        if b.status == "done" {
+            b.name.clone()
+        } else {
+            format!("{} [{}]", b.name, units::words(&b.status))
+        }
+    };
+    let name = fit("name".into(), Box::new(|b| b.name.clone()));
+    let name_with_status = fit("name".into(), Box::new(bracketed));
+    let mut status = Some(fit("status".into(), Box::new(|b| units::words(&b.status))));
+    let mut operator = Some(fit(
+        "operator".into(),
+        Box::new(|b| b.operator.clone().unwrap_or_default()),
+    ));
+    let mut dispersion = Some(fit("σ/D".into(), Box::new(|b| n(b.size_dispersion_pct, 1))));
+    let mut pl = Some(fit("PL".into(), Box::new(|b| n(b.pl_peak_nm, 1))));
+    let mut recipe = Some(fit("recipe".into(), Box::new(|b| b.recipe.clone().unwrap_or_default())));
+    let base: Vec<Column> = vec![
+        fit(sort_mark(app, SortKey::Id, "id"), Box::new(|b| b.id.to_string())),
+        fit(
+            sort_mark(app, SortKey::Date, "date"),
+            Box::new(|b| b.started_at.get(..10).unwrap_or("").to_string()),
+        ),
+        fit(
+            sort_mark(app, SortKey::Material, "material"),
+            Box::new(|b| b.material.clone()),
+        ),
+        fit(
+            sort_mark(app, SortKey::Peak, "peak"),
+            Box::new(|b| n(b.first_exciton_nm, 1)),
+        ),
+        fit(
+            sort_mark(app, SortKey::Diameter, "D nm"),
+            Box::new(|b| n(b.diameter_nm, 2)),
+        ),
+        fit(sort_mark(app, SortKey::Qy, "QY"), Box::new(|b| n(b.qy, 2))),
+        fit(
+            sort_mark(app, SortKey::Stock, "mL"),
+            Box::new(|b| units::ml(b.stock_ml)),
+        ),
+        fit(
+            "state".into(),
+            Box::new(|b| {
+                if app.stale_batches.contains(&b.id) {
+                    "STALE".into()
+                } else {
+                    String::new()
+                }
+            }),
+        ),
+    ];
+    // Each column is followed by a one-cell gap.
+    let mut used: u16 = base.iter().map(|c| c.width + 1).sum();
+    let mut with_status = false;
+    for slot in [&mut status, &mut operator, &mut dispersion, &mut pl, &mut recipe] {
+        let Some(c) = slot.as_ref() else { continue };
+        let is_status = c.head == "status";
+        let is_recipe = c.head == "recipe";
+        let name_need = if with_status || is_status {
+            name.width
+        } else {
+            name_with_status.width
+        };
+        let need = if is_recipe { c.width.min(12) } else { c.width };
+        if used + need + 1 + name_need <= width {
+            used += c.width + 1;
+            with_status |= is_status;
+        } else {
+            *slot = None;
+        }
+    }
+    let mut cols = base;
+    // σ/D after D, PL after QY, then mL and the STALE mark; status, operator, name, recipe last.
+    let state = cols.pop();
+    let ml = cols.pop();
+    let qy = cols.pop();
+    cols.extend(dispersion);
+    cols.extend(qy);
+    cols.extend(pl);
+    cols.extend(ml);
+    cols.extend(state);
+    cols.extend(status);
+    cols.extend(operator);
+    cols.push(if with_status { name } else { name_with_status });
+    cols.extend(recipe);
+    cols
+}
+
+fn draw_batches(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
+    let sb = SearchBox {
+        text: &app.query,
+        cursor: app.query_cursor,
+        typing: matches!(app.mode, Mode::Search),
+        meaning: &app.query_meaning,
+        error: app.query_error.as_deref(),
+        column: app.query_error_column,
+        count: format!("{} of {} batches", app.hits.len(), app.facts.len()),
+    };
+    let [search, table] = Layout::vertical([Constraint::Length(sb.height()), Constraint::Min(3)]).areas(area);
+    draw_search_box(f, &sb, search, p);
+    let cols = batch_columns(app, table.width);
+    let header = Row::new(cols.iter().map(|c| c.head.clone())).style(p.head());
     // Only the rows that fit are built, so a lab of any size draws at once.
     let visible = table.height.saturating_sub(1) as usize;
     let start = app.selected.saturating_sub(visible.saturating_sub(1));
     let rows = app.hits.iter().skip(start).take(visible.max(1)).map(|h| {
-        let stale = app.stale_batches.contains(&h.id);
-        let r = Row::new(vec![
-            h.id.to_string(),
-            h.started_at.get(..10).unwrap_or("").to_string(),
-            h.material.clone(),
-            n(h.first_exciton_nm, 1),
-            n(h.diameter_nm, 2),
-            n(h.qy, 2),
-            units::ml(h.stock_ml),
-            if stale { "STALE".to_string() } else { String::new() },
-            format!(
-                "{} {}",
-                h.name,
-                if h.status == "done" {
-                    String::new()
-                } else {
-                    format!("[{}]", h.status)
-                }
-            ),
-        ]);
-        if stale { r.style(p.warn()) } else { r }
+        let r = Row::new(cols.iter().map(|c| (c.cell)(&h.facts)));
+        // Results of an earlier query, kept while the one typed has an error, are dimmed.
+        if app.stale_batches.contains(&h.id) {
+            r.style(p.warn())
+        } else if app.query_error.is_some() {
+            r.style(p.dim())
+        } else {
+            r
+        }
     });
-    let widths = [
-        Constraint::Length(5),
-        Constraint::Length(10),
-        Constraint::Length(9),
-        Constraint::Length(7),
-        Constraint::Length(6),
-        Constraint::Length(5),
-        Constraint::Length(6),
-        Constraint::Length(5),
-        Constraint::Min(10),
-    ];
+    let last = cols.len() - 1;
+    let widths: Vec<Constraint> = cols
+        .iter()
+        .enumerate()
+        .map(|(i, c)| {
+            if i == last {
+                Constraint::Fill(1)
+            } else {
+                Constraint::Length(c.width)
+            }
+        })
+        .collect();
     let mut state = TableState::default().with_selected(Some(app.selected - start));
     f.render_stateful_widget(
         Table::new(rows, widths).header(header).row_highlight_style(p.sel()),
@@ -271,11 +424,10 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         l.spans.push(Span::styled(marks, p.warn()));
     }
     f.render_widget(Paragraph::new(head_text), head);
-    // The growth table takes half of a wide terminal, so the curve and its marks are never cut.
-    let table_w = (mid.width / 2).max(50).min(mid.width);
-    let [left, right] = Layout::horizontal([Constraint::Length(table_w), Constraint::Min(0)]).areas(mid);
-    let header = Row::new(vec!["state", "min", "peak", "D nm", "σ/D", "PL", "QY", "curve"]).style(p.head());
-    let rows: Vec<Row> = b["aliquots"]
+    // The growth table is as wide as its longest cells (curve names, versions, STALE and VOID
+    // in full) and at least two fifths of the screen; the plot has the rest.
+    let header = ["state", "min", "peak", "D nm", "σ/D", "PL", "QY", "curve"];
+    let cells: Vec<(bool, [String; 8])> = b["aliquots"]
         .as_array()
         .into_iter()
         .flatten()
@@ -284,53 +436,74 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
             let voided = a["voided"].as_bool() == Some(true);
             let cal = format!(
                 "{}{}",
-                a["curve"].as_str().map(|c| &c[..c.len().min(4)]).unwrap_or("-"),
+                a["curve"].as_str().unwrap_or("-"),
                 a["calibration_version"]
                     .as_i64()
                     .map(|v| format!(" v{v}"))
                     .unwrap_or_default()
             );
-            let cells = vec![
-                Cell::from(match (voided, stale) {
-                    (true, _) => "VOID",
-                    (false, true) => "STALE",
-                    _ => "",
-                }),
-                Cell::from(
+            let state = match (voided, stale) {
+                (true, _) => "VOID",
+                (false, true) => "STALE",
+                _ => "",
+            };
+            (
+                stale || voided,
+                [
+                    state.to_string(),
                     a["minutes"]
                         .as_f64()
                         .map(units::minutes)
                         .unwrap_or_else(|| a["stage"].as_str().unwrap_or("").to_string()),
-                ),
-                Cell::from(format!(
-                    "{}{}",
-                    n(a["first_exciton_nm"].as_f64(), 1),
-                    if a["shoulder"].as_bool() == Some(true) { "s" } else { "" }
-                )),
-                Cell::from(n(a["diameter_nm"].as_f64(), 2)),
-                Cell::from(n(a["size_dispersion_pct"].as_f64(), 1)),
-                Cell::from(n(a["pl_peak_nm"].as_f64(), 1)),
-                Cell::from(n(a["qy"].as_f64(), 2)),
-                Cell::from(cal),
-            ];
-            let r = Row::new(cells);
-            if stale || voided { r.style(p.warn()) } else { r }
+                    format!(
+                        "{}{}",
+                        n(a["first_exciton_nm"].as_f64(), 1),
+                        if a["shoulder"].as_bool() == Some(true) { "s" } else { "" }
+                    ),
+                    n(a["diameter_nm"].as_f64(), 2),
+                    n(a["size_dispersion_pct"].as_f64(), 1),
+                    n(a["pl_peak_nm"].as_f64(), 1),
+                    n(a["qy"].as_f64(), 2),
+                    cal,
+                ],
+            )
         })
         .collect();
-    let widths = [
-        Constraint::Length(5),
-        Constraint::Length(4),
-        Constraint::Length(6),
-        Constraint::Length(5),
-        Constraint::Length(4),
-        Constraint::Length(5),
-        Constraint::Length(4),
-        Constraint::Min(6),
-    ];
+    let widths: Vec<u16> = (0..header.len())
+        .map(|i| {
+            cells
+                .iter()
+                .map(|(_, c)| c[i].chars().count())
+                .chain([header[i].chars().count()])
+                .max()
+                .unwrap_or(4) as u16
+        })
+        .collect();
+    let needed = widths.iter().sum::<u16>() + widths.len() as u16 - 1 + 2;
+    let table_w = needed.max(mid.width * 2 / 5).min(mid.width);
+    let [left, right] = Layout::horizontal([Constraint::Length(table_w), Constraint::Min(0)]).areas(mid);
+    let rows: Vec<Row> = cells
+        .into_iter()
+        .map(|(marked, c)| {
+            let r = Row::new(c.into_iter().map(Cell::from));
+            if marked { r.style(p.warn()) } else { r }
+        })
+        .collect();
+    let constraints: Vec<Constraint> = widths
+        .iter()
+        .enumerate()
+        .map(|(i, w)| {
+            if i + 1 == widths.len() {
+                Constraint::Fill(1)
+            } else {
+                Constraint::Length(*w)
+            }
+        })
+        .collect();
     let mut state = TableState::default().with_selected(Some(app.aliquot_selected));
     f.render_stateful_widget(
-        Table::new(rows, widths)
-            .header(header)
+        Table::new(rows, constraints)
+            .header(Row::new(header).style(p.head()))
             .row_highlight_style(p.sel())
             .block(Block::bordered().title("growth series")),
         left,
@@ -503,62 +676,220 @@ fn draw_chart(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     f.render_widget(chart, area);
 }
 
+/// A label cut to `w` cells from its middle, so the end that tells vials of one batch apart
+/// (`-V1`, `-V2`) always shows: `CS-26…-p-V2`.
+fn keep_end(s: &str, w: usize) -> String {
+    let chars: Vec<char> = s.chars().collect();
+    if chars.len() <= w || w < 3 {
+        return s.to_string();
+    }
+    let tail = (w - 1) / 2 + (w - 1) % 2;
+    let head = w - 1 - tail;
+    let mut out: String = chars[..head].iter().collect();
+    out.push('…');
+    out.extend(&chars[chars.len() - tail..]);
+    out
+}
+
 fn draw_shelf(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
-    let header = Row::new(vec![
-        "location", "vial", "batch", "material", "mL", "µM", "conc.", "nmol", "owner",
-    ])
-    .style(p.head());
-    let visible = area.height.saturating_sub(1) as usize;
-    let start = app.vial_selected.saturating_sub(visible.saturating_sub(1));
-    let rows = app.vials.iter().skip(start).take(visible.max(1)).map(|v| {
-        let disposed = v.status == "disposed";
-        let low = !disposed && v.volume_ml < crate::report::LOW_STOCK_ML;
-        let r = Row::new(vec![
-            v.location.clone(),
-            v.label.clone(),
-            v.batch_id.to_string(),
-            v.material.clone(),
-            if disposed {
-                "disposed".to_string()
-            } else {
-                format!("{}{}", units::ml(v.volume_ml), if low { " low" } else { "" })
-            },
-            v.concentration_molar
-                .map(units::micromolar)
-                .unwrap_or_else(|| "-".into()),
-            crate::report::concentration_note(v).to_string(),
-            v.concentration_molar
-                .map(|c| units::sig3(c * v.volume_ml * 1e6))
-                .unwrap_or_else(|| "-".into()),
-            v.owner.clone().unwrap_or_default(),
-        ]);
-        if low || v.concentration_stale || disposed {
-            r.style(p.warn())
+    use super::shelf::Group;
+    let o = &app.shelf;
+    let arrow = if o.desc { "▼" } else { "▲" };
+    let grouping = match o.group {
+        Group::None => "not grouped".to_string(),
+        g => format!("by {}", g.name()),
+    };
+    let sb = SearchBox {
+        text: &o.query,
+        cursor: o.cursor,
+        typing: matches!(app.mode, Mode::Search),
+        meaning: &o.meaning,
+        error: o.error.as_deref(),
+        column: o.error_column,
+        count: format!(
+            "{} of {} vials · {grouping} · sorted by {}{arrow}",
+            app.vials.len(),
+            app.all_vials.len(),
+            o.sort.name()
+        ),
+    };
+    let [search, table] = Layout::vertical([Constraint::Length(sb.height()), Constraint::Min(3)]).areas(area);
+    draw_search_box(f, &sb, search, p);
+    // The column a grouping names in its header rows is not repeated on every row.
+    let label_w = app
+        .vials
+        .iter()
+        .map(|v| v.label.chars().count())
+        .max()
+        .unwrap_or(4)
+        .max(4);
+    let owner_w = app
+        .vials
+        .iter()
+        .filter_map(|v| v.owner.as_ref().map(|o| o.chars().count()))
+        .max()
+        .unwrap_or(5)
+        .max(5);
+    let location_w = app
+        .vials
+        .iter()
+        .map(|v| v.location.chars().count())
+        .max()
+        .unwrap_or(8)
+        .max(8);
+    let material_w = app
+        .vials
+        .iter()
+        .map(|v| v.material.chars().count())
+        .max()
+        .unwrap_or(8)
+        .max(8);
+    let mut heads: Vec<(&str, usize)> = Vec::new();
+    if o.group != Group::Location {
+        heads.push(("location", location_w));
+    }
+    heads.push(("vial", label_w));
+    heads.push(("batch", 5));
+    if o.group != Group::Material {
+        heads.push(("material", material_w));
+    }
+    heads.extend([("mL", 8), ("µM", 6), ("conc.", 10), ("nmol", 6)]);
+    if o.group != Group::Owner {
+        heads.push(("owner", owner_w));
+    }
+    // When the terminal is too narrow for every label whole, labels are cut in the middle and
+    // every other column keeps its width.
+    let others: usize = heads.iter().filter(|(h, _)| *h != "vial").map(|(_, w)| w + 1).sum();
+    let label_room = (table.width as usize).saturating_sub(others).clamp(8, label_w);
+    let header = Row::new(heads.iter().map(|(h, _)| {
+        let key = match *h {
+            "vial" => "vial",
+            "batch" => "batch",
+            "material" => "material",
+            "mL" => "mL",
+            "µM" => "µM",
+            "owner" => "owner",
+            _ => "",
+        };
+        if key == o.sort.name() {
+            format!("{h}{arrow}")
         } else {
-            r
+            h.to_string()
         }
-    });
-    let widths = [
-        Constraint::Length(11),
-        Constraint::Length(14),
-        Constraint::Length(5),
-        Constraint::Length(9),
-        Constraint::Length(8),
-        Constraint::Length(6),
-        Constraint::Length(10),
-        Constraint::Length(6),
-        Constraint::Min(6),
-    ];
-    let mut state = TableState::default().with_selected(if app.vials.is_empty() {
+    }))
+    .style(p.head());
+    // Rows as shown: a header row where a group begins, then its vials.
+    enum ShelfLine {
+        Group(String),
+        Vial(usize),
+    }
+    let mut shown: Vec<ShelfLine> = Vec::new();
+    let mut selected_row = 0;
+    let mut last_group: Option<String> = None;
+    for (i, v) in app.vials.iter().enumerate() {
+        if o.group != Group::None {
+            let g = o.group.of(v);
+            if last_group.as_ref() != Some(&g) {
+                let (count, ml) = app
+                    .vials
+                    .iter()
+                    .filter(|w| o.group.of(w) == g)
+                    .fold((0, 0.0), |(c, m), w| {
+                        (c + 1, m + if w.status == "disposed" { 0.0 } else { w.volume_ml })
+                    });
+                shown.push(ShelfLine::Group(format!(
+                    "{} {g} · {count} vial{} · {} mL",
+                    o.group.name(),
+                    if count == 1 { "" } else { "s" },
+                    units::ml(ml)
+                )));
+                last_group = Some(g);
+            }
+        }
+        if i == app.vial_selected {
+            selected_row = shown.len();
+        }
+        shown.push(ShelfLine::Vial(i));
+    }
+    let visible = (table.height.saturating_sub(1) as usize).max(1);
+    // The selected vial in view, its group's header too where there is room.
+    let start = selected_row.saturating_sub(visible.saturating_sub(1));
+    let window: Vec<&ShelfLine> = shown.iter().skip(start).take(visible).collect();
+    let mut group_lines: Vec<(u16, String)> = Vec::new();
+    let rows: Vec<Row> = window
+        .iter()
+        .enumerate()
+        .map(|(k, line)| match line {
+            ShelfLine::Group(text) => {
+                group_lines.push((k as u16, text.clone()));
+                Row::new(Vec::<String>::new())
+            }
+            ShelfLine::Vial(i) => {
+                let v = &app.vials[*i];
+                let disposed = v.status == "disposed";
+                let low = !disposed && v.volume_ml < crate::report::LOW_STOCK_ML;
+                let cells = heads.iter().map(|(h, _)| match *h {
+                    "location" => v.location.clone(),
+                    "vial" => keep_end(&v.label, label_room),
+                    "batch" => v.batch_id.to_string(),
+                    "material" => v.material.clone(),
+                    "mL" if disposed => "disposed".to_string(),
+                    "mL" => format!("{}{}", units::ml(v.volume_ml), if low { " low" } else { "" }),
+                    "µM" => v
+                        .concentration_molar
+                        .map(units::micromolar)
+                        .unwrap_or_else(|| "-".into()),
+                    "conc." => crate::report::concentration_note(v).to_string(),
+                    "nmol" => v
+                        .concentration_molar
+                        .map(|c| units::sig3(c * v.volume_ml * 1e6))
+                        .unwrap_or_else(|| "-".into()),
+                    _ => v.owner.clone().unwrap_or_default(),
+                });
+                let r = Row::new(cells.collect::<Vec<String>>());
+                if low || v.concentration_stale || disposed {
+                    r.style(p.warn())
+                } else if o.error.is_some() {
+                    r.style(p.dim())
+                } else {
+                    r
+                }
+            }
+        })
+        .collect();
+    let widths: Vec<Constraint> = heads
+        .iter()
+        .enumerate()
+        .map(|(i, (h, w))| {
+            let w = if *h == "vial" { label_room } else { *w } as u16;
+            if i + 1 == heads.len() {
+                Constraint::Fill(1)
+            } else {
+                Constraint::Length(w)
+            }
+        })
+        .collect();
+    let selected = if app.vials.is_empty() {
         None
     } else {
-        Some(app.vial_selected - start)
-    });
+        Some(selected_row - start)
+    };
+    let mut state = TableState::default().with_selected(selected);
     f.render_stateful_widget(
         Table::new(rows, widths).header(header).row_highlight_style(p.sel()),
-        area,
+        table,
         &mut state,
     );
+    // A group's header spans the row, over the empty row left for it.
+    for (k, text) in group_lines {
+        let y = table.y + 1 + k;
+        if y < table.y + table.height {
+            f.render_widget(
+                Paragraph::new(Line::styled(text, p.head())),
+                Rect::new(table.x, y, table.width, 1),
+            );
+        }
+    }
 }
 
 fn draw_calibrations(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
@@ -626,8 +957,82 @@ fn draw_calibrations(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     );
 }
 
+/// A value of an audit entry as people read it: text without quotes, whole numbers exactly,
+/// volumes to 0.01 mL, other fractions to 6 significant figures (no float noise), and lists
+/// or objects as compact JSON.
+fn audit_value(key: &str, v: &serde_json::Value) -> String {
+    use serde_json::Value;
+    match v {
+        Value::Null => "—".into(),
+        Value::String(s) => s.clone(),
+        Value::Number(x) if x.is_i64() || x.is_u64() => x.to_string(),
+        Value::Number(x) => {
+            let f = x.as_f64().unwrap_or(f64::NAN);
+            if key.ends_with("_ml") {
+                units::ml(f)
+            } else if f == 0.0 || !f.is_finite() {
+                format!("{f}")
+            } else {
+                let places = (5 - f.abs().log10().floor() as i32).clamp(0, 15) as usize;
+                let s = format!("{f:.places$}");
+                if s.contains('.') {
+                    s.trim_end_matches('0').trim_end_matches('.').to_string()
+                } else {
+                    s
+                }
+            }
+        }
+        other => other.to_string(),
+    }
+}
+
+/// The fields of an entry's before and after, each with its two values and whether it changed;
+/// changed fields first, then the rest, each in name order.
+fn audit_changes(r: &crate::store::model::AuditRow) -> Vec<(String, String, String, bool)> {
+    use serde_json::Value;
+    let as_map = |v: &Option<Value>| -> Vec<(String, Value)> {
+        match v {
+            Some(Value::Object(m)) => m.iter().map(|(k, v)| (k.clone(), v.clone())).collect(),
+            Some(Value::Null) | None => Vec::new(),
+            Some(other) => vec![("value".into(), other.clone())],
+        }
+    };
+    let (before, after) = (as_map(&r.before), as_map(&r.after));
+    let mut keys: Vec<String> = before.iter().chain(&after).map(|(k, _)| k.clone()).collect();
+    keys.sort();
+    keys.dedup();
+    let get = |m: &[(String, Value)], k: &str| m.iter().find(|(x, _)| x == k).map(|(_, v)| v.clone());
+    let mut out: Vec<(String, String, String, bool)> = keys
+        .into_iter()
+        .map(|k| {
+            let (b, a) = (get(&before, &k), get(&after, &k));
+            let changed = r.before.is_some() && r.after.is_some() && b != a;
+            let show = |v: Option<Value>| v.map(|v| audit_value(&k, &v)).unwrap_or_else(|| "—".into());
+            (k.clone(), show(b), show(a), changed)
+        })
+        .collect();
+    out.sort_by_key(|c| !c.3);
+    out
+}
+
 fn draw_trail(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
-    let rows = app.trail.iter().take(area.height as usize).map(|r| {
+    // Side by side where there is room for both, else the list above the entry.
+    let who_w = app
+        .trail
+        .iter()
+        .map(|r| r.who.chars().count())
+        .max()
+        .unwrap_or(3)
+        .clamp(3, 20) as u16;
+    let list_w = 16 + who_w + 12 + 6 + 14 + 4 + 2;
+    let [list, detail] = if area.width >= 140 {
+        Layout::horizontal([Constraint::Length(list_w.min(area.width / 2)), Constraint::Fill(1)]).areas(area)
+    } else {
+        Layout::vertical([Constraint::Percentage(50), Constraint::Fill(1)]).areas(area)
+    };
+    let visible = (list.height.saturating_sub(3) as usize).max(1);
+    let start = app.trail_selected.saturating_sub(visible.saturating_sub(1));
+    let rows = app.trail.iter().skip(start).take(visible).map(|r| {
         Row::new(vec![
             r.at.get(..16).unwrap_or("").replace('T', " "),
             r.who.clone(),
@@ -638,15 +1043,126 @@ fn draw_trail(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     });
     let widths = [
         Constraint::Length(16),
-        Constraint::Length(16),
+        Constraint::Length(who_w),
         Constraint::Length(12),
         Constraint::Length(6),
         Constraint::Min(8),
     ];
-    f.render_widget(
-        Table::new(rows, widths).header(Row::new(vec!["when (UTC)", "who", "what", "id", "action"]).style(p.head())),
-        area,
+    let shown_to = (start + visible).min(app.trail.len());
+    let title = match &app.trail_focus {
+        Some((entity, id)) => format!(
+            "trail of {} {id}: {} entries · {}: every entry",
+            units::words(entity),
+            app.trail.len(),
+            app.keys
+                .key_for(super::keys::Action::TrailFocus, Scope::Trail)
+                .unwrap_or_default()
+        ),
+        None if app.trail.is_empty() => "trail: no entries".into(),
+        None => format!(
+            "trail: {}-{shown_to} of the newest {}{}",
+            start + 1,
+            app.trail.len(),
+            if app.trail.len() as i64 >= app.trail_limit {
+                " (↓ past the end reads older)"
+            } else {
+                ""
+            }
+        ),
+    };
+    let mut state = TableState::default().with_selected(if app.trail.is_empty() {
+        None
+    } else {
+        Some(app.trail_selected - start)
+    });
+    f.render_stateful_widget(
+        Table::new(rows, widths)
+            .header(Row::new(vec!["when (UTC)", "who", "what", "id", "action"]).style(p.head()))
+            .row_highlight_style(p.sel())
+            .block(Block::bordered().title(title)),
+        list,
+        &mut state,
     );
+    let Some(r) = app.trail.get(app.trail_selected) else {
+        f.render_widget(Paragraph::new("").block(Block::bordered().title("entry")), detail);
+        return;
+    };
+    let title = format!(
+        "entry {}: {} {}{} by {} at {}",
+        r.id,
+        units::words(&r.action),
+        units::words(&r.entity),
+        r.entity_id.map(|i| format!(" {i}")).unwrap_or_default(),
+        r.who,
+        r.at.get(..16).unwrap_or("").replace('T', " ")
+    );
+    let changes = audit_changes(r);
+    let key_w = changes
+        .iter()
+        .map(|c| c.0.chars().count())
+        .max()
+        .unwrap_or(5)
+        .clamp(5, 28) as u16
+        + 2;
+    let (heads, only): (Vec<&str>, Option<bool>) = match (&r.before, &r.after) {
+        (Some(_), Some(_)) => (vec!["field", "before", "after"], None),
+        (None, _) => (vec!["field", "recorded"], Some(false)),
+        (_, None) => (vec!["field", "before (now gone)"], Some(true)),
+    };
+    // Values longer than their column end in an ellipsis, so a cut one never passes for whole.
+    let value_w = {
+        let room = detail.width.saturating_sub(2 + key_w + 1) as usize;
+        if only.is_none() {
+            room.saturating_sub(1) / 2
+        } else {
+            room
+        }
+    };
+    let cut = |t: String| {
+        if t.chars().count() > value_w && value_w > 1 {
+            let mut s: String = t.chars().take(value_w - 1).collect();
+            s.push('…');
+            s
+        } else {
+            t
+        }
+    };
+    let rows: Vec<Row> = changes
+        .into_iter()
+        .map(|(k, b, a, changed)| {
+            let mark = if changed { "• " } else { "  " };
+            let cells = match only {
+                None => vec![format!("{mark}{k}"), cut(b), cut(a)],
+                Some(true) => vec![format!("  {k}"), cut(b)],
+                Some(false) => vec![format!("  {k}"), cut(a)],
+            };
+            let row = Row::new(cells);
+            if changed { row.style(p.warn()) } else { row }
+        })
+        .collect();
+    let widths: Vec<Constraint> = if only.is_none() {
+        vec![
+            Constraint::Length(key_w),
+            Constraint::Length(value_w as u16),
+            Constraint::Fill(1),
+        ]
+    } else {
+        vec![Constraint::Length(key_w), Constraint::Fill(1)]
+    };
+    let empty = rows.is_empty();
+    f.render_widget(
+        Table::new(rows, widths)
+            .header(Row::new(heads).style(p.head()))
+            .block(Block::bordered().title(title)),
+        detail,
+    );
+    if empty {
+        let inner = Block::bordered().inner(detail);
+        f.render_widget(
+            Paragraph::new("nothing recorded before or after"),
+            Rect::new(inner.x, inner.y + 1, inner.width, 1),
+        );
+    }
 }
 
 fn draw_status(f: &mut Frame, app: &App, area: Rect, p: &Palette) {

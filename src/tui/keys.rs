@@ -46,6 +46,11 @@ pub enum Action {
     Handover,
     HelpPageDown,
     HelpPageUp,
+    // Lists: the batch list, the shelf, the growth table and the trail.
+    PageDown,
+    PageUp,
+    GroupNext,
+    TrailFocus,
     // A form.
     NextField,
     PrevField,
@@ -73,6 +78,8 @@ pub enum Scope {
     Sheet,
     Shelf,
     Calibrations,
+    /// The audit trail.
+    Trail,
     /// The help overlay.
     Help,
     /// An open form: moving between fields, saving, cancelling.
@@ -90,6 +97,7 @@ pub const SCOPES: &[(Scope, &str)] = &[
     (Scope::Sheet, "batch sheet"),
     (Scope::Shelf, "shelf"),
     (Scope::Calibrations, "calibrations"),
+    (Scope::Trail, "trail"),
     (Scope::Form, "in a form"),
     (Scope::Field, "in a text field (forms and the search box)"),
     (Scope::Confirm, "when asked to confirm"),
@@ -169,6 +177,22 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         key: "down",
         scope: Scope::Everywhere,
         help: "move down (also j)",
+        footer: false,
+    },
+    Binding {
+        action: Action::PageDown,
+        name: "page-down",
+        key: "pagedown",
+        scope: Scope::Everywhere,
+        help: "a page down the list",
+        footer: false,
+    },
+    Binding {
+        action: Action::PageUp,
+        name: "page-up",
+        key: "pageup",
+        scope: Scope::Everywhere,
+        help: "a page up the list",
         footer: false,
     },
     Binding {
@@ -289,6 +313,46 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         key: "x",
         scope: Scope::Shelf,
         help: "dispose of the vial (asks why, then confirms)",
+        footer: true,
+    },
+    Binding {
+        action: Action::Search,
+        name: "search",
+        key: "/",
+        scope: Scope::Shelf,
+        help: "filter the vials with the query language (by: the owner)",
+        footer: true,
+    },
+    Binding {
+        action: Action::SortNext,
+        name: "sort",
+        key: "s",
+        scope: Scope::Shelf,
+        help: "sort each group by the next column",
+        footer: true,
+    },
+    Binding {
+        action: Action::SortReverse,
+        name: "reverse",
+        key: "S",
+        scope: Scope::Shelf,
+        help: "reverse the sort",
+        footer: false,
+    },
+    Binding {
+        action: Action::GroupNext,
+        name: "group",
+        key: "G",
+        scope: Scope::Shelf,
+        help: "group by location, batch, owner, material, or not at all",
+        footer: true,
+    },
+    Binding {
+        action: Action::TrailFocus,
+        name: "history",
+        key: "f",
+        scope: Scope::Trail,
+        help: "only the selected entry's batch, vial or aliquot (again: all)",
         footer: true,
     },
     Binding {
@@ -681,6 +745,14 @@ impl KeyMap {
             .filter(|(_, b)| b.footer && b.scope == scope)
             .map(|(k, b)| (describe(k), b.name))
             .collect()
+    }
+
+    /// The key bound to an action in a scope, as the help writes it.
+    pub fn key_for(&self, action: Action, scope: Scope) -> Option<String> {
+        self.entries
+            .iter()
+            .find(|(_, b)| b.action == action && b.scope == scope)
+            .map(|(k, _)| describe(k))
     }
 
     /// (scope title, key, help) for the help overlay, grouped by scope in [`SCOPES`] order.

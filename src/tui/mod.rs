@@ -5,6 +5,7 @@
 pub mod app;
 pub mod draw;
 pub mod keys;
+pub mod shelf;
 pub mod units;
 
 use crate::error::{Error, Result};
