@@ -346,3 +346,28 @@ fn the_trail_scrolls_selects_and_shows_before_and_after() {
     press(&mut app, KeyCode::Char('f'));
     assert_eq!(app.trail.len() as i64, app.trail_limit.min(total as i64));
 }
+
+#[test]
+fn a_shelf_filtered_to_no_vial_draws_and_says_so() {
+    let (_lab, mut app) = demo();
+    press(&mut app, KeyCode::Char('2'));
+    press(&mut app, KeyCode::Char('/'));
+    typ(&mut app, "at nowhere");
+    assert!(app.vials.is_empty());
+    for s in [
+        screen_at(&app, 80, 24),
+        screen_at(&app, 160, 45),
+        screen_at(&app, 40, 12),
+    ] {
+        assert!(s.contains("0 of 50 vials"), "{s}");
+        assert!(s.contains("means: at nowhere"), "{s}");
+    }
+    // A key for a vial, with none shown, is refused in words.
+    press(&mut app, KeyCode::Enter);
+    press(&mut app, KeyCode::Char('d'));
+    assert!(
+        app.message
+            .as_ref()
+            .is_some_and(|m| m.0 && m.1.contains("no vial selected"))
+    );
+}

@@ -764,7 +764,10 @@ fn draw_shelf(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     // When the terminal is too narrow for every label whole, labels are cut in the middle and
     // every other column keeps its width.
     let others: usize = heads.iter().filter(|(h, _)| *h != "vial").map(|(_, w)| w + 1).sum();
-    let label_room = (table.width as usize).saturating_sub(others).clamp(8, label_w);
+    let label_room = (table.width as usize)
+        .saturating_sub(others)
+        .min(label_w)
+        .max(label_w.min(8));
     let header = Row::new(heads.iter().map(|(h, _)| {
         let key = match *h {
             "vial" => "vial",
