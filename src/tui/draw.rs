@@ -201,13 +201,17 @@ fn draw_search_box(f: &mut Frame, sb: &SearchBox, area: Rect, p: &Palette) {
         }
         Some(e) => {
             lines.push(Line::from(first));
-            let caret = sb
-                .column
-                .and_then(|c| c.checked_sub(1 + start))
-                .map(|c| c + 2)
-                .filter(|at| at + 2 + e.chars().count() <= area.width as usize);
+            // Under the caret the whole message where it fits, else without its preamble (the
+            // column speaks for itself there), else the whole message at the line's start.
+            let short = e.strip_prefix("query error at ").unwrap_or(e);
+            let at = sb.column.and_then(|c| c.checked_sub(1 + start)).map(|c| c + 2);
+            let fits = |t: &str| at.filter(|at| at + 2 + t.chars().count() <= area.width as usize);
+            let caret = fits(e).map(|at| (at, e)).or_else(|| fits(short).map(|at| (at, short)));
             lines.push(match caret {
-                Some(at) => Line::from(vec![Span::raw(" ".repeat(at)), Span::styled(format!("^ {e}"), p.err())]),
+                Some((at, text)) => Line::from(vec![
+                    Span::raw(" ".repeat(at)),
+                    Span::styled(format!("^ {text}"), p.err()),
+                ]),
                 None => Line::styled(format!("  {e}"), p.err()),
             });
             lines.push(Line::styled(
@@ -760,7 +764,10 @@ fn draw_shelf(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     // When the terminal is too narrow for every label whole, labels are cut in the middle and
     // every other column keeps its width.
     let others: usize = heads.iter().filter(|(h, _)| *h != "vial").map(|(_, w)| w + 1).sum();
-    let label_room = (table.width as usize).saturating_sub(others).max(8).min(label_w);
+    let label_room = (table.width as usize)
+        .saturating_sub(others)
+        .min(label_w)
+        .max(label_w.min(8));
     let header = Row::new(heads.iter().map(|(h, _)| {
         let key = match *h {
             "vial" => "vial",

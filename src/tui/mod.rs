@@ -1,5 +1,6 @@
 //! The keyboard-driven terminal UI. `app` holds state and actions, `draw` renders it, `keys`
-//! is the one key table behind dispatch, help and footer, `units` rounds numbers for people. The terminal is restored on every
+//! is the one key table behind dispatch, help and footer, `shelf` arranges the shelf (query,
+//! grouping, sort), `units` rounds numbers for people. The terminal is restored on every
 //! way out, a panic included (ratatui's init installs the hook).
 
 pub mod app;
