@@ -13,15 +13,6 @@ use cuvette::tui::keys;
 use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
 
-fn wait_idle(app: &mut App) {
-    let start = Instant::now();
-    while app.busy && start.elapsed() < Duration::from_secs(60) {
-        app.poll_workers();
-        std::thread::sleep(Duration::from_millis(20));
-    }
-    assert!(!app.busy, "the background job did not finish");
-}
-
 /// Files of a lab folder whose names contain `needle`.
 fn files_with(lab: &Lab, needle: &str) -> Vec<String> {
     std::fs::read_dir(lab.dir.path())

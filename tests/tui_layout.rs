@@ -7,31 +7,7 @@
 mod common;
 use common::*;
 use crossterm::event::KeyCode;
-use cuvette::store::Store;
 use cuvette::tui::app::{App, Mode, View};
-use cuvette::tui::keys;
-use std::time::{Duration, Instant};
-
-fn demo() -> (Lab, App) {
-    let lab = Lab::new();
-    lab.ok(&["demo"]);
-    let app = open(&lab);
-    (lab, app)
-}
-
-fn open(lab: &Lab) -> App {
-    let store = Store::open(&lab.db, "Test Runner").unwrap();
-    App::new(store, keys::KeyMap::new(&Default::default()).unwrap())
-}
-
-fn wait_idle(app: &mut App) {
-    let start = Instant::now();
-    while app.busy && start.elapsed() < Duration::from_secs(60) {
-        app.poll_workers();
-        std::thread::sleep(Duration::from_millis(20));
-    }
-    assert!(!app.busy, "the background job did not finish");
-}
 
 /// The screen's line holding `needle` (panics with the screen when there is none).
 fn line_with<'a>(s: &'a str, needle: &str) -> &'a str {
@@ -46,7 +22,7 @@ fn hit_ids(app: &App) -> Vec<i64> {
 
 #[test]
 fn the_search_box_tells_back_the_query_and_keeps_the_last_good_results_under_an_error() {
-    let (_lab, mut app) = demo();
+    let (_lab, mut app) = demo_ui();
     let s = screen_at(&app, 80, 24);
     assert!(s.contains("means: every batch"), "{s}");
     press(&mut app, KeyCode::Char('/'));
@@ -107,7 +83,7 @@ fn the_search_box_tells_back_the_query_and_keeps_the_last_good_results_under_an_
 
 #[test]
 fn the_batch_list_adds_columns_as_the_terminal_widens() {
-    let (_lab, app) = demo();
+    let (_lab, app) = demo_ui();
     let narrow = screen_at(&app, 80, 24);
     let head = line_with(&narrow, "date");
     for col in ["id", "date", "material", "peak", "D nm", "QY", "mL", "state", "name"] {
@@ -139,7 +115,7 @@ fn the_growth_table_shows_curve_version_and_stale_in_full() {
     let lab = Lab::new();
     lab.ok(&["demo"]);
     lab.ok(&["calib", "set-curve", "CdSe", "jasieniak2009", "--why", "newer curve"]);
-    let mut app = open(&lab);
+    let mut app = open_ui(&lab);
     app.on_key(crossterm::event::KeyEvent::new(
         KeyCode::Char('g'),
         crossterm::event::KeyModifiers::NONE,
@@ -172,7 +148,7 @@ fn the_growth_table_shows_curve_version_and_stale_in_full() {
 
 #[test]
 fn the_shelf_shows_every_label_whole_and_groups_sorts_and_filters() {
-    let (_lab, mut app) = demo();
+    let (_lab, mut app) = demo_ui();
     press(&mut app, KeyCode::Char('2'));
     for s in [screen_at(&app, 80, 24), screen_at(&app, 160, 45)] {
         // Vials of one batch differ only at the end of their labels: the end always shows.
@@ -265,7 +241,7 @@ fn the_shelf_shows_every_label_whole_and_groups_sorts_and_filters() {
 
 #[test]
 fn the_trail_scrolls_selects_and_shows_before_and_after() {
-    let (_lab, mut app) = demo();
+    let (_lab, mut app) = demo_ui();
     press(&mut app, KeyCode::Char('4'));
     assert_eq!(app.view, View::Trail);
     // The newest entry is selected; the detail shows what it recorded.
@@ -349,7 +325,7 @@ fn the_trail_scrolls_selects_and_shows_before_and_after() {
 
 #[test]
 fn a_shelf_filtered_to_no_vial_draws_and_says_so() {
-    let (_lab, mut app) = demo();
+    let (_lab, mut app) = demo_ui();
     press(&mut app, KeyCode::Char('2'));
     press(&mut app, KeyCode::Char('/'));
     typ(&mut app, "at nowhere");

@@ -8,34 +8,12 @@
 mod common;
 use common::*;
 use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
-use cuvette::store::Store;
 use cuvette::tui::app::{App, Mode, View};
 use cuvette::tui::keys;
-use std::time::{Duration, Instant};
-
-fn demo() -> (Lab, App) {
-    let lab = Lab::new();
-    lab.ok(&["demo"]);
-    let app = open(&lab);
-    (lab, app)
-}
-
-fn open(lab: &Lab) -> App {
-    let store = Store::open(&lab.db, "Test Runner").unwrap();
-    App::new(store, keys::KeyMap::new(&Default::default()).unwrap())
-}
+use std::time::Duration;
 
 fn ctrl(app: &mut App, c: char) {
     app.on_key(KeyEvent::new(KeyCode::Char(c), KeyModifiers::CONTROL));
-}
-
-fn wait_idle(app: &mut App) {
-    let start = Instant::now();
-    while app.busy && start.elapsed() < Duration::from_secs(60) {
-        app.poll_workers();
-        std::thread::sleep(Duration::from_millis(20));
-    }
-    assert!(!app.busy, "the background job did not finish");
 }
 
 fn scalar_f(lab: &Lab, sql: &str) -> f64 {
@@ -73,7 +51,7 @@ fn shelf(app: &mut App) -> i64 {
 
 #[test]
 fn dispose_confirms_with_a_summary_esc_changes_nothing_enter_disposes() {
-    let (lab, mut app) = demo();
+    let (lab, mut app) = demo_ui();
     let vial = shelf(&mut app);
     let label = app.vials[app.vial_selected].label.clone();
     press(&mut app, KeyCode::Char('x'));
@@ -140,7 +118,7 @@ fn dispose_confirms_with_a_summary_esc_changes_nothing_enter_disposes() {
 
 #[test]
 fn repeat_and_void_batch_confirm_first() {
-    let (lab, mut app) = demo();
+    let (lab, mut app) = demo_ui();
     let batches = || scalar_f(&lab, "SELECT count(*) FROM batch");
     let n = batches();
     let id = app.hits[app.selected].id;
@@ -194,7 +172,7 @@ fn repeat_and_void_batch_confirm_first() {
 
 #[test]
 fn voiding_an_aliquot_confirms_and_names_it() {
-    let (lab, mut app) = demo();
+    let (lab, mut app) = demo_ui();
     press(&mut app, KeyCode::Down);
     press(&mut app, KeyCode::Down);
     press(&mut app, KeyCode::Enter);
@@ -231,7 +209,7 @@ fn applying_a_recompute_previews_then_asks() {
     let lab = Lab::new();
     lab.ok(&["demo"]);
     lab.ok(&["calib", "set-curve", "CdSe", "jasieniak2009", "--why", "newer curve"]);
-    let mut app = open(&lab);
+    let mut app = open_ui(&lab);
     let recomputes = |lab: &Lab| scalar_f(lab, "SELECT count(*) FROM audit_log WHERE action = 'recompute'");
     let runs = recomputes(&lab);
     assert!(!app.stale_batches.is_empty());
@@ -269,7 +247,7 @@ fn applying_a_recompute_previews_then_asks() {
 
 #[test]
 fn handover_confirms_with_the_counts_it_will_move() {
-    let (lab, mut app) = demo();
+    let (lab, mut app) = demo_ui();
     shelf(&mut app);
     let from = app.vials[app.vial_selected].owner.clone().unwrap();
     let owned = |lab: &Lab| {
@@ -316,7 +294,7 @@ fn handover_confirms_with_the_counts_it_will_move() {
 
 #[test]
 fn the_selection_follows_a_moved_vial() {
-    let (lab, mut app) = demo();
+    let (lab, mut app) = demo_ui();
     let vial = shelf(&mut app);
     assert_eq!(app.vial_selected, 0);
     let label = app.vials[0].label.clone();
@@ -341,7 +319,7 @@ fn the_selection_follows_a_moved_vial() {
 
 #[test]
 fn text_fields_edit_like_a_line_with_a_visible_cursor() {
-    let (_lab, mut app) = demo();
+    let (_lab, mut app) = demo_ui();
     shelf(&mut app);
     press(&mut app, KeyCode::Char('d'));
     press(&mut app, KeyCode::Tab);
@@ -417,7 +395,7 @@ fn text_fields_edit_like_a_line_with_a_visible_cursor() {
 
 #[test]
 fn a_decimal_comma_is_read_as_a_decimal_point() {
-    let (lab, mut app) = demo();
+    let (lab, mut app) = demo_ui();
     let vial = shelf(&mut app);
     let before = scalar_f(&lab, &format!("SELECT volume_ml FROM vial WHERE id = {vial}"));
     press(&mut app, KeyCode::Char('d'));
@@ -445,7 +423,7 @@ fn a_decimal_comma_is_read_as_a_decimal_point() {
 
 #[test]
 fn a_forms_keys_never_reach_the_view() {
-    let (lab, mut app) = demo();
+    let (lab, mut app) = demo_ui();
     let vial = shelf(&mut app);
     // As a person at the keyboard has it (tui::run sets the same, shorter, hold).
     app.settle = Duration::from_secs(600);
@@ -501,7 +479,7 @@ fn a_forms_keys_never_reach_the_view() {
 
 #[test]
 fn every_form_names_what_it_acts_on() {
-    let (_lab, mut app) = demo();
+    let (_lab, mut app) = demo_ui();
     press(&mut app, KeyCode::Down);
     press(&mut app, KeyCode::Down);
     press(&mut app, KeyCode::Enter);
@@ -535,7 +513,7 @@ fn every_form_names_what_it_acts_on() {
 
 #[test]
 fn numbers_on_screen_are_rounded_for_people() {
-    let (lab, mut app) = demo();
+    let (lab, mut app) = demo_ui();
     let vial = shelf(&mut app);
     // The demo's vial 11 holds 3.7 mL less its draws: 1.5500000000000003 mL in binary floating
     // point, kept exactly in the store and in --json.
@@ -581,7 +559,7 @@ fn numbers_on_screen_are_rounded_for_people() {
 
 #[test]
 fn the_help_pages_at_80x24_and_shows_every_key() {
-    let (_lab, mut app) = demo();
+    let (_lab, mut app) = demo_ui();
     press(&mut app, KeyCode::Char('?'));
     let first = screen_at(&app, 80, 24);
     assert!(first.contains("lines 1-") && first.contains("PgDn more"), "{first}");

@@ -1344,6 +1344,25 @@ fn judge_numbers(file: &str, src: &TextRows<'_>, table: &Table, warnings: &mut V
 mod tests {
     use super::*;
 
+    /// What the one-pass reading and the general walk make of one text, each as one string
+    /// (the spectra with the bits of every value, or the error): equal strings are the same
+    /// reading to the last bit.
+    fn fast_and_general(text: &str) -> (String, String) {
+        let show = |r: Result<Vec<RawSpectrum>>| match r {
+            Ok(v) => format!(
+                "{:?}",
+                v.iter()
+                    .map(|s| (s, s.x.iter().chain(&s.y).map(|v| v.to_bits()).collect::<Vec<_>>()))
+                    .collect::<Vec<_>>()
+            ),
+            Err(e) => e.to_string(),
+        };
+        (
+            show(read_text("f.csv", text, None, &opts(), true)),
+            show(read_text("f.csv", text, None, &opts(), false)),
+        )
+    }
+
     fn opts() -> ReadOptions {
         ReadOptions::default()
     }
@@ -1738,12 +1757,7 @@ mod tests {
             if last_eol {
                 text.push_str(eol);
             }
-            let show = |r: Result<Vec<RawSpectrum>>| match r {
-                Ok(v) => format!("{:?}", v.iter().map(|s| (s, s.x.iter().chain(&s.y).map(|v| v.to_bits()).collect::<Vec<_>>())).collect::<Vec<_>>()),
-                Err(e) => e.to_string(),
-            };
-            let fast = show(read_text("f.csv", &text, None, &opts(), true));
-            let general = show(read_text("f.csv", &text, None, &opts(), false));
+            let (fast, general) = fast_and_general(&text);
             prop_assert_eq!(fast, general, "{:?}", text);
         }
         /// Tables of the one-pass walk's shape (a preamble without rows of numbers, then
@@ -1872,12 +1886,7 @@ mod tests {
                 .collect();
             text.push_str(&lines.join(eol));
             text.push_str(ending);
-            let show = |r: Result<Vec<RawSpectrum>>| match r {
-                Ok(v) => format!("{:?}", v.iter().map(|s| (s, s.x.iter().chain(&s.y).map(|v| v.to_bits()).collect::<Vec<_>>())).collect::<Vec<_>>()),
-                Err(e) => e.to_string(),
-            };
-            let fast = show(read_text("f.csv", &text, None, &opts(), true));
-            let general = show(read_text("f.csv", &text, None, &opts(), false));
+            let (fast, general) = fast_and_general(&text);
             prop_assert_eq!(fast, general, "{:?}", text);
         }
     }

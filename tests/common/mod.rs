@@ -171,3 +171,27 @@ pub fn cdse_series_dir() -> Option<PathBuf> {
     }
     found
 }
+
+/// The terminal UI on a lab, as `Test Runner`, with the shipped keys.
+pub fn open_ui(lab: &Lab) -> cuvette::tui::app::App {
+    let store = cuvette::store::Store::open(&lab.db, "Test Runner").unwrap();
+    cuvette::tui::app::App::new(store, cuvette::tui::keys::KeyMap::new(&Default::default()).unwrap())
+}
+
+/// A new demo lab and the terminal UI on it.
+pub fn demo_ui() -> (Lab, cuvette::tui::app::App) {
+    let lab = Lab::new();
+    lab.ok(&["demo"]);
+    let app = open_ui(&lab);
+    (lab, app)
+}
+
+/// Waits (up to a minute) for the UI's background job to finish.
+pub fn wait_idle(app: &mut cuvette::tui::app::App) {
+    let start = std::time::Instant::now();
+    while app.busy && start.elapsed() < std::time::Duration::from_secs(60) {
+        app.poll_workers();
+        std::thread::sleep(std::time::Duration::from_millis(20));
+    }
+    assert!(!app.busy, "the background job did not finish");
+}
