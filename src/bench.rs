@@ -900,3 +900,310 @@ mod tests {
         assert_eq!(minutes_in("abs"), None);
     }
 }
+
+/// Adds one spectrum to an aliquot already logged (the PL export that arrives after its
+/// absorbance, say), in one transaction, and derives the aliquot's values again. An aliquot
+/// holds one spectrum of each kind: a second of the same kind is refused, naming the first.
+pub fn add_spectrum_to_aliquot(
+    store: &mut Store,
+    aliquot_id: i64,
+    f: &SpectrumFile,
+    opts: &ReadOptions,
+    door: &Door,
+) -> Result<growth::AliquotSummary> {
+    if f.kind == "pl" && f.excitation_nm.is_none() {
+        return Err(Error::Invalid(format!(
+            "PL file {} needs its excitation wavelength",
+            f.path.display()
+        )));
+    }
+    let (raw, sha) = read_for_logging(&f.path, opts, f.kind, door.kind_as_is)?;
+    store.write(|tx, who| {
+        let row = model::get_aliquot(tx, aliquot_id)?;
+        if let Some(s) = model::spectra_of_aliquot(tx, aliquot_id)?
+            .into_iter()
+            .find(|s| s.kind == f.kind)
+        {
+            return Err(Error::Invalid(format!(
+                "aliquot {aliquot_id} already has a {} spectrum ({}); void the aliquot and log both again",
+                f.kind, s.file_name
+            )));
+        }
+        if !door.again {
+            refuse_duplicate(tx, row.batch_id, &f.path, &sha, raw.label.as_deref())?;
+        }
+        model::insert_spectrum(tx, who, &new_spectrum(Some(aliquot_id), f, &raw, &sha))?;
+        engine::derive_aliquot(tx, aliquot_id)?;
+        engine::refresh_vials(tx, Some(row.batch_id), false)?;
+        let row = model::get_aliquot(tx, aliquot_id)?;
+        growth::aliquot_summary(tx, &row)
+    })
+}
+
+/// The minutes after injection a file's name states with a unit: `abs_05min.csv`,
+/// `pl-2.5min.txt`, `t90s_abs.csv`, `sample_1h.csv`. A bare number says nothing (it may be a
+/// date, a sample or a counter), so it gives None.
+pub fn minutes_in_name(path: &Path) -> Option<f64> {
+    let stem = path.file_stem()?.to_string_lossy().to_ascii_lowercase();
+    stem.split(['_', '-', ' ', '+'])
+        .filter(|t| t.chars().next().is_some_and(|c| c.is_ascii_digit() || c == 't'))
+        .find_map(|t| {
+            // "2p5min" is how some software writes 2.5 min in a name.
+            let t = t.trim_start_matches('t');
+            let t = match t.find('p') {
+                Some(i) if t[..i].chars().all(|c| c.is_ascii_digit()) && !t[..i].is_empty() => {
+                    format!("{}.{}", &t[..i], &t[i + 1..])
+                }
+                _ => t.to_string(),
+            };
+            minutes_in_header(&t)
+        })
+}
+
+/// What a file looks like before it is logged: how it reads, what kind it seems, where its
+/// feature is, and a coarse outline of its values for a small plot.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct FilePreview {
+    pub format: String,
+    /// The spectra the file holds, by label (one entry, maybe unlabelled, for a plain file).
+    pub spectra: Vec<String>,
+    pub points: usize,
+    pub x_unit: String,
+    pub y_unit: Option<String>,
+    pub nm_range: Option<(f64, f64)>,
+    /// "abs", "pl" or "ple" as the door would decide, with its evidence.
+    pub kind: Option<&'static str>,
+    pub kind_evidence: String,
+    /// The first exciton (absorbance) or the PL peak, in nm, where the analysis finds one.
+    pub feature_nm: Option<f64>,
+    /// `width` values of y, resampled over the wavelength range, for a small plot.
+    pub outline: Vec<f64>,
+    pub minutes_in_name: Option<f64>,
+    pub warnings: Vec<String>,
+}
+
+/// Files larger than this are not previewed (a spectrum export is kilobytes; a large file is
+/// likely not a spectrum, and reading it would stall the screen).
+pub const PREVIEW_MAX_BYTES: u64 = 16 * 1024 * 1024;
+
+/// Reads a file as the door would and says what it holds; nothing is written. `width` is the
+/// number of outline values wanted (the plot's columns).
+pub fn preview_file(path: &Path, width: usize) -> Result<FilePreview> {
+    let size = std::fs::metadata(path)
+        .map_err(|e| Error::Invalid(format!("cannot read {}: {e}", path.display())))?
+        .len();
+    if size > PREVIEW_MAX_BYTES {
+        return Err(Error::Invalid(format!(
+            "{} is {} MB: too large to be a spectrum export",
+            path.display(),
+            size / (1024 * 1024)
+        )));
+    }
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_default();
+    let bytes = spectra::file_bytes(path)?;
+    let all = spectra::read_all(&name, &bytes, &ReadOptions::default())?;
+    let first = all
+        .first()
+        .ok_or_else(|| Error::Invalid(format!("{}: no spectrum found", path.display())))?;
+    let inf = quantity::infer_kind(&name, first);
+    let kind = inf.kind.map(|k| k.as_str());
+    let mut warnings = first.warnings.clone();
+    if all.len() > 1 {
+        warnings.push(format!(
+            "{} spectra in this file: log them with `aliquot add --series` or choose one with --column",
+            all.len()
+        ));
+    }
+    let trace = first.to_trace(&name, None);
+    let (mut nm_range, mut feature_nm, mut outline) = (None, None, Vec::new());
+    match &trace {
+        Ok(t) if !t.nm.is_empty() => {
+            let (lo, hi) = (t.nm[0], t.nm[t.nm.len() - 1]);
+            nm_range = Some((lo, hi));
+            outline = resample(&t.nm, &t.y, width);
+            let set = spectra::analysis::AnalysisSettings::default();
+            feature_nm = match kind {
+                Some("pl") => spectra::pl::analyze_pl(t, &set).ok().and_then(|r| r.pl_peak_nm),
+                Some("abs") => spectra::analysis::analyze_absorbance(t, &set)
+                    .ok()
+                    .and_then(|r| r.first_exciton_nm),
+                _ => None,
+            };
+        }
+        Ok(_) => {}
+        Err(e) => warnings.push(e.to_string()),
+    }
+    Ok(FilePreview {
+        format: first.format.clone(),
+        spectra: all
+            .iter()
+            .map(|s| s.label.clone().unwrap_or_else(|| "(one spectrum)".into()))
+            .collect(),
+        points: first.x.len(),
+        x_unit: first.x_unit.clone(),
+        y_unit: first.y_unit.clone(),
+        nm_range,
+        kind,
+        kind_evidence: inf.evidence,
+        feature_nm,
+        outline,
+        minutes_in_name: minutes_in_name(path),
+        warnings,
+    })
+}
+
+/// The largest y in each of `width` equal wavelength bins (an empty bin repeats the one
+/// before), so a narrow peak is never lost between samples.
+fn resample(nm: &[f64], y: &[f64], width: usize) -> Vec<f64> {
+    if width == 0 || nm.is_empty() {
+        return Vec::new();
+    }
+    let (lo, hi) = (nm[0], nm[nm.len() - 1]);
+    let span = (hi - lo).max(f64::MIN_POSITIVE);
+    let mut out = vec![f64::NAN; width];
+    for (x, v) in nm.iter().zip(y) {
+        if !v.is_finite() {
+            continue;
+        }
+        let i = (((x - lo) / span) * width as f64)
+            .floor()
+            .clamp(0.0, (width - 1) as f64) as usize;
+        if out[i].is_nan() || *v > out[i] {
+            out[i] = *v;
+        }
+    }
+    let mut last = 0.0;
+    for v in &mut out {
+        if v.is_nan() {
+            *v = last;
+        } else {
+            last = *v;
+        }
+    }
+    out
+}
+
+/// How a watched folder's exports are logged: into which batch, timed how, measured how.
+#[derive(Debug, Clone)]
+pub struct WatchSetup {
+    pub batch: i64,
+    pub folder: PathBuf,
+    /// When the precursor was injected: a file's minutes are its modification time after this,
+    /// where its name states no time.
+    pub injected_at: Option<chrono::DateTime<chrono::FixedOffset>>,
+    pub dilution_factor: f64,
+    pub path_cm: f64,
+    pub solvent: String,
+    /// The PL excitation wavelength; a PL export arriving without one is not logged.
+    pub excitation_nm: Option<f64>,
+}
+
+/// What became of one watched file.
+#[derive(Debug, Clone)]
+pub struct WatchLogged {
+    pub file: String,
+    pub kind: &'static str,
+    pub minutes: f64,
+    /// The aliquot logged, or joined (a PL export for an aliquot whose absorbance came first).
+    pub joined: bool,
+    pub summary: growth::AliquotSummary,
+}
+
+/// The minutes after injection of a watched file: what its name states with a unit, else its
+/// modification time after the injection. A file from before the injection is refused.
+pub fn watched_minutes(
+    path: &Path,
+    modified: Option<std::time::SystemTime>,
+    injected_at: Option<chrono::DateTime<chrono::FixedOffset>>,
+) -> Result<f64> {
+    if let Some(m) = minutes_in_name(path) {
+        return Ok(m);
+    }
+    let name = path.display();
+    let (Some(modified), Some(injected)) = (modified, injected_at) else {
+        return Err(Error::Invalid(format!(
+            "cannot tell when {name} was measured: name it with its time (abs_05min.csv) or give the batch's injection time"
+        )));
+    };
+    let modified: chrono::DateTime<chrono::Utc> = modified.into();
+    let seconds = (modified - injected.with_timezone(&chrono::Utc)).num_milliseconds() as f64 / 1000.0;
+    if seconds < 0.0 {
+        return Err(Error::Invalid(format!(
+            "{name} was written {:.0} min before the injection time; it is not this batch's aliquot",
+            -seconds / 60.0
+        )));
+    }
+    Ok(seconds / 60.0)
+}
+
+/// Logs one watched file: its kind from its content, its minutes as [`watched_minutes`] gives
+/// them; a file whose minutes match an aliquot this watch logged and which lacks this kind
+/// joins that aliquot (absorbance and PL of one aliquot arrive as two exports), anything else
+/// becomes a new aliquot. `logged` maps minutes (in hundredths) to the watch's aliquots.
+pub fn log_watched_file(
+    store: &mut Store,
+    setup: &WatchSetup,
+    path: &Path,
+    modified: Option<std::time::SystemTime>,
+    logged: &mut std::collections::HashMap<i64, i64>,
+) -> Result<WatchLogged> {
+    let kind = kind_of_file(path)?;
+    if kind == "ple" {
+        return Err(Error::Invalid(format!(
+            "{} is a PL excitation spectrum; log it from the command line (aliquot add --ple)",
+            path.display()
+        )));
+    }
+    let minutes = watched_minutes(path, modified, setup.injected_at)?;
+    let f = SpectrumFile {
+        path: path.to_path_buf(),
+        kind,
+        excitation_nm: if kind == "pl" { setup.excitation_nm } else { None },
+        ..Default::default()
+    };
+    if kind == "pl" && f.excitation_nm.is_none() {
+        return Err(Error::Invalid(format!(
+            "{} is PL: give the excitation wavelength in the watch form to log it",
+            path.display()
+        )));
+    }
+    let key = (minutes * 100.0).round() as i64;
+    let file = path
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_default();
+    if let Some(&aliquot) = logged.get(&key) {
+        let has_kind = store.read(|tx| Ok(model::spectra_of_aliquot(tx, aliquot)?.iter().any(|s| s.kind == kind)))?;
+        if !has_kind {
+            let summary = add_spectrum_to_aliquot(store, aliquot, &f, &ReadOptions::default(), &Door::default())?;
+            return Ok(WatchLogged {
+                file,
+                kind,
+                minutes,
+                joined: true,
+                summary,
+            });
+        }
+    }
+    let a = NewAliquot {
+        batch_id: setup.batch,
+        minutes: Some(minutes),
+        stage: None,
+        dilution_factor: setup.dilution_factor,
+        path_cm: setup.path_cm,
+        solvent: setup.solvent.clone(),
+        taken_at: None,
+    };
+    let summary = add_aliquot(store, &a, &[f], &ReadOptions::default(), &Door::default())?;
+    logged.insert(key, summary.id);
+    Ok(WatchLogged {
+        file,
+        kind,
+        minutes,
+        joined: false,
+        summary,
+    })
+}

@@ -150,7 +150,11 @@ fn a_bench_session_driven_by_keys_lands_in_the_database() {
         }
         press(&mut app, KeyCode::Enter);
         press(&mut app, KeyCode::Tab);
-        typ(&mut app, minutes);
+        // The minutes come from the file's name (abs_05min.csv), ready to check.
+        match &app.mode {
+            cuvette::tui::app::Mode::Form(f) => assert_eq!(f.fields[0].text, minutes),
+            _ => panic!("no aliquot form: {:?}", app.message),
+        }
         press(&mut app, KeyCode::Enter);
         assert!(
             app.message.as_ref().is_some_and(|m| !m.0 && m.1.contains("D ")),
@@ -236,36 +240,44 @@ fn forms_and_the_file_picker_render_and_watching_a_folder_logs_new_exports() {
     press(&mut app, KeyCode::Enter);
     press(&mut app, KeyCode::Char('a'));
     let s = screen(&app);
-    assert!(s.contains("pick export files") && s.contains("abs_01min.csv"), "{s}");
+    assert!(s.contains("choose export files") && s.contains("abs_01min.csv"), "{s}");
     press(&mut app, KeyCode::Esc);
-    // Watch for a few seconds; a file that appears meanwhile becomes an aliquot.
+    // Watch until stopped; a file that appears meanwhile becomes an aliquot.
     press(&mut app, KeyCode::Char('w'));
     assert!(screen(&app).contains("Watch a folder"));
-    press(&mut app, KeyCode::Tab);
-    press(&mut app, KeyCode::Tab);
-    for _ in 0..3 {
-        press(&mut app, KeyCode::Backspace);
-    }
-    typ(&mut app, "4");
     press(&mut app, KeyCode::Enter);
     assert!(
         app.message.as_ref().is_some_and(|m| m.1.contains("watching")),
         "{:?}",
         app.message
     );
+    assert!(
+        screen(&app).contains("● watching: 0 logged, W stops"),
+        "{}",
+        screen(&app)
+    );
+    assert!(screen_at(&app, 160, 45).contains("● watching exports/ → batch"));
     std::thread::sleep(std::time::Duration::from_millis(300));
     let (x, y) = cuvette::demo::absorbance("CdSe", 552.0, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(2));
     std::fs::write(exports.join("abs_07min.csv"), csv(&x, &y)).unwrap();
     let start = std::time::Instant::now();
-    while app.busy && start.elapsed().as_secs() < 15 {
+    while app.watching.as_ref().is_some_and(|w| w.logged == 0) && start.elapsed().as_secs() < 20 {
         app.poll_workers();
         std::thread::sleep(std::time::Duration::from_millis(100));
     }
     assert!(
-        app.message.as_ref().is_some_and(|m| m.1.contains("1 aliquots added")),
+        app.message.as_ref().is_some_and(|m| m.1.contains("first exciton")),
         "{:?}",
         app.message
     );
+    press(&mut app, KeyCode::Char('W'));
+    let start = std::time::Instant::now();
+    while app.watching.is_some() && start.elapsed().as_secs() < 10 {
+        app.poll_workers();
+        std::thread::sleep(std::time::Duration::from_millis(50));
+    }
+    assert!(app.watching.is_none(), "the watch did not stop");
+    assert!(!screen(&app).contains("● watching"));
     let st = Store::open(&lab.db, "check").unwrap();
     let b = model::list_batches(&st.conn).unwrap();
     let al = model::aliquots_of(&st.conn, b[0].id).unwrap();

@@ -1587,6 +1587,20 @@ pub fn meta_set(tx: &Connection, who: &str, key: &str, value: &str) -> Result<()
     Ok(())
 }
 
+/// A screen's convenience setting (the folder a batch's exports were last picked from), kept
+/// in the lab beside its batches but not audited: it records no lab work, and a trail entry
+/// for every folder opened would bury the entries that matter. Keys start with `ui.`.
+pub fn ui_setting_set(tx: &Connection, key: &str, value: &str) -> Result<()> {
+    if !key.starts_with("ui.") {
+        return invalid(format!("'{key}' is not a screen setting (they start with ui.)"));
+    }
+    tx.execute(
+        "INSERT INTO lab_meta (key, value) VALUES (?1, ?2) ON CONFLICT(key) DO UPDATE SET value = excluded.value",
+        params![key, value],
+    )?;
+    Ok(())
+}
+
 // ---------------------------------------------------------------- vial concentrations
 
 /// A vial concentration with its provenance, as written (see schema 0005).

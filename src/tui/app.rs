@@ -4,6 +4,7 @@
 //! connection and reports back over a channel, so the screen stays responsive.
 
 use super::keys::{Action, KeyMap, Scope};
+use super::picker::Picker;
 use super::{shelf, units};
 use crate::bench::{self, SpectrumFile};
 use crate::derive::{calibration, engine};
@@ -46,6 +47,8 @@ pub enum FormKind {
     ReinstateVial,
     MoveSpectrum,
     Handover,
+    /// A new, empty lab: the first person and the first place for vials.
+    FirstRun,
 }
 
 /// One text field of a form: its label, its text and where the cursor is (a character index).
@@ -215,35 +218,31 @@ enum Follow {
     Vial(i64),
 }
 
-/// Choosing export files from a folder.
-#[derive(Debug, Clone, Default)]
-pub struct Picker {
-    /// The batch the chosen files will be logged into.
-    pub batch: Option<i64>,
-    pub folder: PathBuf,
-    pub files: Vec<PathBuf>,
-    pub selected: usize,
-    pub abs: Option<PathBuf>,
-    pub pl: Option<PathBuf>,
-}
-
 #[derive(Debug, Clone)]
 pub enum Mode {
     Normal,
     Search,
     Help,
     Form(Form),
-    Picker(Picker),
+    Picker(Box<Picker>),
     Confirm(Box<Confirm>),
 }
 
 /// What a worker reports.
 #[derive(Debug, Clone)]
 pub enum Note {
-    Progress { label: String, done: usize, total: usize },
+    Progress {
+        label: String,
+        done: usize,
+        total: usize,
+    },
     Done(String),
     Failed(String),
     Preview(engine::RecomputeReport),
+    /// What the folder watch did with an export; true when it logged it.
+    Watched(String, bool),
+    /// The watch has stopped (asked to, or its folder went away).
+    WatchEnded(String),
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -372,6 +371,8 @@ pub struct App {
     apply_after_preview: bool,
     /// The vial the last new-vial form made, for the selection to follow.
     new_vial: Option<i64>,
+    /// The folder watch, while one runs (the status line shows it; `W` stops it).
+    pub watching: Option<super::watch::WatchRun>,
 }
 
 /// The 1-based column a query error names.
@@ -439,9 +440,37 @@ impl App {
             size: (80, 24),
             apply_after_preview: false,
             new_vial: None,
+            watching: None,
         };
         app.reload();
         app
+    }
+
+    /// On a lab with nobody in it or nowhere to put a vial (a new lab), opens the form that
+    /// adds the first person and location; Esc leaves it for later. `tui::run` calls it, so a
+    /// program driving the app key by key gets its first key into the view as usual.
+    pub fn offer_first_run(&mut self) {
+        let people = model::list_people(&self.store.conn).map(|v| v.len()).unwrap_or(1);
+        let places = model::list_locations(&self.store.conn).map(|v| v.len()).unwrap_or(1);
+        if (people > 0 && places > 0) || self.store.read_only {
+            return;
+        }
+        let me = if people == 0 {
+            self.store.actor.clone()
+        } else {
+            String::new()
+        };
+        let place = if places == 0 { "fridge 1" } else { "" };
+        self.mode = Mode::Form(Form::new(
+            FormKind::FirstRun,
+            "A new lab: add yourself and a first place for vials (Esc: later)",
+            &[
+                ("your name", &me),
+                ("email", ""),
+                ("location", place),
+                ("location kind", if places == 0 { "fridge" } else { "" }),
+            ],
+        ));
     }
 
     fn info(&mut self, s: impl Into<String>) {
@@ -710,11 +739,23 @@ impl App {
         while let Ok(n) = self.rx.try_recv() {
             match n {
                 Note::Progress { label, done, total } => {
-                    let watching = label.starts_with("watch");
                     self.progress = Some((label, done, total));
-                    if watching {
-                        self.reload();
+                }
+                Note::Watched(line, logged) => {
+                    if logged && let Some(w) = &mut self.watching {
+                        w.logged += 1;
                     }
+                    if logged {
+                        self.info(line)
+                    } else {
+                        self.error(line)
+                    }
+                    self.reload();
+                }
+                Note::WatchEnded(line) => {
+                    self.watching = None;
+                    self.info(line);
+                    self.reload();
                 }
                 Note::Done(s) => {
                     self.progress = None;
@@ -799,7 +840,7 @@ impl App {
             Mode::Search => self.search_key(ev),
             Mode::Help => self.help_key(ev),
             Mode::Form(f) => self.form_key(f, ev),
-            Mode::Picker(p) => self.picker_key(p, ev),
+            Mode::Picker(p) => self.picker_key(*p, ev),
             Mode::Confirm(c) => self.confirm_key(*c, ev),
             Mode::Normal => {
                 if self.holds_back(&ev) {
@@ -1120,32 +1161,76 @@ impl App {
             Action::AddAliquot => match self.selected_batch() {
                 None => self.error("no batch open"),
                 Some(id) => {
-                    let mut p = self.picker();
-                    p.batch = Some(id);
-                    self.mode = Mode::Picker(p);
+                    let p = Picker::open(Some(id), &self.export_folder_for(id));
+                    if let Some(problem) = &p.problem {
+                        self.error(problem.clone());
+                    }
+                    self.mode = Mode::Picker(Box::new(p));
                 }
             },
-            Action::ImportFolder | Action::Watch => match self.selected_batch() {
+            Action::ImportFolder => match self.selected_batch() {
                 None => self.error("no batch open"),
                 Some(id) => {
-                    let dir = self.export_dir.display().to_string();
-                    let batch = self.batch_words(id);
-                    let form = if a == Action::ImportFolder {
-                        Form::new(
-                            FormKind::Import,
-                            &format!("Import a folder of exports into {batch}"),
-                            &[("folder", &dir), ("dilution", "1"), ("excitation nm", "")],
-                        )
-                    } else {
-                        Form::new(
-                            FormKind::Watch,
-                            &format!("Watch a folder for {batch}: new exports become aliquots"),
-                            &[("folder", &dir), ("dilution", "1"), ("seconds", "120")],
-                        )
-                    };
+                    let dir = self.export_folder_for(id).display().to_string();
+                    let (dilution, _, _, ex) = self.batch_defaults(id);
+                    let form = Form::new(
+                        FormKind::Import,
+                        &format!("Import a folder of exports into {}", self.batch_words(id)),
+                        &[
+                            ("folder", &dir),
+                            ("dilution", &units::plain(dilution)),
+                            ("excitation nm", &ex.map(units::plain).unwrap_or_default()),
+                        ],
+                    );
                     self.mode = Mode::Form(form.on(id));
                 }
             },
+            Action::Watch => match (self.selected_batch(), &self.watching) {
+                (_, Some(w)) => self.error(format!(
+                    "already watching {} for batch {}; W stops it",
+                    w.folder.display(),
+                    w.batch
+                )),
+                (None, None) => self.error("no batch open"),
+                (Some(id), None) => {
+                    let dir = self.export_folder_for(id).display().to_string();
+                    let (dilution, path_cm, solvent, ex) = self.batch_defaults(id);
+                    let injected = self
+                        .injected_at(id)
+                        .map(|d| d.with_timezone(&chrono::Local).format("%Y-%m-%d %H:%M:%S").to_string());
+                    let form = Form::new(
+                        FormKind::Watch,
+                        &format!(
+                            "Watch a folder for {}: new exports become aliquots",
+                            self.batch_words(id)
+                        ),
+                        &[
+                            ("folder", &dir),
+                            ("injected at", &injected.unwrap_or_default()),
+                            ("dilution", &units::plain(dilution)),
+                            ("path cm", &units::plain(path_cm)),
+                            ("solvent", &solvent),
+                            ("excitation nm", &ex.map(units::plain).unwrap_or_default()),
+                        ],
+                    );
+                    self.mode = Mode::Form(form.on(id));
+                }
+            },
+            Action::StopWatch => match &self.watching {
+                Some(w) if w.stopping() => self.info("stopping the watch…"),
+                Some(w) => {
+                    w.stop();
+                    self.info(format!("stopping the watch on {}…", w.folder.display()));
+                }
+                None => self.error("no folder is being watched (w on a batch sheet starts one)"),
+            },
+            Action::PickTake
+            | Action::PickAbsorbance
+            | Action::PickPl
+            | Action::PickParent
+            | Action::PickTypePath
+            | Action::PickContinue
+            | Action::PickCancel => {}
             Action::NewVial => match self.selected_batch() {
                 None => self.error("no batch open"),
                 Some(id) => {
@@ -1350,62 +1435,175 @@ impl App {
         }
     }
 
-    fn picker(&self) -> Picker {
-        let mut files: Vec<PathBuf> = std::fs::read_dir(&self.export_dir)
-            .map(|d| {
-                d.filter_map(|e| e.ok().map(|e| e.path()))
-                    .filter(|p| p.is_file())
-                    .collect()
-            })
-            .unwrap_or_default();
-        files.sort();
-        Picker {
-            folder: self.export_dir.clone(),
-            files,
-            ..Default::default()
+    /// The screen-setting key for the folder a batch's exports were last chosen from.
+    fn folder_key(batch: i64) -> String {
+        format!("ui.export_folder.batch.{batch}")
+    }
+
+    /// Where the picker (and the watch and import forms) open for a batch: the folder its
+    /// exports last came from, else the last folder any batch's came from, else where cuvette
+    /// was started.
+    fn export_folder_for(&self, batch: i64) -> PathBuf {
+        let get = |k: &str| model::meta_get(&self.store.conn, k).ok().flatten();
+        get(&Self::folder_key(batch))
+            .or_else(|| get("ui.export_folder.last"))
+            .map(PathBuf::from)
+            .unwrap_or_else(|| self.export_dir.clone())
+    }
+
+    /// Remembers the folder a batch's exports came from. A failure to remember is no reason
+    /// to stop the person's work, so it only goes to the status line.
+    fn remember_folder(&mut self, batch: i64, folder: &std::path::Path) {
+        let Some(text) = folder.to_str().map(str::to_string) else {
+            return;
+        };
+        let key = Self::folder_key(batch);
+        let r = self.store.write(|tx, _| {
+            model::ui_setting_set(tx, &key, &text)?;
+            model::ui_setting_set(tx, "ui.export_folder.last", &text)
+        });
+        if let Err(e) = r {
+            self.error(format!("could not remember the folder: {e}"));
+        }
+    }
+
+    /// What a batch's next aliquot is measured like, from its last one: dilution, path,
+    /// solvent and the PL excitation wavelength. A new batch gets 1, 1 cm, hexane.
+    fn batch_defaults(&self, batch: i64) -> (f64, f64, String, Option<f64>) {
+        let last = model::aliquots_of(&self.store.conn, batch)
+            .ok()
+            .and_then(|v| v.into_iter().max_by_key(|a| a.id));
+        match last {
+            Some(a) => {
+                let ex = model::spectra_of_aliquot(&self.store.conn, a.id)
+                    .ok()
+                    .and_then(|s| s.into_iter().find(|s| s.kind == "pl").and_then(|s| s.excitation_nm));
+                (a.dilution_factor, a.path_cm, a.solvent, ex)
+            }
+            None => (1.0, 1.0, "hexane".into(), None),
         }
     }
 
     fn picker_key(&mut self, mut p: Picker, ev: KeyEvent) {
+        if p.typing {
+            match ev.code {
+                KeyCode::Esc => {
+                    p.typing = false;
+                    p.completions.clear();
+                }
+                KeyCode::Tab => p.complete(),
+                KeyCode::Enter => {
+                    p.go_typed();
+                }
+                _ => {
+                    if let Some(e) = self.field_edit(&ev) {
+                        edit_line(&mut p.path_text, &mut p.path_cursor, e);
+                        p.completions.clear();
+                    }
+                }
+            }
+            self.mode = Mode::Picker(Box::new(p));
+            return;
+        }
+        let page = self.page_rows() as isize;
         match ev.code {
-            KeyCode::Esc => return,
-            KeyCode::Down | KeyCode::Char('j') => p.selected = (p.selected + 1).min(p.files.len().saturating_sub(1)),
-            KeyCode::Up | KeyCode::Char('k') => p.selected = p.selected.saturating_sub(1),
-            KeyCode::Enter => p.abs = p.files.get(p.selected).cloned(),
-            KeyCode::Char('p') => p.pl = p.files.get(p.selected).cloned(),
-            KeyCode::Tab => {
+            KeyCode::Down | KeyCode::Char('j') => p.step(1),
+            KeyCode::Up | KeyCode::Char('k') => p.step(-1),
+            KeyCode::PageDown => p.step(page),
+            KeyCode::PageUp => p.step(-page),
+            KeyCode::Home => p.step(-(p.entries.len() as isize)),
+            KeyCode::End => p.step(p.entries.len() as isize),
+            KeyCode::Left => p.up(),
+            _ => {}
+        }
+        let said = match self.keys.action_in(&ev, Scope::Picker) {
+            Some(Action::PickCancel) => return,
+            Some(Action::PickTake) => match p.selected_entry().cloned() {
+                Some(e) if e.is_dir => {
+                    p.go_to(&e.path, None);
+                    Ok(String::new())
+                }
+                Some(e) => match p.selected_kind() {
+                    Some(k @ ("abs" | "pl")) => p.take(k),
+                    _ if matches!(&p.preview, Some((q, Err(_))) if *q == e.path) => p.take("abs"),
+                    _ => Err(format!(
+                        "cannot tell what kind {} is: a takes it as absorbance, p as PL",
+                        e.name
+                    )),
+                },
+                None => Err("nothing here".into()),
+            },
+            Some(Action::PickAbsorbance) => p.take("abs"),
+            Some(Action::PickPl) => p.take("pl"),
+            Some(Action::PickParent) => {
+                p.up();
+                Ok(String::new())
+            }
+            Some(Action::PickTypePath) => {
+                let mut start = p.folder.display().to_string();
+                if !start.ends_with('/') {
+                    start.push('/');
+                }
+                p.start_typing(start);
+                Ok(String::new())
+            }
+            Some(Action::PickContinue) => {
                 if p.abs.is_none() && p.pl.is_none() {
-                    self.error("choose a file first: Enter for absorbance, p for PL");
+                    Err("take a file first: Enter takes it as the kind it looks like".into())
                 } else {
-                    let batch = p.batch.map(|id| self.batch_words(id)).unwrap_or_default();
-                    let mut f = Form::new(
-                        FormKind::AddAliquot,
-                        &format!("Add an aliquot to {batch}"),
-                        &[
-                            ("minutes", ""),
-                            ("stage", ""),
-                            ("dilution", "1"),
-                            ("path cm", "1"),
-                            ("solvent", "hexane"),
-                            ("excitation nm", ""),
-                        ],
-                    );
-                    f.push(
-                        "abs file",
-                        p.abs.as_ref().map(|x| x.display().to_string()).unwrap_or_default(),
-                    );
-                    f.push(
-                        "pl file",
-                        p.pl.as_ref().map(|x| x.display().to_string()).unwrap_or_default(),
-                    );
-                    f.target = p.batch;
-                    self.mode = Mode::Form(f);
+                    self.aliquot_form_from(&p);
                     return;
                 }
             }
-            _ => {}
+            _ => Ok(String::new()),
+        };
+        match said {
+            Ok(s) if !s.is_empty() => self.info(s),
+            Ok(_) => {}
+            Err(e) => self.error(e),
         }
-        self.mode = Mode::Picker(p);
+        self.mode = Mode::Picker(Box::new(p));
+    }
+
+    /// The aliquot's form after the picker: the files taken, minutes from the absorbance
+    /// file's name where it states them, the rest as the batch's last aliquot was measured.
+    fn aliquot_form_from(&mut self, p: &Picker) {
+        let Some(batch) = p.batch else {
+            self.error("no batch open");
+            return;
+        };
+        self.remember_folder(batch, &p.folder);
+        let (dilution, path_cm, solvent, ex) = self.batch_defaults(batch);
+        let minutes = p
+            .abs
+            .iter()
+            .chain(p.pl.iter())
+            .find_map(|f| bench::minutes_in_name(f))
+            .map(units::minutes)
+            .unwrap_or_default();
+        let words = self.batch_words(batch);
+        let mut f = Form::new(
+            FormKind::AddAliquot,
+            &format!("Add an aliquot to {words}"),
+            &[
+                ("minutes", &minutes),
+                ("stage", ""),
+                ("dilution", &units::plain(dilution)),
+                ("path cm", &units::plain(path_cm)),
+                ("solvent", &solvent),
+                ("excitation nm", &ex.map(units::plain).unwrap_or_default()),
+            ],
+        );
+        f.push(
+            "abs file",
+            p.abs.as_ref().map(|x| x.display().to_string()).unwrap_or_default(),
+        );
+        f.push(
+            "pl file",
+            p.pl.as_ref().map(|x| x.display().to_string()).unwrap_or_default(),
+        );
+        f.target = Some(batch);
+        self.mode = Mode::Form(f);
     }
 
     fn form_key(&mut self, mut f: Form, ev: KeyEvent) {
@@ -1449,7 +1647,7 @@ impl App {
     }
 
     /// "batch 3 CdSe-0412": how a form names the batch it acts on.
-    fn batch_words(&self, id: i64) -> String {
+    pub fn batch_words(&self, id: i64) -> String {
         let name = match &self.sheet {
             Some(s) if s["id"].as_i64() == Some(id) => s["name"].as_str().map(String::from),
             _ => self.facts.iter().find(|b| b.id == id).map(|b| b.name.clone()),
@@ -1894,29 +2092,112 @@ impl App {
                     v.location
                 ))
             }
+            FormKind::FirstRun => {
+                let (name, email) = (f.get("your name"), f.get("email"));
+                let (place, kind) = (f.get("location"), f.get("location kind"));
+                if name.is_empty() && place.is_empty() {
+                    return Err("give your name, a location, or both (Esc leaves this for later)".into());
+                }
+                if !place.is_empty() && !model::LOCATION_KINDS.contains(&kind.as_str()) {
+                    return Err(format!(
+                        "location kind: one of {} (got '{kind}')",
+                        model::LOCATION_KINDS.join(", ")
+                    ));
+                }
+                self.store
+                    .write(|tx, who| {
+                        if !name.is_empty() {
+                            model::add_person(tx, who, &name, Some(email.as_str()).filter(|e| !e.is_empty()))?;
+                        }
+                        if !place.is_empty() {
+                            model::add_location(tx, who, &place, &kind, None)?;
+                        }
+                        Ok(())
+                    })
+                    .map_err(e)?;
+                let mut said = Vec::new();
+                if !name.is_empty() {
+                    said.push(format!("{name} added to the lab"));
+                }
+                if !place.is_empty() {
+                    said.push(format!("location {place} ({kind}) ready for vials"));
+                }
+                Ok(format!("{}; n logs the first batch", said.join(", ")))
+            }
             FormKind::Handover => {
                 let (from, to) = (f.get("from"), f.get("to"));
                 let out = Self::handover_dir(&f.get("pack folder"), &from, &to);
                 self.spawn_handover(from, to, out)?;
                 Ok("handing over in the background".into())
             }
-            FormKind::Import | FormKind::Watch => {
+            FormKind::Import => {
                 let batch = f.target.ok_or("no batch open")?;
                 let folder = PathBuf::from(f.get("folder"));
                 let dilution = Self::number(f, "dilution")?.unwrap_or(1.0);
-                if f.kind == FormKind::Import {
-                    let ex = Self::number(f, "excitation nm")?;
-                    self.spawn_import(batch, folder, dilution, ex)?;
-                    Ok("importing in the background".into())
-                } else {
-                    let secs = Self::number(f, "seconds")?.unwrap_or(120.0);
-                    self.spawn_watch(batch, folder, dilution, secs)?;
-                    Ok(format!(
-                        "watching for {secs:.0} s: new exports become aliquots of batch {batch}"
-                    ))
+                let ex = Self::number(f, "excitation nm")?;
+                self.spawn_import(batch, folder.clone(), dilution, ex)?;
+                self.remember_folder(batch, &folder);
+                Ok("importing in the background".into())
+            }
+            FormKind::Watch => {
+                let batch = f.target.ok_or("no batch open")?;
+                let folder = PathBuf::from(f.get("folder"));
+                if !folder.is_dir() {
+                    return Err(format!("folder: {} is not a folder", folder.display()));
                 }
+                let injected_at = super::watch::parse_injected(&f.get("injected at"), chrono::Local::now())?;
+                let path_cm = Self::number(f, "path cm")?.unwrap_or(1.0);
+                let dilution_factor = Self::number(f, "dilution")?.unwrap_or(1.0);
+                bench::OwnCuvette {
+                    path_cm: Some(path_cm),
+                    dilution_factor: Some(dilution_factor),
+                }
+                .checked("path cm", "dilution")
+                .map_err(e)?;
+                let solvent = f.get("solvent");
+                if solvent.is_empty() {
+                    return Err("solvent: name the solvent the aliquots are diluted in".into());
+                }
+                let setup = bench::WatchSetup {
+                    batch,
+                    folder: folder.clone(),
+                    injected_at,
+                    dilution_factor,
+                    path_cm,
+                    solvent,
+                    excitation_nm: Self::number(f, "excitation nm")?,
+                };
+                let store = self.worker_store()?;
+                // The injection time is part of the batch's record: kept (audited) once given.
+                if let Some(at) = injected_at
+                    && self.injected_at(batch) != Some(at)
+                {
+                    let key = format!("injected_at.batch.{batch}");
+                    self.store
+                        .write(|tx, who| model::meta_set(tx, who, &key, &at.to_rfc3339()))
+                        .map_err(e)?;
+                }
+                self.remember_folder(batch, &folder);
+                let timing = if injected_at.is_some() {
+                    "timed from the injection"
+                } else {
+                    "timed by their names"
+                };
+                self.watching = Some(super::watch::start(store, setup, self.tx.clone()));
+                Ok(format!(
+                    "watching {}: new exports become aliquots of batch {batch}, {timing}; W stops",
+                    folder.display()
+                ))
             }
         }
+    }
+
+    /// The injection time given for a batch, if any.
+    pub fn injected_at(&self, batch: i64) -> Option<chrono::DateTime<chrono::FixedOffset>> {
+        model::meta_get(&self.store.conn, &format!("injected_at.batch.{batch}"))
+            .ok()
+            .flatten()
+            .and_then(|t| chrono::DateTime::parse_from_rfc3339(&t).ok())
     }
 
     fn worker_store(&self) -> Result<Store, String> {
@@ -2024,121 +2305,6 @@ impl App {
                 )),
                 Err(e) => Note::Failed(e.to_string()),
             });
-        });
-        Ok(())
-    }
-
-    /// Polls a folder once a second; each new file becomes an aliquot of the batch, timed by its
-    /// name if it holds minutes, else by the minutes since watching began.
-    fn spawn_watch(&mut self, batch: i64, folder: PathBuf, dilution: f64, secs: f64) -> Result<(), String> {
-        if !folder.is_dir() {
-            return Err(format!("{} is not a folder", folder.display()));
-        }
-        let mut store = self.worker_store()?;
-        let tx = self.tx.clone();
-        let mut watch = bench::FolderWatch::new(&bench::folder_looks(&folder));
-        self.busy = true;
-        std::thread::spawn(move || {
-            let start = std::time::Instant::now();
-            let mut added = 0;
-            let say = |label: String, added: usize| {
-                let _ = tx.send(Note::Progress {
-                    label,
-                    done: added,
-                    total: added,
-                });
-            };
-            while start.elapsed().as_secs_f64() < secs {
-                std::thread::sleep(std::time::Duration::from_millis(500));
-                let listing = bench::folder_looks(&folder);
-                for ev in watch.look(std::time::Instant::now(), &listing) {
-                    let p = match ev {
-                        bench::WatchEvent::ChangedAfter(p, Some(aliquot)) => {
-                            say(
-                                format!(
-                                    "watch: {} changed after it was logged as aliquot {aliquot}; void that aliquot and log the file again",
-                                    p.display()
-                                ),
-                                added,
-                            );
-                            continue;
-                        }
-                        bench::WatchEvent::ChangedAfter(_, None) => continue,
-                        bench::WatchEvent::Ready(p) => p,
-                    };
-                    let look = listing.iter().find(|(q, _)| *q == p).map(|(_, l)| *l);
-                    let Some(look) = look else { continue };
-                    watch.done(&p, look, None);
-                    let minutes = bench::group_folder(&folder, None)
-                        .ok()
-                        .and_then(|g| {
-                            g.into_iter()
-                                .find(|g| g.files.iter().any(|f| f.path == p))
-                                .and_then(|g| g.minutes)
-                        })
-                        .unwrap_or(start.elapsed().as_secs_f64() / 60.0);
-                    let a = model::NewAliquot {
-                        batch_id: batch,
-                        minutes: Some(minutes),
-                        stage: None,
-                        dilution_factor: dilution,
-                        path_cm: 1.0,
-                        solvent: "hexane".into(),
-                        taken_at: None,
-                    };
-                    // The kind is decided as the door decides it (header, name, then shape), never
-                    // assumed; a file it cannot place is reported and left alone.
-                    let kind = match bench::kind_of_file(&p) {
-                        Ok(k) => k,
-                        Err(e) => {
-                            say(format!("watch: skipped {e}"), added);
-                            continue;
-                        }
-                    };
-                    if kind == "pl" {
-                        say(
-                            format!(
-                                "watch: {} is PL; log it with its excitation wavelength (a)",
-                                p.display()
-                            ),
-                            added,
-                        );
-                        continue;
-                    }
-                    let f = SpectrumFile {
-                        path: p.clone(),
-                        kind,
-                        ..Default::default()
-                    };
-                    let mut logged = bench::add_aliquot(
-                        &mut store,
-                        &a,
-                        std::slice::from_ref(&f),
-                        &Default::default(),
-                        &bench::Door::default(),
-                    );
-                    // The lab was restored while watching: go on watching into the restored lab.
-                    if let Err(crate::Error::Replaced(_)) = &logged
-                        && let Ok(fresh) = store.reopen()
-                    {
-                        store = fresh;
-                        say(
-                            "watch: the lab was restored from a backup; watching on into it".into(),
-                            added,
-                        );
-                        logged = bench::add_aliquot(&mut store, &a, &[f], &Default::default(), &bench::Door::default());
-                    }
-                    match logged {
-                        Ok(s) => {
-                            added += 1;
-                            watch.done(&p, look, Some(s.id));
-                            say(format!("watch: aliquot {} D {} nm", s.id, num(s.diameter_nm, 2)), added);
-                        }
-                        Err(e) => say(format!("watch: {e}"), added),
-                    }
-                }
-            }
-            let _ = tx.send(Note::Done(format!("stopped watching; {added} aliquots added")));
         });
         Ok(())
     }

@@ -4,6 +4,7 @@
 
 use super::app::{App, Mode, SortKey, View};
 use super::keys::Scope;
+use super::picker::Picker;
 use super::units;
 use crate::search::Facts;
 use ratatui::Frame;
@@ -11,7 +12,9 @@ use ratatui::layout::{Constraint, Layout, Rect};
 use ratatui::style::{Color, Modifier, Style};
 use ratatui::symbols::Marker;
 use ratatui::text::{Line, Span};
-use ratatui::widgets::{Axis, Block, Cell, Chart, Clear, Dataset, GraphType, Paragraph, Row, Table, TableState, Wrap};
+use ratatui::widgets::{
+    Axis, Block, Borders, Cell, Chart, Clear, Dataset, GraphType, Paragraph, Row, Table, TableState, Wrap,
+};
 
 fn n(v: Option<f64>, d: usize) -> String {
     v.map(|x| format!("{x:.d$}")).unwrap_or_else(|| "-".into())
@@ -82,7 +85,7 @@ pub fn draw(f: &mut Frame, app: &App) {
     match &app.mode {
         Mode::Help => draw_help(f, app, &p),
         Mode::Form(form) => draw_form(f, app, form, &p),
-        Mode::Picker(pk) => draw_picker(f, pk, &p),
+        Mode::Picker(pk) => draw_picker(f, app, pk, &p),
         Mode::Confirm(c) => draw_confirm(f, app, c, &p),
         _ => {}
     }
@@ -1177,7 +1180,29 @@ fn draw_status(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     // both share the line, the message first.
     // Keys held back as a form closed come first: they are what the person just typed.
     let mut spans = Vec::new();
+    // A running watch is always on show: it logs into the lab while the person does other
+    // things, so they must be able to see that it runs, and how to stop it.
+    if let Some(w) = &app.watching {
+        let folder = w
+            .folder
+            .file_name()
+            .map(|n| n.to_string_lossy().to_string())
+            .unwrap_or_else(|| w.folder.display().to_string());
+        let state = if w.stopping() { "stopping" } else { "W stops" };
+        let text = if area.width >= 120 {
+            format!(
+                "● watching {folder}/ → batch {} ({} logged; {state})",
+                w.batch, w.logged
+            )
+        } else {
+            format!("● watching: {} logged, {state}", w.logged)
+        };
+        spans.push(Span::styled(text, p.head()));
+    }
     if !app.held_back.is_empty() {
+        if !spans.is_empty() {
+            spans.push(Span::raw("  ·  "));
+        }
         spans.push(Span::styled(
             format!("held back \"{}\": typed as the form closed", app.held_back),
             p.warn(),
@@ -1204,13 +1229,14 @@ fn draw_footer(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         Mode::Search => None,
         Mode::Form(_) => Some(Scope::Form),
         Mode::Confirm(_) => Some(Scope::Confirm),
+        Mode::Picker(_) => Some(Scope::Picker),
         _ => Some(app.scope()),
     };
     let spans: Vec<Span> = match scope {
         None => vec![Span::raw("type a query · Enter/Esc leave the search box")],
         Some(s) => {
             let mut v = Vec::new();
-            let keys = if matches!(s, Scope::Form | Scope::Confirm) {
+            let keys = if matches!(s, Scope::Form | Scope::Confirm | Scope::Picker) {
                 app.keys.footer_in(s)
             } else {
                 app.keys.footer(s)
@@ -1371,34 +1397,215 @@ fn draw_confirm(f: &mut Frame, app: &App, c: &super::app::Confirm, p: &Palette) 
     );
 }
 
-fn draw_picker(f: &mut Frame, pk: &super::app::Picker, p: &Palette) {
-    let area = centred(f.area(), 74, 18);
+/// Eighth-block characters for the preview's small plot, lowest first.
+const BLOCKS: [char; 8] = ['▁', '▂', '▃', '▄', '▅', '▆', '▇', '█'];
+
+/// A small plot of `values` in `rows` text rows, scaled from their lowest to highest.
+pub fn outline_rows(values: &[f64], rows: usize) -> Vec<String> {
+    let (lo, hi) = values
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| (a.min(v), b.max(v)));
+    let span = if hi > lo { hi - lo } else { 1.0 };
+    let levels = rows * 8;
+    let heights: Vec<usize> = values
+        .iter()
+        .map(|v| (((v - lo) / span) * (levels - 1) as f64).round() as usize + 1)
+        .collect();
+    (0..rows)
+        .rev()
+        .map(|r| {
+            heights
+                .iter()
+                .map(|&h| {
+                    let above = h.saturating_sub(r * 8);
+                    match above {
+                        0 => ' ',
+                        n if n >= 8 => '█',
+                        n => BLOCKS[n - 1],
+                    }
+                })
+                .collect()
+        })
+        .collect()
+}
+
+fn kind_word(k: Option<&str>) -> &'static str {
+    match k {
+        Some("abs") => "absorbance",
+        Some("pl") => "PL",
+        Some("ple") => "PL excitation",
+        _ => "unknown kind",
+    }
+}
+
+fn preview_lines(pk: &Picker, width: usize, p: &Palette) -> Vec<Line<'static>> {
+    let Some(e) = pk.selected_entry() else {
+        return vec![];
+    };
+    if e.is_dir {
+        let n = super::picker::list_folder(&e.path).map(|v| v.len().saturating_sub(1));
+        return vec![
+            Line::styled(format!("{}/", e.name), p.head()),
+            Line::from(match n {
+                Ok(n) => format!("folder, {n} entries: Enter opens it"),
+                Err(err) => err,
+            }),
+        ];
+    }
+    let mut out = vec![Line::styled(e.name.clone(), p.head())];
+    match &pk.preview {
+        Some((path, Ok(v))) if *path == e.path => {
+            out.push(Line::from(format!("{} · {} points", v.format, v.points)));
+            if let Some((lo, hi)) = v.nm_range {
+                out.push(Line::from(format!(
+                    "{lo:.0}–{hi:.0} nm · y {}",
+                    v.y_unit.clone().unwrap_or_else(|| "not stated".into())
+                )));
+            }
+            if v.spectra.len() > 1 {
+                out.push(Line::from(format!("columns: {}", v.spectra.join(", "))));
+            }
+            out.push(Line::from(format!("looks like {}", kind_word(v.kind))));
+            out.push(Line::styled(format!("  ({})", v.kind_evidence), p.dim()));
+            let feature = match (v.kind, v.feature_nm) {
+                (Some("pl"), Some(nm)) => format!("PL peak {nm:.1} nm"),
+                (Some("abs"), Some(nm)) => format!("first exciton {nm:.1} nm"),
+                (Some("abs" | "pl"), None) => "no feature found".into(),
+                _ => String::new(),
+            };
+            let minutes = v
+                .minutes_in_name
+                .map(|m| format!("{} min in its name", units::minutes(m)))
+                .unwrap_or_default();
+            let both = [feature, minutes]
+                .into_iter()
+                .filter(|s| !s.is_empty())
+                .collect::<Vec<_>>()
+                .join(" · ");
+            if !both.is_empty() {
+                out.push(Line::from(both));
+            }
+            let w = width.min(v.outline.len());
+            if w > 0 {
+                let step = v.outline.len() as f64 / w as f64;
+                let vals: Vec<f64> = (0..w).map(|i| v.outline[(i as f64 * step) as usize]).collect();
+                for r in outline_rows(&vals, 3) {
+                    out.push(Line::styled(r, p.head()));
+                }
+            }
+            for w in &v.warnings {
+                out.push(Line::styled(w.clone(), p.warn()));
+            }
+        }
+        Some((path, Err(err))) if *path == e.path => out.push(Line::styled(err.clone(), p.err())),
+        _ => {}
+    }
+    out
+}
+
+fn draw_picker(f: &mut Frame, app: &App, pk: &Picker, p: &Palette) {
+    let full = f.area();
+    let w = full.width.saturating_sub(4).min(120);
+    let h = full.height.saturating_sub(3).min(34);
+    let area = centred(full, w, h);
     f.render_widget(Clear, area);
-    let mut lines = vec![Line::from(format!("folder {}", pk.folder.display()))];
-    let visible = area.height.saturating_sub(5) as usize;
+    let title = match pk.batch {
+        Some(id) => format!("Add an aliquot to {}: choose export files", app.batch_words(id)),
+        None => "Add an aliquot: choose export files".into(),
+    };
+    let block = Block::bordered().title(title);
+    let inner = block.inner(area);
+    f.render_widget(block, area);
+    let [path_row, taken_row, body, note_row] = Layout::vertical([
+        Constraint::Length(1),
+        Constraint::Length(1),
+        Constraint::Min(3),
+        Constraint::Length(1),
+    ])
+    .areas(inner);
+    let path_line = if pk.typing {
+        let (before, after) = pk.path_text.split_at(
+            pk.path_text
+                .char_indices()
+                .nth(pk.path_cursor)
+                .map(|(b, _)| b)
+                .unwrap_or(pk.path_text.len()),
+        );
+        Line::from(vec![
+            Span::styled("path ", p.head()),
+            Span::raw(before.to_string()),
+            Span::styled("▏", p.head()),
+            Span::raw(after.to_string()),
+        ])
+    } else {
+        Line::from(vec![
+            Span::styled("folder ", p.head()),
+            Span::raw(pk.folder.display().to_string()),
+        ])
+    };
+    f.render_widget(Paragraph::new(path_line), path_row);
+    let name = |x: &Option<std::path::PathBuf>| {
+        x.as_ref()
+            .and_then(|x| x.file_name())
+            .map(|n| n.to_string_lossy().to_string())
+            .unwrap_or_else(|| "-".into())
+    };
+    f.render_widget(
+        Paragraph::new(Line::from(vec![
+            Span::styled("absorbance ", p.head()),
+            Span::raw(name(&pk.abs)),
+            Span::styled("   PL ", p.head()),
+            Span::raw(name(&pk.pl)),
+        ])),
+        taken_row,
+    );
+    // The list beside the preview where there is room, above it where there is not.
+    let wide = body.width >= 70;
+    let (list_area, preview_area) = if wide {
+        let [a, b] = Layout::horizontal([Constraint::Percentage(45), Constraint::Percentage(55)]).areas(body);
+        (a, b)
+    } else {
+        let [a, b] = Layout::vertical([Constraint::Percentage(45), Constraint::Percentage(55)]).areas(body);
+        (a, b)
+    };
+    let visible = list_area.height as usize;
     let start = pk.selected.saturating_sub(visible.saturating_sub(1));
-    for (i, file) in pk.files.iter().enumerate().skip(start).take(visible) {
-        let tag = if pk.abs.as_ref() == Some(file) {
+    let mut lines = Vec::new();
+    for (i, e) in pk.entries.iter().enumerate().skip(start).take(visible) {
+        let tag = if pk.abs.as_ref() == Some(&e.path) {
             "[abs] "
-        } else if pk.pl.as_ref() == Some(file) {
+        } else if pk.pl.as_ref() == Some(&e.path) {
             "[PL]  "
         } else {
             "      "
         };
-        let name = file
-            .file_name()
-            .map(|n| n.to_string_lossy().to_string())
-            .unwrap_or_default();
+        let label = if e.is_dir {
+            format!("{}/", e.name)
+        } else {
+            e.name.clone()
+        };
         let style = if i == pk.selected { p.sel() } else { Style::default() };
-        lines.push(Line::styled(format!("{tag}{name}"), style));
+        lines.push(Line::styled(format!("{tag}{label}"), style));
     }
-    if pk.files.is_empty() {
-        lines.push(Line::from("no files here"));
+    if pk.entries.is_empty() {
+        lines.push(Line::from("nothing here"));
     }
-    lines.push(Line::from("Enter absorbance · p PL · Tab continue · Esc cancel"));
-    let title = match pk.batch {
-        Some(id) => format!("add an aliquot to batch {id}: pick export files"),
-        None => "add an aliquot: pick export files".into(),
+    f.render_widget(Paragraph::new(lines), list_area);
+    let preview = preview_lines(pk, preview_area.width.saturating_sub(2) as usize, p);
+    f.render_widget(
+        Paragraph::new(preview)
+            .wrap(Wrap { trim: false })
+            .block(Block::new().borders(if wide { Borders::LEFT } else { Borders::TOP })),
+        preview_area,
+    );
+    let note = if let Some(problem) = &pk.problem {
+        Line::styled(problem.clone(), p.err())
+    } else if !pk.completions.is_empty() {
+        Line::from(format!("fits: {}", pk.completions.join("  ")))
+    } else if pk.typing {
+        Line::styled("Tab completes · Enter goes there · Esc back to the list", p.dim())
+    } else {
+        Line::default()
     };
-    f.render_widget(Paragraph::new(lines).block(Block::bordered().title(title)), area);
+    f.render_widget(Paragraph::new(note), note_row);
 }

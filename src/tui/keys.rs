@@ -44,6 +44,15 @@ pub enum Action {
     ToggleDisposed,
     MoveSpectrum,
     Handover,
+    StopWatch,
+    // The file picker.
+    PickTake,
+    PickAbsorbance,
+    PickPl,
+    PickParent,
+    PickTypePath,
+    PickContinue,
+    PickCancel,
     HelpPageDown,
     HelpPageUp,
     // Lists: the batch list, the shelf, the growth table and the trail.
@@ -88,6 +97,8 @@ pub enum Scope {
     Field,
     /// A confirmation showing what an action will change.
     Confirm,
+    /// The file picker: browsing folders for export files.
+    Picker,
 }
 
 /// The order scopes are listed in the help, and their titles there.
@@ -98,6 +109,7 @@ pub const SCOPES: &[(Scope, &str)] = &[
     (Scope::Shelf, "shelf"),
     (Scope::Calibrations, "calibrations"),
     (Scope::Trail, "trail"),
+    (Scope::Picker, "choosing export files"),
     (Scope::Form, "in a form"),
     (Scope::Field, "in a text field (forms and the search box)"),
     (Scope::Confirm, "when asked to confirm"),
@@ -458,6 +470,70 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         scope: Scope::Help,
         help: "previous page (↑ scrolls a line)",
         footer: false,
+    },
+    Binding {
+        action: Action::StopWatch,
+        name: "stop-watch",
+        key: "W",
+        scope: Scope::Everywhere,
+        help: "stop watching the folder (the status line shows a watch while it runs)",
+        footer: false,
+    },
+    Binding {
+        action: Action::PickTake,
+        name: "take",
+        key: "enter",
+        scope: Scope::Picker,
+        help: "open the folder, or take the file as the kind it looks like (again: put it back)",
+        footer: true,
+    },
+    Binding {
+        action: Action::PickAbsorbance,
+        name: "as-abs",
+        key: "a",
+        scope: Scope::Picker,
+        help: "take the file as the absorbance spectrum",
+        footer: true,
+    },
+    Binding {
+        action: Action::PickPl,
+        name: "as-pl",
+        key: "p",
+        scope: Scope::Picker,
+        help: "take the file as the PL spectrum",
+        footer: true,
+    },
+    Binding {
+        action: Action::PickParent,
+        name: "up",
+        key: "backspace",
+        scope: Scope::Picker,
+        help: "the folder above",
+        footer: true,
+    },
+    Binding {
+        action: Action::PickTypePath,
+        name: "path",
+        key: "/",
+        scope: Scope::Picker,
+        help: "type a folder or file path (Tab completes, Enter goes, Esc back to the list)",
+        footer: true,
+    },
+    Binding {
+        action: Action::PickContinue,
+        name: "next",
+        key: "tab",
+        scope: Scope::Picker,
+        help: "go on to the aliquot's form with the files taken",
+        footer: true,
+    },
+    Binding {
+        action: Action::PickCancel,
+        name: "close",
+        key: "esc",
+        scope: Scope::Picker,
+        help: "close the picker; nothing is logged",
+        footer: true,
     },
     Binding {
         action: Action::NextField,

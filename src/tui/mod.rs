@@ -6,8 +6,10 @@
 pub mod app;
 pub mod draw;
 pub mod keys;
+pub mod picker;
 pub mod shelf;
 pub mod units;
+pub mod watch;
 
 use crate::error::{Error, Result};
 use crate::store::Store;
@@ -25,11 +27,16 @@ pub fn run(store: Store) -> Result<()> {
     // A person types as the screen changes under them: letters typed as a form closes are
     // held back rather than taken as the view's keys.
     app.settle = app::SETTLE;
+    app.offer_first_run();
     let mut terminal = ratatui::try_init()?;
     // Pasted text arrives whole, so a newline in it cannot submit a form and spill the rest
     // of the paste into the view as keys. A terminal without bracketed paste simply ignores it.
     let _ = crossterm::execute!(std::io::stdout(), EnableBracketedPaste);
     let result = event_loop(&mut terminal, &mut app);
+    // A watch ends with the UI: it stops between files, never inside a transaction.
+    if let Some(w) = &app.watching {
+        w.stop();
+    }
     let _ = crossterm::execute!(std::io::stdout(), DisableBracketedPaste);
     ratatui::restore();
     result

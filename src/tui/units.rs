@@ -38,6 +38,14 @@ pub fn minutes(m: f64) -> String {
     if s == "-0" { "0".into() } else { s.to_string() }
 }
 
+/// A number put back into a form field (a dilution, a path, a wavelength): up to 4 decimals,
+/// no trailing zeros, so the field shows what was typed once (`2.5`, `0.2`, `400`).
+pub fn plain(v: f64) -> String {
+    let s = format!("{:.4}", round_to(v, 4));
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" { "0".into() } else { s.to_string() }
+}
+
 fn round_to(v: f64, decimals: i32) -> f64 {
     let k = 10f64.powi(decimals);
     (v * k).round() / k
