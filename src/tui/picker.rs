@@ -324,8 +324,12 @@ mod tests {
         let d = tempfile::tempdir().unwrap();
         std::fs::create_dir_all(d.path().join("run-07/growth")).unwrap();
         std::fs::create_dir_all(d.path().join("run-08")).unwrap();
-        std::fs::write(d.path().join("run-07/growth/abs_05min.csv"), "x").unwrap();
-        std::fs::write(d.path().join("run-07/growth/abs_10min.csv"), "x").unwrap();
+        // A readable spectrum (the values matter not here, only that the file reads).
+        let csv: String = std::iter::once("Wavelength (nm),Absorbance\n".to_string())
+            .chain((0..40).map(|i| format!("{},{}\n", 400 + 5 * i, 0.1 + 0.001 * i as f64)))
+            .collect();
+        std::fs::write(d.path().join("run-07/growth/abs_05min.csv"), &csv).unwrap();
+        std::fs::write(d.path().join("run-07/growth/abs_10min.csv"), &csv).unwrap();
         std::fs::write(d.path().join("notes.txt"), "x").unwrap();
         std::fs::write(d.path().join(".hidden"), "x").unwrap();
         d
@@ -394,5 +398,14 @@ mod tests {
         assert!(p.pl.is_none());
         p.selected = 0;
         assert!(p.take("abs").unwrap_err().contains("folder"));
+        // A file that cannot be read is refused when taken, with the reader's reason.
+        std::fs::write(d.path().join("run-07/growth/broken.csv"), "no numbers at all").unwrap();
+        p.go_to(
+            &d.path().join("run-07/growth"),
+            Some(&d.path().join("run-07/growth/broken.csv")),
+        );
+        assert_eq!(p.selected_entry().unwrap().name, "broken.csv");
+        assert!(p.take("abs").is_err());
+        assert!(p.abs.is_none());
     }
 }
