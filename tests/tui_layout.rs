@@ -347,3 +347,44 @@ fn a_shelf_filtered_to_no_vial_draws_and_says_so() {
             .is_some_and(|m| m.0 && m.1.contains("no vial selected"))
     );
 }
+
+#[test]
+fn a_field_name_half_typed_does_not_replace_the_results_until_it_is_finished() {
+    let (_lab, mut app) = demo_ui();
+    press(&mut app, KeyCode::Char('/'));
+    typ(&mut app, "material CdSe");
+    let cdse = hit_ids(&app);
+    assert!(!cdse.is_empty() && cdse.len() < 25, "{cdse:?}");
+    // Letter by letter on the way to `size 3 to 4`: `s`, `si`, `siz` are the start of a field,
+    // not words no batch has; the CdSe batches stay, and the meaning says what is coming.
+    for (typed, note) in [(" s", "(size, status or stock?)"), ("i", "(size?)"), ("z", "(size?)")] {
+        typ(&mut app, typed);
+        assert_eq!(hit_ids(&app), cdse, "after typing {typed:?}");
+        let s = screen_at(&app, 160, 45);
+        assert!(s.contains(note), "{s}");
+        assert!(app.query_error.is_none());
+    }
+    typ(&mut app, "e 3 to 4");
+    let sized = hit_ids(&app);
+    assert!(
+        sized.iter().all(|id| cdse.contains(id)) && sized.len() < cdse.len(),
+        "{sized:?}"
+    );
+    // Leaving the box with a half word takes it as a word, as `cuvette find` does.
+    for _ in 0.."e 3 to 4".len() {
+        press(&mut app, KeyCode::Backspace);
+    }
+    press(&mut app, KeyCode::Enter);
+    let as_word = cuvette::search::parse("material CdSe siz").unwrap();
+    let want: Vec<i64> = cuvette::search::filter(&app.facts, &as_word)
+        .iter()
+        .map(|h| h.id)
+        .collect();
+    let mut got = hit_ids(&app);
+    got.sort();
+    let mut want = want;
+    want.sort();
+    assert_eq!(got, want, "siz taken as a free word");
+    assert_ne!(got, cdse);
+    assert!(!screen_at(&app, 160, 45).contains("typing"));
+}

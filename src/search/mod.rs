@@ -20,7 +20,9 @@ mod parse;
 
 pub use describe::describe;
 pub use eval::{Facts, Hit, filter, load_facts, run};
-pub use parse::{Clause, Cmp, FIELD_NAMES, Field, MAX_FREE_WORDS, MAX_QUERY_CHARS, MAX_WORD_CHARS, Query, parse};
+pub use parse::{
+    Clause, Cmp, FIELD_NAMES, Field, MAX_FREE_WORDS, MAX_QUERY_CHARS, MAX_WORD_CHARS, Query, parse, parse_typing,
+};
 
 use crate::error::Result;
 use rusqlite::{Connection, params};

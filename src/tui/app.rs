@@ -373,6 +373,8 @@ pub struct App {
     new_vial: Option<i64>,
     /// The folder watch, while one runs (the status line shows it; `W` stops it).
     pub watching: Option<super::watch::WatchRun>,
+    /// The search box is being typed in (see [`App::parse_query`]).
+    typing_query: bool,
 }
 
 /// The 1-based column a query error names.
@@ -441,6 +443,7 @@ impl App {
             apply_after_preview: false,
             new_vial: None,
             watching: None,
+            typing_query: false,
         };
         app.reload();
         app
@@ -529,11 +532,11 @@ impl App {
     /// Re-filters the batch list from the facts in memory: cheap enough for every keystroke.
     /// A query with an error leaves the last good results (and their meaning) in place.
     pub fn refilter(&mut self) {
-        match search::parse(&self.query) {
-            Ok(q) => {
+        match self.parse_query(&self.query) {
+            Ok((q, typing)) => {
                 self.query_error = None;
                 self.query_error_column = None;
-                self.query_meaning = search::describe(&q);
+                self.query_meaning = search::describe(&q) + &typing;
                 self.hits = search::filter(&self.facts, &q);
                 if q.words().is_empty() {
                     self.sort_hits();
@@ -549,19 +552,34 @@ impl App {
         }
     }
 
+    /// A search box's query: while it is being typed, a last word that is only the start of a
+    /// field name waits (see [`search::parse_typing`]), and the meaning says so.
+    fn parse_query(&self, text: &str) -> crate::Result<(search::Query, String)> {
+        if !self.typing_query {
+            return search::parse(text).map(|q| (q, String::new()));
+        }
+        let (q, word, names) = search::parse_typing(text)?;
+        let note = match names.as_slice() {
+            [] => String::new(),
+            [one] => format!(" · typing '{word}' ({one}?)"),
+            [rest @ .., last] => format!(" · typing '{word}' ({} or {last}?)", rest.join(", ")),
+        };
+        Ok((q, note))
+    }
+
     /// Arranges the shelf from the vials in memory: its query, grouping and sort. The
     /// selection stays on the vial it was on while that vial still shows. A query with an error
     /// leaves the last good arrangement in place.
     pub fn reshelve(&mut self) {
         let was = self.vials.get(self.vial_selected).map(|v| v.id);
-        match search::parse(&self.shelf.query) {
-            Ok(q) => {
+        match self.parse_query(&self.shelf.query) {
+            Ok((q, typing)) => {
                 self.shelf.error = None;
                 self.shelf.error_column = None;
                 self.shelf.meaning = if q.clauses.is_empty() {
-                    "every vial".into()
+                    "every vial".to_string() + &typing
                 } else {
-                    search::describe(&q)
+                    search::describe(&q) + &typing
                 };
                 let o = &self.shelf;
                 self.vials = shelf::arrange(&self.all_vials, &self.facts, &q, o.group, o.sort, o.desc);
@@ -951,8 +969,18 @@ impl App {
     }
 
     fn search_key(&mut self, ev: KeyEvent) {
+        self.typing_query = true;
         match ev.code {
-            KeyCode::Esc | KeyCode::Enter => return,
+            KeyCode::Esc | KeyCode::Enter => {
+                // Leaving the box finishes the query: a half-typed word is a word now.
+                self.typing_query = false;
+                if self.view == View::Shelf {
+                    self.reshelve();
+                } else {
+                    self.refilter();
+                }
+                return;
+            }
             KeyCode::Down => self.step(1),
             KeyCode::Up => self.step(-1),
             _ => {
