@@ -1,5 +1,5 @@
-//! Snapshots of the terminal UI's screens (every view, form and confirmation but the file
-//! picker, the watch form and first-run forms, which are being rewritten) drawn into ratatui's
+//! Snapshots of the terminal UI's screens (every view, form, confirmation, the file picker and
+//! the watch's status line) drawn into ratatui's
 //! TestBackend at 80x24 and 160x45 from a demo lab, so a change to any screen shows up as a
 //! reviewable diff. The demo lab's own data are fixed; what the clock or the machine puts on
 //! screen (audit and calibration times, temporary folders) is redacted before comparing.
@@ -365,6 +365,74 @@ fn dispose_and_reinstate_a_vial() {
     press(&mut app, KeyCode::Char('u'));
     assert!(form_title(&app).contains("vial"), "{}", form_title(&app));
     snap(&lab, &mut app, "form_reinstate_vial");
+}
+
+// ---- getting spectra in ----
+
+/// An exports folder in the lab's temporary folder: a sub-folder, an absorbance and a PL
+/// export written from the harness's stated formulas, so the previews are the same everywhere.
+fn exports(lab: &Lab) -> PathBuf {
+    let dir = lab.path("exports");
+    std::fs::create_dir_all(dir.join("run-2")).unwrap();
+    std::fs::rename(lab.abs_file("abs_02min.csv", 545.0), dir.join("abs_02min.csv")).unwrap();
+    std::fs::rename(lab.pl_file("pl_02min.csv", 556.0, 5e5), dir.join("pl_02min.csv")).unwrap();
+    dir
+}
+
+#[test]
+fn file_picker_and_the_aliquot_form() {
+    let (lab, mut app) = ui();
+    app.export_dir = exports(&lab);
+    sheet_23(&mut app);
+    press(&mut app, KeyCode::Char('a'));
+    assert!(matches!(app.mode, Mode::Picker(_)), "{:?}", app.message);
+    snap(&lab, &mut app, "picker_folder_selected");
+    press(&mut app, KeyCode::Down);
+    snap(&lab, &mut app, "picker_preview_absorbance");
+    press(&mut app, KeyCode::Enter);
+    press(&mut app, KeyCode::Down);
+    press(&mut app, KeyCode::Enter);
+    snap(&lab, &mut app, "picker_both_taken");
+    press(&mut app, KeyCode::Char('/'));
+    typ(&mut app, "ab");
+    press(&mut app, KeyCode::Tab);
+    snap(&lab, &mut app, "picker_typing_a_path");
+    press(&mut app, KeyCode::Esc);
+    press(&mut app, KeyCode::Tab);
+    assert!(form_title(&app).contains("Add an aliquot to batch 23"));
+    snap(&lab, &mut app, "form_add_aliquot");
+}
+
+#[test]
+fn watch_form_and_the_status_line_while_watching() {
+    let (lab, mut app) = ui();
+    let folder = exports(&lab);
+    app.export_dir = folder.clone();
+    sheet_23(&mut app);
+    press(&mut app, KeyCode::Char('w'));
+    assert!(form_title(&app).contains("Watch a folder for batch 23"));
+    snap(&lab, &mut app, "form_watch");
+    press(&mut app, KeyCode::Enter);
+    assert!(app.watching.is_some(), "{:?}", app.message);
+    snap(&lab, &mut app, "sheet_watching");
+    press(&mut app, KeyCode::Char('W'));
+    let start = std::time::Instant::now();
+    while app.watching.is_some() && start.elapsed().as_secs() < 10 {
+        app.poll_workers();
+        std::thread::sleep(std::time::Duration::from_millis(50));
+    }
+    assert!(app.watching.is_none());
+}
+
+#[test]
+fn first_run_on_an_empty_lab() {
+    let lab = Lab::new();
+    lab.ok(&["init"]);
+    let mut app = open_ui(&lab);
+    app.export_dir = PathBuf::from(EXPORTS);
+    app.offer_first_run();
+    assert!(form_title(&app).contains("A new lab"));
+    snap(&lab, &mut app, "form_first_run");
 }
 
 #[test]

@@ -476,7 +476,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "stop-watch",
         key: "W",
         scope: Scope::Everywhere,
-        help: "stop watching the folder (the status line shows a watch while it runs)",
+        help: "stop watching the folder (shown on the status line)",
         footer: false,
     },
     Binding {
@@ -484,7 +484,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "take",
         key: "enter",
         scope: Scope::Picker,
-        help: "open the folder, or take the file as the kind it looks like (again: put it back)",
+        help: "open a folder; take a file as the kind it looks like",
         footer: true,
     },
     Binding {
@@ -492,7 +492,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "as-abs",
         key: "a",
         scope: Scope::Picker,
-        help: "take the file as the absorbance spectrum",
+        help: "take the file as absorbance (again: put it back)",
         footer: true,
     },
     Binding {
@@ -500,7 +500,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "as-pl",
         key: "p",
         scope: Scope::Picker,
-        help: "take the file as the PL spectrum",
+        help: "take the file as PL (again: put it back)",
         footer: true,
     },
     Binding {
@@ -516,7 +516,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "path",
         key: "/",
         scope: Scope::Picker,
-        help: "type a folder or file path (Tab completes, Enter goes, Esc back to the list)",
+        help: "type a path (Tab completes, Enter goes there)",
         footer: true,
     },
     Binding {
