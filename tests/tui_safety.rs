@@ -500,7 +500,7 @@ fn every_form_names_what_it_acts_on() {
         press(&mut app, KeyCode::Esc);
     }
     press(&mut app, KeyCode::Char('a'));
-    assert!(screen_at(&app, 80, 24).contains(&format!("add an aliquot to batch {b}")));
+    assert!(screen_at(&app, 80, 24).contains(&format!("Add an aliquot to batch {b}")));
     press(&mut app, KeyCode::Esc);
     press(&mut app, KeyCode::Char('3'));
     press(&mut app, KeyCode::Char('c'));

@@ -1378,10 +1378,25 @@ mod typing_tests {
         let (_, _, names) = parse_typing("s").unwrap();
         assert_eq!(names, ["size", "status", "stock"]);
         // A finished word, a word followed by a space, a non-prefix and a quoted one are whole.
+        // A finished field name with no condition yet is what `parse` says: an error naming
+        // the condition it expects, which the UI shows while keeping the last results.
         for whole in ["size", "siz ", "CdSe", "\"siz", "pbs", "stock"] {
-            let (_, word, names) = parse_typing(whole).unwrap();
-            assert!(word.is_empty() && names.is_empty(), "{whole}");
+            match (parse_typing(whole), parse(whole)) {
+                (Ok((_, word, names)), Ok(_)) => {
+                    assert!(word.is_empty() && names.is_empty(), "{whole}")
+                }
+                (Err(typing), Err(whole_error)) => {
+                    assert_eq!(typing.to_string(), whole_error.to_string())
+                }
+                (typing, parsed) => panic!("{whole}: {typing:?} but parse says {parsed:?}"),
+            }
         }
+        assert!(
+            parse_typing("size")
+                .unwrap_err()
+                .to_string()
+                .contains("expected a condition")
+        );
         // Whatever the head, the whole query is what `parse` says when the head fails.
         assert!(parse_typing("size > si").is_err());
     }

@@ -408,28 +408,28 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     if g["stale"] == true {
         marks.push_str(" · STALE");
     }
-    let head_text = vec![
-        Line::from(title),
-        Line::from(format!(
-            "{} · growth: {} · {} nm/min{}",
-            b["recipe"]
-                .as_str()
-                .map(|r| format!("{r} v{}", b["recipe_version"]))
-                .unwrap_or_else(|| "no recipe".into()),
-            g["regime"].as_str().unwrap_or(""),
-            n(g["growth_rate_nm_per_min"].as_f64(), 3),
-            g["focusing_turn_min"]
-                .as_f64()
-                .map(|m| format!(" · turns at {m} min"))
-                .unwrap_or_default()
-        )),
-    ];
-    let mut head_text = head_text;
-    if !marks.is_empty()
-        && let Some(l) = head_text.last_mut()
-    {
-        l.spans.push(Span::styled(marks, p.warn()));
+    // The growth verdict and the marks come first and the recipe last: on a narrow terminal
+    // it is the recipe's name (shown again with its cautions below) that is cut, never the
+    // rate's unit or a STALE mark.
+    let growth = format!(
+        "growth: {} · {} nm/min{}",
+        g["regime"].as_str().unwrap_or(""),
+        n(g["growth_rate_nm_per_min"].as_f64(), 3),
+        g["focusing_turn_min"]
+            .as_f64()
+            .map(|m| format!(" · turns at {m} min"))
+            .unwrap_or_default()
+    );
+    let recipe = b["recipe"]
+        .as_str()
+        .map(|r| format!(" · {r} v{}", b["recipe_version"]))
+        .unwrap_or_else(|| " · no recipe".into());
+    let mut second = vec![Span::raw(growth)];
+    if !marks.is_empty() {
+        second.push(Span::styled(marks, p.warn()));
     }
+    second.push(Span::raw(recipe));
+    let head_text = vec![Line::from(title), Line::from(second)];
     f.render_widget(Paragraph::new(head_text), head);
     // The growth table is as wide as its longest cells (curve names, versions, STALE and VOID
     // in full) and at least two fifths of the screen; the plot has the rest.
@@ -904,26 +904,78 @@ fn draw_shelf(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
 
 fn draw_calibrations(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     let [list, detail] = Layout::vertical([Constraint::Percentage(45), Constraint::Min(4)]).areas(area);
-    let rows = app.calibrations.iter().rev().map(|c| {
-        let curves: Vec<String> = c.body.curves.iter().map(|(m, k)| format!("{m}:{k}")).collect();
+    // Every version's reason and curves are shown whole, wrapped within their columns: the
+    // curve a version changed is the point of the list, so it is never cut off at the edge.
+    let inner = list.width.saturating_sub(2) as usize;
+    let by_w = app
+        .calibrations
+        .iter()
+        .map(|c| c.created_by.chars().count())
+        .max()
+        .unwrap_or(2)
+        .clamp(2, 24);
+    let rest = inner.saturating_sub(4 + 10 + by_w + 4).max(20);
+    let why_w = (rest * 2 / 5).max(10);
+    let curves_w = rest.saturating_sub(why_w + 1).max(10);
+    // Each version lists the curves it changed from the one before (the first, all of them):
+    // what a version did is what the list is read for.
+    let changed = |i: usize| -> String {
+        let c = &app.calibrations[i];
+        let Some(before) = i.checked_sub(1).map(|j| &app.calibrations[j]) else {
+            let all: Vec<String> = c.body.curves.iter().map(|(m, k)| format!("{m}:{k}")).collect();
+            return all.join(" ");
+        };
+        let moved: Vec<String> = c
+            .body
+            .curves
+            .iter()
+            .filter(|(m, k)| before.body.curves.get(*m) != Some(*k))
+            .map(|(m, k)| match before.body.curves.get(m) {
+                Some(old) => format!("{m}:{k} (was {old})"),
+                None => format!("{m}:{k} (new)"),
+            })
+            .collect();
+        if moved.is_empty() {
+            "curves as before".into()
+        } else {
+            moved.join(" ")
+        }
+    };
+    // A row is at most three lines: a long reason ends in … rather than push older versions
+    // off a small screen.
+    let capped = |mut lines: Vec<String>| {
+        if lines.len() > 3 {
+            lines.truncate(3);
+            if let Some(l) = lines.last_mut() {
+                l.push('…');
+            }
+        }
+        lines
+    };
+    let rows = (0..app.calibrations.len()).rev().map(|i| {
+        let c = &app.calibrations[i];
+        let why = capped(wrap_words(&c.why, why_w.saturating_sub(1)));
+        let curves = capped(wrap_words(&changed(i), curves_w.saturating_sub(1)));
+        let height = why.len().max(curves.len()).max(1) as u16;
         Row::new(vec![
-            format!("v{}", c.version),
-            c.created_at.get(..10).unwrap_or("").to_string(),
-            c.created_by.clone(),
-            c.why.clone(),
-            curves.join(" "),
+            Cell::from(format!("v{}", c.version)),
+            Cell::from(c.created_at.get(..10).unwrap_or("").to_string()),
+            Cell::from(c.created_by.clone()),
+            Cell::from(why.join("\n")),
+            Cell::from(curves.join("\n")),
         ])
+        .height(height)
     });
     let widths = [
         Constraint::Length(4),
         Constraint::Length(10),
-        Constraint::Length(14),
-        Constraint::Length(22),
+        Constraint::Length(by_w as u16),
+        Constraint::Length(why_w as u16),
         Constraint::Min(10),
     ];
     f.render_widget(
         Table::new(rows, widths)
-            .header(Row::new(vec!["ver", "date", "by", "why", "curves"]).style(p.head()))
+            .header(Row::new(vec!["ver", "date", "by", "why", "curves changed"]).style(p.head()))
             .block(Block::bordered().title("calibration versions")),
         list,
     );
@@ -962,9 +1014,41 @@ fn draw_calibrations(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         }
     }
     f.render_widget(
-        Paragraph::new(lines).block(Block::bordered().title("recompute")),
+        Paragraph::new(lines)
+            .wrap(Wrap { trim: false })
+            .block(Block::bordered().title("recompute")),
         detail,
     );
+}
+
+/// Text broken into lines of at most `width` characters at spaces; a word longer than a line
+/// is split, so nothing is lost.
+pub fn wrap_words(text: &str, width: usize) -> Vec<String> {
+    let width = width.max(1);
+    let mut lines = Vec::new();
+    let mut line = String::new();
+    for word in text.split_whitespace() {
+        let mut word: Vec<char> = word.chars().collect();
+        while word.len() > width {
+            if !line.is_empty() {
+                lines.push(std::mem::take(&mut line));
+            }
+            lines.push(word.drain(..width).collect());
+        }
+        let word: String = word.into_iter().collect();
+        let len = line.chars().count();
+        if len > 0 && len + 1 + word.chars().count() > width {
+            lines.push(std::mem::take(&mut line));
+        }
+        if !line.is_empty() {
+            line.push(' ');
+        }
+        line.push_str(&word);
+    }
+    if !line.is_empty() || lines.is_empty() {
+        lines.push(line);
+    }
+    lines
 }
 
 /// A value of an audit entry as people read it: text without quotes, whole numbers exactly,
@@ -1241,13 +1325,33 @@ fn draw_footer(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
             } else {
                 app.keys.footer(s)
             };
-            for (k, name) in keys {
-                v.push(Span::styled(k, p.head()));
+            let mut keys: Vec<(String, &str)> = keys.into_iter().collect();
+            if s == Scope::Sheet {
+                keys.push(("Esc".into(), "back"));
+            }
+            // What does not fit is left out whole, never cut mid-name, and the line says
+            // where the rest is.
+            let width = area.width as usize;
+            let cost = |(k, n): &(String, &str)| k.chars().count() + n.chars().count() + 3;
+            let more = "? all keys";
+            let total: usize = keys.iter().map(cost).sum();
+            if total > width {
+                keys.retain(|(_, n)| *n != "help");
+                let mut used = more.chars().count();
+                let fit = keys.iter().take_while(|e| {
+                    used += cost(e);
+                    used <= width
+                });
+                let fit = fit.count();
+                keys.truncate(fit);
+            }
+            for (k, name) in &keys {
+                v.push(Span::styled(k.clone(), p.head()));
                 v.push(Span::raw(format!(" {name}  ")));
             }
-            if s == Scope::Sheet {
-                v.push(Span::styled("Esc", p.head()));
-                v.push(Span::raw(" back"));
+            if total > width {
+                v.push(Span::styled("?", p.head()));
+                v.push(Span::raw(" all keys"));
             }
             v
         }
