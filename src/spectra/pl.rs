@@ -8,7 +8,10 @@
 //!    where the smoothing window would span too many points ([`bounded_grid`]).
 //! 3. Narrow lines: peaks whose full width at half height is at most [`LINE_FWHM_MAX_NM`] are
 //!    far narrower than any room-temperature excitonic emission; they are the excitation or
-//!    laser line, its second order, a solvent Raman line or a cosmic-ray spike. They are
+//!    laser line, its second order, a solvent Raman line or a cosmic-ray spike. A line must
+//!    stand [`LINE_SIGMAS`] noise deviations above both its surroundings and the points beside
+//!    it, the noise read at its own level: counted photons scatter by √N, so the top of a
+//!    bright band is noisier than the dark floor, and its noise is not a line. Lines are
 //!    interpolated across and named in a warning.
 //! 4. The emission region: from each outermost band's peak out to [`REGION_HALF_WIDTHS`] of its
 //!    own half width (about 4 σ for a Gaussian), or further while it stays above the noise.
@@ -50,6 +53,14 @@ pub const LINE_FWHM_MAX_NM: f64 = 4.0;
 const LINE_SIGMAS: f64 = 8.0;
 /// The local surroundings of a line candidate are read this far (nm) on each side.
 const LINE_BASE_NM: f64 = 8.0;
+/// The scatter a line candidate is held to is read this far (nm) beyond its own tails.
+const LINE_NOISE_REACH_NM: f64 = 20.0;
+/// Points whose level above the floor is within these fractions of a candidate's half height
+/// count as "at its level" when its noise is read.
+const LINE_LEVEL_BAND: (f64, f64) = (0.8, 1.2);
+/// The fewest points a candidate's noise is read from: those nearest its level when fewer
+/// are within [`LINE_LEVEL_BAND`].
+const LINE_LEVEL_POINTS: usize = 12;
 /// The emission region reaches this many half widths (peak to half height) beyond the
 /// outermost bands' peaks: 3.4 x 1.177 σ = 4 σ for a Gaussian, which leaves out 3e-5 of it.
 pub const REGION_HALF_WIDTHS: f64 = 3.4;
@@ -614,7 +625,25 @@ fn line_at(y: &[f64], i: usize, step: f64, noise: f64, dist: f64, widest: f64) -
         _ => return None,
     };
     let fwhm = (l + r) * step;
-    (fwhm <= widest).then_some((base, fwhm, k, h))
+    if fwhm > widest {
+        return None;
+    }
+    // The chord between the two surroundings sits below a band's rounded top; a line must
+    // also stand above the median of the points beside it, past its own half width.
+    let core = (fwhm / step).ceil() as usize + 1;
+    let mut beside: Vec<f64> = (core..=k)
+        .flat_map(|s| [i.checked_sub(s), (i + s < n).then_some(i + s)])
+        .flatten()
+        .map(|j| y[j])
+        .collect();
+    if !beside.is_empty() {
+        let mid = beside.len() / 2;
+        let level = *beside.select_nth_unstable_by(mid, f64::total_cmp).1;
+        if !(y[i] - level > LINE_SIGMAS * noise) {
+            return None;
+        }
+    }
+    Some((base, fwhm, k, h))
 }
 
 /// Noise of single points on an uneven grid: each point's departure from the straight line
@@ -637,6 +666,66 @@ fn noise_of_uneven(nm: &[f64], y: &[f64]) -> f64 {
     1.4826 * *med
 }
 
+/// The scatter of single points at a candidate line's level: third differences (variance
+/// 20σ² for white noise, blind to a band's curvature) of the points within
+/// [`LINE_NOISE_REACH_NM`] of the candidate, outside twice its own width (so neither it nor
+/// its tails count), whose level is within [`LINE_LEVEL_BAND`] of the candidate's half height
+/// above the scan's floor, or the [`LINE_LEVEL_POINTS`] nearest it in level. Counted photons scatter by √N, so a band's top is noisier than
+/// the dark floor; points at the same level carry the same scatter whatever the detector.
+/// On the scale of `noise` and never below it. A tall line on a low floor finds only floor
+/// points near its half height's level, and is judged against the floor's noise.
+fn noise_at_level(u: &LineScan, i: usize, fwhm_nm: f64, half_height: f64, noise: f64) -> f64 {
+    let y = u.y;
+    if !(u.whole_scan_noise > 0.0) || y.len() < 4 {
+        return noise;
+    }
+    let n = y.len() as isize;
+    let i = i as isize;
+    let inner = (2.0 * fwhm_nm / u.step).ceil() as isize + 1;
+    let outer = inner + (LINE_NOISE_REACH_NM / u.step).ceil() as isize;
+    let level = half_height - u.floor;
+    let (lo, hi) = (LINE_LEVEL_BAND.0 * level, LINE_LEVEL_BAND.1 * level);
+    // (distance in level from the candidate's, third difference) of each point read.
+    let mut pts: Vec<(f64, f64)> = ((i - outer).max(1)..=(i - inner - 2))
+        .chain((i + inner + 1)..=(i + outer).min(n - 3))
+        .map(|j| j as usize)
+        .map(|j| {
+            let at = 0.25 * (y[j - 1] + y[j] + y[j + 1] + y[j + 2]) - u.floor;
+            let third = (y[j - 1] - 3.0 * y[j] + 3.0 * y[j + 1] - y[j + 2]).abs();
+            (
+                if at < lo {
+                    lo - at
+                } else if at > hi {
+                    at - hi
+                } else {
+                    0.0
+                },
+                third,
+            )
+        })
+        .collect();
+    if pts.len() < LINE_LEVEL_POINTS {
+        return noise;
+    }
+    // Those at its level, and at least the few nearest to it in level (on a coarse grid a
+    // band's top may hold only a handful of points).
+    pts.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let at_level = pts.iter().take_while(|p| p.0 == 0.0).count().max(LINE_LEVEL_POINTS);
+    let mut d: Vec<f64> = pts[..at_level].iter().map(|p| p.1).collect();
+    let mid = d.len() / 2;
+    let here = 1.4826 * *d.select_nth_unstable_by(mid, f64::total_cmp).1 / 20f64.sqrt();
+    (noise * here / u.whole_scan_noise).max(noise)
+}
+
+/// What [`noise_at_level`] reads of the scan: the even grid, its step, the noise of its points
+/// over the whole scan (second differences) and its floor (the 5th percentile of its values).
+struct LineScan<'a> {
+    y: &'a [f64],
+    step: f64,
+    whole_scan_noise: f64,
+    floor: f64,
+}
+
 /// Narrow lines on the even grid, blue to red, with the masks that replace them.
 fn find_lines(u: &Uniform, noise: f64) -> (Vec<Mask>, Vec<NarrowLine>) {
     let y = &u.y;
@@ -644,6 +733,20 @@ fn find_lines(u: &Uniform, noise: f64) -> (Vec<Mask>, Vec<NarrowLine>) {
     let step = u.step_nm;
     let mut masks = Vec::new();
     let mut lines = Vec::new();
+    let scan = LineScan {
+        y,
+        step,
+        whole_scan_noise: noise_of_points(y),
+        floor: {
+            let mut v = y.to_vec();
+            let at = v.len() / 20;
+            if v.is_empty() {
+                0.0
+            } else {
+                *v.select_nth_unstable_by(at, f64::total_cmp).1
+            }
+        },
+    };
     let mut i = 0;
     while i < n {
         let is_max = (i == 0 || y[i] >= y[i - 1]) && (i + 1 == n || y[i] > y[i + 1]);
@@ -652,10 +755,23 @@ fn find_lines(u: &Uniform, noise: f64) -> (Vec<Mask>, Vec<NarrowLine>) {
             continue;
         }
         // On a coarse grid a line sampled on two points measures about two steps wide.
-        let Some((base, fwhm, k, h)) = LINE_SCALES.iter().enumerate().find_map(|(s, &(dist, widest))| {
-            let widest = if s == 0 { widest.max(2.25 * step) } else { widest };
-            line_at(y, i, step, noise, dist, widest)
-        }) else {
+        let detect = |noise: f64| {
+            LINE_SCALES.iter().enumerate().find_map(|(s, &(dist, widest))| {
+                let widest = if s == 0 { widest.max(2.25 * step) } else { widest };
+                line_at(y, i, step, noise, dist, widest)
+            })
+        };
+        // A candidate against the whole scan's noise is then held to the noise around it:
+        // counted photons scatter by √N, so a bright band's top is noisier than the floor.
+        let found = detect(noise).and_then(|f| {
+            let here = noise_at_level(&scan, i, f.1, f.0 + 0.5 * f.3, noise);
+            if here > noise {
+                detect(here).map(|f| (f, here))
+            } else {
+                Some((f, noise))
+            }
+        });
+        let Some(((base, fwhm, k, h), noise)) = found else {
             i += 1;
             continue;
         };
