@@ -45,7 +45,8 @@ method (Brouwer, Pure Appl. Chem. 83, 2213 (2011)):
 with refractive indices of hexane and ethanol 1.3749 and 1.3611, and Aex the crystals'
 absorbance at 480 nm in the PL cuvette: the formula above without its scattering and noise
 terms, divided by PL_DILUTION = 5 (the PL solution is the absorbance solution diluted five
-times more, so Aex stays below 0.1). Import the PL files with a PL dilution five times the
+times more; for the later, more concentrated aliquots Aex still exceeds 0.1, and cuvette's
+inner-filter warning says so). Import the PL files with a PL dilution five times the
 absorbance dilution (demo-db/README.md gives the commands).
 
 Per sample (lambda1 in nm, s1 in eV, a1 absorbance at the first exciton, c scattering):
