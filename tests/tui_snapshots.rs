@@ -336,6 +336,12 @@ fn shelf_forms() {
     typ(&mut app, "Ines Marlowe");
     press(&mut app, KeyCode::Enter);
     assert_confirm(&app);
+    // A wrapped line keeps its indent: the vial list's second line is not flush with the box.
+    let s = screen_at(&app, 80, 24);
+    let rows: Vec<&str> = s.lines().collect();
+    let at = rows.iter().position(|r| r.contains("vials: ")).unwrap();
+    let next = rows[at + 1].split('│').nth(1).unwrap_or("");
+    assert!(next.starts_with("  "), "{}", rows[at + 1]);
     snap(&lab, &mut app, "confirm_handover");
 }
 

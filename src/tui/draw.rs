@@ -677,7 +677,7 @@ fn draw_chart(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         .y_axis(
             Axis::default()
                 .bounds([y0, y1 * 1.05])
-                .labels([format!("{y0:.1}"), format!("{y1:.2}")]),
+                .labels([super::units::fixed(y0, 1), super::units::fixed(y1, 2)]),
         )
         .hidden_legend_constraints((Constraint::Ratio(1, 2), Constraint::Ratio(1, 2)));
     f.render_widget(chart, area);
@@ -1482,10 +1482,25 @@ fn draw_confirm(f: &mut Frame, app: &App, c: &super::app::Confirm, p: &Palette) 
     let width = full.width.min(96);
     // Room for every line as wrapped, so the answer keys at the bottom are never cut off.
     let inner_w = width.saturating_sub(2).max(1) as usize;
-    let rows: usize = c.lines.iter().map(|l| l.chars().count().div_ceil(inner_w).max(1)).sum();
+    // Each line wrapped at words, its continuation lines under its own indent.
+    let wrapped: Vec<String> = c
+        .lines
+        .iter()
+        .flat_map(|l| {
+            let indent = l.len() - l.trim_start().len();
+            let pad = " ".repeat(indent.min(inner_w / 2));
+            let body = wrap_words(l.trim_start(), inner_w.saturating_sub(pad.len()).max(1));
+            if body.is_empty() {
+                vec![String::new()]
+            } else {
+                body.into_iter().map(|w| format!("{pad}{w}")).collect()
+            }
+        })
+        .collect();
+    let rows = wrapped.len();
     let area = centred(full, width, (rows as u16 + 4).min(full.height));
     f.render_widget(Clear, area);
-    let mut lines: Vec<Line> = c.lines.iter().map(|l| Line::from(l.clone())).collect();
+    let mut lines: Vec<Line> = wrapped.into_iter().map(Line::from).collect();
     lines.push(Line::from(""));
     let mut keys = Vec::new();
     for (k, b) in app.keys.entries.iter().filter(|(_, b)| b.scope == Scope::Confirm) {

@@ -46,6 +46,16 @@ pub fn plain(v: f64) -> String {
     if s == "-0" { "0".into() } else { s.to_string() }
 }
 
+/// `v` to a fixed number of decimals, as an axis label or a table cell: a value that rounds
+/// to zero is shown as zero, never "-0.0".
+pub fn fixed(v: f64, decimals: usize) -> String {
+    let s = format!("{v:.decimals$}");
+    match s.strip_prefix('-') {
+        Some(rest) if rest.chars().all(|c| c == '0' || c == '.') => rest.to_string(),
+        _ => s,
+    }
+}
+
 fn round_to(v: f64, decimals: i32) -> f64 {
     let k = 10f64.powi(decimals);
     (v * k).round() / k
@@ -108,6 +118,16 @@ pub fn parse_number(label: &str, typed: &str) -> Result<Option<f64>, String> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn fixed_decimals_never_show_a_negative_zero() {
+        // A plot's lower bound a hair below zero drew its axis label as "-0.0".
+        assert_eq!(fixed(-0.004, 1), "0.0");
+        assert_eq!(fixed(-0.0, 2), "0.00");
+        assert_eq!(fixed(-0.06, 1), "-0.1");
+        assert_eq!(fixed(0.1234, 2), "0.12");
+        assert_eq!(fixed(531.66, 0), "532");
+    }
 
     #[test]
     fn volumes_round_to_a_hundredth_of_a_millilitre() {
