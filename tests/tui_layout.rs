@@ -388,3 +388,19 @@ fn a_field_name_half_typed_does_not_replace_the_results_until_it_is_finished() {
     assert_ne!(got, cdse);
     assert!(!screen_at(&app, 160, 45).contains("typing"));
 }
+
+/// A message longer than the terminal is wide was cut at the edge ("needs its excitation
+/// wave"); the status line grows to up to three lines, wrapped at words.
+#[test]
+fn a_long_message_is_shown_whole_at_80_columns() {
+    let (_lab, mut app) = demo_ui();
+    let msg = "PL file /home/student/exports/2026-12-03/run-7/aliquots/pl_02min.csv needs its excitation wavelength";
+    app.message = Some((true, msg.to_string()));
+    let s = screen_at(&app, 80, 24);
+    let words: Vec<&str> = s.split_whitespace().collect();
+    for w in msg.split_whitespace() {
+        assert!(words.contains(&w), "{w} not whole on screen:\n{s}");
+    }
+    // The footer with the keys is still the last line.
+    assert!(s.lines().last().unwrap().contains("help"), "{s}");
+}

@@ -580,3 +580,120 @@ fn the_help_pages_at_80x24_and_shows_every_key() {
     let wide = screen_at(&app, 160, 45);
     assert!(wide.contains("anywhere") && wide.contains("batch sheet"), "{wide}");
 }
+
+/// The first-run form's "your name" stood for nothing: writes stayed signed with the login
+/// name ("root") although the form had just added the person. Now the person named there
+/// signs the writes that follow (unless the writer was chosen with --as, $CUVETTE_USER or a
+/// remembered name), and a new batch is theirs.
+#[test]
+fn the_first_run_name_signs_the_writes_that_follow() {
+    let lab = Lab::new();
+    lab.ok(&["init"]);
+    let mut app = open_ui(&lab);
+    app.offer_first_run();
+    ctrl(&mut app, 'u');
+    typ(&mut app, "Maren Okafor");
+    press(&mut app, KeyCode::Enter);
+    assert!(
+        app.message
+            .as_ref()
+            .is_some_and(|m| m.1.contains("signed Maren Okafor")),
+        "{:?}",
+        app.message
+    );
+    press(&mut app, KeyCode::Char('n'));
+    press(&mut app, KeyCode::Tab);
+    typ(&mut app, "first of hers");
+    press(&mut app, KeyCode::Enter);
+    drop(app);
+    let c = rusqlite::Connection::open(&lab.db).unwrap();
+    let op: String = c
+        .query_row(
+            "SELECT p.name FROM batch b JOIN person p ON p.id = b.operator_id WHERE b.name = 'first of hers'",
+            [],
+            |r| r.get(0),
+        )
+        .unwrap();
+    assert_eq!(op, "Maren Okafor");
+    let who: String = c
+        .query_row("SELECT who FROM audit_log ORDER BY id DESC LIMIT 1", [], |r| r.get(0))
+        .unwrap();
+    assert_eq!(who, "Maren Okafor");
+
+    // A writer chosen on purpose keeps signing; the person is still added.
+    let lab = Lab::new();
+    lab.ok(&["init"]);
+    let mut app = open_ui(&lab);
+    app.writer.chosen = true;
+    app.offer_first_run();
+    ctrl(&mut app, 'u');
+    typ(&mut app, "Maren Okafor");
+    press(&mut app, KeyCode::Enter);
+    assert_eq!(app.store.actor, "Test Runner");
+}
+
+/// `/` in the picker opens the path line on the current folder; typing an absolute path
+/// straight away appended it ("/tmp/lab//work/…"). A `/` or `~` typed first starts anew;
+/// anything else continues the folder shown (a name inside it).
+#[test]
+fn a_path_typed_from_its_root_replaces_the_folder_shown() {
+    let (_lab, mut app) = demo_ui();
+    press(&mut app, KeyCode::Char('1'));
+    press(&mut app, KeyCode::Enter);
+    press(&mut app, KeyCode::Char('a'));
+    press(&mut app, KeyCode::Char('/'));
+    typ(&mut app, "/tmp");
+    let Mode::Picker(p) = &app.mode else {
+        panic!("no picker: {:?}", app.message)
+    };
+    assert_eq!(p.path_text, "/tmp");
+    press(&mut app, KeyCode::Esc);
+    press(&mut app, KeyCode::Char('/'));
+    typ(&mut app, "sub");
+    let Mode::Picker(p) = &app.mode else {
+        panic!("no picker")
+    };
+    assert!(
+        p.path_text.ends_with("/sub") && p.path_text.len() > 4,
+        "{}",
+        p.path_text
+    );
+}
+
+/// A PL file with no excitation wavelength was refused naming a command-line flag
+/// (`--excitation-nm`) with the cursor left where it was; the form now names its own field
+/// and puts the cursor in it.
+#[test]
+fn a_pl_file_without_excitation_sends_the_cursor_to_that_field() {
+    let lab = Lab::new();
+    lab.ok(&["init"]);
+    let mut app = open_ui(&lab);
+    press(&mut app, KeyCode::Char('n'));
+    press(&mut app, KeyCode::Tab);
+    typ(&mut app, "no excitation yet");
+    press(&mut app, KeyCode::Enter);
+    press(&mut app, KeyCode::Char('a'));
+    press(&mut app, KeyCode::Char('/'));
+    typ(
+        &mut app,
+        concat!(env!("CARGO_MANIFEST_DIR"), "/demo-db/samples/growth/"),
+    );
+    press(&mut app, KeyCode::Enter);
+    for _ in 0..4 {
+        press(&mut app, KeyCode::Down);
+    }
+    press(&mut app, KeyCode::Enter);
+    press(&mut app, KeyCode::Tab);
+    press(&mut app, KeyCode::Enter);
+    let Mode::Form(f) = &app.mode else {
+        panic!("the form closed: {:?}", app.message)
+    };
+    assert_eq!(f.fields[f.focus].label, "excitation nm");
+    let m = app.message.as_ref().unwrap();
+    assert!(
+        m.0 && m.1.starts_with("excitation nm:") && !m.1.contains("--"),
+        "{:?}",
+        m
+    );
+    assert_eq!(scalar(&lab.db, "SELECT COUNT(*) FROM aliquot"), 0);
+}

@@ -146,7 +146,7 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
             Err(_) if db_path(&cli).exists() => open_read(&cli)?,
             Err(e) => return Err(e),
         };
-        crate::tui::run(store)?;
+        crate::tui::run(store, tui_writer(cli.actor.as_deref()))?;
         return Ok(ExitCode::SUCCESS);
     };
     match cmd {
@@ -309,7 +309,7 @@ fn demo(cli: &Cli, a: &DemoArgs) -> Result<ExitCode> {
     let n = crate::demo::build(&mut store, a.scale, |d, t| progress.tick(d, t))?;
     use std::io::IsTerminal;
     if !a.no_ui && std::io::stdout().is_terminal() && std::io::stdin().is_terminal() {
-        crate::tui::run(store)?;
+        crate::tui::run(store, tui_writer(cli.actor.as_deref()))?;
     } else {
         line(&format!("built the demo lab ({n} batches) in {}", path.display()))?;
     }
@@ -2597,6 +2597,19 @@ fn import_manifest(cli: &Cli, a: &ManifestArgs) -> Result<ExitCode> {
         }
     }
     Ok(if failed { ExitCode::from(1) } else { ExitCode::SUCCESS })
+}
+
+/// How the UI's writer was named, and how it may remember the first-run form's name.
+fn tui_writer(flag: Option<&str>) -> crate::tui::Writer {
+    let from = super::identity::resolve(flag).from;
+    crate::tui::Writer {
+        chosen: matches!(from, "--as" | "CUVETTE_USER" | "whoami --set"),
+        remember: Some(|name| {
+            super::identity::remember(name)
+                .map(|p| p.display().to_string())
+                .map_err(|e| e.to_string())
+        }),
+    }
 }
 
 #[cfg(test)]

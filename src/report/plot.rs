@@ -32,6 +32,14 @@ type PanelTrace<'a> = (usize, &'a SeriesItem, &'a Trace, Vec<(f64, f64)>);
 /// No spectral or growth quantity comes near this; beyond it a span could overflow.
 pub const PLOTTABLE_LIMIT: f64 = 1e100;
 
+/// Minutes as a legend says them: to 0.01 min, no trailing zeros (a time computed from file
+/// dates came out as `0.017249999999999998 min`).
+pub fn minutes_label(m: f64) -> String {
+    let s = format!("{:.2}", (m * 100.0).round() / 100.0);
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    format!("{} min", if s == "-0" { "0" } else { s })
+}
+
 fn plottable(v: f64) -> bool {
     v.is_finite() && v.abs() <= PLOTTABLE_LIMIT
 }
@@ -99,7 +107,7 @@ pub fn series(conn: &Connection, batch_id: i64) -> Result<Vec<SeriesItem>> {
             .and_then(|s| engine::trace_of(s).ok());
         out.push(SeriesItem {
             label: match (a.minutes, &a.stage) {
-                (Some(m), _) => format!("{m} min"),
+                (Some(m), _) => minutes_label(m),
                 (None, Some(st)) => st.clone(),
                 _ => format!("aliquot {}", a.id),
             },
@@ -293,4 +301,17 @@ pub fn plot_series_svg(title: &str, items: &[SeriesItem]) -> Result<String> {
         root.present().map_err(plot_err)?;
     }
     Ok(svg)
+}
+
+#[cfg(test)]
+mod minutes_tests {
+    use super::minutes_label;
+
+    #[test]
+    fn minutes_in_a_legend_are_rounded_for_people() {
+        assert_eq!(minutes_label(0.017249999999999998), "0.02 min");
+        assert_eq!(minutes_label(5.0), "5 min");
+        assert_eq!(minutes_label(2.5), "2.5 min");
+        assert_eq!(minutes_label(-0.001), "0 min");
+    }
 }

@@ -373,6 +373,8 @@ pub struct App {
     new_vial: Option<i64>,
     /// The folder watch, while one runs (the status line shows it; `W` stops it).
     pub watching: Option<super::watch::WatchRun>,
+    /// How the writer's name was found; the first-run form may make its name the writer's.
+    pub writer: super::Writer,
     /// The search box is being typed in (see [`App::parse_query`]).
     typing_query: bool,
 }
@@ -443,6 +445,7 @@ impl App {
             apply_after_preview: false,
             new_vial: None,
             watching: None,
+            writer: super::Writer::default(),
             typing_query: false,
         };
         app.reload();
@@ -1228,10 +1231,7 @@ impl App {
                         .map(|d| d.with_timezone(&chrono::Local).format("%Y-%m-%d %H:%M:%S").to_string());
                     let form = Form::new(
                         FormKind::Watch,
-                        &format!(
-                            "Watch a folder for {}: new exports become aliquots",
-                            self.batch_words(id)
-                        ),
+                        &format!("Watch a folder for {}", self.batch_words(id)),
                         &[
                             ("folder", &dir),
                             ("injected at", &injected.unwrap_or_default()),
@@ -1519,12 +1519,20 @@ impl App {
                     p.typing = false;
                     p.completions.clear();
                 }
-                KeyCode::Tab => p.complete(),
+                KeyCode::Tab => {
+                    p.path_fresh = false;
+                    p.complete()
+                }
                 KeyCode::Enter => {
                     p.go_typed();
                 }
                 _ => {
                     if let Some(e) = self.field_edit(&ev) {
+                        if p.path_fresh && matches!(e, Edit::Insert('/' | '~')) {
+                            p.path_text.clear();
+                            p.path_cursor = 0;
+                        }
+                        p.path_fresh = false;
                         edit_line(&mut p.path_text, &mut p.path_cursor, e);
                         p.completions.clear();
                     }
@@ -1655,7 +1663,13 @@ impl App {
                         self.finished(msg, &f);
                         return;
                     }
-                    Err(e) => self.error(e),
+                    Err(e) => {
+                        // An error that names a field ("excitation nm: …") takes the cursor there.
+                        if let Some(i) = f.fields.iter().position(|x| e.starts_with(&format!("{}:", x.label))) {
+                            f.focus = i;
+                        }
+                        self.error(e)
+                    }
                 },
                 Err(e) => self.error(e),
             },
@@ -1925,6 +1939,9 @@ impl App {
                         ..Default::default()
                     });
                 }
+                if !f.get("pl file").is_empty() && ex.is_none() {
+                    return Err("excitation nm: the PL file needs the wavelength it was excited at".into());
+                }
                 if !f.get("pl file").is_empty() {
                     files.push(SpectrumFile {
                         path: f.get("pl file").into(),
@@ -2146,6 +2163,16 @@ impl App {
                 let mut said = Vec::new();
                 if !name.is_empty() {
                     said.push(format!("{name} added to the lab"));
+                }
+                // The login name only stood in for a person until one was named: from now on
+                // the writes are theirs, and stay so next time where the name can be kept.
+                if !name.is_empty() && name != self.store.actor && !self.writer.chosen {
+                    self.store.actor = name.clone();
+                    said.push(match self.writer.remember.map(|r| r(&name)) {
+                        Some(Ok(kept)) => format!("your writes are signed {name} (kept in {kept})"),
+                        Some(Err(why)) => format!("your writes are signed {name} until you quit ({why})"),
+                        None => format!("your writes are signed {name}"),
+                    });
                 }
                 if !place.is_empty() {
                     said.push(format!("location {place} ({kind}) ready for vials"));

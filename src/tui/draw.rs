@@ -65,10 +65,14 @@ impl Palette {
 
 pub fn draw(f: &mut Frame, app: &App) {
     let p = Palette { on: app.colour };
+    // A long message (a path, a reason) takes up to three lines rather than being cut.
+    let width = f.area().width.max(1) as usize;
+    let status_text: usize = status_line(app, f.area().width, &p).width();
+    let status_rows = status_text.div_ceil(width).clamp(1, 3) as u16;
     let [top, body, status, footer] = Layout::vertical([
         Constraint::Length(1),
         Constraint::Min(5),
-        Constraint::Length(1),
+        Constraint::Length(status_rows),
         Constraint::Length(1),
     ])
     .areas(f.area());
@@ -1260,6 +1264,11 @@ fn draw_trail(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
 }
 
 fn draw_status(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
+    let line = status_line(app, area.width, p);
+    f.render_widget(Paragraph::new(line).wrap(Wrap { trim: true }), area);
+}
+
+fn status_line(app: &App, width: u16, p: &Palette) -> Line<'static> {
     // A message answers the user's last action, so it is never hidden behind a job's progress:
     // both share the line, the message first.
     // Keys held back as a form closed come first: they are what the person just typed.
@@ -1273,7 +1282,7 @@ fn draw_status(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
             .map(|n| n.to_string_lossy().to_string())
             .unwrap_or_else(|| w.folder.display().to_string());
         let state = if w.stopping() { "stopping" } else { "W stops" };
-        let text = if area.width >= 120 {
+        let text = if width >= 120 {
             format!(
                 "● watching {folder}/ → batch {} ({} logged; {state})",
                 w.batch, w.logged
@@ -1304,8 +1313,7 @@ fn draw_status(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         }
         spans.push(Span::raw(format!("{label}: {done}/{total}")));
     }
-    let line = Line::from(spans);
-    f.render_widget(Paragraph::new(line), area);
+    Line::from(spans)
 }
 
 fn draw_footer(f: &mut Frame, app: &App, area: Rect, p: &Palette) {

@@ -16,14 +16,29 @@ use crate::store::Store;
 use crossterm::event::{self, DisableBracketedPaste, EnableBracketedPaste, Event, KeyEventKind};
 use std::time::Duration;
 
+/// Remembers a writer's name for this account: where it was kept, or why it could not be.
+pub type RememberName = fn(&str) -> std::result::Result<String, String>;
+
+/// How the person running the UI came to be the writer, from the face that opened it.
+#[derive(Clone, Copy, Default)]
+pub struct Writer {
+    /// The name was chosen (`--as`, `$CUVETTE_USER`, a remembered name), not only the login
+    /// name: the first-run form then adds that person without signing writes differently.
+    pub chosen: bool,
+    /// Remembers a name for this account (the first-run form's name, when `chosen` is false);
+    /// says where, or why it could not.
+    pub remember: Option<RememberName>,
+}
+
 /// Runs the UI on the store it is given until the user quits. The UI opens no connection of
 /// its own: background jobs use siblings of this store (see `Store::sibling`).
-pub fn run(store: Store) -> Result<()> {
+pub fn run(store: Store, writer: Writer) -> Result<()> {
     let keys = keys::KeyMap::load().map_err(Error::Invalid)?;
     if store.path.is_none() {
         return Err(Error::Invalid("the UI needs a database file".into()));
     }
     let mut app = app::App::new(store, keys);
+    app.writer = writer;
     // A person types as the screen changes under them: letters typed as a form closes are
     // held back rather than taken as the view's keys.
     app.settle = app::SETTLE;

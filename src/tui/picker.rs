@@ -31,6 +31,9 @@ pub struct Picker {
     pub path_cursor: usize,
     /// What the last Tab found where more than one name fits.
     pub completions: Vec<String>,
+    /// The path line still holds only the folder it was opened with: a `/` or `~` typed
+    /// first starts a new path instead of being appended to it.
+    pub path_fresh: bool,
     /// The preview of the selected file, or why it cannot be read.
     pub preview: Option<(PathBuf, Result<FilePreview, String>)>,
     /// A problem with the last key (a folder that cannot be read, a path that is not there).
@@ -241,6 +244,7 @@ impl Picker {
         self.path_cursor = start.chars().count();
         self.path_text = start;
         self.completions.clear();
+        self.path_fresh = true;
     }
 
     /// Tab in the path line: completes the last part of the path as far as the names that fit
