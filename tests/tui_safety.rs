@@ -697,3 +697,22 @@ fn a_pl_file_without_excitation_sends_the_cursor_to_that_field() {
     );
     assert_eq!(scalar(&lab.db, "SELECT COUNT(*) FROM aliquot"), 0);
 }
+
+/// A batch sheet showed its reagents' hazard codes and the standing notice, but not the
+/// cautions `batch show` prints for the material itself: a CdSe batch logged without a
+/// recipe said nothing of cadmium. Both sizes show it, with the notice to follow the SDS.
+#[test]
+fn a_cadmium_batch_sheet_says_cadmium_is_toxic() {
+    let lab = Lab::new();
+    lab.ok(&["init"]);
+    lab.ok(&["batch", "new", "--material", "CdSe", "--name", "no recipe"]);
+    let mut app = open_ui(&lab);
+    press(&mut app, KeyCode::Enter);
+    assert_eq!(app.view, View::Sheet, "{:?}", app.message);
+    for s in both_sizes(&app) {
+        // Read as running text: the foot wraps at words.
+        let text = s.split_whitespace().collect::<Vec<_>>().join(" ");
+        assert!(text.contains("Cadmium compounds are toxic and carcinogenic"), "{s}");
+        assert!(text.contains("SDS and your lab's safety rules"), "{s}");
+    }
+}

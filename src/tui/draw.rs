@@ -395,8 +395,22 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         return;
     };
     let s = |k: &str| b[k].as_str().unwrap_or("").to_string();
-    let [head, mid, foot] =
-        Layout::vertical([Constraint::Length(2), Constraint::Min(6), Constraint::Length(4)]).areas(area);
+    // The foot takes the lines it needs as wrapped (the safety notice is never cut), up to 7.
+    let foot_lines = sheet_foot(b, p);
+    let width = area.width.max(1) as usize;
+    let foot_rows: usize = foot_lines
+        .iter()
+        .map(|l| {
+            let text: String = l.spans.iter().map(|s| s.content.as_ref()).collect();
+            wrap_words(&text, width).len()
+        })
+        .sum();
+    let [head, mid, foot] = Layout::vertical([
+        Constraint::Length(2),
+        Constraint::Min(6),
+        Constraint::Length(foot_rows.clamp(3, 7) as u16),
+    ])
+    .areas(area);
     let g = &b["growth"];
     let mut title = vec![
         Span::styled(format!("Batch {} {}", b["id"], s("name")), p.head()),
@@ -521,6 +535,13 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         &mut state,
     );
     draw_chart(f, app, right, p);
+    f.render_widget(Paragraph::new(foot_lines).wrap(Wrap { trim: true }), foot);
+}
+
+/// A batch sheet's foot: its vials, the recipe's reagents with their GHS codes, and the
+/// material's cautions with the notice to follow the SDS.
+fn sheet_foot(b: &serde_json::Value, p: &Palette) -> Vec<Line<'static>> {
+    let s = |k: &str| b[k].as_str().unwrap_or("").to_string();
     let mut lines: Vec<Line> = Vec::new();
     let vials: Vec<String> = b["vials"]
         .as_array()
@@ -568,11 +589,16 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     if !hazards.is_empty() {
         lines.push(Line::styled(format!("! {}", hazards.join(" · ")), p.warn()));
     }
-    lines.push(Line::styled(
-        format!("! {}", crate::hazards::SDS_NOTICE_SHORT),
-        p.warn(),
-    ));
-    f.render_widget(Paragraph::new(lines).wrap(Wrap { trim: true }), foot);
+    // The material's own cautions (cadmium, lead, a pyrophoric reagent, hot solvents), as
+    // `batch show` gives them, with the short form of the notice to follow the SDS.
+    let pyrophoric = b["recipe_detail"]["reagents"]
+        .as_array()
+        .is_some_and(|r| r.iter().any(|g| g["pyrophoric"] == true));
+    let mut general = crate::hazards::general_cautions(&s("core"), pyrophoric);
+    general.retain(|c| c != crate::hazards::SDS_NOTICE);
+    general.push(crate::hazards::SDS_NOTICE_SHORT.to_string());
+    lines.push(Line::styled(format!("! {}", general.join(" ")), p.warn()));
+    lines
 }
 
 fn draw_chart(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
