@@ -1619,7 +1619,7 @@ fn preview_lines(pk: &Picker, width: usize, p: &Palette) -> Vec<Line<'static>> {
                 out.push(Line::from(format!("columns: {}", v.spectra.join(", "))));
             }
             out.push(Line::from(format!("looks like {}", kind_word(v.kind))));
-            out.push(Line::styled(format!("  ({})", v.kind_evidence), p.dim()));
+            out.push(Line::styled(format!("  why: {}", v.kind_evidence), p.dim()));
             let feature = match (v.kind, v.feature_nm) {
                 (Some("pl"), Some(nm)) => format!("PL peak {nm:.1} nm"),
                 (Some("abs"), Some(nm)) => format!("first exciton {nm:.1} nm"),
