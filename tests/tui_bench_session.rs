@@ -122,6 +122,12 @@ fn a_first_bench_session_from_an_empty_lab() {
     typ(&mut app, "480");
     press(&mut app, KeyCode::Enter);
     assert!(message(&app).contains("D "), "{}", message(&app));
+    // One timed aliquot: a rate of diameter needs two, a focusing verdict three.
+    assert!(
+        screen(&app).contains("growth: focusing needs 3 aliquots · D - nm/min"),
+        "{}",
+        screen(&app)
+    );
 
     // Watch a folder; two exports of the 30 min aliquot arrive while it runs.
     press(&mut app, KeyCode::Char('w'));

@@ -429,9 +429,14 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     // The growth verdict and the marks come first and the recipe last: on a narrow terminal
     // it is the recipe's name (shown again with its cautions below) that is cut, never the
     // rate's unit or a STALE mark.
+    // The rate is the diameter's, between the last two timed aliquots; the regime needs the
+    // dispersion of three, so with fewer it says what it waits for rather than a verdict.
+    let regime = match g["regime"].as_str().unwrap_or("") {
+        "too few points" => "focusing needs 3 aliquots",
+        r => r,
+    };
     let growth = format!(
-        "growth: {} · {} nm/min{}",
-        g["regime"].as_str().unwrap_or(""),
+        "growth: {regime} · D {} nm/min{}",
         n(g["growth_rate_nm_per_min"].as_f64(), 3),
         g["focusing_turn_min"]
             .as_f64()
