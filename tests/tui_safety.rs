@@ -716,3 +716,62 @@ fn a_cadmium_batch_sheet_says_cadmium_is_toxic() {
         assert!(text.contains("SDS and your lab's safety rules"), "{s}");
     }
 }
+
+/// An aliquot with PL but no QY showed only `-`: nothing said the lab has no QY reference
+/// yet, which is all a relative QY needs. The sheet now says so and how to set one.
+#[test]
+fn a_sheet_with_pl_and_no_qy_reference_says_how_to_get_a_qy() {
+    let lab = Lab::new();
+    lab.ok(&["init"]);
+    lab.ok(&["batch", "new", "--material", "CdSe", "--name", "no reference"]);
+    let samples = concat!(env!("CARGO_MANIFEST_DIR"), "/demo-db/samples/growth");
+    lab.ok(&[
+        "aliquot",
+        "add",
+        "1",
+        "--abs",
+        &format!("{samples}/abs_02min.csv"),
+        "--pl",
+        &format!("{samples}/pl_02min.csv"),
+        "--excitation-nm",
+        "480",
+        "--minutes",
+        "2",
+    ]);
+    let mut app = open_ui(&lab);
+    press(&mut app, KeyCode::Enter);
+    for s in both_sizes(&app) {
+        let text = s.split_whitespace().collect::<Vec<_>>().join(" ");
+        assert!(
+            text.contains("QY needs the lab's QY reference: calib set-reference"),
+            "{s}"
+        );
+    }
+    // With a reference set, the hint goes.
+    lab.ok(&[
+        "calib",
+        "set-reference",
+        "--dye",
+        "rhodamine 6G",
+        "--solvent",
+        "ethanol",
+        "--qy",
+        "0.95",
+        "--excitation-nm",
+        "480",
+        "--integral",
+        "52000",
+        "--abs",
+        "0.05",
+        "--why",
+        "bench reference",
+    ]);
+    lab.ok(&["recompute"]);
+    let mut app = open_ui(&lab);
+    press(&mut app, KeyCode::Enter);
+    assert!(
+        !screen_at(&app, 160, 45).contains("QY needs"),
+        "{}",
+        screen_at(&app, 160, 45)
+    );
+}

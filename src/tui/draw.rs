@@ -396,7 +396,7 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     };
     let s = |k: &str| b[k].as_str().unwrap_or("").to_string();
     // The foot takes the lines it needs as wrapped (the safety notice is never cut), up to 7.
-    let foot_lines = sheet_foot(b, p);
+    let foot_lines = sheet_foot(app, b, p);
     let width = area.width.max(1) as usize;
     let foot_rows: usize = foot_lines
         .iter()
@@ -545,7 +545,7 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
 
 /// A batch sheet's foot: its vials, the recipe's reagents with their GHS codes, and the
 /// material's cautions with the notice to follow the SDS.
-fn sheet_foot(b: &serde_json::Value, p: &Palette) -> Vec<Line<'static>> {
+fn sheet_foot(app: &App, b: &serde_json::Value, p: &Palette) -> Vec<Line<'static>> {
     let s = |k: &str| b[k].as_str().unwrap_or("").to_string();
     let mut lines: Vec<Line> = Vec::new();
     let vials: Vec<String> = b["vials"]
@@ -603,6 +603,18 @@ fn sheet_foot(b: &serde_json::Value, p: &Palette) -> Vec<Line<'static>> {
     general.retain(|c| c != crate::hazards::SDS_NOTICE);
     general.push(crate::hazards::SDS_NOTICE_SHORT.to_string());
     lines.push(Line::styled(format!("! {}", general.join(" ")), p.warn()));
+    // A relative QY needs the lab's reference; without one every QY is `-`, so say why
+    // (last: where rows run short it is this hint, never the safety notice, that is cut).
+    let has_pl = b["aliquots"]
+        .as_array()
+        .is_some_and(|a| a.iter().any(|x| x["pl_peak_nm"].is_number()));
+    let has_reference = app.calibrations.last().is_some_and(|c| c.body.qy_reference.is_some());
+    if has_pl && !has_reference {
+        lines.push(Line::styled(
+            "QY needs the lab's QY reference: calib set-reference (a dye measured as the samples are)",
+            p.dim(),
+        ));
+    }
     lines
 }
 
