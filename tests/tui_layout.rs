@@ -404,3 +404,17 @@ fn a_long_message_is_shown_whole_at_80_columns() {
     // The footer with the keys is still the last line.
     assert!(s.lines().last().unwrap().contains("help"), "{s}");
 }
+
+/// A batch with no vial showed `0.00` mL in the batch list, as if its vials were used up.
+#[test]
+fn a_batch_with_no_vial_shows_no_volume() {
+    let lab = Lab::new();
+    lab.ok(&["init"]);
+    lab.ok(&["batch", "new", "--material", "CdSe", "--name", "never bottled"]);
+    let app = open_ui(&lab);
+    for (w, h) in [(80, 24), (160, 45)] {
+        let s = screen_at(&app, w, h);
+        let row = line_with(&s, "CdSe");
+        assert!(!row.contains("0.00"), "{row}");
+    }
+}

@@ -291,7 +291,14 @@ fn batch_columns<'a>(app: &'a App, width: u16) -> Vec<Column<'a>> {
         fit(sort_mark(app, SortKey::Qy, "QY"), Box::new(|b| n(b.qy, 2))),
         fit(
             sort_mark(app, SortKey::Stock, "mL"),
-            Box::new(|b| units::ml(b.stock_ml)),
+            // No vial at all is not an empty vial: `-`, not 0.00.
+            Box::new(|b| {
+                if b.locations.is_empty() && b.stock_ml == 0.0 {
+                    "-".into()
+                } else {
+                    units::ml(b.stock_ml)
+                }
+            }),
         ),
         fit(
             "state".into(),
