@@ -418,3 +418,22 @@ fn a_batch_with_no_vial_shows_no_volume() {
         assert!(!row.contains("0.00"), "{row}");
     }
 }
+
+/// The trail kept its selection on the entry that was newest when the UI opened, so after a
+/// session of writes it opened on an old entry. A selection on the newest entry now follows
+/// the newest; one moved down the list stays on its entry.
+#[test]
+fn the_trail_opens_on_the_newest_entry_after_writes() {
+    let (lab, mut app) = demo_ui();
+    lab.ok(&["person", "add", "Orla Vance"]);
+    app.reload();
+    press(&mut app, KeyCode::Char('4'));
+    let newest = app.trail.iter().map(|r| r.id).max().unwrap();
+    assert_eq!(app.trail[app.trail_selected].id, newest);
+    // Moved down, the selection stays on its entry as more is written.
+    press(&mut app, KeyCode::Down);
+    let kept = app.trail[app.trail_selected].id;
+    lab.ok(&["person", "add", "Piet Vance"]);
+    app.reload();
+    assert_eq!(app.trail[app.trail_selected].id, kept);
+}

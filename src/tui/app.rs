@@ -609,9 +609,12 @@ impl App {
     }
 
     /// Reads the trail (the newest `trail_limit` entries, or every entry about the focused
-    /// thing), keeping the selection on the entry it was on.
+    /// thing), keeping the selection on the entry it was on; a selection on the newest entry
+    /// follows the newest, so new writes do not leave it behind.
     fn load_trail(&mut self) -> crate::Result<()> {
-        let was = self.trail.get(self.trail_selected).map(|r| r.id);
+        let was = (self.trail_selected > 0)
+            .then(|| self.trail.get(self.trail_selected).map(|r| r.id))
+            .flatten();
         self.trail = match &self.trail_focus {
             Some((entity, id)) => model::audit_log_of(&self.store.conn, entity, *id, i64::MAX)?,
             None => model::audit_log(&self.store.conn, None, self.trail_limit)?,
