@@ -775,3 +775,22 @@ fn a_sheet_with_pl_and_no_qy_reference_says_how_to_get_a_qy() {
         screen_at(&app, 160, 45)
     );
 }
+
+/// The first-run name became the writer unchecked: a 120-character name signed the audit
+/// log, where `--as` or $CUVETTE_USER refuse any name over 80 characters. The form refuses
+/// it the same way and nothing is written.
+#[test]
+fn a_first_run_name_over_80_characters_is_refused() {
+    let lab = Lab::new();
+    lab.ok(&["init"]);
+    let before = scalar(&lab.db, "SELECT COUNT(*) FROM audit_log");
+    let mut app = open_ui(&lab);
+    app.offer_first_run();
+    ctrl(&mut app, 'u');
+    typ(&mut app, &"x".repeat(120));
+    press(&mut app, KeyCode::Enter);
+    let m = app.message.as_ref().unwrap();
+    assert!(m.0 && m.1.starts_with("your name:") && m.1.contains("80"), "{m:?}");
+    assert_eq!(app.store.actor, "Test Runner");
+    assert_eq!(scalar(&lab.db, "SELECT COUNT(*) FROM audit_log"), before);
+}

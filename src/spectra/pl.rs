@@ -629,19 +629,24 @@ fn line_at(y: &[f64], i: usize, step: f64, noise: f64, dist: f64, widest: f64) -
         return None;
     }
     // The chord between the two surroundings sits below a band's rounded top; a line must
-    // also stand above the median of the points beside it, past its own half width.
+    // also stand above the points beside it, past its own half width. Each side's median
+    // is read apart and the two averaged: on a band's flank one side is all higher and the
+    // other all lower, and their mean is the band's level at the line.
     let core = (fwhm / step).ceil() as usize + 1;
-    let mut beside: Vec<f64> = (core..=k)
-        .flat_map(|s| [i.checked_sub(s), (i + s < n).then_some(i + s)])
-        .flatten()
-        .map(|j| y[j])
-        .collect();
-    if !beside.is_empty() {
-        let mid = beside.len() / 2;
-        let level = *beside.select_nth_unstable_by(mid, f64::total_cmp).1;
-        if !(y[i] - level > LINE_SIGMAS * noise) {
-            return None;
-        }
+    let median = |mut v: Vec<f64>| -> Option<f64> {
+        let mid = v.len() / 2;
+        (!v.is_empty()).then(|| *v.select_nth_unstable_by(mid, f64::total_cmp).1)
+    };
+    let left = median((core..=k).filter_map(|s| i.checked_sub(s)).map(|j| y[j]).collect());
+    let right = median((core..=k).map(|s| i + s).filter(|&j| j < n).map(|j| y[j]).collect());
+    let level = match (left, right) {
+        (Some(a), Some(b)) => Some(0.5 * (a + b)),
+        (a, b) => a.or(b),
+    };
+    if let Some(level) = level
+        && !(y[i] - level > LINE_SIGMAS * noise)
+    {
+        return None;
     }
     Some((base, fwhm, k, h))
 }
@@ -780,7 +785,8 @@ fn find_lines(u: &Uniform, noise: f64) -> (Vec<Mask>, Vec<NarrowLine>) {
         // above twice the noise (so a line on a band does not take the band's top with it).
         let low = base + 2.0 * noise;
         let sigma_pts = fwhm / 2.354_820_045 / step;
-        let tail = (sigma_pts * (2.0 * (h / (2.0 * noise).max(1e-300)).max(1.0).ln()).sqrt()).ceil() as usize + 1;
+        let tail = ((sigma_pts * (2.0 * (h / (2.0 * noise).max(1e-300)).max(1.0).ln()).sqrt()).ceil() as usize)
+            .saturating_add(1);
         let cap = tail.clamp(1, k);
         let extent = |dir: isize| -> usize {
             let mut j = i as isize;

@@ -2146,6 +2146,10 @@ impl App {
                 if name.is_empty() && place.is_empty() {
                     return Err("give your name, a location, or both (Esc leaves this for later)".into());
                 }
+                // The same rule as a name given with --as: it signs the audit log.
+                if name.chars().count() > 80 || name.chars().any(char::is_control) {
+                    return Err("your name: one line of at most 80 printable characters".into());
+                }
                 if !place.is_empty() && !model::LOCATION_KINDS.contains(&kind.as_str()) {
                     return Err(format!(
                         "location kind: one of {} (got '{kind}')",
