@@ -9,31 +9,17 @@
 
 mod common;
 
-use common::{Lab, open_ui, press, scalar, screen_at, typ};
-use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+use common::{Lab, ctrl, open_ui, press, scalar, screen_at, typ, wait_until};
+use crossterm::event::KeyCode;
 use cuvette::tui::app::{App, Mode, View};
 use std::path::{Path, PathBuf};
-use std::time::{Duration, Instant};
 
 fn samples() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-db/samples")
 }
 
-fn ctrl(app: &mut App, c: char) {
-    app.on_key(KeyEvent::new(KeyCode::Char(c), KeyModifiers::CONTROL));
-}
-
 fn screen(app: &App) -> String {
     screen_at(app, 80, 24)
-}
-
-/// Waits (up to `secs`) for `done`, letting the UI take the watch's news meanwhile.
-fn wait_for(app: &mut App, secs: u64, done: impl Fn(&App) -> bool) {
-    let start = Instant::now();
-    while !done(app) && start.elapsed() < Duration::from_secs(secs) {
-        app.poll_workers();
-        std::thread::sleep(Duration::from_millis(100));
-    }
 }
 
 fn selected(app: &App) -> String {
@@ -140,10 +126,10 @@ fn a_first_bench_session_from_an_empty_lab() {
     for name in ["abs_30min.csv", "pl_30min.csv"] {
         std::fs::copy(samples().join("arriving").join(name), incoming.join(name)).unwrap();
     }
-    wait_for(&mut app, 30, |a| a.watching.as_ref().is_some_and(|w| w.logged >= 2));
+    wait_until(&mut app, 30, |a| a.watching.as_ref().is_some_and(|w| w.logged >= 2));
     assert_eq!(app.watching.as_ref().map(|w| w.logged), Some(2), "{}", message(&app));
     press(&mut app, KeyCode::Char('W'));
-    wait_for(&mut app, 10, |a| a.watching.is_none());
+    wait_until(&mut app, 10, |a| a.watching.is_none());
     assert!(app.watching.is_none(), "the watch did not stop");
     assert!(!screen(&app).contains("● watching"));
 

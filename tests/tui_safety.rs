@@ -7,14 +7,10 @@
 
 mod common;
 use common::*;
-use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+use crossterm::event::KeyCode;
 use cuvette::tui::app::{App, Mode, View};
 use cuvette::tui::keys;
 use std::time::Duration;
-
-fn ctrl(app: &mut App, c: char) {
-    app.on_key(KeyEvent::new(KeyCode::Char(c), KeyModifiers::CONTROL));
-}
 
 fn scalar_f(lab: &Lab, sql: &str) -> f64 {
     rusqlite::Connection::open(&lab.db)

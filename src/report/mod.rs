@@ -187,6 +187,14 @@ pub fn explain(conn: &Connection, aliquot_id: i64) -> Result<Value> {
     }))
 }
 
+/// Minutes of a growth series for people: to 0.01 min, no trailing zeros (2, 2.5, 1.55), never
+/// "-0". One rule for the UI, the plots and the pack.
+pub fn minutes(m: f64) -> String {
+    let s = format!("{:.2}", (m * 100.0).round() / 100.0);
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" { "0".into() } else { s.to_string() }
+}
+
 /// The cautions of a recipe: its reagents' hazards and the general ones.
 pub fn cautions(r: &model::RecipeView) -> Vec<String> {
     let mut out: Vec<String> = r

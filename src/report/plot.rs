@@ -32,12 +32,10 @@ type PanelTrace<'a> = (usize, &'a SeriesItem, &'a Trace, Vec<(f64, f64)>);
 /// No spectral or growth quantity comes near this; beyond it a span could overflow.
 pub const PLOTTABLE_LIMIT: f64 = 1e100;
 
-/// Minutes as a legend says them: to 0.01 min, no trailing zeros (a time computed from file
-/// dates came out as `0.017249999999999998 min`).
+/// Minutes as a legend says them (a time computed from file dates came out as
+/// `0.017249999999999998 min`): see [`super::minutes`].
 pub fn minutes_label(m: f64) -> String {
-    let s = format!("{:.2}", (m * 100.0).round() / 100.0);
-    let s = s.trim_end_matches('0').trim_end_matches('.');
-    format!("{} min", if s == "-0" { "0" } else { s })
+    format!("{} min", super::minutes(m))
 }
 
 fn plottable(v: f64) -> bool {

@@ -574,9 +574,18 @@ fn noise_of_points(y: &[f64]) -> f64 {
         return 0.0;
     }
     let mut d: Vec<f64> = y.windows(3).map(|w| (w[0] - 2.0 * w[1] + w[2]).abs()).collect();
-    let mid = d.len() / 2;
-    let (_, med, _) = d.select_nth_unstable_by(mid, f64::total_cmp);
-    1.4826 * *med / 6f64.sqrt()
+    mad_sd(&mut d) / 6f64.sqrt()
+}
+
+/// The standard deviation a normal sample's absolute values give: 1.4826 x their median
+/// (the median absolute deviation's consistency factor), robust to a few peaks and lines.
+/// Reorders `abs_values`; 0 for none.
+fn mad_sd(abs_values: &mut [f64]) -> f64 {
+    if abs_values.is_empty() {
+        return 0.0;
+    }
+    let mid = abs_values.len() / 2;
+    1.4826 * *abs_values.select_nth_unstable_by(mid, f64::total_cmp).1
 }
 
 /// Where a line candidate's surroundings are read (nm each side) and the widest FWHM (nm) a
@@ -666,9 +675,7 @@ fn noise_of_uneven(nm: &[f64], y: &[f64]) -> f64 {
             ((y[i] - line) / sd).abs()
         })
         .collect();
-    let mid = d.len() / 2;
-    let (_, med, _) = d.select_nth_unstable_by(mid, f64::total_cmp);
-    1.4826 * *med
+    mad_sd(&mut d)
 }
 
 /// The scatter of single points at a candidate line's level: third differences (variance
@@ -717,8 +724,7 @@ fn noise_at_level(u: &LineScan, i: usize, fwhm_nm: f64, half_height: f64, noise:
     pts.sort_by(|a, b| a.0.total_cmp(&b.0));
     let at_level = pts.iter().take_while(|p| p.0 == 0.0).count().max(LINE_LEVEL_POINTS);
     let mut d: Vec<f64> = pts[..at_level].iter().map(|p| p.1).collect();
-    let mid = d.len() / 2;
-    let here = 1.4826 * *d.select_nth_unstable_by(mid, f64::total_cmp).1 / 20f64.sqrt();
+    let here = mad_sd(&mut d) / 20f64.sqrt();
     (noise * here / u.whole_scan_noise).max(noise)
 }
 
@@ -1154,9 +1160,7 @@ fn fit_baseline(u: &Uniform, y: &[f64], (lo, hi): (usize, usize)) -> Option<(Bas
         b = Baseline { ref_nm, value, slope };
         resid.clear();
         resid.extend(idx().map(|i| (y[i] - b.at(u.nm(i as f64))).abs()));
-        let mid = resid.len() / 2;
-        let (_, med, _) = resid.select_nth_unstable_by(mid, f64::total_cmp);
-        let sigma = 1.4826 * *med;
+        let sigma = mad_sd(&mut resid);
         limit = 3.0 * sigma.max(1e-300);
     }
     if !b.value.is_finite() || !b.slope.is_finite() {

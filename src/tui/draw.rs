@@ -67,8 +67,7 @@ pub fn draw(f: &mut Frame, app: &App) {
     let p = Palette { on: app.colour };
     // A long message (a path, a reason) takes up to three lines rather than being cut.
     let width = f.area().width.max(1) as usize;
-    let status_text: usize = status_line(app, f.area().width, &p).width();
-    let status_rows = status_text.div_ceil(width).clamp(1, 3) as u16;
+    let status_rows = wrapped_rows(&[status_line(app, f.area().width, &p)], width).clamp(1, 3) as u16;
     let [top, body, status, footer] = Layout::vertical([
         Constraint::Length(1),
         Constraint::Min(5),
@@ -405,13 +404,7 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     // The foot takes the lines it needs as wrapped (the safety notice is never cut), up to 7.
     let foot_lines = sheet_foot(app, b, p);
     let width = area.width.max(1) as usize;
-    let foot_rows: usize = foot_lines
-        .iter()
-        .map(|l| {
-            let text: String = l.spans.iter().map(|s| s.content.as_ref()).collect();
-            wrap_words(&text, width).len()
-        })
-        .sum();
+    let foot_rows = wrapped_rows(&foot_lines, width);
     let [head, mid, foot] = Layout::vertical([
         Constraint::Length(2),
         Constraint::Min(6),
@@ -1073,6 +1066,21 @@ fn draw_calibrations(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
             .block(Block::bordered().title("recompute")),
         detail,
     );
+}
+
+/// The rows `lines` take when wrapped at words to `width`, as a panel sizes itself to them.
+fn wrapped_rows(lines: &[Line], width: usize) -> usize {
+    lines
+        .iter()
+        .map(|l| {
+            let text: String = l.spans.iter().map(|s| s.content.as_ref()).collect();
+            if text.is_empty() {
+                1
+            } else {
+                wrap_words(&text, width).len()
+            }
+        })
+        .sum()
 }
 
 /// Text broken into lines of at most `width` characters at spaces; a word longer than a line

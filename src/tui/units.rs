@@ -33,9 +33,7 @@ pub fn sig3(x: f64) -> String {
 
 /// Minutes of a growth series: to 0.01 min, with no trailing zeros (2, 2.5, 1.55).
 pub fn minutes(m: f64) -> String {
-    let s = format!("{:.2}", round_to(m, 2));
-    let s = s.trim_end_matches('0').trim_end_matches('.');
-    if s == "-0" { "0".into() } else { s.to_string() }
+    crate::report::minutes(m)
 }
 
 /// A number put back into a form field (a dilution, a path, a wavelength): up to 4 decimals,

@@ -136,6 +136,23 @@ pub fn press(app: &mut cuvette::tui::app::App, code: crossterm::event::KeyCode) 
     ));
 }
 
+/// A key pressed with Ctrl held (Ctrl-U clears a text field to its start).
+pub fn ctrl(app: &mut cuvette::tui::app::App, c: char) {
+    app.on_key(crossterm::event::KeyEvent::new(
+        crossterm::event::KeyCode::Char(c),
+        crossterm::event::KeyModifiers::CONTROL,
+    ));
+}
+
+/// Waits (up to `secs`) until `done`, letting the UI take its background jobs' news meanwhile.
+pub fn wait_until(app: &mut cuvette::tui::app::App, secs: u64, done: impl Fn(&cuvette::tui::app::App) -> bool) {
+    let start = std::time::Instant::now();
+    while !done(app) && start.elapsed() < std::time::Duration::from_secs(secs) {
+        app.poll_workers();
+        std::thread::sleep(std::time::Duration::from_millis(50));
+    }
+}
+
 pub fn typ(app: &mut cuvette::tui::app::App, s: &str) {
     for c in s.chars() {
         press(app, crossterm::event::KeyCode::Char(c));
