@@ -7,8 +7,7 @@ use super::create_outputs;
 use crate::derive::engine;
 use crate::error::{Error, Result};
 use crate::safe_text::{csv_number, csv_text};
-use crate::store::model;
-use rusqlite::Connection;
+use crate::store::{Db, model};
 use std::io::Write as _;
 use std::path::{Path, PathBuf};
 
@@ -24,7 +23,7 @@ fn csv_err(e: csv::Error) -> Error {
 /// Writes the export into `out` (default `export/`); returns the files written. Without
 /// `force` no existing file is overwritten and no symbolic link followed: the export is
 /// refused before anything is written.
-pub fn export(conn: &Connection, as_json: bool, out: Option<&Path>, force: bool) -> Result<Vec<String>> {
+pub fn export(conn: &Db, as_json: bool, out: Option<&Path>, force: bool) -> Result<Vec<String>> {
     let dir = out.unwrap_or(Path::new("export"));
     std::fs::create_dir_all(dir).map_err(|e| Error::Invalid(format!("cannot create {}: {e}", dir.display())))?;
     let batches = model::list_batches(conn)?;

@@ -11,8 +11,8 @@
 use super::{plot, shelf_entry};
 use crate::error::{Error, Result, invalid};
 use crate::safe_text::{csv_number, csv_text};
-use crate::store::{Store, audit, model, now};
-use rusqlite::{Connection, params};
+use crate::store::handover::hand_over;
+use crate::store::{Db, Store, model, now};
 use serde::Serialize;
 use std::fmt::Write as _;
 use std::path::Path;
@@ -61,66 +61,10 @@ pub fn handover(
     ));
     let _ = std::fs::remove_dir_all(&tmp);
     let result = store.write(|tx, who| {
-        let from_id = model::person_id(tx, from)?;
-        let to_id = model::person_id(tx, to)?;
-        if from_id == to_id {
-            return invalid("hand over to someone else: --from and --to are the same person");
-        }
-        let vial_ids: Vec<i64> = {
-            let mut st = tx.prepare("SELECT id FROM vial WHERE owner_id = ?1 AND status <> 'disposed' ORDER BY id")?;
-            st.query_map([from_id], |r| r.get(0))?
-                .collect::<rusqlite::Result<_>>()?
-        };
-        for (i, id) in vial_ids.iter().enumerate() {
-            if fail_after_vials == Some(i) {
-                return invalid(format!("handover stopped after {i} vials (test failure)"));
-            }
-            tx.execute("UPDATE vial SET owner_id = ?1 WHERE id = ?2", params![to_id, id])?;
-            tx.execute(
-                "INSERT INTO vial_event (vial_id, kind, who, why, at) VALUES (?1, 'handover', ?2, ?3, ?4)",
-                params![id, who, format!("from {from} to {to}"), now()],
-            )?;
-            audit(
-                tx,
-                who,
-                "vial",
-                Some(*id),
-                "handover",
-                Some(&serde_json::json!({"owner": from})),
-                Some(&serde_json::json!({"owner": to})),
-            )?;
-        }
-        let batch_ids: Vec<i64> = {
-            let mut st = tx.prepare(
-                "SELECT id FROM batch WHERE operator_id = ?1 AND status IN ('planned','growing') ORDER BY id",
-            )?;
-            st.query_map([from_id], |r| r.get(0))?
-                .collect::<rusqlite::Result<_>>()?
-        };
-        for id in &batch_ids {
-            tx.execute("UPDATE batch SET operator_id = ?1 WHERE id = ?2", params![to_id, id])?;
-            audit(
-                tx,
-                who,
-                "batch",
-                Some(*id),
-                "handover",
-                Some(&serde_json::json!({"operator": from})),
-                Some(&serde_json::json!({"operator": to})),
-            )?;
-        }
-        // The pack covers every batch that has one of the handed vials, plus the open ones.
-        let mut pack_batches: Vec<i64> = batch_ids.clone();
-        for id in &vial_ids {
-            let b: i64 = tx.query_row("SELECT batch_id FROM vial WHERE id = ?1", [id], |r| r.get(0))?;
-            if !pack_batches.contains(&b) {
-                pack_batches.push(b);
-            }
-        }
-        pack_batches.sort();
+        let done = hand_over(tx, who, from, to, fail_after_vials)?;
         std::fs::create_dir_all(&tmp).map_err(|e| Error::Invalid(format!("cannot create {}: {e}", tmp.display())))?;
-        let files = write_pack(tx, &tmp, from, to, &vial_ids, &pack_batches, progress)?;
-        Ok((vial_ids.len(), batch_ids.len(), files))
+        let files = write_pack(tx, &tmp, from, to, &done.vial_ids, &done.pack_batch_ids, progress)?;
+        Ok((done.vial_ids.len(), done.batch_ids.len(), files))
     });
     match result {
         Ok((vials, batches, files)) => {
@@ -151,7 +95,7 @@ pub fn handover(
 }
 
 fn write_pack(
-    tx: &Connection,
+    tx: &Db,
     dir: &Path,
     from: &str,
     to: &str,

@@ -14,8 +14,7 @@ pub use plot::{plot_batch_svg, plot_series_svg};
 
 use crate::derive::{calibration, engine, growth, sizing};
 use crate::error::Result;
-use crate::store::model;
-use rusqlite::Connection;
+use crate::store::{Db, model};
 use serde_json::{Value, json};
 
 /// Below this volume a vial counts as low on stock (common practice of our invented lab; a
@@ -91,7 +90,7 @@ pub fn concentration_note(v: &model::VialRow) -> &'static str {
 }
 
 /// The concentration of a batch's product aliquot (undiluted), if derived.
-pub fn product_concentration(conn: &Connection, batch_id: i64) -> Result<Option<f64>> {
+pub fn product_concentration(conn: &Db, batch_id: i64) -> Result<Option<f64>> {
     let b = model::get_batch(conn, batch_id)?;
     let series: Vec<growth::AliquotSummary> = model::aliquots_of(conn, batch_id)?
         .iter()
@@ -104,7 +103,7 @@ pub use crate::par::parallel_map;
 
 /// Each derived value of an aliquot with where it came from: spectrum, peak, curve and its
 /// version and source, diameter, extinction, concentration; and the superseded history.
-pub fn explain(conn: &Connection, aliquot_id: i64) -> Result<Value> {
+pub fn explain(conn: &Db, aliquot_id: i64) -> Result<Value> {
     let a = model::get_aliquot(conn, aliquot_id)?;
     let b = model::get_batch(conn, a.batch_id)?;
     let spectra = model::spectra_of_aliquot(conn, aliquot_id)?;
@@ -222,7 +221,7 @@ pub fn cautions(r: &model::RecipeView) -> Vec<String> {
 }
 
 /// The full record of a batch as `batch show --json` prints it.
-pub fn batch_detail(tx: &rusqlite::Connection, id: i64) -> crate::Result<Value> {
+pub fn batch_detail(tx: &Db, id: i64) -> crate::Result<Value> {
     let b = model::get_batch(tx, id)?;
     // The whole record, voided aliquots marked; growth and product leave them out.
     let series: Vec<growth::AliquotSummary> = model::all_aliquots_of(tx, id)?

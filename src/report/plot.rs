@@ -11,9 +11,8 @@ use crate::derive::{engine, growth};
 use crate::error::{Error, Result};
 use crate::safe_text;
 use crate::spectra::Trace;
-use crate::store::model;
+use crate::store::{Db, model};
 use plotters::prelude::*;
-use rusqlite::Connection;
 
 /// One aliquot's traces and values, for plotting.
 pub struct SeriesItem {
@@ -90,7 +89,7 @@ fn plot_err(e: impl std::fmt::Display) -> Error {
 }
 
 /// The series of a batch, read from the store.
-pub fn series(conn: &Connection, batch_id: i64) -> Result<Vec<SeriesItem>> {
+pub fn series(conn: &Db, batch_id: i64) -> Result<Vec<SeriesItem>> {
     let mut out = Vec::new();
     for a in model::aliquots_of(conn, batch_id)? {
         let s = growth::aliquot_summary(conn, &a)?;
@@ -120,7 +119,7 @@ pub fn series(conn: &Connection, batch_id: i64) -> Result<Vec<SeriesItem>> {
     Ok(out)
 }
 
-pub fn plot_batch_svg(conn: &Connection, batch_id: i64) -> Result<String> {
+pub fn plot_batch_svg(conn: &Db, batch_id: i64) -> Result<String> {
     let b = model::get_batch(conn, batch_id)?;
     let items = series(conn, batch_id)?;
     plot_series_svg(&format!("Batch {} {} ({})", b.id, b.name, b.material), &items)

@@ -8,9 +8,9 @@
 
 use super::parse::{Clause, Field, MAX_WORD_CHARS, Query};
 use crate::error::Result;
+use crate::store::{Db, facts as stored};
 use fuzzy_matcher::FuzzyMatcher;
 use fuzzy_matcher::skim::SkimMatcherV2;
-use rusqlite::Connection;
 use serde::Serialize;
 use std::collections::HashMap;
 
@@ -60,46 +60,28 @@ impl std::ops::Deref for Hit {
 }
 
 /// Reads every batch's facts: product values, stock and locations.
-pub fn load_facts(conn: &Connection) -> Result<Vec<Facts>> {
+pub fn load_facts(conn: &Db) -> Result<Vec<Facts>> {
     let mut facts: Vec<Facts> = Vec::new();
     let mut index: HashMap<i64, usize> = HashMap::new();
-    let mut st = conn.prepare(
-        "SELECT b.id, b.name, m.name, b.status, p.name, b.started_at, r.name, b.notes
-         FROM batch b JOIN material m ON m.id = b.material_id
-         LEFT JOIN person p ON p.id = b.operator_id
-         LEFT JOIN recipe_version rv ON rv.id = b.recipe_version_id LEFT JOIN recipe r ON r.id = rv.recipe_id
-         WHERE b.voided_at IS NULL
-         ORDER BY b.id",
-    )?;
-    let mut rows = st.query([])?;
-    while let Some(r) = rows.next()? {
-        let f = Facts {
-            id: r.get(0)?,
-            name: r.get(1)?,
-            material: r.get(2)?,
-            status: r.get(3)?,
-            operator: r.get(4)?,
-            started_at: r.get(5)?,
-            recipe: r.get(6)?,
-            notes: r.get(7)?,
+    for b in stored::live_batches(conn)? {
+        index.insert(b.id, facts.len());
+        facts.push(Facts {
+            id: b.id,
+            name: b.name,
+            material: b.material,
+            status: b.status,
+            operator: b.operator,
+            started_at: b.started_at,
+            recipe: b.recipe,
+            notes: b.notes,
             ..Default::default()
-        };
-        index.insert(f.id, facts.len());
-        facts.push(f);
+        });
     }
-    let mut st = conn.prepare(
-        "SELECT p.batch_id, d.quantity, d.value FROM batch_product p
-         JOIN derived_value d ON d.aliquot_id = p.aliquot_id AND d.superseded_at IS NULL
-         WHERE d.quantity IN ('diameter_nm','first_exciton_nm','pl_peak_nm','pl_fwhm_nm','size_dispersion_pct','qy','concentration_molar')",
-    )?;
-    let mut rows = st.query([])?;
-    while let Some(r) = rows.next()? {
-        let id: i64 = r.get(0)?;
-        let q: String = r.get(1)?;
-        let v: Option<f64> = r.get(2)?;
-        if let Some(&i) = index.get(&id) {
+    for p in stored::product_values(conn)? {
+        if let Some(&i) = index.get(&p.batch_id) {
             let f = &mut facts[i];
-            match q.as_str() {
+            let v = p.value;
+            match p.quantity.as_str() {
                 "diameter_nm" => f.diameter_nm = v,
                 "first_exciton_nm" => f.first_exciton_nm = v,
                 "pl_peak_nm" => f.pl_peak_nm = v,
@@ -111,31 +93,17 @@ pub fn load_facts(conn: &Connection) -> Result<Vec<Facts>> {
             }
         }
     }
-    let mut st = conn.prepare(
-        "SELECT v.batch_id, SUM(v.volume_ml), GROUP_CONCAT(DISTINCT l.name) FROM vial v JOIN location l ON l.id = v.location_id
-         WHERE v.status <> 'disposed' GROUP BY v.batch_id",
-    )?;
-    let mut rows = st.query([])?;
-    while let Some(r) = rows.next()? {
-        let id: i64 = r.get(0)?;
-        if let Some(&i) = index.get(&id) {
-            facts[i].stock_ml = r.get::<_, Option<f64>>(1)?.unwrap_or(0.0);
-            let locs: Option<String> = r.get(2)?;
-            facts[i].locations = locs
-                .map(|l| l.split(',').map(String::from).collect())
-                .unwrap_or_default();
+    for s in stored::batch_stock(conn)? {
+        if let Some(&i) = index.get(&s.batch_id) {
+            facts[i].stock_ml = s.stock_ml;
+            facts[i].locations = s.locations;
         }
     }
     // A recipe's reagents count as part of its text, so "oleylamine" finds its batches.
-    let mut reagents: HashMap<i64, String> = HashMap::new();
-    let mut st = conn.prepare(
-        "SELECT b.id, GROUP_CONCAT(g.name, ' ') FROM batch b JOIN recipe_reagent rr ON rr.recipe_version_id = b.recipe_version_id
-         JOIN reagent g ON g.id = rr.reagent_id GROUP BY b.id",
-    )?;
-    let mut rows = st.query([])?;
-    while let Some(r) = rows.next()? {
-        reagents.insert(r.get(0)?, r.get::<_, Option<String>>(1)?.unwrap_or_default());
-    }
+    let reagents: HashMap<i64, String> = stored::batch_reagents(conn)?
+        .into_iter()
+        .map(|r| (r.batch_id, r.reagents))
+        .collect();
     for f in &mut facts {
         f.haystack = format!(
             "{} {} {} {} {} {}",
@@ -354,7 +322,7 @@ pub fn filter(facts: &[Facts], q: &Query) -> Vec<Hit> {
 }
 
 /// Loads and filters in one call.
-pub fn run(conn: &Connection, q: &Query) -> Result<Vec<Hit>> {
+pub fn run(conn: &Db, q: &Query) -> Result<Vec<Hit>> {
     Ok(filter(&load_facts(conn)?, q))
 }
 

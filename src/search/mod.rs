@@ -25,16 +25,12 @@ pub use parse::{
 };
 
 use crate::error::Result;
-use rusqlite::{Connection, params};
+use crate::store::Db;
 
 /// Stores the numeric bounds of a query so that recompute previews can name crossings.
-pub fn record_thresholds(tx: &Connection, q: &Query) -> Result<()> {
+pub fn record_thresholds(tx: &Db, q: &Query) -> Result<()> {
     for (field, v) in bounds_of(q) {
-        tx.execute(
-            "INSERT INTO search_threshold (field, value, last_used) VALUES (?1, ?2, ?3)
-             ON CONFLICT(field, value) DO UPDATE SET uses = uses + 1, last_used = excluded.last_used",
-            params![field, v, crate::store::now()],
-        )?;
+        crate::store::facts::record_search_bound(tx, &field, v)?;
     }
     Ok(())
 }

@@ -13,8 +13,13 @@
 
 pub mod backup;
 pub mod check;
+pub mod facts;
+pub mod handover;
 pub mod model;
 pub mod search_bounds;
+
+/// The open database (a connection or a transaction) as the layers above the store hold it: they pass it to store functions and never run SQL on it.
+pub type Db = rusqlite::Connection;
 
 use crate::error::{Error, Result};
 use rusqlite::{Connection, OpenFlags, Transaction, TransactionBehavior, params};
