@@ -34,6 +34,12 @@ fn esc(s: &str) -> String {
     crate::safe_text::markup(s)
 }
 
+/// A value as the pack shows it: a number that is not finite is shown as missing, as the JSON
+/// view the pack was first written from has it (serde_json prints it as null).
+fn finite(v: Option<f64>) -> Option<f64> {
+    v.filter(|x| x.is_finite())
+}
+
 fn n(v: Option<f64>, d: usize) -> String {
     v.map(|x| format!("{x:.d$}")).unwrap_or_else(|| "–".into())
 }
@@ -171,8 +177,8 @@ fn write_pack(
     let mut labels = String::from("<h2 id=\"labels\">Vial labels</h2><div class=\"labels\">");
     for (done, b) in batch_ids.iter().enumerate() {
         progress(done, batch_ids.len());
-        let detail = super::batch_detail(tx, *b)?;
-        let batch = model::get_batch(tx, *b)?;
+        let sheet = super::batch_sheet(tx, *b)?;
+        let batch = &sheet.batch;
         let _ = write!(
             html,
             "<section class=\"batch\" id=\"batch-{id}\" data-batch-id=\"{id}\"><h2>Batch {id}: {name}</h2><p>{mat}, {status}, started {start} by {op}{parent}</p>",
@@ -181,7 +187,7 @@ fn write_pack(
             mat = esc(&batch.material),
             status = esc(&batch.status),
             start = esc(&batch.started_at),
-            op = esc(detail["operator"].as_str().unwrap_or("")),
+            op = esc(batch.operator.as_deref().unwrap_or("")),
             parent = batch
                 .parent_batch_id
                 .map(|p| format!(
@@ -200,8 +206,7 @@ fn write_pack(
         if !batch.notes.is_empty() {
             let _ = write!(html, "<p>Notes: {}</p>", esc(&batch.notes));
         }
-        if let Some(r) = batch.recipe_version_id {
-            let view = model::recipe_view(tx, r)?;
+        if let Some(view) = &sheet.recipe_detail {
             let _ = write!(
                 html,
                 "<h3>Recipe {} v{}</h3><table><tr><th>reagent</th><th>amount</th><th>role</th><th>GHS hazards</th></tr>",
@@ -237,55 +242,47 @@ fn write_pack(
             html.push_str("</ol>");
         }
         html.push_str("<div class=\"caution\"><b>Cautions</b><ul>");
-        for c in detail["cautions"].as_array().into_iter().flatten() {
-            let _ = write!(html, "<li>{}</li>", esc(c.as_str().unwrap_or("")));
+        for c in &sheet.cautions {
+            let _ = write!(html, "<li>{}</li>", esc(c));
         }
         html.push_str("</ul></div><h3>Growth series</h3><table><tr><th>aliquot</th><th>min / stage</th><th>first exciton (nm)</th><th>D (nm)</th><th>σ/D (%)</th><th>conc. (µM)</th><th>PL (nm)</th><th>FWHM (nm)</th><th>QY</th><th>curve</th><th>calibration</th></tr>");
         // Void aliquots stay in the lab's record but not in what a new student works from.
-        for a in detail["aliquots"]
-            .as_array()
-            .into_iter()
-            .flatten()
-            .filter(|a| a["voided"] != true)
-        {
-            let f = |k: &str, d: usize| n(a[k].as_f64(), d);
+        for a in sheet.aliquots.iter().filter(|a| !a.voided) {
             let _ = write!(
                 html,
                 "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>v{}{}</td></tr>",
-                a["id"],
-                a["minutes"]
-                    .as_f64()
+                a.id,
+                finite(a.minutes)
                     .map(|m| m.to_string())
-                    .unwrap_or_else(|| esc(a["stage"].as_str().unwrap_or(""))),
-                f("first_exciton_nm", 1),
-                f("diameter_nm", 2),
-                f("size_dispersion_pct", 1),
-                n(a["concentration_molar"].as_f64().map(|c| c * 1e6), 2),
-                f("pl_peak_nm", 1),
-                f("pl_fwhm_nm", 1),
-                f("qy", 2),
-                esc(a["curve"].as_str().unwrap_or("–")),
-                a["calibration_version"],
-                if a["stale"].as_bool() == Some(true) {
-                    " (stale)"
-                } else {
-                    ""
-                }
+                    .unwrap_or_else(|| esc(a.stage.as_deref().unwrap_or(""))),
+                n(finite(a.first_exciton_nm), 1),
+                n(finite(a.diameter_nm), 2),
+                n(finite(a.size_dispersion_pct), 1),
+                n(finite(a.concentration_molar).map(|c| c * 1e6), 2),
+                n(finite(a.pl_peak_nm), 1),
+                n(finite(a.pl_fwhm_nm), 1),
+                n(finite(a.qy), 2),
+                esc(a.curve.as_deref().unwrap_or("–")),
+                // As the JSON view printed it, so the pack reads as it always has.
+                a.calibration_version
+                    .map(|v| v.to_string())
+                    .unwrap_or_else(|| "null".into()),
+                if a.stale { " (stale)" } else { "" }
             );
         }
         html.push_str("</table>");
-        let g = &detail["growth"];
+        let g = &sheet.growth;
         let _ = write!(
             html,
             "<p>Growth: {}; rate {} nm/min.</p>",
-            esc(g["regime"].as_str().unwrap_or("")),
-            n(g["growth_rate_nm_per_min"].as_f64(), 3)
+            esc(&g.regime),
+            n(finite(g.growth_rate_nm_per_min), 3)
         );
         let svg = plot::plot_batch_svg(tx, batch.id)?;
         let _ = write!(html, "<div class=\"plot\">{svg}</div>");
         html.push_str("<h3>Storage</h3><ul>");
-        let product = detail["product"].clone();
-        for v in model::vials_of_batch(tx, batch.id)? {
+        let product_nm = finite(sheet.product.as_ref().and_then(|p| p.diameter_nm));
+        for v in &sheet.vials {
             let _ = write!(
                 html,
                 "<li>vial {} {}: {:.3} mL at {} ({}, owner {})</li>",
@@ -297,12 +294,8 @@ fn write_pack(
                 esc(&v.owner.clone().unwrap_or_default())
             );
             if vial_ids.contains(&v.id) {
-                let hazards: Vec<String> = match batch.recipe_version_id {
-                    Some(r) => model::recipe_view(tx, r)?
-                        .reagents
-                        .iter()
-                        .flat_map(|g| g.ghs_hazards.clone())
-                        .collect(),
+                let hazards: Vec<String> = match &sheet.recipe_detail {
+                    Some(r) => r.reagents.iter().flat_map(|g| g.ghs_hazards.clone()).collect(),
                     None => vec![],
                 };
                 let pict = crate::hazards::pictograms(hazards.iter().map(String::as_str));
@@ -313,12 +306,12 @@ fn write_pack(
                     esc(&v.label),
                     batch.id,
                     esc(&batch.material),
-                    n(product["diameter_nm"].as_f64(), 1),
+                    n(product_nm, 1),
                     v.concentration_molar
                         .map(|c| format!(
                             "{:.1} µM {}{}",
                             c * 1e6,
-                            super::concentration_note(&v),
+                            super::concentration_note(v),
                             v.calibration_version.map(|c| format!(" v{c}")).unwrap_or_default()
                         ))
                         .unwrap_or("–".into()),

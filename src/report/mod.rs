@@ -1,6 +1,8 @@
 //! Views for people and other tools, built from the store: the shelf entry, `explain`'s chain,
 //! SVG plots of a growth series, exports and the handover pack. Read-only, except `handover`,
-//! which reassigns ownership in one transaction before it writes the pack.
+//! which reassigns ownership in one transaction (`store::handover`) before it writes the pack.
+//! The views are typed (`BatchSheet`, `ExplainChain`); `batch_detail` and `explain` give them as
+//! JSON values for the callers that still take one.
 
 mod export;
 mod handover;
@@ -14,8 +16,10 @@ pub use plot::{plot_batch_svg, plot_series_svg};
 
 use crate::derive::{calibration, engine, growth, sizing};
 use crate::error::Result;
+use crate::spectra::analysis::AnalysisSettings;
 use crate::store::{Db, model};
-use serde_json::{Value, json};
+use serde::Serialize;
+use serde_json::Value;
 
 /// Below this volume a vial counts as low on stock (common practice of our invented lab; a
 /// setting a lab may want to change).
@@ -101,89 +105,187 @@ pub fn product_concentration(conn: &Db, batch_id: i64) -> Result<Option<f64>> {
 
 pub use crate::par::parallel_map;
 
+/// Each derived value of an aliquot with where it came from, as `explain --json` prints it:
+/// the aliquot, its calibration, its spectra, the chain of current values and the superseded
+/// history.
+#[derive(Debug, Clone, Serialize)]
+pub struct ExplainChain {
+    pub aliquot_id: i64,
+    pub batch_id: i64,
+    pub material: String,
+    pub core: String,
+    pub minutes: Option<f64>,
+    pub stage: Option<String>,
+    pub dilution_factor: f64,
+    pub path_cm: f64,
+    pub solvent: String,
+    /// The newest calibration version among the current values (None before any is derived).
+    pub calibration_version: Option<i64>,
+    pub pinned_calibration: Option<i64>,
+    pub calibration: Option<ExplainCalibration>,
+    pub spectra: Vec<ExplainSpectrum>,
+    /// The current values, in the order one follows from another.
+    pub chain: Vec<ExplainStep>,
+    pub history: Vec<engine::StoredValue>,
+}
+
+/// The parts of the calibration behind an aliquot's values that apply to its batch's core.
+#[derive(Debug, Clone, Serialize)]
+pub struct ExplainCalibration {
+    pub version: i64,
+    pub why: String,
+    pub created_by: String,
+    pub created_at: String,
+    /// The sizing curve id for the batch's core.
+    pub curve: Option<String>,
+    /// The extinction model id for the batch's core.
+    pub extinction: Option<String>,
+    pub qy_reference: Option<calibration::QyReference>,
+    pub analysis: AnalysisSettings,
+}
+
+/// A spectrum of the aliquot, without its data.
+#[derive(Debug, Clone, Serialize)]
+pub struct ExplainSpectrum {
+    pub id: i64,
+    pub kind: String,
+    pub file_name: String,
+    pub sha256: String,
+    pub npoints: i64,
+    pub x_unit: String,
+    pub excitation_nm: Option<f64>,
+    /// The spectrum's own cuvette (a PL measurement's), None when it is the aliquot's.
+    pub path_cm: Option<f64>,
+    pub dilution_factor: Option<f64>,
+}
+
+/// One current value of the chain; a diameter or band edge also names its sizing curve.
+#[derive(Debug, Clone, Serialize)]
+pub struct ExplainStep {
+    #[serde(flatten)]
+    pub value: engine::StoredValue,
+    /// Present only for a value whose method is a sizing curve's id.
+    #[serde(flatten)]
+    pub curve: Option<CurveNote>,
+}
+
+/// A sizing curve as a step of the chain names it.
+#[derive(Debug, Clone, Serialize)]
+pub struct CurveNote {
+    pub curve: &'static str,
+    pub source: &'static str,
+    pub valid_range_nm: [f64; 2],
+}
+
+/// The order of the chain: each value after those it is computed from.
+const CHAIN_ORDER: &[&str] = &[
+    "first_exciton_nm",
+    "first_exciton_as_read_nm",
+    "hwhm_as_read_nm",
+    "shoulder_as_read",
+    "series_expected_lo_nm",
+    "series_expected_hi_nm",
+    "first_exciton_abs",
+    "shoulder",
+    "hwhm_nm",
+    "hwhm_mev",
+    "abs_400nm",
+    "abs_400nm_corrected",
+    "abs_350nm_corrected",
+    "abs_at_excitation_measured",
+    "abs_at_excitation",
+    "abs_at_excitation_sd",
+    "abs_at_excitation_pl",
+    "abs_at_pl_band",
+    "core_diameter_nm",
+    "diameter_nm",
+    "edge_nm",
+    "size_dispersion_pct",
+    "extinction_m1cm1",
+    "concentration_molar",
+    "pl_peak_nm",
+    "pl_fwhm_nm",
+    "pl_fwhm_mev",
+    "pl_integral",
+    "stokes_shift_mev",
+    "qy",
+];
+
 /// Each derived value of an aliquot with where it came from: spectrum, peak, curve and its
 /// version and source, diameter, extinction, concentration; and the superseded history.
-pub fn explain(conn: &Db, aliquot_id: i64) -> Result<Value> {
-    let a = model::get_aliquot(conn, aliquot_id)?;
-    let b = model::get_batch(conn, a.batch_id)?;
-    let spectra = model::spectra_of_aliquot(conn, aliquot_id)?;
-    let values = engine::current_values(conn, aliquot_id)?;
-    let history = engine::value_history(conn, aliquot_id)?;
+pub fn explain_chain(db: &Db, aliquot_id: i64) -> Result<ExplainChain> {
+    let a = model::get_aliquot(db, aliquot_id)?;
+    let b = model::get_batch(db, a.batch_id)?;
+    let spectra = model::spectra_of_aliquot(db, aliquot_id)?;
+    let values = engine::current_values(db, aliquot_id)?;
+    let history = engine::value_history(db, aliquot_id)?;
     let version = values.iter().map(|v| v.calibration_version).max();
     let cal = match version {
-        Some(v) => Some(calibration::get(conn, v)?),
+        Some(v) => Some(calibration::get(db, v)?),
         None => None,
     };
-    let order = [
-        "first_exciton_nm",
-        "first_exciton_as_read_nm",
-        "hwhm_as_read_nm",
-        "shoulder_as_read",
-        "series_expected_lo_nm",
-        "series_expected_hi_nm",
-        "first_exciton_abs",
-        "shoulder",
-        "hwhm_nm",
-        "hwhm_mev",
-        "abs_400nm",
-        "abs_400nm_corrected",
-        "abs_350nm_corrected",
-        "abs_at_excitation_measured",
-        "abs_at_excitation",
-        "abs_at_excitation_sd",
-        "abs_at_excitation_pl",
-        "abs_at_pl_band",
-        "core_diameter_nm",
-        "diameter_nm",
-        "edge_nm",
-        "size_dispersion_pct",
-        "extinction_m1cm1",
-        "concentration_molar",
-        "pl_peak_nm",
-        "pl_fwhm_nm",
-        "pl_fwhm_mev",
-        "pl_integral",
-        "stokes_shift_mev",
-        "qy",
-    ];
     let mut chain = Vec::new();
-    for q in order {
-        if let Some(v) = values.iter().find(|v| v.quantity == q) {
-            let mut step = serde_json::to_value(v)?;
-            if (q == "diameter_nm" || q == "edge_nm")
-                && let Ok(c) = sizing::Curve::parse(&v.method)
-            {
-                step["curve"] = json!(c.id());
-                step["source"] = json!(c.source());
-                step["valid_range_nm"] = json!(c.valid_range_nm(&b.core));
-            }
-            chain.push(step);
+    for q in CHAIN_ORDER {
+        if let Some(v) = values.iter().find(|v| v.quantity == *q) {
+            let curve = if *q == "diameter_nm" || *q == "edge_nm" {
+                sizing::Curve::parse(&v.method).ok().map(|c| CurveNote {
+                    curve: c.id(),
+                    source: c.source(),
+                    valid_range_nm: c.valid_range_nm(&b.core),
+                })
+            } else {
+                None
+            };
+            chain.push(ExplainStep {
+                value: v.clone(),
+                curve,
+            });
         }
     }
-    Ok(json!({
-        "aliquot_id": a.id,
-        "batch_id": b.id,
-        "material": b.material,
-        "core": b.core,
-        "minutes": a.minutes,
-        "stage": a.stage,
-        "dilution_factor": a.dilution_factor,
-        "path_cm": a.path_cm,
-        "solvent": a.solvent,
-        "calibration_version": version,
-        "pinned_calibration": b.pinned_calibration,
-        "calibration": cal.map(|c| json!({
-            "version": c.version, "why": c.why, "created_by": c.created_by, "created_at": c.created_at,
-            "curve": c.body.curves.get(&b.core), "extinction": c.body.extinction.get(&b.core),
-            "qy_reference": c.body.qy_reference, "analysis": c.body.analysis,
-        })),
-        "spectra": spectra.iter().map(|s| json!({"id": s.id, "kind": s.kind, "file_name": s.file_name, "sha256": s.sha256,
-            "npoints": s.npoints, "x_unit": s.x_unit, "excitation_nm": s.excitation_nm,
-            // The spectrum's own cuvette (a PL measurement's), null when it is the aliquot's.
-            "path_cm": s.path_cm, "dilution_factor": s.dilution_factor})).collect::<Vec<_>>(),
-        "chain": chain,
-        "history": history,
-    }))
+    Ok(ExplainChain {
+        aliquot_id: a.id,
+        batch_id: b.id,
+        calibration: cal.map(|c| ExplainCalibration {
+            curve: c.body.curves.get(&b.core).cloned(),
+            extinction: c.body.extinction.get(&b.core).cloned(),
+            version: c.version,
+            why: c.why,
+            created_by: c.created_by,
+            created_at: c.created_at,
+            qy_reference: c.body.qy_reference,
+            analysis: c.body.analysis,
+        }),
+        material: b.material,
+        core: b.core,
+        minutes: a.minutes,
+        stage: a.stage,
+        dilution_factor: a.dilution_factor,
+        path_cm: a.path_cm,
+        solvent: a.solvent,
+        calibration_version: version,
+        pinned_calibration: b.pinned_calibration,
+        spectra: spectra
+            .into_iter()
+            .map(|s| ExplainSpectrum {
+                id: s.id,
+                kind: s.kind,
+                file_name: s.file_name,
+                sha256: s.sha256,
+                npoints: s.npoints,
+                x_unit: s.x_unit,
+                excitation_nm: s.excitation_nm,
+                path_cm: s.path_cm,
+                dilution_factor: s.dilution_factor,
+            })
+            .collect(),
+        chain,
+        history,
+    })
+}
+
+/// [`explain_chain`] as JSON, for the callers that still take a `Value`.
+pub fn explain(db: &Db, aliquot_id: i64) -> Result<Value> {
+    Ok(serde_json::to_value(explain_chain(db, aliquot_id)?)?)
 }
 
 /// Minutes of a growth series for people: to 0.01 min, no trailing zeros (2, 2.5, 1.55), never
@@ -220,46 +322,136 @@ pub fn cautions(r: &model::RecipeView) -> Vec<String> {
     out
 }
 
-/// The full record of a batch as `batch show --json` prints it.
-pub fn batch_detail(tx: &Db, id: i64) -> crate::Result<Value> {
-    let b = model::get_batch(tx, id)?;
-    // The whole record, voided aliquots marked; growth and product leave them out.
-    let series: Vec<growth::AliquotSummary> = model::all_aliquots_of(tx, id)?
+/// The full record of a batch as `batch show --json` prints it: the batch's own fields, then
+/// its aliquots (voided ones marked), growth, product, vials and the rest.
+#[derive(Debug, Clone, Serialize)]
+pub struct BatchSheet {
+    #[serde(flatten)]
+    pub batch: model::BatchRow,
+    /// The whole record, voided aliquots marked; growth and product leave them out.
+    pub aliquots: Vec<growth::AliquotSummary>,
+    pub growth: growth::Growth,
+    pub product: Option<growth::AliquotSummary>,
+    pub vials: Vec<model::VialRow>,
+    /// mL left in the vials that are not disposed.
+    pub stock_ml: f64,
+    /// The batches made from this one (shells, purifications).
+    pub children: Vec<ChildBatch>,
+    pub cautions: Vec<String>,
+    pub recipe_detail: Option<model::RecipeView>,
+    /// Crystals × formula units against the limiting precursor; a reason in its `warnings`
+    /// when it cannot be had (no recipe, no sized product, a shell growth).
+    pub reaction_yield: engine::ReactionYieldView,
+}
+
+/// A batch made from another, as its parent's sheet lists it.
+#[derive(Debug, Clone, Serialize)]
+pub struct ChildBatch {
+    pub id: i64,
+    pub name: String,
+    pub relation: Option<String>,
+}
+
+/// The full record of a batch.
+pub fn batch_sheet(db: &Db, id: i64) -> Result<BatchSheet> {
+    let b = model::get_batch(db, id)?;
+    let aliquots: Vec<growth::AliquotSummary> = model::all_aliquots_of(db, id)?
         .iter()
-        .map(|a| growth::aliquot_summary(tx, a))
-        .collect::<crate::Result<_>>()?;
-    let g = growth::growth(&series);
-    let product = growth::product_of(&b, &series).cloned();
-    let vials = model::vials_of_batch(tx, id)?;
-    let recipe = match b.recipe_version_id {
-        Some(v) => Some(model::recipe_view(tx, v)?),
+        .map(|a| growth::aliquot_summary(db, a))
+        .collect::<Result<_>>()?;
+    let g = growth::growth(&aliquots);
+    let product = growth::product_of(&b, &aliquots).cloned();
+    let vials = model::vials_of_batch(db, id)?;
+    let recipe_detail = match b.recipe_version_id {
+        Some(v) => Some(model::recipe_view(db, v)?),
         None => None,
     };
-    let mut v = serde_json::to_value(&b)?;
-    v["aliquots"] = serde_json::to_value(&series)?;
-    v["growth"] = serde_json::to_value(&g)?;
-    v["product"] = serde_json::to_value(&product)?;
-    v["vials"] = serde_json::to_value(&vials)?;
-    v["stock_ml"] = json!(
-        vials
-            .iter()
-            .filter(|x| x.status != "disposed")
-            .map(|x| x.volume_ml)
-            .sum::<f64>()
-    );
-    v["children"] = json!(
-        model::children_of(tx, id)?
-            .into_iter()
-            .map(|(i, n, r)| json!({"id": i, "name": n, "relation": r}))
-            .collect::<Vec<_>>()
-    );
-    v["cautions"] = match &recipe {
-        Some(r) => json!(cautions(r)),
-        None => json!(crate::hazards::general_cautions(&b.core, false)),
+    let stock_ml = vials
+        .iter()
+        .filter(|x| x.status != "disposed")
+        .map(|x| x.volume_ml)
+        .sum::<f64>();
+    let children = model::children_of(db, id)?
+        .into_iter()
+        .map(|(id, name, relation)| ChildBatch { id, name, relation })
+        .collect();
+    let cautions = match &recipe_detail {
+        Some(r) => cautions(r),
+        None => crate::hazards::general_cautions(&b.core, false),
     };
-    v["recipe_detail"] = serde_json::to_value(&recipe)?;
-    // Crystals × formula units against the limiting precursor; a reason in `warnings` when
-    // it cannot be had (no recipe, no sized product, a shell growth).
-    v["reaction_yield"] = serde_json::to_value(engine::reaction_yield_of(tx, id)?)?;
-    Ok(v)
+    let reaction_yield = engine::reaction_yield_of(db, id)?;
+    Ok(BatchSheet {
+        batch: b,
+        aliquots,
+        growth: g,
+        product,
+        vials,
+        stock_ml,
+        children,
+        cautions,
+        recipe_detail,
+        reaction_yield,
+    })
+}
+
+/// [`batch_sheet`] as JSON, for the callers that still take a `Value`.
+pub fn batch_detail(db: &Db, id: i64) -> Result<Value> {
+    Ok(serde_json::to_value(batch_sheet(db, id)?)?)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::collections::BTreeSet;
+
+    fn keys(v: &Value) -> BTreeSet<String> {
+        v.as_object().map(|m| m.keys().cloned().collect()).unwrap_or_default()
+    }
+
+    /// A flattened row and the keys a view adds beside it must not share a name: a struct
+    /// printed as it is would then carry the key twice, and through a `Value` lose one.
+    #[test]
+    fn the_typed_views_add_no_key_their_rows_already_have() -> Result<()> {
+        let mut store = crate::store::Store::in_memory("tester")?;
+        crate::demo::build(&mut store, None, |_, _| {})?;
+        let shelled = model::list_batches(&store.conn)?
+            .into_iter()
+            .find(|b| b.parent_batch_id.is_some())
+            .ok_or_else(|| crate::error::Error::Invalid("the demo has a shelled batch".into()))?;
+        let sheet = batch_sheet(&store.conn, shelled.id)?;
+        let own = keys(&serde_json::to_value(&sheet.batch)?);
+        let all = keys(&serde_json::to_value(&sheet)?);
+        let added = [
+            "aliquots",
+            "growth",
+            "product",
+            "vials",
+            "stock_ml",
+            "children",
+            "cautions",
+            "recipe_detail",
+            "reaction_yield",
+        ];
+        assert!(added.iter().all(|k| !own.contains(*k)));
+        assert_eq!(all.len(), own.len() + added.len());
+        assert!(sheet.product.is_some(), "a shelled demo batch has a product aliquot");
+        let aliquot = sheet.aliquots.last().map(|a| a.id).unwrap_or_default();
+        let chain = explain_chain(&store.conn, aliquot)?;
+        let sized = chain
+            .chain
+            .iter()
+            .find(|s| s.value.quantity == "diameter_nm")
+            .ok_or_else(|| crate::error::Error::Invalid("the product is sized".into()))?;
+        let note = sized.curve.as_ref().map(|c| c.curve);
+        assert_eq!(note, sizing::Curve::parse(&sized.value.method).ok().map(|c| c.id()));
+        let step = keys(&serde_json::to_value(sized)?);
+        let value = keys(&serde_json::to_value(&sized.value)?);
+        assert!(
+            ["curve", "source", "valid_range_nm"]
+                .iter()
+                .all(|k| !value.contains(*k))
+        );
+        assert_eq!(step.len(), value.len() + 3);
+        Ok(())
+    }
 }
