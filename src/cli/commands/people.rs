@@ -1,0 +1,125 @@
+//! The lab's people, materials, reagents and storage locations: adding them and listing them.
+
+use super::open_for;
+use crate::cli::args::*;
+use crate::cli::output::{json, line};
+use crate::derive::sizing;
+use crate::store::model;
+use anyhow::Result;
+use serde_json::{Value, json};
+
+pub(super) fn person(cli: &Cli, c: &PersonCmd) -> Result<()> {
+    let mut store = open_for(cli, matches!(c, PersonCmd::Add { .. }))?;
+    match c {
+        PersonCmd::Add { name, email } => {
+            let id = store.write(|tx, who| model::add_person(tx, who, name, email.as_deref()))?;
+            line(&format!("person {id}: {name}"))?;
+        }
+        PersonCmd::List(f) => {
+            let people = store.read(|tx| model::list_people(tx))?;
+            if f.json {
+                json(&people)?;
+            } else {
+                for p in people {
+                    line(&format!("{:>4}  {}", p.id, p.name))?;
+                }
+            }
+        }
+    }
+    Ok(())
+}
+
+pub(super) fn material(cli: &Cli, c: &MaterialCmd) -> Result<()> {
+    let mut store = open_for(cli, matches!(c, MaterialCmd::Add { .. }))?;
+    match c {
+        MaterialCmd::Add { name, core, shell } => {
+            let id = store.write(|tx, who| model::add_material(tx, who, name, core, shell.as_deref()))?;
+            line(&format!("material {id}: {name}"))?;
+        }
+        MaterialCmd::List(f) => {
+            let ms = store.read(|tx| model::list_materials(tx))?;
+            if f.json {
+                let v: Vec<Value> = ms
+                    .iter()
+                    .map(|m| json!({"id": m.id, "name": m.name, "core": m.core, "shell": m.shell, "curves": sizing::curves_for(&m.core)}))
+                    .collect();
+                json(&v)?;
+            } else {
+                for m in ms {
+                    line(&format!(
+                        "{:>4}  {:<10} core {:<5} curves: {}",
+                        m.id,
+                        m.name,
+                        m.core,
+                        sizing::curves_for(&m.core).join(", ")
+                    ))?;
+                }
+            }
+        }
+    }
+    Ok(())
+}
+
+pub(super) fn reagent(cli: &Cli, c: &ReagentCmd) -> Result<()> {
+    let mut store = open_for(cli, matches!(c, ReagentCmd::Add { .. }))?;
+    match c {
+        ReagentCmd::Add {
+            name,
+            formula,
+            cas,
+            hazards,
+            pyrophoric,
+        } => {
+            let hz: Vec<String> = hazards.iter().map(|h| h.to_ascii_uppercase()).collect();
+            let id = store.write(|tx, who| {
+                model::add_reagent(tx, who, name, formula.as_deref(), cas.as_deref(), &hz, *pyrophoric)
+            })?;
+            line(&format!("reagent {id}: {name}"))?;
+        }
+        ReagentCmd::List(f) => {
+            let rs = store.read(|tx| model::list_reagents(tx))?;
+            if f.json {
+                json(&rs)?;
+            } else {
+                for r in rs {
+                    line(&format!(
+                        "{:>4}  {:<32} {}{}",
+                        r.id,
+                        r.name,
+                        r.ghs_hazards.join(" "),
+                        if r.pyrophoric { "  PYROPHORIC" } else { "" }
+                    ))?;
+                }
+                line(crate::hazards::SDS_NOTICE)?;
+            }
+        }
+    }
+    Ok(())
+}
+
+pub(super) fn location(cli: &Cli, c: &LocationCmd) -> Result<()> {
+    let mut store = open_for(cli, matches!(c, LocationCmd::Add { .. }))?;
+    match c {
+        LocationCmd::Add { name, kind, position } => {
+            let id = store.write(|tx, who| model::add_location(tx, who, name, kind, position.as_deref()))?;
+            line(&format!("location {id}: {name}"))?;
+        }
+        LocationCmd::List(f) => {
+            let ls = store.read(|tx| model::list_locations(tx))?;
+            if f.json {
+                json(&ls)?;
+            } else {
+                for l in ls {
+                    line(&format!(
+                        "{:>4}  {:<24} {:<9} {}",
+                        l.id,
+                        l.name,
+                        l.kind,
+                        l.position.unwrap_or_default()
+                    ))?;
+                }
+            }
+        }
+    }
+    Ok(())
+}
