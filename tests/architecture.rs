@@ -88,12 +88,18 @@ fn sql_is_spoken_only_in_the_store() {
         .iter()
         .filter(|p| !SQL_OUTSIDE_STORE_YET.contains(p))
         .collect();
-    assert!(new.is_empty(), "SQL outside src/store/ in {new:?}: move it into a store function");
+    assert!(
+        new.is_empty(),
+        "SQL outside src/store/ in {new:?}: move it into a store function"
+    );
     let cleared: Vec<&&str> = SQL_OUTSIDE_STORE_YET
         .iter()
         .filter(|p| !offenders.contains(p))
         .collect();
-    assert!(cleared.is_empty(), "{cleared:?} no longer run SQL: take them off the list");
+    assert!(
+        cleared.is_empty(),
+        "{cleared:?} no longer run SQL: take them off the list"
+    );
 }
 
 #[test]
@@ -113,7 +119,10 @@ fn the_store_imports_no_higher_layer() {
         .iter()
         .filter(|p| !offenders.contains(p))
         .collect();
-    assert!(cleared.is_empty(), "{cleared:?} import no higher layer now: take them off the list");
+    assert!(
+        cleared.is_empty(),
+        "{cleared:?} import no higher layer now: take them off the list"
+    );
 }
 
 #[test]
