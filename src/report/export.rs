@@ -8,6 +8,7 @@ use crate::derive::engine;
 use crate::error::{Error, Result};
 use crate::safe_text::{csv_number, csv_text};
 use crate::store::{Db, model};
+use serde::Serialize;
 use std::io::Write as _;
 use std::path::{Path, PathBuf};
 
@@ -55,91 +56,112 @@ pub fn export(conn: &Db, as_json: bool, out: Option<&Path>, force: bool) -> Resu
         f.sync_all()?;
         return Ok(written);
     }
-    let mut w = csv::Writer::from_writer(next()?);
-    w.write_record([
-        "id",
-        "name",
-        "material",
-        "recipe",
-        "recipe_version",
-        "operator",
-        "started_at",
-        "status",
-        "parent_batch_id",
-        "parent_relation",
-        "notes",
-    ])
-    .map_err(csv_err)?;
-    for b in &batches {
-        w.write_record([
-            b.id.to_string(),
-            text(&b.name),
-            text(&b.material),
-            text(b.recipe.as_deref().unwrap_or_default()),
-            b.recipe_version.map(|v| v.to_string()).unwrap_or_default(),
-            text(b.operator.as_deref().unwrap_or_default()),
-            text(&b.started_at),
-            text(&b.status),
-            b.parent_batch_id.map(|v| v.to_string()).unwrap_or_default(),
-            text(b.parent_relation.as_deref().unwrap_or_default()),
-            text(&b.notes),
-        ])
-        .map_err(csv_err)?;
-    }
-    w.flush()?;
-    let mut w = csv::Writer::from_writer(next()?);
-    w.write_record([
-        "id",
-        "batch_id",
-        "minutes",
-        "stage",
-        "dilution_factor",
-        "path_cm",
-        "solvent",
-        "taken_at",
-    ])
-    .map_err(csv_err)?;
-    for a in &aliquots {
-        w.write_record([
-            a.id.to_string(),
-            a.batch_id.to_string(),
-            a.minutes.map(csv_number).unwrap_or_default(),
-            text(a.stage.as_deref().unwrap_or_default()),
-            csv_number(a.dilution_factor),
-            csv_number(a.path_cm),
-            text(&a.solvent),
-            text(&a.taken_at),
-        ])
-        .map_err(csv_err)?;
-    }
-    w.flush()?;
-    let mut w = csv::Writer::from_writer(next()?);
-    w.write_record([
-        "aliquot_id",
-        "quantity",
-        "value",
-        "unit",
-        "method",
-        "calibration_version",
-        "inputs_hash",
-        "stale",
-        "computed_at",
-    ])
-    .map_err(csv_err)?;
-    for v in &values {
-        w.write_record([
-            v.aliquot_id.to_string(),
-            text(&v.quantity),
-            v.value.map(csv_number).unwrap_or_default(),
-            text(&v.unit),
-            text(&v.method),
-            v.calibration_version.to_string(),
-            text(&v.inputs_hash),
-            v.stale.to_string(),
-            text(&v.computed_at),
-        ])
-        .map_err(csv_err)?;
-    }
-    w.flush()?;
+    write_rows(next()?, batches.iter().map(BatchCsv::from))?;
+    write_rows(next()?, aliquots.iter().map(AliquotCsv::from))?;
+    write_rows(next()?, values.iter().map(ValueCsv::from))?;
     Ok(written)
+}
+
+/// Writes rows through the CSV writer; the header is the row type's field names.
+fn write_rows<R: Serialize>(file: std::fs::File, rows: impl Iterator<Item = R>) -> Result<()> {
+    let mut w = csv::Writer::from_writer(file);
+    for r in rows {
+        w.serialize(r).map_err(csv_err)?;
+    }
+    w.flush()?;
+    Ok(())
+}
+
+/// A line of `batches.csv`. Text and numbers are already cells (see [`text`] and
+/// [`csv_number`]): the spreadsheet-formula guard and the numbers' own formatting are the
+/// export's, not the CSV writer's.
+#[derive(Serialize)]
+struct BatchCsv {
+    id: i64,
+    name: String,
+    material: String,
+    recipe: String,
+    recipe_version: Option<i64>,
+    operator: String,
+    started_at: String,
+    status: String,
+    parent_batch_id: Option<i64>,
+    parent_relation: String,
+    notes: String,
+}
+
+impl From<&model::BatchRow> for BatchCsv {
+    fn from(b: &model::BatchRow) -> Self {
+        BatchCsv {
+            id: b.id,
+            name: text(&b.name),
+            material: text(&b.material),
+            recipe: text(b.recipe.as_deref().unwrap_or_default()),
+            recipe_version: b.recipe_version,
+            operator: text(b.operator.as_deref().unwrap_or_default()),
+            started_at: text(&b.started_at),
+            status: text(&b.status),
+            parent_batch_id: b.parent_batch_id,
+            parent_relation: text(b.parent_relation.as_deref().unwrap_or_default()),
+            notes: text(&b.notes),
+        }
+    }
+}
+
+/// A line of `aliquots.csv`.
+#[derive(Serialize)]
+struct AliquotCsv {
+    id: i64,
+    batch_id: i64,
+    minutes: String,
+    stage: String,
+    dilution_factor: String,
+    path_cm: String,
+    solvent: String,
+    taken_at: String,
+}
+
+impl From<&model::AliquotRow> for AliquotCsv {
+    fn from(a: &model::AliquotRow) -> Self {
+        AliquotCsv {
+            id: a.id,
+            batch_id: a.batch_id,
+            minutes: a.minutes.map(csv_number).unwrap_or_default(),
+            stage: text(a.stage.as_deref().unwrap_or_default()),
+            dilution_factor: csv_number(a.dilution_factor),
+            path_cm: csv_number(a.path_cm),
+            solvent: text(&a.solvent),
+            taken_at: text(&a.taken_at),
+        }
+    }
+}
+
+/// A line of `derived_values.csv` (long format: one value per line).
+#[derive(Serialize)]
+struct ValueCsv {
+    aliquot_id: i64,
+    quantity: String,
+    value: String,
+    unit: String,
+    method: String,
+    calibration_version: i64,
+    inputs_hash: String,
+    stale: bool,
+    computed_at: String,
+}
+
+impl From<&engine::StoredValue> for ValueCsv {
+    fn from(v: &engine::StoredValue) -> Self {
+        ValueCsv {
+            aliquot_id: v.aliquot_id,
+            quantity: text(&v.quantity),
+            value: v.value.map(csv_number).unwrap_or_default(),
+            unit: text(&v.unit),
+            method: text(&v.method),
+            calibration_version: v.calibration_version,
+            inputs_hash: text(&v.inputs_hash),
+            stale: v.stale,
+            computed_at: text(&v.computed_at),
+        }
+    }
 }

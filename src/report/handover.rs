@@ -13,8 +13,8 @@ use crate::error::{Error, Result, invalid};
 use crate::safe_text::{csv_number, csv_text};
 use crate::store::handover::hand_over;
 use crate::store::{Db, Store, model, now};
+use maud::{DOCTYPE, PreEscaped, html};
 use serde::Serialize;
-use std::fmt::Write as _;
 use std::path::Path;
 
 #[derive(Debug, Clone, Serialize)]
@@ -100,6 +100,39 @@ pub fn handover(
     }
 }
 
+/// The pack's own style sheet: a constant of ours, the one stylesheet the page carries.
+const PACK_CSS: &str = "body{font-family:sans-serif;margin:2em;max-width:1250px} table{border-collapse:collapse;margin:0.5em 0}\
+ td,th{border:1px solid #999;padding:3px 7px;font-size:0.9em} th{background:#eee} .caution{background:#fff4d6;border:1px solid #c90;padding:0.6em}\
+ .labels{display:grid;grid-template-columns:repeat(3,1fr);gap:6px} .label{border:1px dashed #333;padding:6px;font-size:0.8em}\
+ @media print{.noprint{display:none} section{page-break-inside:avoid}}";
+
+/// Stored text as the page shows it. The template escapes every string it is given; text
+/// from the record goes in through this instead, which also makes the controls HTML and XML
+/// must not carry visible ([`crate::safe_text::markup`]), so the pack is well-formed whatever
+/// a name holds.
+struct Shown<'a>(&'a str);
+
+impl maud::Render for Shown<'_> {
+    fn render_to(&self, buffer: &mut String) {
+        buffer.push_str(&esc(self.0));
+    }
+}
+
+/// A vial's concentration as the pack prints it: µM with the note of where it came from and
+/// its calibration version (written out in the table, short on a label), or a dash.
+fn concentration_text(v: &model::VialRow, on_label: bool) -> String {
+    let Some(c) = v.concentration_molar else {
+        return "–".into();
+    };
+    let version = match (v.calibration_version, on_label) {
+        (Some(k), true) => format!(" v{k}"),
+        (Some(k), false) => format!(" (cal. v{k})"),
+        (None, _) => String::new(),
+    };
+    let decimals = if on_label { 1 } else { 2 };
+    format!("{:.decimals$} µM {}{version}", c * 1e6, super::concentration_note(v))
+}
+
 fn write_pack(
     tx: &Db,
     dir: &Path,
@@ -113,256 +146,257 @@ fn write_pack(
         .iter()
         .map(|id| model::get_vial(tx, *id))
         .collect::<Result<_>>()?;
-    let mut html = String::new();
-    let _ = write!(
-        html,
-        "<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\"><title>Handover from {f} to {t}</title><style>\
-         body{{font-family:sans-serif;margin:2em;max-width:1250px}} table{{border-collapse:collapse;margin:0.5em 0}}\
-         td,th{{border:1px solid #999;padding:3px 7px;font-size:0.9em}} th{{background:#eee}} .caution{{background:#fff4d6;border:1px solid #c90;padding:0.6em}}\
-         .labels{{display:grid;grid-template-columns:repeat(3,1fr);gap:6px}} .label{{border:1px dashed #333;padding:6px;font-size:0.8em}}\
-         @media print{{.noprint{{display:none}} section{{page-break-inside:avoid}}}}</style></head><body>\
-         <h1>Handover from {f} to {t}</h1><p>Written {now} by cuvette.</p>\
-         <p class=\"caution\">{sds}</p>",
-        f = esc(from),
-        t = esc(to),
-        now = now(),
-        sds = esc(crate::hazards::SDS_NOTICE)
-    );
-    html.push_str("<h2 id=\"vials\">Vials by location</h2>");
-    let mut loc = String::new();
+    // Vials grouped by location in the order the store gives them (by location).
+    let mut by_location: Vec<(&str, Vec<&model::VialRow>)> = Vec::new();
     for v in &vials {
-        if v.location != loc {
-            if !loc.is_empty() {
-                html.push_str("</table>");
-            }
-            loc = v.location.clone();
-            let _ = write!(
-                html,
-                "<h3>{}</h3><table><tr><th>vial</th><th>label</th><th>batch</th><th>material</th><th>mL left</th><th>conc.</th><th>nmol left</th><th>solvent</th><th>position</th></tr>",
-                esc(&loc)
-            );
+        match by_location.last_mut() {
+            Some((loc, group)) if *loc == v.location => group.push(v),
+            _ => by_location.push((&v.location, vec![v])),
         }
-        let e = shelf_entry(v);
-        let _ = write!(
-            html,
-            "<tr class=\"vial\" data-vial-id=\"{}\"><td>{}</td><td>{}</td><td><a href=\"#batch-{}\">{}</a></td><td>{}</td><td>{:.3}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
-            v.id,
-            v.id,
-            esc(&v.label),
-            v.batch_id,
-            v.batch_id,
-            esc(&v.material),
-            v.volume_ml,
-            v.concentration_molar
-                .map(|c| format!(
-                    "{:.2} µM {}{}",
-                    c * 1e6,
-                    super::concentration_note(v),
-                    v.calibration_version
-                        .map(|c| format!(" (cal. v{c})"))
-                        .unwrap_or_default()
-                ))
-                .unwrap_or("–".into()),
-            n(e.nanomoles_left, 2),
-            esc(&v.solvent),
-            esc(&v.position.clone().unwrap_or_default())
-        );
     }
-    if !loc.is_empty() {
-        html.push_str("</table>");
-    }
-    if vials.is_empty() {
-        html.push_str("<p>No vials.</p>");
-    }
-    let mut labels = String::from("<h2 id=\"labels\">Vial labels</h2><div class=\"labels\">");
+    let mut sections = Vec::with_capacity(batch_ids.len());
+    let mut labels = Vec::new();
     for (done, b) in batch_ids.iter().enumerate() {
         progress(done, batch_ids.len());
         let sheet = super::batch_sheet(tx, *b)?;
-        let batch = &sheet.batch;
-        let _ = write!(
-            html,
-            "<section class=\"batch\" id=\"batch-{id}\" data-batch-id=\"{id}\"><h2>Batch {id}: {name}</h2><p>{mat}, {status}, started {start} by {op}{parent}</p>",
-            id = batch.id,
-            name = esc(&batch.name),
-            mat = esc(&batch.material),
-            status = esc(&batch.status),
-            start = esc(&batch.started_at),
-            op = esc(batch.operator.as_deref().unwrap_or("")),
-            parent = batch
-                .parent_batch_id
-                .map(|p| format!(
-                    ", made from batch {p} ({})",
-                    esc(batch.parent_relation.as_deref().unwrap_or_default())
-                ))
-                .unwrap_or_default()
-        );
-        if batch.voided {
-            let _ = write!(
-                html,
-                "<p class=\"caution\"><b>VOID</b>: {} (kept in the record; its values count for nothing)</p>",
-                esc(batch.void_why.as_deref().unwrap_or(""))
-            );
-        }
-        if !batch.notes.is_empty() {
-            let _ = write!(html, "<p>Notes: {}</p>", esc(&batch.notes));
-        }
-        if let Some(view) = &sheet.recipe_detail {
-            let _ = write!(
-                html,
-                "<h3>Recipe {} v{}</h3><table><tr><th>reagent</th><th>amount</th><th>role</th><th>GHS hazards</th></tr>",
-                esc(&view.name),
-                view.version
-            );
-            for g in &view.reagents {
-                let _ = write!(
-                    html,
-                    "<tr><td>{}</td><td>{} {}</td><td>{}</td><td>{}</td></tr>",
-                    esc(&g.reagent),
-                    g.amount,
-                    esc(&g.unit),
-                    esc(&g.role.clone().unwrap_or_default()),
-                    esc(&g
-                        .ghs_hazards
-                        .iter()
-                        .map(|h| format!("{h} {}", crate::hazards::statement(h).unwrap_or("")))
-                        .collect::<Vec<_>>()
-                        .join("; "))
-                );
-            }
-            html.push_str("</table><ol>");
-            for s in &view.steps {
-                let _ = write!(
-                    html,
-                    "<li>{}{}{}</li>",
-                    esc(&s.action),
-                    s.temperature_c.map(|t| format!(" at {t} °C")).unwrap_or_default(),
-                    s.duration_min.map(|m| format!(" for {m} min")).unwrap_or_default()
-                );
-            }
-            html.push_str("</ol>");
-        }
-        html.push_str("<div class=\"caution\"><b>Cautions</b><ul>");
-        for c in &sheet.cautions {
-            let _ = write!(html, "<li>{}</li>", esc(c));
-        }
-        html.push_str("</ul></div><h3>Growth series</h3><table><tr><th>aliquot</th><th>min / stage</th><th>first exciton (nm)</th><th>D (nm)</th><th>σ/D (%)</th><th>conc. (µM)</th><th>PL (nm)</th><th>FWHM (nm)</th><th>QY</th><th>curve</th><th>calibration</th></tr>");
-        // Void aliquots stay in the lab's record but not in what a new student works from.
-        for a in sheet.aliquots.iter().filter(|a| !a.voided) {
-            let _ = write!(
-                html,
-                "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>v{}{}</td></tr>",
-                a.id,
-                finite(a.minutes)
-                    .map(|m| m.to_string())
-                    .unwrap_or_else(|| esc(a.stage.as_deref().unwrap_or(""))),
-                n(finite(a.first_exciton_nm), 1),
-                n(finite(a.diameter_nm), 2),
-                n(finite(a.size_dispersion_pct), 1),
-                n(finite(a.concentration_molar).map(|c| c * 1e6), 2),
-                n(finite(a.pl_peak_nm), 1),
-                n(finite(a.pl_fwhm_nm), 1),
-                n(finite(a.qy), 2),
-                esc(a.curve.as_deref().unwrap_or("–")),
-                // As the JSON view printed it, so the pack reads as it always has.
-                a.calibration_version
-                    .map(|v| v.to_string())
-                    .unwrap_or_else(|| "null".into()),
-                if a.stale { " (stale)" } else { "" }
-            );
-        }
-        html.push_str("</table>");
-        let g = &sheet.growth;
-        let _ = write!(
-            html,
-            "<p>Growth: {}; rate {} nm/min.</p>",
-            esc(&g.regime),
-            n(finite(g.growth_rate_nm_per_min), 3)
-        );
-        let svg = plot::plot_batch_svg(tx, batch.id)?;
-        let _ = write!(html, "<div class=\"plot\">{svg}</div>");
-        html.push_str("<h3>Storage</h3><ul>");
-        let product_nm = finite(sheet.product.as_ref().and_then(|p| p.diameter_nm));
-        for v in &sheet.vials {
-            let _ = write!(
-                html,
-                "<li>vial {} {}: {:.3} mL at {} ({}, owner {})</li>",
-                v.id,
-                esc(&v.label),
-                v.volume_ml,
-                esc(&v.location),
-                esc(&v.status),
-                esc(&v.owner.clone().unwrap_or_default())
-            );
-            if vial_ids.contains(&v.id) {
-                let hazards: Vec<String> = match &sheet.recipe_detail {
-                    Some(r) => r.reagents.iter().flat_map(|g| g.ghs_hazards.clone()).collect(),
-                    None => vec![],
-                };
-                let pict = crate::hazards::pictograms(hazards.iter().map(String::as_str));
-                let _ = write!(
-                    labels,
-                    "<div class=\"label\" data-vial-id=\"{}\"><b>{}</b><br>batch {} · {}<br>D {} nm · {}<br>{} · {}<br>{}</div>",
-                    v.id,
-                    esc(&v.label),
-                    batch.id,
-                    esc(&batch.material),
-                    n(product_nm, 1),
-                    v.concentration_molar
-                        .map(|c| format!(
-                            "{:.1} µM {}{}",
-                            c * 1e6,
-                            super::concentration_note(v),
-                            v.calibration_version.map(|c| format!(" v{c}")).unwrap_or_default()
-                        ))
-                        .unwrap_or("–".into()),
-                    esc(v.created_at.get(..10).unwrap_or("")),
-                    esc(to),
-                    esc(&if pict.is_empty() {
-                        "no GHS pictogram".to_string()
-                    } else {
-                        pict.join(", ")
-                    })
-                );
-            }
-        }
-        html.push_str("</ul></section>");
+        let svg = plot::plot_batch_svg(tx, sheet.batch.id)?;
+        sections.push(batch_section(&sheet, &svg, vial_ids, to, &mut labels));
     }
     progress(batch_ids.len(), batch_ids.len());
-    labels.push_str("</div>");
-    html.push_str(&labels);
-    html.push_str("</body></html>");
+    let page = html! {
+        (DOCTYPE)
+        html lang="en" {
+            head {
+                meta charset="utf-8";
+                title { "Handover from " (Shown(from)) " to " (Shown(to)) }
+                // Trusted: our own constant style sheet.
+                style { (PreEscaped(PACK_CSS)) }
+            }
+            body {
+                h1 { "Handover from " (Shown(from)) " to " (Shown(to)) }
+                p { "Written " (now()) " by cuvette." }
+                p class="caution" { (Shown(crate::hazards::SDS_NOTICE)) }
+                h2 id="vials" { "Vials by location" }
+                @for (loc, group) in &by_location {
+                    h3 { (Shown(loc)) }
+                    table {
+                        tr {
+                            th { "vial" } th { "label" } th { "batch" } th { "material" } th { "mL left" }
+                            th { "conc." } th { "nmol left" } th { "solvent" } th { "position" }
+                        }
+                        @for v in group {
+                            tr class="vial" data-vial-id=(v.id) {
+                                td { (v.id) }
+                                td { (Shown(&v.label)) }
+                                td { a href={ "#batch-" (v.batch_id) } { (v.batch_id) } }
+                                td { (Shown(&v.material)) }
+                                td { (format!("{:.3}", v.volume_ml)) }
+                                td { (concentration_text(v, false)) }
+                                td { (n(shelf_entry(v).nanomoles_left, 2)) }
+                                td { (Shown(&v.solvent)) }
+                                td { (Shown(v.position.as_deref().unwrap_or_default())) }
+                            }
+                        }
+                    }
+                }
+                @if vials.is_empty() {
+                    p { "No vials." }
+                }
+                @for section in &sections {
+                    (section)
+                }
+                h2 id="labels" { "Vial labels" }
+                div class="labels" {
+                    @for label in &labels {
+                        (label)
+                    }
+                }
+            }
+        }
+    };
+    let html = page.into_string();
     std::fs::write(dir.join("index.html"), &html)?;
     let mut w = csv::Writer::from_path(dir.join("inventory.csv")).map_err(|e| Error::Invalid(format!("csv: {e}")))?;
-    w.write_record([
-        "vial_id",
-        "label",
-        "batch_id",
-        "material",
-        "location",
-        "position",
-        "volume_ml",
-        "solvent",
-        "concentration_molar",
-        "owner",
-        "status",
-    ])
-    .map_err(|e| Error::Invalid(format!("csv: {e}")))?;
     for v in &vials {
-        w.write_record([
-            v.id.to_string(),
-            csv_text(&v.label).into_owned(),
-            v.batch_id.to_string(),
-            csv_text(&v.material).into_owned(),
-            csv_text(&v.location).into_owned(),
-            csv_text(v.position.as_deref().unwrap_or_default()).into_owned(),
-            format!("{:.4}", v.volume_ml),
-            csv_text(&v.solvent).into_owned(),
-            v.concentration_molar.map(csv_number).unwrap_or_default(),
-            csv_text(to).into_owned(),
-            csv_text(&v.status).into_owned(),
-        ])
-        .map_err(|e| Error::Invalid(format!("csv: {e}")))?;
+        w.serialize(InventoryCsv::of(v, to))
+            .map_err(|e| Error::Invalid(format!("csv: {e}")))?;
     }
     w.flush()?;
     Ok(vec!["index.html".into(), "inventory.csv".into()])
+}
+
+/// A line of the pack's `inventory.csv`: the vial as it is after the handover (owned by the
+/// new person). Text cells carry the spreadsheet-formula guard; the volume has four decimals.
+#[derive(Serialize)]
+struct InventoryCsv {
+    vial_id: i64,
+    label: String,
+    batch_id: i64,
+    material: String,
+    location: String,
+    position: String,
+    volume_ml: String,
+    solvent: String,
+    concentration_molar: String,
+    owner: String,
+    status: String,
+}
+
+impl InventoryCsv {
+    fn of(v: &model::VialRow, owner: &str) -> Self {
+        InventoryCsv {
+            vial_id: v.id,
+            label: csv_text(&v.label).into_owned(),
+            batch_id: v.batch_id,
+            material: csv_text(&v.material).into_owned(),
+            location: csv_text(&v.location).into_owned(),
+            position: csv_text(v.position.as_deref().unwrap_or_default()).into_owned(),
+            volume_ml: format!("{:.4}", v.volume_ml),
+            solvent: csv_text(&v.solvent).into_owned(),
+            concentration_molar: v.concentration_molar.map(csv_number).unwrap_or_default(),
+            owner: csv_text(owner).into_owned(),
+            status: csv_text(&v.status).into_owned(),
+        }
+    }
+}
+
+/// One batch's section of the pack; the labels of the handed-over vials it stores are added
+/// to `labels`.
+fn batch_section(
+    sheet: &super::BatchSheet,
+    svg: &str,
+    vial_ids: &[i64],
+    to: &str,
+    labels: &mut Vec<maud::Markup>,
+) -> maud::Markup {
+    let batch = &sheet.batch;
+    let product_nm = finite(sheet.product.as_ref().and_then(|p| p.diameter_nm));
+    let hazards: Vec<String> = match &sheet.recipe_detail {
+        Some(r) => r.reagents.iter().flat_map(|g| g.ghs_hazards.clone()).collect(),
+        None => vec![],
+    };
+    let pictograms = crate::hazards::pictograms(hazards.iter().map(String::as_str));
+    let pictogram_text = if pictograms.is_empty() {
+        "no GHS pictogram".to_string()
+    } else {
+        pictograms.join(", ")
+    };
+    for v in sheet.vials.iter().filter(|v| vial_ids.contains(&v.id)) {
+        labels.push(html! {
+            div class="label" data-vial-id=(v.id) {
+                b { (Shown(&v.label)) }
+                br;
+                "batch " (batch.id) " · " (Shown(&batch.material))
+                br;
+                "D " (n(product_nm, 1)) " nm · " (concentration_text(v, true))
+                br;
+                (Shown(v.created_at.get(..10).unwrap_or(""))) " · " (Shown(to))
+                br;
+                (Shown(&pictogram_text))
+            }
+        });
+    }
+    let g = &sheet.growth;
+    html! {
+        section class="batch" id={ "batch-" (batch.id) } data-batch-id=(batch.id) {
+            h2 { "Batch " (batch.id) ": " (Shown(&batch.name)) }
+            p {
+                (Shown(&batch.material)) ", " (Shown(&batch.status)) ", started " (Shown(&batch.started_at))
+                " by " (Shown(batch.operator.as_deref().unwrap_or("")))
+                @if let Some(p) = batch.parent_batch_id {
+                    ", made from batch " (p) " (" (Shown(batch.parent_relation.as_deref().unwrap_or_default())) ")"
+                }
+            }
+            @if batch.voided {
+                p class="caution" {
+                    b { "VOID" } ": " (Shown(batch.void_why.as_deref().unwrap_or("")))
+                    " (kept in the record; its values count for nothing)"
+                }
+            }
+            @if !batch.notes.is_empty() {
+                p { "Notes: " (Shown(&batch.notes)) }
+            }
+            @if let Some(view) = &sheet.recipe_detail {
+                h3 { "Recipe " (Shown(&view.name)) " v" (view.version) }
+                table {
+                    tr { th { "reagent" } th { "amount" } th { "role" } th { "GHS hazards" } }
+                    @for r in &view.reagents {
+                        tr {
+                            td { (Shown(&r.reagent)) }
+                            td { (r.amount) " " (Shown(&r.unit)) }
+                            td { (Shown(r.role.as_deref().unwrap_or_default())) }
+                            td {
+                                (Shown(&r
+                                    .ghs_hazards
+                                    .iter()
+                                    .map(|h| format!("{h} {}", crate::hazards::statement(h).unwrap_or("")))
+                                    .collect::<Vec<_>>()
+                                    .join("; ")))
+                            }
+                        }
+                    }
+                }
+                ol {
+                    @for s in &view.steps {
+                        li {
+                            (Shown(&s.action))
+                            @if let Some(t) = s.temperature_c { " at " (t) " °C" }
+                            @if let Some(m) = s.duration_min { " for " (m) " min" }
+                        }
+                    }
+                }
+            }
+            div class="caution" {
+                b { "Cautions" }
+                ul { @for c in &sheet.cautions { li { (Shown(c)) } } }
+            }
+            h3 { "Growth series" }
+            table {
+                tr {
+                    th { "aliquot" } th { "min / stage" } th { "first exciton (nm)" } th { "D (nm)" }
+                    th { "σ/D (%)" } th { "conc. (µM)" } th { "PL (nm)" } th { "FWHM (nm)" } th { "QY" }
+                    th { "curve" } th { "calibration" }
+                }
+                // Void aliquots stay in the lab's record but not in what a new student works from.
+                @for a in sheet.aliquots.iter().filter(|a| !a.voided) {
+                    tr {
+                        td { (a.id) }
+                        td {
+                            @match finite(a.minutes) {
+                                Some(m) => (m),
+                                None => (Shown(a.stage.as_deref().unwrap_or(""))),
+                            }
+                        }
+                        td { (n(finite(a.first_exciton_nm), 1)) }
+                        td { (n(finite(a.diameter_nm), 2)) }
+                        td { (n(finite(a.size_dispersion_pct), 1)) }
+                        td { (n(finite(a.concentration_molar).map(|c| c * 1e6), 2)) }
+                        td { (n(finite(a.pl_peak_nm), 1)) }
+                        td { (n(finite(a.pl_fwhm_nm), 1)) }
+                        td { (n(finite(a.qy), 2)) }
+                        td { (Shown(a.curve.as_deref().unwrap_or("–"))) }
+                        // As the JSON view printed it, so the pack reads as it always has.
+                        td {
+                            "v" (a.calibration_version.map(|v| v.to_string()).unwrap_or_else(|| "null".into()))
+                            @if a.stale { " (stale)" }
+                        }
+                    }
+                }
+            }
+            p { "Growth: " (Shown(&g.regime)) "; rate " (n(finite(g.growth_rate_nm_per_min), 3)) " nm/min." }
+            // Trusted: the SVG is cuvette's own plot, whose every text went through
+            // safe_text::markup when it was drawn. The one raw insertion in the pack.
+            div class="plot" { (PreEscaped(svg)) }
+            h3 { "Storage" }
+            ul {
+                @for v in &sheet.vials {
+                    li {
+                        "vial " (v.id) " " (Shown(&v.label)) ": " (format!("{:.3}", v.volume_ml)) " mL at "
+                        (Shown(&v.location)) " (" (Shown(&v.status)) ", owner "
+                        (Shown(v.owner.as_deref().unwrap_or_default())) ")"
+                    }
+                }
+            }
+        }
+    }
 }
