@@ -172,7 +172,7 @@ fn handover_is_all_or_nothing() {
     let counts = lab.counts();
     let out = lab.path("pack");
     let mut store = cuvette::store::Store::open(&lab.db, "Test Runner").unwrap();
-    let e = cuvette::report::handover(
+    let e = cuvette::lab::handover::handover(
         &mut store,
         "Wren Halloway",
         "Juno Achterberg",

@@ -1,31 +1,16 @@
-//! Handover: a person's vials and open batches go to another person in one transaction, and a
-//! self-contained pack is written (an HTML report that needs no network: vials by location, a
+//! The handover pack: a self-contained HTML report that needs no network (vials by location, a
 //! section per batch with recipe, growth table, inline SVG plots, derived values with their
-//! calibration versions, storage and the hazards of its reagents; printable vial labels; the
-//! inventory as CSV). The pack is written to a temporary folder first and moved into place only
-//! after the transaction commits, so a failure anywhere leaves the database and DIR untouched.
-//!
-//! "Open" batches are those planned or growing: the new person carries them on. Finished
-//! batches keep their operator, because who ran a synthesis is a fact of the record.
+//! calibration versions, storage and the hazards of its reagents; printable vial labels) and
+//! the inventory as CSV. The handover itself (the write) is `lab::handover`, which writes this
+//! pack inside its transaction.
 
 use super::{plot, shelf_entry};
-use crate::error::{Error, Result, invalid};
+use crate::error::{Error, Result};
 use crate::safe_text::{csv_number, csv_text};
-use crate::store::handover::hand_over;
-use crate::store::{Db, Store, model, now};
+use crate::store::{Db, model, now};
 use maud::{DOCTYPE, PreEscaped, html};
 use serde::Serialize;
 use std::path::Path;
-
-#[derive(Debug, Clone, Serialize)]
-pub struct HandoverReport {
-    pub from: String,
-    pub to: String,
-    pub vials: usize,
-    pub batches: usize,
-    pub out: String,
-    pub files: Vec<String>,
-}
 
 /// Every piece of stored text goes into the page through here: markup characters as entities,
 /// and the controls HTML and XML must not carry shown visibly, so the pack is well-formed
@@ -42,62 +27,6 @@ fn finite(v: Option<f64>) -> Option<f64> {
 
 fn n(v: Option<f64>, d: usize) -> String {
     v.map(|x| format!("{x:.d$}")).unwrap_or_else(|| "–".into())
-}
-
-/// `fail_after_vials` makes the handover fail after that many vials (for tests of atomicity).
-pub fn handover(
-    store: &mut Store,
-    from: &str,
-    to: &str,
-    out: &Path,
-    fail_after_vials: Option<usize>,
-    progress: &mut dyn FnMut(usize, usize),
-) -> Result<HandoverReport> {
-    if out.exists() && std::fs::read_dir(out).map(|mut d| d.next().is_some()).unwrap_or(true) {
-        return invalid(format!(
-            "{} already exists and is not empty; choose a new folder",
-            out.display()
-        ));
-    }
-    let tmp = out.with_file_name(format!(
-        ".{}.partial",
-        out.file_name()
-            .map(|n| n.to_string_lossy().to_string())
-            .unwrap_or_else(|| "handover".into())
-    ));
-    let _ = std::fs::remove_dir_all(&tmp);
-    let result = store.write(|tx, who| {
-        let done = hand_over(tx, who, from, to, fail_after_vials)?;
-        std::fs::create_dir_all(&tmp).map_err(|e| Error::Invalid(format!("cannot create {}: {e}", tmp.display())))?;
-        let files = write_pack(tx, &tmp, from, to, &done.vial_ids, &done.pack_batch_ids, progress)?;
-        Ok((done.vial_ids.len(), done.batch_ids.len(), files))
-    });
-    match result {
-        Ok((vials, batches, files)) => {
-            if out.exists() {
-                let _ = std::fs::remove_dir(out);
-            }
-            std::fs::rename(&tmp, out).map_err(|e| {
-                Error::Invalid(format!(
-                    "handover committed, but the pack could not be moved from {} to {}: {e}",
-                    tmp.display(),
-                    out.display()
-                ))
-            })?;
-            Ok(HandoverReport {
-                from: from.into(),
-                to: to.into(),
-                vials,
-                batches,
-                out: out.display().to_string(),
-                files: files.iter().map(|f| out.join(f).display().to_string()).collect(),
-            })
-        }
-        Err(e) => {
-            let _ = std::fs::remove_dir_all(&tmp);
-            Err(e)
-        }
-    }
 }
 
 /// The pack's own style sheet: a constant of ours, the one stylesheet the page carries.
@@ -133,7 +62,10 @@ fn concentration_text(v: &model::VialRow, on_label: bool) -> String {
     format!("{:.decimals$} µM {}{version}", c * 1e6, super::concentration_note(v))
 }
 
-fn write_pack(
+/// Writes the pack for a handover into `dir`: `index.html` and `inventory.csv`; returns the
+/// file names. It reads through `tx`, the handover's own transaction, so the pack shows the
+/// record as the handover leaves it.
+pub fn write_pack(
     tx: &Db,
     dir: &Path,
     from: &str,

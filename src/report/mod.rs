@@ -1,16 +1,15 @@
 //! Views for people and other tools, built from the store: the shelf entry, `explain`'s chain,
-//! SVG plots of a growth series, exports and the handover pack. Read-only, except `handover`,
-//! which reassigns ownership in one transaction (`store::handover`) before it writes the pack.
+//! SVG plots of a growth series, exports and the handover pack (written by `lab::handover` inside
+//! its transaction). Read-only.
 //! The views are typed (`BatchSheet`, `ExplainChain`); `batch_detail` and `explain` give them as
 //! JSON values for the callers that still take one.
 
 mod export;
-mod handover;
+pub mod handover;
 mod outfile;
 pub mod plot;
 
 pub use export::export;
-pub use handover::{HandoverReport, handover};
 pub use outfile::{create_output, create_outputs};
 pub use plot::{plot_batch_svg, plot_series_svg};
 

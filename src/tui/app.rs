@@ -1489,10 +1489,7 @@ impl App {
             return;
         };
         let key = Self::folder_key(batch);
-        let r = self.store.write(|tx, _| {
-            model::ui_setting_set(tx, &key, &text)?;
-            model::ui_setting_set(tx, "ui.export_folder.last", &text)
-        });
+        let r = crate::lab::settings::remember(&mut self.store, &[(&key, &text), ("ui.export_folder.last", &text)]);
         if let Err(e) = r {
             self.error(format!("could not remember the folder: {e}"));
         }
@@ -1723,22 +1720,7 @@ impl App {
     }
 
     fn repeat(&mut self, id: i64) {
-        let r = self.store.write(|tx, who| {
-            let b = model::get_batch(tx, id)?;
-            model::insert_batch(
-                tx,
-                who,
-                &model::NewBatch {
-                    name: format!("{} (repeat)", b.name),
-                    material: b.material,
-                    recipe: b.recipe,
-                    recipe_version: b.recipe_version,
-                    parent_batch_id: Some(b.id),
-                    parent_relation: Some("repeat".into()),
-                    ..Default::default()
-                },
-            )
-        });
+        let r = crate::lab::batches::repeat_batch(&mut self.store, id, None).map(|b| b.id);
         match r {
             Ok(nid) => {
                 self.info(format!("batch {nid} repeats batch {id}"));
@@ -1923,10 +1905,7 @@ impl App {
                     status: Some("growing".into()),
                     ..Default::default()
                 };
-                let id = self
-                    .store
-                    .write(|tx, who| model::insert_batch(tx, who, &nb))
-                    .map_err(e)?;
+                let id = crate::lab::batches::log_batch(&mut self.store, &nb).map_err(e)?.id;
                 self.open_sheet(id).map_err(e)?;
                 self.view = View::Sheet;
                 Ok(format!("batch {id} logged"))
@@ -1994,14 +1973,7 @@ impl App {
                     concentration_molar: None,
                     created_at: None,
                 };
-                let id = self
-                    .store
-                    .write(|tx, who| {
-                        let id = model::insert_vial(tx, who, &nv)?;
-                        engine::estimate_vial(tx, id)?;
-                        Ok(id)
-                    })
-                    .map_err(e)?;
+                let id = crate::lab::vials::new_vial(&mut self.store, &nv).map_err(e)?.id;
                 self.new_vial = Some(id);
                 Ok(format!("vial {id} of batch {batch} on the shelf: {} mL", units::ml(ml)))
             }
@@ -2011,19 +1983,21 @@ impl App {
                     FormKind::Draw => {
                         let ml = Self::number(f, "mL")?.ok_or("mL: give the volume to draw")?;
                         let why = f.get("why");
-                        self.store.write(|tx, who| {
-                            model::draw_from_vial(tx, who, vial, ml, Some(why.as_str()).filter(|s| !s.is_empty()))
-                        })
+                        crate::lab::vials::draw(&mut self.store, vial, ml, Some(why.as_str()).filter(|s| !s.is_empty()))
                     }
                     FormKind::Move => {
                         let (to, pos) = (f.get("to"), f.get("position"));
-                        self.store.write(|tx, who| {
-                            model::move_vial(tx, who, vial, &to, Some(pos.as_str()).filter(|s| !s.is_empty()), None)
-                        })
+                        crate::lab::vials::move_to(
+                            &mut self.store,
+                            vial,
+                            &to,
+                            Some(pos.as_str()).filter(|s| !s.is_empty()),
+                            None,
+                        )
                     }
                     _ => {
                         let why = f.get("why");
-                        self.store.write(|tx, who| model::dispose_vial(tx, who, vial, &why))
+                        crate::lab::vials::dispose(&mut self.store, vial, &why)
                     }
                 }
                 .map_err(e)?;
@@ -2156,17 +2130,12 @@ impl App {
                         model::LOCATION_KINDS.join(", ")
                     ));
                 }
-                self.store
-                    .write(|tx, who| {
-                        if !name.is_empty() {
-                            model::add_person(tx, who, &name, Some(email.as_str()).filter(|e| !e.is_empty()))?;
-                        }
-                        if !place.is_empty() {
-                            model::add_location(tx, who, &place, &kind, None)?;
-                        }
-                        Ok(())
-                    })
-                    .map_err(e)?;
+                crate::lab::register::first_run(
+                    &mut self.store,
+                    Some((name.as_str(), Some(email.as_str()).filter(|e| !e.is_empty()))).filter(|_| !name.is_empty()),
+                    Some((place.as_str(), kind.as_str())).filter(|_| !place.is_empty()),
+                )
+                .map_err(e)?;
                 let mut said = Vec::new();
                 if !name.is_empty() {
                     said.push(format!("{name} added to the lab"));
@@ -2234,10 +2203,7 @@ impl App {
                 if let Some(at) = injected_at
                     && self.injected_at(batch) != Some(at)
                 {
-                    let key = format!("injected_at.batch.{batch}");
-                    self.store
-                        .write(|tx, who| model::meta_set(tx, who, &key, &at.to_rfc3339()))
-                        .map_err(e)?;
+                    crate::lab::settings::set_injection_time(&mut self.store, batch, &at).map_err(e)?;
                 }
                 self.remember_folder(batch, &folder);
                 let timing = if injected_at.is_some() {
@@ -2307,7 +2273,7 @@ impl App {
         let tx = self.tx.clone();
         self.busy = true;
         std::thread::spawn(move || {
-            let r = crate::report::handover(&mut store, &from, &to, &out, None, &mut |d, t| {
+            let r = crate::lab::handover::handover(&mut store, &from, &to, &out, None, &mut |d, t| {
                 let _ = tx.send(Note::Progress {
                     label: "handover".into(),
                     done: d,

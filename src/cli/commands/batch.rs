@@ -4,7 +4,6 @@
 use super::open_for;
 use crate::cli::args::*;
 use crate::cli::output::{json, line, molar, num};
-use crate::derive::engine;
 use crate::store::model;
 use anyhow::Result;
 use serde_json::Value;
@@ -25,10 +24,7 @@ pub(super) fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
                 parent_relation: a.relation.clone(),
                 notes: a.notes.clone(),
             };
-            let row = store.write(|tx, who| {
-                let id = model::insert_batch(tx, who, &nb)?;
-                model::get_batch(tx, id)
-            })?;
+            let row = crate::lab::batches::log_batch(&mut store, &nb)?;
             if a.json {
                 json(&row)?
             } else {
@@ -85,23 +81,8 @@ pub(super) fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
                 unpin: a.unpin,
                 parent_batch_id: a.parent,
             };
-            let row = store.write(|tx, who| {
-                let r = model::edit_batch(tx, who, a.id, &e)?;
-                if e.pin_calibration.is_some() || e.unpin {
-                    engine::mark_stale(tx)?;
-                }
-                if e.product_aliquot_id.is_some() {
-                    engine::refresh_vials(tx, Some(a.id), false)?;
-                }
-                // A shelled batch takes its core's size from its parent's product: a new parent
-                // moves it, in this same transaction.
-                let followed = match e.parent_batch_id {
-                    Some(p) => engine::follow_parent_cores(tx, Some(p))?,
-                    None => 0,
-                };
-                Ok((r, followed))
-            })?;
-            let (row, followed) = row;
+            let done = crate::lab::batches::edit_batch(&mut store, a.id, &e)?;
+            let (row, followed) = (done.batch, done.aliquots_followed);
             if a.json {
                 json(&row)?
             } else if let (true, Some(p)) = (followed > 0, a.parent) {
@@ -114,7 +95,7 @@ pub(super) fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
             }
         }
         BatchCmd::SetStatus { id, status, json: j } => {
-            let row = store.write(|tx, who| model::set_batch_status(tx, who, *id, status))?;
+            let row = crate::lab::batches::set_status(&mut store, *id, status)?;
             if *j {
                 json(&row)?
             } else {
@@ -122,20 +103,7 @@ pub(super) fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
             }
         }
         BatchCmd::Repeat { id, name, json: j } => {
-            let row = store.write(|tx, who| {
-                let b = model::get_batch(tx, *id)?;
-                let nb = model::NewBatch {
-                    name: name.clone().unwrap_or_else(|| format!("{} (repeat)", b.name)),
-                    material: b.material.clone(),
-                    recipe: b.recipe.clone(),
-                    recipe_version: b.recipe_version,
-                    parent_batch_id: Some(b.id),
-                    parent_relation: Some("repeat".into()),
-                    ..Default::default()
-                };
-                let nid = model::insert_batch(tx, who, &nb)?;
-                model::get_batch(tx, nid)
-            })?;
+            let row = crate::lab::batches::repeat_batch(&mut store, *id, name.as_deref())?;
             if *j {
                 json(&row)?
             } else {

@@ -12,7 +12,7 @@ pub(super) fn person(cli: &Cli, c: &PersonCmd) -> Result<()> {
     let mut store = open_for(cli, matches!(c, PersonCmd::Add { .. }))?;
     match c {
         PersonCmd::Add { name, email } => {
-            let id = store.write(|tx, who| model::add_person(tx, who, name, email.as_deref()))?;
+            let id = crate::lab::register::add_person(&mut store, name, email.as_deref())?;
             line(&format!("person {id}: {name}"))?;
         }
         PersonCmd::List(f) => {
@@ -33,7 +33,7 @@ pub(super) fn material(cli: &Cli, c: &MaterialCmd) -> Result<()> {
     let mut store = open_for(cli, matches!(c, MaterialCmd::Add { .. }))?;
     match c {
         MaterialCmd::Add { name, core, shell } => {
-            let id = store.write(|tx, who| model::add_material(tx, who, name, core, shell.as_deref()))?;
+            let id = crate::lab::register::add_material(&mut store, name, core, shell.as_deref())?;
             line(&format!("material {id}: {name}"))?;
         }
         MaterialCmd::List(f) => {
@@ -70,10 +70,14 @@ pub(super) fn reagent(cli: &Cli, c: &ReagentCmd) -> Result<()> {
             hazards,
             pyrophoric,
         } => {
-            let hz: Vec<String> = hazards.iter().map(|h| h.to_ascii_uppercase()).collect();
-            let id = store.write(|tx, who| {
-                model::add_reagent(tx, who, name, formula.as_deref(), cas.as_deref(), &hz, *pyrophoric)
-            })?;
+            let id = crate::lab::register::add_reagent(
+                &mut store,
+                name,
+                formula.as_deref(),
+                cas.as_deref(),
+                hazards,
+                *pyrophoric,
+            )?;
             line(&format!("reagent {id}: {name}"))?;
         }
         ReagentCmd::List(f) => {
@@ -101,7 +105,7 @@ pub(super) fn location(cli: &Cli, c: &LocationCmd) -> Result<()> {
     let mut store = open_for(cli, matches!(c, LocationCmd::Add { .. }))?;
     match c {
         LocationCmd::Add { name, kind, position } => {
-            let id = store.write(|tx, who| model::add_location(tx, who, name, kind, position.as_deref()))?;
+            let id = crate::lab::register::add_location(&mut store, name, kind, position.as_deref())?;
             line(&format!("location {id}: {name}"))?;
         }
         LocationCmd::List(f) => {

@@ -110,10 +110,7 @@ pub(super) fn recipe(cli: &Cli, c: &RecipeCmd) -> Result<()> {
         } => {
             let rs: Vec<model::RecipeReagent> = reagents.iter().map(|s| parse_reagent(s)).collect::<Result<_>>()?;
             let ss: Vec<model::RecipeStep> = steps.iter().map(|s| parse_step(s)).collect::<Result<_>>()?;
-            let view = store.write(|tx, who| {
-                let (_, vid) = model::save_recipe(tx, who, name, material, &rs, &ss, notes.as_deref())?;
-                model::recipe_view(tx, vid)
-            })?;
+            let view = crate::lab::register::save_recipe(&mut store, name, material, &rs, &ss, notes.as_deref())?;
             if *j { json(&view)? } else { print_recipe(&view)? }
         }
         RecipeCmd::Show { name, version, json: j } => {

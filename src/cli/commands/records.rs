@@ -90,7 +90,7 @@ pub(super) fn handover(cli: &Cli, a: &HandoverArgs) -> Result<()> {
         ))
     });
     let p = Progress::new("handover", a.json);
-    let r = crate::report::handover(&mut store, &a.from, &a.to, &out, None, &mut |d, t| p.tick(d, t))?;
+    let r = crate::lab::handover::handover(&mut store, &a.from, &a.to, &out, None, &mut |d, t| p.tick(d, t))?;
     if a.json {
         return json(&r);
     }

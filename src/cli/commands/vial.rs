@@ -5,7 +5,6 @@ use super::{open_for, open_read};
 use crate::bench;
 use crate::cli::args::*;
 use crate::cli::output::{json, line, molar, num};
-use crate::derive::engine;
 use crate::store::{Store, model};
 use anyhow::{Result, bail};
 
@@ -48,32 +47,25 @@ pub(super) fn vial(cli: &Cli, c: &VialCmd) -> Result<()> {
             conc,
             json: j,
         } => {
-            let v = store.write(|tx, who| {
-                let id = model::insert_vial(
-                    tx,
-                    who,
-                    &model::NewVial {
-                        batch_id: *batch_id,
-                        label: label.clone(),
-                        volume_ml: *ml,
-                        solvent: solvent.clone(),
-                        location: location.clone(),
-                        position: position.clone(),
-                        owner: owner.clone(),
-                        concentration_molar: *conc,
-                        created_at: None,
-                    },
-                )?;
-                if conc.is_none() {
-                    engine::estimate_vial(tx, id)?;
-                }
-                model::get_vial(tx, id)
-            })?;
+            let v = crate::lab::vials::new_vial(
+                &mut store,
+                &model::NewVial {
+                    batch_id: *batch_id,
+                    label: label.clone(),
+                    volume_ml: *ml,
+                    solvent: solvent.clone(),
+                    location: location.clone(),
+                    position: position.clone(),
+                    owner: owner.clone(),
+                    concentration_molar: *conc,
+                    created_at: None,
+                },
+            )?;
             print_vial(&v, *j)?;
         }
         VialCmd::Draw { vial, ml, why, json: j } => {
             let id = vial_id(&mut store, vial)?;
-            let v = store.write(|tx, who| model::draw_from_vial(tx, who, id, *ml, why.as_deref()))?;
+            let v = crate::lab::vials::draw(&mut store, id, *ml, why.as_deref())?;
             print_vial(&v, *j)?;
         }
         VialCmd::Move {
@@ -84,12 +76,12 @@ pub(super) fn vial(cli: &Cli, c: &VialCmd) -> Result<()> {
             json: j,
         } => {
             let id = vial_id(&mut store, vial)?;
-            let v = store.write(|tx, who| model::move_vial(tx, who, id, to, position.as_deref(), why.as_deref()))?;
+            let v = crate::lab::vials::move_to(&mut store, id, to, position.as_deref(), why.as_deref())?;
             print_vial(&v, *j)?;
         }
         VialCmd::Dispose { vial, why, json: j } => {
             let id = vial_id(&mut store, vial)?;
-            let v = store.write(|tx, who| model::dispose_vial(tx, who, id, why))?;
+            let v = crate::lab::vials::dispose(&mut store, id, why)?;
             print_vial(&v, *j)?;
         }
         VialCmd::Reinstate { vial, why, json: j } => {
