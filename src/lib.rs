@@ -15,6 +15,7 @@ pub mod derive;
 pub mod error;
 pub mod hazards;
 pub mod par;
+pub mod paths;
 pub mod report;
 pub mod safe_text;
 pub mod search;
