@@ -16,6 +16,7 @@ pub mod error;
 pub mod hazards;
 pub mod lab;
 pub mod par;
+pub mod paths;
 pub mod report;
 pub mod safe_text;
 pub mod search;

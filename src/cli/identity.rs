@@ -13,10 +13,7 @@ fn nonempty(v: Option<String>) -> Option<String> {
 
 /// The file `whoami --set` writes.
 pub fn remembered_path() -> Option<PathBuf> {
-    let base = nonempty(std::env::var("XDG_CONFIG_HOME").ok())
-        .map(PathBuf::from)
-        .or_else(|| nonempty(std::env::var("HOME").ok()).map(|h| PathBuf::from(h).join(".config")))?;
-    Some(base.join("cuvette").join("whoami"))
+    crate::paths::whoami_file()
 }
 
 fn remembered() -> Option<String> {

@@ -1,4 +1,7 @@
-//! Printing helpers: JSON for scripts, aligned text for people. A closed pipe ends quietly.
+//! Printing helpers: JSON for scripts, aligned text for people. A closed pipe ends quietly:
+//! a write to stdout whose reader went away returns [`StdoutClosed`], which travels up like
+//! any error (so whatever the command was doing unwinds as after any failure, and no
+//! transaction is left mid-way by an exit) and becomes exit 0 without a word at the top.
 //! Everything printed goes through [`line`] or [`warn`], which make the control characters and
 //! escape sequences a stored name may hold visible and harmless (see `safe_text`); JSON keeps
 //! its data and escapes the code points serde_json would write raw.
@@ -18,20 +21,41 @@ pub fn json_line<T: Serialize + ?Sized>(v: &T) -> Result<()> {
     line(&s)
 }
 
-/// Text on stdout; its own line breaks and tabs stay, every other control is shown.
-pub fn line(s: &str) -> Result<()> {
-    let text = safe_text::for_terminal_lines(s);
-    let written = above_bar(|| writeln!(std::io::stdout().lock(), "{text}"));
+/// The reader of stdout went away before the command had printed everything (`cuvette log
+/// --json | head`). Not a failure of the command: the top turns it into a quiet exit 0.
+#[derive(Debug, thiserror::Error)]
+#[error("stdout was closed by its reader")]
+pub struct StdoutClosed;
+
+/// The result of a write to stdout: a closed pipe becomes [`StdoutClosed`], any other failure
+/// (a full disk behind a redirection) stays the I/O error it is.
+pub fn stdout_written(written: std::io::Result<()>) -> Result<()> {
     match written {
-        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => std::process::exit(0),
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Err(StdoutClosed.into()),
         r => Ok(r?),
     }
 }
 
-/// One line on stderr, prefixed `cuvette: `, with every control (line breaks too) shown.
+/// Text on stdout; its own line breaks and tabs stay, every other control is shown.
+pub fn line(s: &str) -> Result<()> {
+    let text = safe_text::for_terminal_lines(s);
+    stdout_written(above_bar(|| writeln!(std::io::stdout().lock(), "{text}")))
+}
+
+/// Bytes on stdout as they are (a generated completion script or man page).
+pub fn raw(bytes: &[u8]) -> Result<()> {
+    let mut out = std::io::stdout().lock();
+    stdout_written(out.write_all(bytes).and_then(|()| out.flush()))
+}
+
+/// One line on stderr, prefixed `cuvette: `, with every control (line breaks too) shown. A
+/// stderr that cannot be written to (a closed pipe) loses the line rather than ending the run:
+/// `eprintln!` would panic there.
 pub fn warn(s: &str) {
     let text = safe_text::for_terminal(s);
-    above_bar(|| eprintln!("cuvette: {text}"));
+    above_bar(|| {
+        let _ = writeln!(std::io::stderr().lock(), "cuvette: {text}");
+    });
 }
 
 /// A number with a fixed count of decimals (small ones in scientific form), or "-".

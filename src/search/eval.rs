@@ -157,27 +157,10 @@ fn within(v: Option<f64>, lo: Option<f64>, hi: Option<f64>, strict_lo: bool, str
     lo_ok && hi_ok
 }
 
-/// Damerau-Levenshtein distance (optimal string alignment), for typo-tolerant words.
+/// Damerau-Levenshtein distance (optimal string alignment: a swap of two neighbours is one
+/// typo, and no substring is edited twice), for typo-tolerant words; counted in characters.
 fn edit_distance(a: &str, b: &str) -> usize {
-    let a: Vec<char> = a.chars().collect();
-    let b: Vec<char> = b.chars().collect();
-    let mut d = vec![vec![0usize; b.len() + 1]; a.len() + 1];
-    for (i, row) in d.iter_mut().enumerate() {
-        row[0] = i;
-    }
-    for j in 0..=b.len() {
-        d[0][j] = j;
-    }
-    for i in 1..=a.len() {
-        for j in 1..=b.len() {
-            let cost = usize::from(a[i - 1] != b[j - 1]);
-            d[i][j] = (d[i - 1][j] + 1).min(d[i][j - 1] + 1).min(d[i - 1][j - 1] + cost);
-            if i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1] {
-                d[i][j] = d[i][j].min(d[i - 2][j - 2] + 1);
-            }
-        }
-    }
-    d[a.len()][b.len()]
+    strsim::osa_distance(a, b)
 }
 
 /// How many typos a word of this length may carry.
@@ -335,5 +318,9 @@ mod tests {
         assert_eq!(edit_distance("oleylamine", "oleylamine"), 0);
         assert_eq!(edit_distance("olyelamine", "oleylamine"), 1);
         assert_eq!(edit_distance("cdse", "cdes"), 1);
+        // Optimal string alignment, not the unrestricted distance (which gives 2 here).
+        assert_eq!(edit_distance("ca", "abc"), 3);
+        // Characters, not bytes.
+        assert_eq!(edit_distance("µm", "um"), 1);
     }
 }

@@ -757,14 +757,7 @@ impl KeyMap {
 
     /// Reads the user's override file, if there is one.
     pub fn load() -> Result<KeyMap, String> {
-        let path = std::env::var_os("CUVETTE_KEYS")
-            .map(std::path::PathBuf::from)
-            .or_else(|| {
-                let base = std::env::var_os("XDG_CONFIG_HOME")
-                    .map(std::path::PathBuf::from)
-                    .or_else(|| std::env::var_os("HOME").map(|h| std::path::PathBuf::from(h).join(".config")))?;
-                Some(base.join("cuvette").join("keys.json"))
-            });
+        let path = crate::paths::keys_file();
         let overrides = match path {
             Some(p) if p.exists() => read_overrides(&p)?,
             _ => BTreeMap::new(),

@@ -343,7 +343,7 @@ pub(super) fn analyze(a: &AnalyzeArgs) -> Result<ExitCode> {
             failed = true;
             // What came before is on stdout before the warning, as when each line was
             // written at once (the two streams often share one terminal or file).
-            print_or_quit(out.flush())?;
+            output::stdout_written(out.flush())?;
             output::warn(&format!("refused {e}"));
         }
         let printed = match done {
@@ -355,14 +355,14 @@ pub(super) fn analyze(a: &AnalyzeArgs) -> Result<ExitCode> {
                         .and_then(|lines| lines.iter().try_for_each(|l| line(l)))
                 }
             }
-            Done::Rendered { text, .. } => text.and_then(|t| print_or_quit(out.write_all(t.as_bytes()))),
+            Done::Rendered { text, .. } => text.and_then(|t| output::stdout_written(out.write_all(t.as_bytes()))),
         };
         if let Err(e) = printed {
             outcome = Err(e);
             break;
         }
     }
-    print_or_quit(out.flush())?;
+    output::stdout_written(out.flush())?;
     outcome?;
     Ok(if failed { ExitCode::from(1) } else { ExitCode::SUCCESS })
 }
@@ -437,14 +437,6 @@ fn analyze_lines(v: &Value, a: &AnalyzeArgs) -> Result<Vec<String>> {
         }
     }
     Ok(lines)
-}
-
-/// A write to stdout; a closed pipe ends the program quietly, as [`output::line`] does.
-fn print_or_quit(written: std::io::Result<()>) -> Result<()> {
-    match written {
-        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => std::process::exit(0),
-        r => Ok(r?),
-    }
 }
 
 #[cfg(test)]

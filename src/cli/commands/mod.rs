@@ -34,19 +34,7 @@ use std::process::ExitCode;
 use vial::{shelf, vial};
 
 pub fn default_db_path() -> PathBuf {
-    let home = std::env::var_os("HOME")
-        .map(PathBuf::from)
-        .unwrap_or_else(|| PathBuf::from("."));
-    let base = if let Some(x) = std::env::var_os("XDG_DATA_HOME") {
-        PathBuf::from(x)
-    } else if cfg!(target_os = "macos") {
-        home.join("Library/Application Support")
-    } else if cfg!(windows) {
-        std::env::var_os("APPDATA").map(PathBuf::from).unwrap_or(home)
-    } else {
-        home.join(".local/share")
-    };
-    base.join("cuvette").join("lab.db")
+    crate::paths::default_lab()
 }
 
 fn db_path(cli: &Cli) -> PathBuf {
@@ -306,6 +294,8 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
         Cmd::Restore(a) => restore(&cli, &a.file, a.recompute)?,
         Cmd::Import(a) => import(&cli, a)?,
         Cmd::ImportManifest(a) => return import_manifest(&cli, a),
+        Cmd::Completions(a) => super::generate::completions(a)?,
+        Cmd::Man(a) => super::generate::man(a)?,
     }
     Ok(ExitCode::SUCCESS)
 }
