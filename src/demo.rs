@@ -322,7 +322,7 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                 r.notes.as_deref(),
             )?;
         }
-        let mut cal = calibration::latest(tx)?.body;
+        let mut cal = crate::lab::calibrations::latest(tx)?.body;
         let q = &m.qy_reference;
         cal.qy_reference = Some(calibration::QyReference {
             dye: q.dye.clone(),
@@ -332,12 +332,12 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
             integral: q.integral,
             abs_at_excitation: q.abs_at_excitation,
         });
-        calibration::save(tx, &q.set_by, &q.why, &cal)?;
+        crate::lab::calibrations::save(tx, &q.set_by, &q.why, &cal)?;
         Ok(())
     })?;
     let total = scale.unwrap_or(m.batches.len());
     let mut rng = Rng::new(0x00C0_FFEE);
-    let cal = calibration::latest(&store.conn)?.body;
+    let cal = crate::lab::calibrations::latest(&store.conn)?.body;
     let qref = cal
         .qy_reference
         .clone()

@@ -14,6 +14,7 @@ pub mod demo;
 pub mod derive;
 pub mod error;
 pub mod hazards;
+pub mod lab;
 pub mod par;
 pub mod report;
 pub mod safe_text;

@@ -673,7 +673,7 @@ fn batch_show_json_carries_the_reaction_yield() {
 #[test]
 fn gradient_qy_runs_over_a_dilution_series_logged_as_aliquots() {
     use cuvette::store::model;
-    let mut store = cuvette::store::Store::in_memory("Test Runner").unwrap();
+    let mut store = cuvette::lab::in_memory("Test Runner").unwrap();
     let (px, shape) = pl_trace();
     // Known truth: the sample gives `k` PL counts·nm per unit absorbance (in the PL cuvette),
     // against the reference's 52000 / 0.05; same solvent as the reference (ethanol).
@@ -767,6 +767,6 @@ fn gradient_qy_runs_over_a_dilution_series_logged_as_aliquots() {
 
 fn calibration_with_reference(tx: &rusqlite::Connection, who: &str) -> cuvette::Result<()> {
     let body = cal_with_reference();
-    cuvette::derive::calibration::save(tx, who, "reference for the test", &body)?;
+    cuvette::lab::calibrations::save(tx, who, "reference for the test", &body)?;
     Ok(())
 }

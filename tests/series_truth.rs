@@ -100,7 +100,7 @@ type Plan = (f64, f64, Option<(f64, f64, f64)>);
 /// A CdSe growth series in an in-memory lab, each aliquot derived as it is logged (so a later
 /// aliquot's arrival has to re-check the earlier ones). Returns the store, batch and aliquots.
 fn series_lab(plan: &[Plan]) -> (Store, i64, Vec<i64>) {
-    let mut store = Store::in_memory("Test Runner").unwrap();
+    let mut store = cuvette::lab::in_memory("Test Runner").unwrap();
     let (b, ids) = store
         .write(|tx, who| {
             let _ = model::add_material(tx, who, "CdSe", "CdSe", None);

@@ -11,7 +11,7 @@
 //! the aliquot's own rows; [`series_pass`], run after any aliquot of a batch is (re)derived and
 //! after a recompute, keeps those ranges in step with the neighbours' readings.
 
-use super::calibration::{self, Calibration};
+use super::calibration::Calibration;
 use super::series::{self, SecondLook, SeriesHint, SeriesPoint};
 use super::{extinction, qy, sizing, solvents};
 use crate::error::Result;
@@ -1298,7 +1298,7 @@ fn derive_aliquot_with(tx: &Connection, aliquot_id: i64, hint: Option<&SeriesHin
     let a = crate::store::model::get_aliquot(tx, aliquot_id)?;
     let batch = crate::store::model::get_batch(tx, a.batch_id)?;
     let version = effective_calibration_version(tx, a.batch_id)?;
-    let cal = calibration::get(tx, version)?.body;
+    let cal = crate::lab::calibrations::get(tx, version)?.body;
     let spectra = crate::store::model::spectra_of_aliquot(tx, aliquot_id)?;
     let metas: Vec<SpectrumMeta> = spectra.iter().map(SpectrumMeta::from).collect();
     let ctx = batch_context(tx, a.batch_id)?;
@@ -1403,7 +1403,7 @@ pub fn follow_parent_cores(tx: &Connection, parent: Option<i64>) -> Result<usize
         let batch = crate::store::model::get_batch(tx, child)?;
         let ctx = batch_context(tx, child)?;
         let version = effective_calibration_version(tx, child)?;
-        let cal = calibration::get(tx, version)?.body;
+        let cal = crate::lab::calibrations::get(tx, version)?.body;
         for a in crate::store::model::all_aliquots_of(tx, child)? {
             let old = current_values(tx, a.id)?;
             if old.is_empty() {
@@ -1510,7 +1510,7 @@ struct Scanner {
 impl Scanner {
     fn new(conn: &Connection) -> Result<Scanner> {
         Ok(Scanner {
-            latest: calibration::latest(conn)?.version,
+            latest: crate::lab::calibrations::latest(conn)?.version,
             after: 0,
             cals: BTreeMap::new(),
             relevant_cache: HashMap::new(),
@@ -1557,7 +1557,7 @@ impl Scanner {
         let mut expected = Vec::with_capacity(chunk.len());
         for (a, core, version) in chunk {
             if let std::collections::btree_map::Entry::Vacant(e) = self.cals.entry(version) {
-                e.insert(calibration::get(conn, version)?.body);
+                e.insert(crate::lab::calibrations::get(conn, version)?.body);
             }
             let cal = &self.cals[&version];
             let metas = metas_by.remove(&a.id).unwrap_or_default();
@@ -1867,9 +1867,9 @@ pub fn change_calibration(
     why: &str,
     f: &dyn Fn(&Connection, &mut Calibration) -> Result<()>,
 ) -> Result<(i64, usize)> {
-    let mut body = calibration::latest(tx)?.body;
+    let mut body = crate::lab::calibrations::latest(tx)?.body;
     f(tx, &mut body)?;
-    let v = calibration::save(tx, who, why, &body)?;
+    let v = crate::lab::calibrations::save(tx, who, why, &body)?;
     Ok((v, mark_stale(tx)?))
 }
 
@@ -1965,7 +1965,7 @@ fn vial_expected(
             let core = crate::store::model::get_batch(conn, vial.batch_id)?.core;
             let version = effective_calibration_version(conn, vial.batch_id)?;
             if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
-                e.insert(calibration::get(conn, version)?.body);
+                e.insert(crate::lab::calibrations::get(conn, version)?.body);
             }
             let cal = &cals[&version];
             let (_, _, c) = vial_measured(
@@ -2019,7 +2019,7 @@ pub fn refresh_vials(conn: &Connection, batch: Option<i64>, dry_run: bool) -> Re
 /// product aliquot). Returns how many flags changed.
 pub fn mark_vials_stale(tx: &Connection) -> Result<usize> {
     let mut n = 0;
-    let latest = calibration::latest(tx)?.version;
+    let latest = crate::lab::calibrations::latest(tx)?.version;
     let mut cals: BTreeMap<i64, Calibration> = BTreeMap::new();
     for row in crate::store::model::derived_vial_concentrations(tx, None)? {
         let vial = crate::store::model::get_vial(tx, row.vial_id)?;
@@ -2048,7 +2048,7 @@ pub fn mark_vials_stale(tx: &Connection) -> Result<usize> {
                 let b = crate::store::model::get_batch(tx, vial.batch_id)?;
                 let version = b.pinned_calibration.unwrap_or(latest);
                 if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
-                    e.insert(calibration::get(tx, version)?.body);
+                    e.insert(crate::lab::calibrations::get(tx, version)?.body);
                 }
                 let h = vial_measure_hash(
                     &sha,
@@ -2154,7 +2154,7 @@ pub fn verify_values(conn: &Connection, deep: bool) -> Result<(usize, Vec<Proble
         checked += 1;
         let core = crate::store::model::get_batch(conn, a.batch_id)?.core;
         if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
-            e.insert(calibration::get(conn, version)?.body);
+            e.insert(crate::lab::calibrations::get(conn, version)?.body);
         }
         let cal = &cals[&version];
         // A spectrum that cannot even be read is a finding, not a reason to stop checking.
@@ -2511,7 +2511,7 @@ pub fn gradient_qy_series(conn: &Connection, aliquot_ids: &[i64]) -> Result<Grad
     }
     let first = crate::store::model::get_aliquot(conn, aliquot_ids[0])?;
     let version = effective_calibration_version(conn, first.batch_id)?;
-    let cal = calibration::get(conn, version)?.body;
+    let cal = crate::lab::calibrations::get(conn, version)?.body;
     let r = cal
         .qy_reference
         .as_ref()

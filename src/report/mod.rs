@@ -221,7 +221,7 @@ pub fn explain_chain(db: &Db, aliquot_id: i64) -> Result<ExplainChain> {
     let history = engine::value_history(db, aliquot_id)?;
     let version = values.iter().map(|v| v.calibration_version).max();
     let cal = match version {
-        Some(v) => Some(calibration::get(db, v)?),
+        Some(v) => Some(crate::lab::calibrations::get(db, v)?),
         None => None,
     };
     let mut chain = Vec::new();
@@ -412,7 +412,7 @@ mod tests {
     /// printed as it is would then carry the key twice, and through a `Value` lose one.
     #[test]
     fn the_typed_views_add_no_key_their_rows_already_have() -> Result<()> {
-        let mut store = crate::store::Store::in_memory("tester")?;
+        let mut store = crate::lab::in_memory("tester")?;
         crate::demo::build(&mut store, None, |_, _| {})?;
         let shelled = model::list_batches(&store.conn)?
             .into_iter()

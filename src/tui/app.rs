@@ -7,7 +7,7 @@ use super::keys::{Action, KeyMap, Scope};
 use super::picker::Picker;
 use super::{shelf, units};
 use crate::bench::{self, SpectrumFile};
-use crate::derive::{calibration, engine};
+use crate::derive::engine;
 use crate::report::plot::SeriesItem;
 use crate::search::{self, Facts, Hit};
 use crate::store::{Store, model};
@@ -336,7 +336,7 @@ pub struct App {
     pub aliquot_selected: usize,
     /// Batches whose product values or vial concentrations are stale (the batch list marks them).
     pub stale_batches: std::collections::HashSet<i64>,
-    pub calibrations: Vec<calibration::CalibrationVersion>,
+    pub calibrations: Vec<crate::lab::calibrations::CalibrationVersion>,
     pub preview: Option<engine::RecomputeReport>,
     pub trail: Vec<model::AuditRow>,
     pub trail_selected: usize,
@@ -507,7 +507,7 @@ impl App {
                 self.vial_selected = self.vials.len().saturating_sub(1);
             }
             self.stale_batches = engine::stale_batches(&self.store.conn)?;
-            self.calibrations = calibration::history(&self.store.conn)?;
+            self.calibrations = crate::lab::calibrations::history(&self.store.conn)?;
             self.load_trail()?;
             if let Some(id) = self.sheet.as_ref().and_then(|s| s["id"].as_i64()) {
                 match self.open_sheet(id) {
@@ -733,7 +733,7 @@ impl App {
                     self.reload();
                 }
             }
-            Ok(Some(what)) => match self.store.reopen() {
+            Ok(Some(what)) => match crate::lab::reopen(&self.store) {
                 Ok(s) => {
                     self.store = s;
                     if !matches!(self.mode, Mode::Normal | Mode::Help) {

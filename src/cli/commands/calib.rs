@@ -50,7 +50,7 @@ pub(super) fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
     };
     match c {
         CalibCmd::List(f) | CalibCmd::History(f) => {
-            let h = store.read(|tx| calibration::history(tx))?;
+            let h = store.read(|tx| crate::lab::calibrations::history(tx))?;
             if f.json {
                 return json(&h);
             }
@@ -63,8 +63,8 @@ pub(super) fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
         }
         CalibCmd::Show { version, json: j } => {
             let v = store.read(|tx| match version {
-                Some(v) => calibration::get(tx, *v),
-                None => calibration::latest(tx),
+                Some(v) => crate::lab::calibrations::get(tx, *v),
+                None => crate::lab::calibrations::latest(tx),
             })?;
             if *j {
                 return json(&v);
