@@ -436,7 +436,7 @@ pub fn measure_vial(store: &mut Store, vial: i64, abs: &Path, dilution: f64, pat
         ns.dilution_factor = Some(dilution);
         ns.path_cm = Some(path_cm);
         let sid = model::insert_spectrum(tx, who, &ns)?;
-        let version = engine::effective_calibration_version(tx, v.batch_id)?;
+        let version = crate::store::values::effective_calibration_version(tx, v.batch_id)?;
         let cal = crate::lab::calibrations::get(tx, version)?;
         let stored = model::get_spectrum(tx, sid)?;
         let (r, values, conc) = engine::vial_measured(&stored, &core, dilution, path_cm, version, &cal.body)?;

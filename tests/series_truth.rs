@@ -174,7 +174,7 @@ fn summaries(store: &Store, b: i64) -> Vec<g::AliquotSummary> {
 }
 
 fn value(store: &Store, a: i64, q: &str) -> Option<f64> {
-    engine::current_values(&store.conn, a)
+    cuvette::store::values::current_values(&store.conn, a)
         .unwrap()
         .into_iter()
         .find(|v| v.quantity == q)
@@ -245,7 +245,7 @@ fn recomputing_a_reassigned_series_twice_changes_nothing() {
     let before: Vec<Vec<(String, Option<f64>)>> = ids
         .iter()
         .map(|a| {
-            engine::current_values(&store.conn, *a)
+            cuvette::store::values::current_values(&store.conn, *a)
                 .unwrap()
                 .into_iter()
                 .map(|v| (v.quantity, v.value))
@@ -270,7 +270,7 @@ fn recomputing_a_reassigned_series_twice_changes_nothing() {
     let after: Vec<Vec<(String, Option<f64>)>> = ids
         .iter()
         .map(|a| {
-            engine::current_values(&store.conn, *a)
+            cuvette::store::values::current_values(&store.conn, *a)
                 .unwrap()
                 .into_iter()
                 .map(|v| (v.quantity, v.value))

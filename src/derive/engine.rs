@@ -20,8 +20,8 @@ use crate::spectra::analysis::{self, AbsResult, PlResult};
 use crate::spectra::{RawSpectrum, Trace};
 use crate::store::check::Problem;
 use crate::store::model::{AliquotRow, SpectrumRow, StoredVialConcentration, VialConcentration};
-use crate::store::now;
-use rusqlite::{Connection, OptionalExtension, params};
+use crate::store::values::{self, StoredValue};
+use crate::store::{Db, now};
 use serde::Serialize;
 use sha2::{Digest, Sha256};
 use std::collections::{BTreeMap, HashMap};
@@ -171,7 +171,7 @@ impl BatchContext {
 
 /// Reads the batch context of a batch: its material's shell and, when shelled, the parent
 /// batch's product diameter.
-pub fn batch_context(conn: &Connection, batch_id: i64) -> Result<BatchContext> {
+pub fn batch_context(conn: &Db, batch_id: i64) -> Result<BatchContext> {
     let b = crate::store::model::get_batch(conn, batch_id)?;
     let shell = crate::store::model::material_by_name(conn, &b.material)?
         .shell
@@ -185,14 +185,9 @@ pub fn batch_context(conn: &Connection, batch_id: i64) -> Result<BatchContext> {
         return Ok(ctx);
     }
     if let (Some(pid), Some("shell") | None) = (b.parent_batch_id, b.parent_relation.as_deref()) {
-        let aliquot: Option<i64> = conn
-            .query_row("SELECT aliquot_id FROM batch_product WHERE batch_id = ?1", [pid], |r| {
-                r.get(0)
-            })
-            .optional()?
-            .flatten();
+        let aliquot = values::product_aliquot(conn, pid)?;
         let d = match aliquot {
-            Some(aid) => current_values(conn, aid)?
+            Some(aid) => values::current_values(conn, aid)?
                 .into_iter()
                 .find(|v| v.quantity == "diameter_nm"),
             None => None,
@@ -1128,71 +1123,6 @@ fn expected_hash<'a>(quantity: &str, stage1: &'a str, full: &'a str) -> &'a str 
     if SPECTRAL.contains(&quantity) { stage1 } else { full }
 }
 
-/// A stored derived value.
-#[derive(Debug, Clone, Serialize)]
-pub struct StoredValue {
-    pub id: i64,
-    pub aliquot_id: i64,
-    pub quantity: String,
-    pub value: Option<f64>,
-    pub unit: String,
-    pub method: String,
-    pub calibration_version: i64,
-    pub inputs_hash: String,
-    pub warnings: Vec<String>,
-    pub computed_at: String,
-    pub superseded_at: Option<String>,
-    pub stale: bool,
-}
-
-const VALUE_COLS: &str = "id, aliquot_id, quantity, value, unit, method, calibration_version, inputs_hash, warnings, computed_at, superseded_at, stale";
-
-fn value_from(r: &rusqlite::Row) -> rusqlite::Result<StoredValue> {
-    let w: String = r.get(8)?;
-    Ok(StoredValue {
-        id: r.get(0)?,
-        aliquot_id: r.get(1)?,
-        quantity: r.get(2)?,
-        value: r.get(3)?,
-        unit: r.get(4)?,
-        method: r.get(5)?,
-        calibration_version: r.get(6)?,
-        inputs_hash: r.get(7)?,
-        warnings: serde_json::from_str(&w).unwrap_or_default(),
-        computed_at: r.get(9)?,
-        superseded_at: r.get(10)?,
-        stale: r.get(11)?,
-    })
-}
-
-pub fn current_values(conn: &Connection, aliquot_id: i64) -> Result<Vec<StoredValue>> {
-    let mut st = conn.prepare_cached(&format!(
-        "SELECT {VALUE_COLS} FROM derived_value WHERE aliquot_id = ?1 AND superseded_at IS NULL ORDER BY id"
-    ))?;
-    let rows = st.query_map([aliquot_id], value_from)?;
-    Ok(rows.collect::<rusqlite::Result<_>>()?)
-}
-
-pub fn value_history(conn: &Connection, aliquot_id: i64) -> Result<Vec<StoredValue>> {
-    let mut st = conn.prepare(&format!(
-        "SELECT {VALUE_COLS} FROM derived_value WHERE aliquot_id = ?1 AND superseded_at IS NOT NULL ORDER BY id"
-    ))?;
-    let rows = st.query_map([aliquot_id], value_from)?;
-    Ok(rows.collect::<rusqlite::Result<_>>()?)
-}
-
-/// The calibration an aliquot's batch uses: its pinned version, else the latest.
-pub fn effective_calibration_version(conn: &Connection, batch_id: i64) -> Result<i64> {
-    let pinned: Option<i64> =
-        conn.query_row("SELECT pinned_calibration FROM batch WHERE id = ?1", [batch_id], |r| {
-            r.get(0)
-        })?;
-    match pinned {
-        Some(v) => Ok(v),
-        None => Ok(conn.query_row("SELECT MAX(version) FROM calibration", [], |r| r.get(0))?),
-    }
-}
-
 fn same(a: Option<f64>, b: Option<f64>) -> bool {
     match (a, b) {
         (None, None) => true,
@@ -1204,7 +1134,7 @@ fn same(a: Option<f64>, b: Option<f64>) -> bool {
 /// Writes the new values of one aliquot: unchanged numbers are re-stamped in place, changed
 /// ones supersede the old row (kept as history). Returns how many values changed.
 fn apply(
-    tx: &Connection,
+    tx: &Db,
     aliquot_id: i64,
     version: i64,
     stage1_hash: &str,
@@ -1226,31 +1156,33 @@ fn apply(
                     && !o.stale
                     && o.warnings == v.warnings => {}
             Some(o) if same(o.value, v.value) && o.method == v.method => {
-                let w = serde_json::to_string(&v.warnings)?;
-                tx.prepare_cached(
-                    "UPDATE derived_value SET inputs_hash = ?1, calibration_version = ?2, computed_at = ?3, stale = 0, warnings = ?4 WHERE id = ?5",
-                )?
-                .execute(params![hash, version, t, w, o.id])?;
+                values::restamp_value(tx, o.id, hash, version, &t, &v.warnings)?;
             }
             other => {
-                let w = serde_json::to_string(&v.warnings)?;
                 if let Some(o) = other {
-                    tx.prepare_cached("UPDATE derived_value SET superseded_at = ?1 WHERE id = ?2")?
-                        .execute(params![t, o.id])?;
+                    values::supersede_value(tx, o.id, &t)?;
                 }
-                tx.prepare_cached(
-                    "INSERT INTO derived_value (aliquot_id, quantity, value, unit, method, calibration_version, inputs_hash, warnings, computed_at)
-                     VALUES (?1,?2,?3,?4,?5,?6,?7,?8,?9)",
-                )?
-                .execute(params![aliquot_id, v.quantity, v.value, v.unit, v.method, version, hash, w, t])?;
+                values::insert_value(
+                    tx,
+                    &values::NewValue {
+                        aliquot_id,
+                        quantity: &v.quantity,
+                        value: v.value,
+                        unit: &v.unit,
+                        method: &v.method,
+                        calibration_version: version,
+                        inputs_hash: hash,
+                        warnings: &v.warnings,
+                        computed_at: &t,
+                    },
+                )?;
                 changed += 1;
             }
         }
     }
     for o in old {
         if !new.iter().any(|v| v.quantity == o.quantity) {
-            tx.prepare_cached("UPDATE derived_value SET superseded_at = ?1 WHERE id = ?2")?
-                .execute(params![t, o.id])?;
+            values::supersede_value(tx, o.id, &t)?;
             changed += 1;
         }
     }
@@ -1274,12 +1206,12 @@ fn count_changes(new: &[Derived], old: &[StoredValue]) -> usize {
 
 /// Derives (or re-derives) one aliquot now, inside the caller's transaction, then looks at its
 /// growth series again: its reading can move its neighbours' second looks (see [`series_pass`]).
-pub fn derive_aliquot(tx: &Connection, aliquot_id: i64) -> Result<Vec<Derived>> {
-    let old = current_values(tx, aliquot_id)?;
+pub fn derive_aliquot(tx: &Db, aliquot_id: i64) -> Result<Vec<Derived>> {
+    let old = values::current_values(tx, aliquot_id)?;
     let values = derive_aliquot_with(tx, aliquot_id, stored_series_hint(&old).as_ref())?;
     let a = crate::store::model::get_aliquot(tx, aliquot_id)?;
     if series_pass(tx, a.batch_id)? > 0 {
-        return Ok(current_values(tx, aliquot_id)?
+        return Ok(values::current_values(tx, aliquot_id)?
             .into_iter()
             .map(|o| Derived {
                 quantity: o.quantity,
@@ -1294,10 +1226,10 @@ pub fn derive_aliquot(tx: &Connection, aliquot_id: i64) -> Result<Vec<Derived>> 
 }
 
 /// Derives one aliquot with the range its growth series gives (None: no second look).
-fn derive_aliquot_with(tx: &Connection, aliquot_id: i64, hint: Option<&SeriesHint>) -> Result<Vec<Derived>> {
+fn derive_aliquot_with(tx: &Db, aliquot_id: i64, hint: Option<&SeriesHint>) -> Result<Vec<Derived>> {
     let a = crate::store::model::get_aliquot(tx, aliquot_id)?;
     let batch = crate::store::model::get_batch(tx, a.batch_id)?;
-    let version = effective_calibration_version(tx, a.batch_id)?;
+    let version = values::effective_calibration_version(tx, a.batch_id)?;
     let cal = crate::lab::calibrations::get(tx, version)?.body;
     let spectra = crate::store::model::spectra_of_aliquot(tx, aliquot_id)?;
     let metas: Vec<SpectrumMeta> = spectra.iter().map(SpectrumMeta::from).collect();
@@ -1305,7 +1237,7 @@ fn derive_aliquot_with(tx: &Connection, aliquot_id: i64, hint: Option<&SeriesHin
     let hash = inputs_hash(&a, &batch.core, &metas, &cal, &ctx);
     let stage1 = analysis_hash(&metas, &cal);
     let comp = compute_in_series(&a, &batch.core, &spectra, &cal, &ctx, hint);
-    let old = current_values(tx, aliquot_id)?;
+    let old = values::current_values(tx, aliquot_id)?;
     apply(tx, aliquot_id, version, &stage1, &hash, &comp.values, &old)?;
     follow_parent_cores(tx, Some(a.batch_id))?;
     Ok(comp.values)
@@ -1316,12 +1248,12 @@ fn derive_aliquot_with(tx: &Connection, aliquot_id: i64, hint: Option<&SeriesHin
 /// the pass does not depend on the order aliquots were derived in, and a second pass finds
 /// nothing to do. Runs inside the caller's transaction after any aliquot of the batch is
 /// (re)derived; each aliquot it derives again is recorded in the audit log. Returns how many.
-pub fn series_pass(tx: &Connection, batch_id: i64) -> Result<usize> {
+pub fn series_pass(tx: &Db, batch_id: i64) -> Result<usize> {
     let aliquots = crate::store::model::all_aliquots_of(tx, batch_id)?;
     let mut points = Vec::new();
     let mut stored: Vec<(i64, Option<SeriesHint>)> = Vec::new();
     for a in &aliquots {
-        let vals = current_values(tx, a.id)?;
+        let vals = values::current_values(tx, a.id)?;
         if vals.is_empty() {
             continue;
         }
@@ -1357,7 +1289,7 @@ pub fn series_pass(tx: &Connection, batch_id: i64) -> Result<usize> {
             continue;
         }
         derive_aliquot_with(tx, id, want)?;
-        let now = current_values(tx, id)?;
+        let now = values::current_values(tx, id)?;
         let get = |q: &str| now.iter().find(|v| v.quantity == q).and_then(|v| v.value);
         crate::store::audit(
             tx,
@@ -1389,23 +1321,16 @@ pub fn series_pass(tx: &Connection, batch_id: i64) -> Result<usize> {
 /// that moves (a new or corrected aliquot, another product), they are derived again. With
 /// `parent` None every shelled batch is looked at (after a recompute). Returns how many
 /// aliquots were derived again.
-pub fn follow_parent_cores(tx: &Connection, parent: Option<i64>) -> Result<usize> {
-    let children: Vec<i64> = {
-        let mut st = tx.prepare_cached(
-            "SELECT b.id FROM batch b JOIN material m ON m.id = b.material_id
-              WHERE m.shell IS NOT NULL AND m.shell <> '' AND b.parent_batch_id IS NOT NULL
-                AND (?1 IS NULL OR b.parent_batch_id = ?1) ORDER BY b.id",
-        )?;
-        st.query_map([parent], |r| r.get(0))?.collect::<rusqlite::Result<_>>()?
-    };
+pub fn follow_parent_cores(tx: &Db, parent: Option<i64>) -> Result<usize> {
+    let children = values::shelled_children(tx, parent)?;
     let mut n = 0;
     for child in children {
         let batch = crate::store::model::get_batch(tx, child)?;
         let ctx = batch_context(tx, child)?;
-        let version = effective_calibration_version(tx, child)?;
+        let version = values::effective_calibration_version(tx, child)?;
         let cal = crate::lab::calibrations::get(tx, version)?.body;
         for a in crate::store::model::all_aliquots_of(tx, child)? {
-            let old = current_values(tx, a.id)?;
+            let old = values::current_values(tx, a.id)?;
             if old.is_empty() {
                 continue;
             }
@@ -1508,7 +1433,7 @@ struct Scanner {
 }
 
 impl Scanner {
-    fn new(conn: &Connection) -> Result<Scanner> {
+    fn new(conn: &Db) -> Result<Scanner> {
         Ok(Scanner {
             latest: crate::lab::calibrations::latest(conn)?.version,
             after: 0,
@@ -1519,43 +1444,31 @@ impl Scanner {
         })
     }
 
-    fn next_chunk(&mut self, conn: &Connection) -> Result<Option<Chunk>> {
-        let chunk: Vec<(AliquotRow, String, i64)> = {
-            let mut st = conn.prepare_cached(
-                "SELECT a.id, a.batch_id, a.minutes, a.stage, a.dilution_factor, a.path_cm, a.solvent, a.taken_at,
-                        a.voided_at, a.void_why, m.core, COALESCE(b.pinned_calibration, ?1)
-                 FROM aliquot a JOIN batch b ON b.id = a.batch_id JOIN material m ON m.id = b.material_id
-                 WHERE a.id > ?2 ORDER BY a.id LIMIT ?3",
-            )?;
-            let rows = st.query_map(params![self.latest, self.after, CHUNK], |r| {
-                Ok((crate::store::model::aliquot_from(r)?, r.get(10)?, r.get(11)?))
-            })?;
-            rows.collect::<rusqlite::Result<_>>()?
-        };
+    fn next_chunk(&mut self, conn: &Db) -> Result<Option<Chunk>> {
+        let chunk = values::aliquots_after(conn, self.latest, self.after, CHUNK)?;
         let (Some(first), Some(last)) = (chunk.first(), chunk.last()) else {
             return Ok(None);
         };
-        let (lo, hi) = (first.0.id, last.0.id);
+        let (lo, hi) = (first.aliquot.id, last.aliquot.id);
         self.after = hi;
         let mut metas_by: HashMap<i64, Vec<SpectrumMeta>> = HashMap::new();
-        {
-            let mut st = conn.prepare_cached(
-                "SELECT aliquot_id, kind, sha256, excitation_nm, x_unit, path_cm, dilution_factor FROM spectrum INDEXED BY spectrum_meta_cuvette WHERE aliquot_id BETWEEN ?1 AND ?2 ORDER BY aliquot_id, id",
-            )?;
-            let mut rows = st.query(params![lo, hi])?;
-            while let Some(r) = rows.next()? {
-                metas_by.entry(r.get(0)?).or_default().push(SpectrumMeta {
-                    kind: r.get(1)?,
-                    sha256: r.get(2)?,
-                    excitation_nm: r.get(3)?,
-                    x_unit: r.get(4)?,
-                    path_cm: r.get(5)?,
-                    dilution_factor: r.get(6)?,
-                });
-            }
+        for r in values::spectrum_metas_between(conn, lo, hi)? {
+            metas_by.entry(r.aliquot_id).or_default().push(SpectrumMeta {
+                kind: r.kind,
+                sha256: r.sha256,
+                excitation_nm: r.excitation_nm,
+                x_unit: r.x_unit,
+                path_cm: r.path_cm,
+                dilution_factor: r.dilution_factor,
+            });
         }
         let mut expected = Vec::with_capacity(chunk.len());
-        for (a, core, version) in chunk {
+        for values::ScannedAliquot {
+            aliquot: a,
+            core,
+            calibration_version: version,
+        } in chunk
+        {
             if let std::collections::btree_map::Entry::Vacant(e) = self.cals.entry(version) {
                 e.insert(crate::lab::calibrations::get(conn, version)?.body);
             }
@@ -1586,23 +1499,14 @@ impl Scanner {
         let mut has_values = vec![false; expected.len()];
         let mut stale_rows = vec![false; expected.len()];
         let mut flagged = vec![false; expected.len()];
-        {
-            let mut st = conn.prepare_cached(
-                "SELECT aliquot_id, quantity, inputs_hash, stale FROM derived_value WHERE superseded_at IS NULL AND aliquot_id BETWEEN ?1 AND ?2",
-            )?;
-            let mut rows = st.query(params![lo, hi])?;
-            while let Some(r) = rows.next()? {
-                let id: i64 = r.get(0)?;
-                let Some(&i) = index.get(&id) else { continue };
-                has_values[i] = true;
-                flagged[i] |= r.get::<_, bool>(3)?;
-                if !stale_rows[i] {
-                    let q = r.get_ref(1)?.as_str().unwrap_or("");
-                    let h = r.get_ref(2)?.as_str().unwrap_or("");
-                    stale_rows[i] = h != expected_hash(q, &expected[i].3, &expected[i].4);
-                }
+        values::current_hashes_between(conn, lo, hi, |id, q, h, stale| {
+            let Some(&i) = index.get(&id) else { return };
+            has_values[i] = true;
+            flagged[i] |= stale;
+            if !stale_rows[i] {
+                stale_rows[i] = h != expected_hash(q, &expected[i].3, &expected[i].4);
             }
-        }
+        })?;
         Ok(Some(Chunk {
             lo,
             hi,
@@ -1629,7 +1533,7 @@ struct Work {
 /// Recomputes stale values (all with `all`); a dry run only reports. Streams aliquots so
 /// memory stays bounded whatever the size of the lab. `progress` gets (done, total).
 pub fn recompute(
-    conn: &Connection,
+    conn: &Db,
     all: bool,
     dry_run: bool,
     mut progress: impl FnMut(usize, usize),
@@ -1638,9 +1542,9 @@ pub fn recompute(
         dry_run,
         ..Default::default()
     };
-    let total: i64 = conn.query_row("SELECT count(*) FROM aliquot", [], |r| r.get(0))?;
+    let total = values::aliquot_count(conn)?;
     let thresholds = search_thresholds(conn)?;
-    let products = product_aliquots(conn)?;
+    let products = values::product_aliquots(conn)?;
     let mut moves: Vec<Move> = Vec::new();
     // Batches with a value that moved: their growth series is looked at again afterwards.
     let mut touched: std::collections::BTreeSet<i64> = std::collections::BTreeSet::new();
@@ -1679,12 +1583,7 @@ pub fn recompute(
         let many = candidates.len() * 5 > CHUNK as usize * 3;
         let mut olds_by: HashMap<i64, Vec<StoredValue>> = HashMap::new();
         if many {
-            let mut st = conn.prepare_cached(&format!(
-                "SELECT {VALUE_COLS} FROM derived_value WHERE superseded_at IS NULL AND aliquot_id BETWEEN ?1 AND ?2 ORDER BY aliquot_id, id"
-            ))?;
-            let rows = st.query_map(params![lo, hi], value_from)?;
-            for v in rows {
-                let v = v?;
+            for v in values::current_values_between(conn, lo, hi)? {
                 olds_by.entry(v.aliquot_id).or_default().push(v);
             }
         }
@@ -1694,7 +1593,7 @@ pub fn recompute(
             let old = if many {
                 olds_by.remove(&a.id).unwrap_or_default()
             } else {
-                current_values(conn, a.id)?
+                values::current_values(conn, a.id)?
             };
             // Stage one is kept when the spectra and the analysis settings are unchanged: then no
             // spectrum is read at all. `--all` redoes both stages.
@@ -1833,11 +1732,7 @@ pub fn recompute(
         // Second looks follow the readings they rest on. With `all`, every batch is looked at,
         // so a lab whose values predate series awareness gets its second looks.
         if all {
-            let mut st = conn.prepare("SELECT id FROM batch ORDER BY id")?;
-            let ids = st.query_map([], |r| r.get::<_, i64>(0))?;
-            for id in ids {
-                touched.insert(id?);
-            }
+            touched.extend(values::batch_ids(conn)?);
         }
         for b in touched {
             report.changed += series_pass(conn, b)?;
@@ -1862,10 +1757,10 @@ fn sort_moves(m: &mut [Move]) {
 /// Changes the latest calibration with `f`, saves it as a new version (validated; refused with
 /// nothing changed if wrong) and marks the values it makes stale. Returns (version, stale count).
 pub fn change_calibration(
-    tx: &Connection,
+    tx: &Db,
     who: &str,
     why: &str,
-    f: &dyn Fn(&Connection, &mut Calibration) -> Result<()>,
+    f: &dyn Fn(&Db, &mut Calibration) -> Result<()>,
 ) -> Result<(i64, usize)> {
     let mut body = crate::lab::calibrations::latest(tx)?.body;
     f(tx, &mut body)?;
@@ -1874,17 +1769,11 @@ pub fn change_calibration(
 }
 
 /// What a vial concentration estimated from its batch's product aliquot should be now.
-fn vial_estimate(conn: &Connection, batch_id: i64) -> Result<Option<VialConcentration>> {
-    let product: Option<i64> = conn
-        .query_row(
-            "SELECT aliquot_id FROM batch_product WHERE batch_id = ?1",
-            [batch_id],
-            |r| r.get(0),
-        )
-        .optional()?
-        .flatten();
-    let Some(aid) = product else { return Ok(None) };
-    let Some(v) = current_values(conn, aid)?
+fn vial_estimate(conn: &Db, batch_id: i64) -> Result<Option<VialConcentration>> {
+    let Some(aid) = values::product_aliquot(conn, batch_id)? else {
+        return Ok(None);
+    };
+    let Some(v) = values::current_values(conn, aid)?
         .into_iter()
         .find(|v| v.quantity == "concentration_molar")
     else {
@@ -1952,7 +1841,7 @@ pub fn vial_measured(
 
 /// What a vial's derived concentration should be now, given its current row.
 fn vial_expected(
-    conn: &Connection,
+    conn: &Db,
     row: &StoredVialConcentration,
     cals: &mut BTreeMap<i64, Calibration>,
 ) -> Result<Option<VialConcentration>> {
@@ -1963,7 +1852,7 @@ fn vial_expected(
             let Some(sid) = row.c.spectrum_id else { return Ok(None) };
             let s = crate::store::model::vial_spectrum(conn, sid)?;
             let core = crate::store::model::get_batch(conn, vial.batch_id)?.core;
-            let version = effective_calibration_version(conn, vial.batch_id)?;
+            let version = values::effective_calibration_version(conn, vial.batch_id)?;
             if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
                 e.insert(crate::lab::calibrations::get(conn, version)?.body);
             }
@@ -1984,7 +1873,7 @@ fn vial_expected(
 
 /// Recomputes the measured and estimated vial concentrations (of one batch, or all); a dry run
 /// only counts. Returns (considered, changed).
-pub fn refresh_vials(conn: &Connection, batch: Option<i64>, dry_run: bool) -> Result<(usize, usize)> {
+pub fn refresh_vials(conn: &Db, batch: Option<i64>, dry_run: bool) -> Result<(usize, usize)> {
     // A batch's product may have moved (the reason to refresh its vials): its shelled children
     // follow their core.
     if let (Some(b), false) = (batch, dry_run) {
@@ -2017,7 +1906,7 @@ pub fn refresh_vials(conn: &Connection, batch: Option<i64>, dry_run: bool) -> Re
 
 /// Flags vial concentrations whose inputs moved (a calibration change, a recomputed or voided
 /// product aliquot). Returns how many flags changed.
-pub fn mark_vials_stale(tx: &Connection) -> Result<usize> {
+pub fn mark_vials_stale(tx: &Db) -> Result<usize> {
     let mut n = 0;
     let latest = crate::lab::calibrations::latest(tx)?.version;
     let mut cals: BTreeMap<i64, Calibration> = BTreeMap::new();
@@ -2027,34 +1916,24 @@ pub fn mark_vials_stale(tx: &Connection) -> Result<usize> {
             "estimate" => match vial_estimate(tx, vial.batch_id)? {
                 None => true,
                 Some(e) => {
-                    let src_stale: bool = tx
-                        .query_row(
-                            "SELECT stale FROM derived_value WHERE aliquot_id = ?1 AND quantity = 'concentration_molar' AND superseded_at IS NULL",
-                            [e.aliquot_id.unwrap_or(0)],
-                            |r| r.get(0),
-                        )
-                        .optional()?
+                    let src_stale = values::current_stale_flag(tx, e.aliquot_id.unwrap_or(0), "concentration_molar")?
                         .unwrap_or(false);
                     e.inputs_hash != row.c.inputs_hash || src_stale
                 }
             },
             _ => {
                 let Some(sid) = row.c.spectrum_id else { continue };
-                let (sha, x_unit, dil, path): (String, String, Option<f64>, Option<f64>) = tx.query_row(
-                    "SELECT sha256, x_unit, dilution_factor, path_cm FROM spectrum WHERE id = ?1",
-                    [sid],
-                    |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?)),
-                )?;
+                let s = values::spectrum_hash_inputs(tx, sid)?;
                 let b = crate::store::model::get_batch(tx, vial.batch_id)?;
                 let version = b.pinned_calibration.unwrap_or(latest);
                 if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
                     e.insert(crate::lab::calibrations::get(tx, version)?.body);
                 }
                 let h = vial_measure_hash(
-                    &sha,
-                    &x_unit,
-                    dil.unwrap_or(1.0),
-                    path.unwrap_or(1.0),
+                    &s.sha256,
+                    &s.x_unit,
+                    s.dilution_factor.unwrap_or(1.0),
+                    s.path_cm.unwrap_or(1.0),
                     &b.core,
                     &cals[&version],
                 );
@@ -2069,47 +1948,29 @@ pub fn mark_vials_stale(tx: &Connection) -> Result<usize> {
 }
 
 /// Marks current values whose inputs no longer match as stale (cheap: no spectrum is read).
-pub fn mark_stale(tx: &Connection) -> Result<usize> {
-    let spectral = SPECTRAL.iter().map(|q| format!("'{q}'")).collect::<Vec<_>>().join(",");
-    let sql = format!(
-        "UPDATE derived_value SET stale = NOT (inputs_hash = CASE WHEN quantity IN ({spectral}) THEN ?3 ELSE ?1 END)
-         WHERE aliquot_id = ?2 AND superseded_at IS NULL AND stale <> NOT (inputs_hash = CASE WHEN quantity IN ({spectral}) THEN ?3 ELSE ?1 END)"
-    );
+pub fn mark_stale(tx: &Db) -> Result<usize> {
     let mut scan = Scanner::new(tx)?;
     let mut n = 0;
     while let Some(c) = scan.next_chunk(tx)? {
         // Only aliquots with a differing hash or a flag already set can change.
-        for (i, (a, _, _, stage1, hash, _)) in c.expected.iter().enumerate() {
-            if c.stale_rows[i] || c.flagged[i] {
-                n += tx.prepare_cached(&sql)?.execute(params![hash, a.id, stage1])?;
-            }
-        }
+        let rows: Vec<(i64, &str, &str)> = c
+            .expected
+            .iter()
+            .enumerate()
+            .filter(|(i, _)| c.stale_rows[*i] || c.flagged[*i])
+            .map(|(_, (a, _, _, stage1, hash, _))| (a.id, hash.as_str(), stage1.as_str()))
+            .collect();
+        n += values::flag_stale_values(tx, SPECTRAL, &rows)?;
     }
     Ok(n + mark_vials_stale(tx)?)
 }
 
 /// (field, quantity, threshold) pairs people have searched by.
-pub fn search_thresholds(conn: &Connection) -> Result<Vec<(String, String, f64)>> {
-    let mut st = conn.prepare("SELECT field, value FROM search_threshold ORDER BY field, value")?;
-    let rows = st.query_map([], |r| Ok((r.get::<_, String>(0)?, r.get::<_, f64>(1)?)))?;
+pub fn search_thresholds(conn: &Db) -> Result<Vec<(String, String, f64)>> {
     let mut out = Vec::new();
-    for row in rows {
-        let (f, v) = row?;
+    for (f, v) in values::search_thresholds(conn)? {
         if let Some((_, q)) = THRESHOLD_FIELDS.iter().find(|(k, _)| *k == f) {
             out.push((f, q.to_string(), v));
-        }
-    }
-    Ok(out)
-}
-
-/// Each batch's product aliquot, by the one rule (the `batch_product` view of schema 0005).
-pub fn product_aliquots(conn: &Connection) -> Result<std::collections::HashSet<i64>> {
-    let mut st = conn.prepare("SELECT aliquot_id FROM batch_product")?;
-    let rows = st.query_map([], |r| r.get::<_, Option<i64>>(0))?;
-    let mut out = std::collections::HashSet::new();
-    for r in rows {
-        if let Some(id) = r? {
-            out.insert(id);
         }
     }
     Ok(out)
@@ -2118,7 +1979,7 @@ pub fn product_aliquots(conn: &Connection) -> Result<std::collections::HashSet<i
 /// After a correction to an aliquot (a void, a reinstatement, an edit, a spectrum moved): its
 /// values are derived again from what it holds now, and the vials whose concentration is
 /// estimated from its batch's product follow. Inside the caller's transaction.
-pub fn after_correction(tx: &Connection, aliquot_id: i64) -> Result<()> {
+pub fn after_correction(tx: &Db, aliquot_id: i64) -> Result<()> {
     let a = crate::store::model::get_aliquot(tx, aliquot_id)?;
     derive_aliquot(tx, aliquot_id)?;
     refresh_vials(tx, Some(a.batch_id), false)?;
@@ -2131,11 +1992,8 @@ pub const CHECK_SAMPLE: usize = 200;
 /// Recomputes a sample of aliquots (every one with `deep`) and the derived vial concentrations
 /// from their stored inputs, and reports every current value that is not flagged stale yet
 /// differs from what its inputs give now. Returns (aliquots checked, problems).
-pub fn verify_values(conn: &Connection, deep: bool) -> Result<(usize, Vec<Problem>)> {
-    let ids: Vec<i64> = {
-        let mut st = conn.prepare("SELECT id FROM aliquot ORDER BY id")?;
-        st.query_map([], |r| r.get(0))?.collect::<rusqlite::Result<_>>()?
-    };
+pub fn verify_values(conn: &Db, deep: bool) -> Result<(usize, Vec<Problem>)> {
+    let ids = values::aliquot_ids(conn)?;
     let step = if deep || ids.len() <= CHECK_SAMPLE {
         1
     } else {
@@ -2147,7 +2005,7 @@ pub fn verify_values(conn: &Connection, deep: bool) -> Result<(usize, Vec<Proble
     let mut cals: BTreeMap<i64, Calibration> = BTreeMap::new();
     for id in ids.iter().step_by(step) {
         let a = crate::store::model::get_aliquot(conn, *id)?;
-        let old = current_values(conn, a.id)?;
+        let old = values::current_values(conn, a.id)?;
         let Some(version) = old.iter().filter(|o| !o.stale).map(|o| o.calibration_version).max() else {
             continue;
         };
@@ -2255,7 +2113,7 @@ pub fn verify_values(conn: &Connection, deep: bool) -> Result<(usize, Vec<Proble
 
 /// Gives a new vial without a figure of its own the estimate carried over from its batch's
 /// product aliquot, labelled as an estimate. Returns whether there was one to give.
-pub fn estimate_vial(tx: &Connection, vial_id: i64) -> Result<bool> {
+pub fn estimate_vial(tx: &Db, vial_id: i64) -> Result<bool> {
     let v = crate::store::model::get_vial(tx, vial_id)?;
     match vial_estimate(tx, v.batch_id)? {
         Some(e) if e.value.is_some() => {
@@ -2268,7 +2126,7 @@ pub fn estimate_vial(tx: &Connection, vial_id: i64) -> Result<bool> {
 
 /// Recomputes and records it in the audit log: the one way both faces apply a recompute.
 pub fn recompute_recorded(
-    tx: &Connection,
+    tx: &Db,
     who: &str,
     all: bool,
     progress: impl FnMut(usize, usize),
@@ -2287,18 +2145,6 @@ pub fn recompute_recorded(
         ),
     )?;
     Ok(r)
-}
-
-/// Batches whose product values (or a vial's concentration) are stale: what the ledger marks.
-pub fn stale_batches(conn: &Connection) -> Result<std::collections::HashSet<i64>> {
-    let mut st = conn.prepare(
-        "SELECT p.batch_id FROM batch_product p JOIN derived_value d ON d.aliquot_id = p.aliquot_id
-          WHERE d.superseded_at IS NULL AND d.stale = 1
-         UNION SELECT v.batch_id FROM vial v JOIN vial_concentration c ON c.vial_id = v.id
-          WHERE c.superseded_at IS NULL AND c.stale = 1 AND v.status <> 'disposed'",
-    )?;
-    let rows = st.query_map([], |r| r.get::<_, i64>(0))?;
-    Ok(rows.collect::<rusqlite::Result<_>>()?)
 }
 
 /// A batch's reaction yield: crystals × formula units against the limiting precursor, from
@@ -2392,7 +2238,7 @@ pub fn reaction_yield_from(
 
 /// A batch's reaction yield, from the store: its product aliquot's current diameter and
 /// concentration and its recipe. A shelled batch has no crystal yield of its own.
-pub fn reaction_yield_of(conn: &Connection, batch_id: i64) -> Result<ReactionYieldView> {
+pub fn reaction_yield_of(conn: &Db, batch_id: i64) -> Result<ReactionYieldView> {
     let b = crate::store::model::get_batch(conn, batch_id)?;
     let ctx = batch_context(conn, batch_id)?;
     if let Some(sh) = &ctx.shell {
@@ -2419,18 +2265,10 @@ pub fn reaction_yield_of(conn: &Connection, batch_id: i64) -> Result<ReactionYie
             role: r.role.clone(),
         });
     }
-    let product: Option<i64> = conn
-        .query_row(
-            "SELECT aliquot_id FROM batch_product WHERE batch_id = ?1",
-            [batch_id],
-            |r| r.get(0),
-        )
-        .optional()?
-        .flatten();
-    let Some(aid) = product else {
+    let Some(aid) = values::product_aliquot(conn, batch_id)? else {
         return Ok(ReactionYieldView::none("no product aliquot".into()));
     };
-    let values = current_values(conn, aid)?;
+    let values = values::current_values(conn, aid)?;
     let get = |q: &str| values.iter().find(|v| v.quantity == q);
     let (Some(dv), Some(cv)) = (
         get("diameter_nm").and_then(|v| v.value),
@@ -2456,7 +2294,7 @@ pub fn reaction_yield_of(conn: &Connection, batch_id: i64) -> Result<ReactionYie
 /// logged as aliquots: each one's current absorbance at excitation in the PL cuvette and PL
 /// integral, against the calibration's reference series (or its single point, through the
 /// origin). Fewer than four dilutions, solvents that differ or stale values are said.
-pub fn gradient_qy(conn: &Connection, aliquot_ids: &[i64]) -> Result<qy::QyResult> {
+pub fn gradient_qy(conn: &Db, aliquot_ids: &[i64]) -> Result<qy::QyResult> {
     let g = gradient_qy_series(conn, aliquot_ids)?;
     Ok(qy::QyResult {
         qy: g.qy,
@@ -2501,7 +2339,7 @@ pub struct GradientQy {
 
 /// [`gradient_qy`] with its points, fit and reference. An aliquot named twice or void is
 /// refused.
-pub fn gradient_qy_series(conn: &Connection, aliquot_ids: &[i64]) -> Result<GradientQy> {
+pub fn gradient_qy_series(conn: &Db, aliquot_ids: &[i64]) -> Result<GradientQy> {
     if aliquot_ids.is_empty() {
         return crate::error::invalid("the gradient method needs the aliquots of a dilution series");
     }
@@ -2510,7 +2348,7 @@ pub fn gradient_qy_series(conn: &Connection, aliquot_ids: &[i64]) -> Result<Grad
         return crate::error::invalid(format!("aliquot {dup} is named twice: each dilution counts once"));
     }
     let first = crate::store::model::get_aliquot(conn, aliquot_ids[0])?;
-    let version = effective_calibration_version(conn, first.batch_id)?;
+    let version = values::effective_calibration_version(conn, first.batch_id)?;
     let cal = crate::lab::calibrations::get(conn, version)?.body;
     let r = cal
         .qy_reference
@@ -2529,7 +2367,7 @@ pub fn gradient_qy_series(conn: &Connection, aliquot_ids: &[i64]) -> Result<Grad
                 a.solvent, first.solvent
             ));
         }
-        let values = current_values(conn, *id)?;
+        let values = values::current_values(conn, *id)?;
         let get = |q: &str| values.iter().find(|v| v.quantity == q);
         let (Some(av), Some(iv)) = (
             get("abs_at_excitation_pl").and_then(|v| v.value),

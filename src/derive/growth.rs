@@ -3,9 +3,9 @@
 //! (dispersion falling, then rising: the picture of Peng, Wickham & Alivisatos, J. Am. Chem.
 //! Soc. 120, 5343 (1998)), a batch's product values, and the repeatability of a recipe version.
 
-use super::engine::current_values;
 use crate::error::Result;
 use crate::store::model;
+use crate::store::values::current_values;
 use rusqlite::Connection;
 use serde::Serialize;
 

@@ -105,6 +105,11 @@ pub fn product_concentration(conn: &Db, batch_id: i64) -> Result<Option<f64>> {
 
 pub use crate::par::parallel_map;
 
+/// Batches whose product values (or a vial's concentration) are stale: what the ledger marks.
+pub fn stale_batches(db: &Db) -> Result<std::collections::HashSet<i64>> {
+    crate::store::values::stale_batches(db)
+}
+
 /// Each derived value of an aliquot with where it came from, as `explain --json` prints it:
 /// the aliquot, its calibration, its spectra, the chain of current values and the superseded
 /// history.
@@ -126,7 +131,7 @@ pub struct ExplainChain {
     pub spectra: Vec<ExplainSpectrum>,
     /// The current values, in the order one follows from another.
     pub chain: Vec<ExplainStep>,
-    pub history: Vec<engine::StoredValue>,
+    pub history: Vec<crate::store::values::StoredValue>,
 }
 
 /// The parts of the calibration behind an aliquot's values that apply to its batch's core.
@@ -163,7 +168,7 @@ pub struct ExplainSpectrum {
 #[derive(Debug, Clone, Serialize)]
 pub struct ExplainStep {
     #[serde(flatten)]
-    pub value: engine::StoredValue,
+    pub value: crate::store::values::StoredValue,
     /// Present only for a value whose method is a sizing curve's id.
     #[serde(flatten)]
     pub curve: Option<CurveNote>,
@@ -217,8 +222,8 @@ pub fn explain_chain(db: &Db, aliquot_id: i64) -> Result<ExplainChain> {
     let a = model::get_aliquot(db, aliquot_id)?;
     let b = model::get_batch(db, a.batch_id)?;
     let spectra = model::spectra_of_aliquot(db, aliquot_id)?;
-    let values = engine::current_values(db, aliquot_id)?;
-    let history = engine::value_history(db, aliquot_id)?;
+    let values = crate::store::values::current_values(db, aliquot_id)?;
+    let history = crate::store::values::value_history(db, aliquot_id)?;
     let version = values.iter().map(|v| v.calibration_version).max();
     let cal = match version {
         Some(v) => Some(crate::lab::calibrations::get(db, v)?),

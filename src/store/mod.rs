@@ -18,6 +18,7 @@ pub mod facts;
 pub mod handover;
 pub mod model;
 pub mod search_bounds;
+pub mod values;
 
 /// The open database (a connection or a transaction) as the layers above the store hold it: they pass it to store functions and never run SQL on it.
 pub type Db = rusqlite::Connection;

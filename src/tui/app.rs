@@ -506,7 +506,7 @@ impl App {
             if self.vial_selected >= self.vials.len() {
                 self.vial_selected = self.vials.len().saturating_sub(1);
             }
-            self.stale_batches = engine::stale_batches(&self.store.conn)?;
+            self.stale_batches = crate::report::stale_batches(&self.store.conn)?;
             self.calibrations = crate::lab::calibrations::history(&self.store.conn)?;
             self.load_trail()?;
             if let Some(id) = self.sheet.as_ref().and_then(|s| s["id"].as_i64()) {
