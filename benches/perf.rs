@@ -99,7 +99,7 @@ fn lab_after_curve_change(batches: usize) -> PathBuf {
             let mut body = cuvette::lab::calibrations::latest(tx)?.body;
             body.set_curve("CdSe", "jasieniak2009");
             cuvette::lab::calibrations::save(tx, who, "bench: curve change", &body)?;
-            cuvette::derive::engine::mark_stale(tx)
+            cuvette::lab::derivation::mark_stale(tx)
         })
         .expect("change curve");
         drop(st);
@@ -131,14 +131,14 @@ fn recompute_group(c: &mut Criterion, batches: usize, label: &str) {
     g.bench_function("recompute after a curve change (dry run)", |b| {
         b.iter(|| {
             let mut st = cuvette::lab::open(&changed, "bench").expect("open");
-            st.read(|tx| cuvette::derive::engine::recompute(tx, false, true, |_, _| {}))
+            st.read(|tx| cuvette::lab::derivation::recompute(tx, false, true, |_, _| {}))
                 .expect("recompute")
         })
     });
     g.bench_function("recompute --all, spectra analysed again (dry run)", |b| {
         b.iter(|| {
             let mut st = cuvette::lab::open(&path, "bench").expect("open");
-            st.read(|tx| cuvette::derive::engine::recompute(tx, true, true, |_, _| {}))
+            st.read(|tx| cuvette::lab::derivation::recompute(tx, true, true, |_, _| {}))
                 .expect("recompute")
         })
     });

@@ -7,6 +7,7 @@
 //! either, does not do.
 
 pub mod calibrations;
+pub mod derivation;
 
 use crate::derive::calibration::Calibration;
 use crate::error::Result;

@@ -8,6 +8,7 @@ mod export;
 mod handover;
 mod outfile;
 pub mod plot;
+pub mod yields;
 
 pub use export::export;
 pub use handover::{HandoverReport, handover};
@@ -384,7 +385,7 @@ pub fn batch_sheet(db: &Db, id: i64) -> Result<BatchSheet> {
         Some(r) => cautions(r),
         None => crate::hazards::general_cautions(&b.core, false),
     };
-    let reaction_yield = engine::reaction_yield_of(db, id)?;
+    let reaction_yield = yields::reaction_yield_of(db, id)?;
     Ok(BatchSheet {
         batch: b,
         aliquots,

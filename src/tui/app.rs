@@ -7,7 +7,6 @@ use super::keys::{Action, KeyMap, Scope};
 use super::picker::Picker;
 use super::{shelf, units};
 use crate::bench::{self, SpectrumFile};
-use crate::derive::engine;
 use crate::report::plot::SeriesItem;
 use crate::search::{self, Facts, Hit};
 use crate::store::{Store, model};
@@ -238,7 +237,7 @@ pub enum Note {
     },
     Done(String),
     Failed(String),
-    Preview(engine::RecomputeReport),
+    Preview(crate::lab::derivation::RecomputeReport),
     /// What the folder watch did with an export; true when it logged it.
     Watched(String, bool),
     /// The watch has stopped (asked to, or its folder went away).
@@ -337,7 +336,7 @@ pub struct App {
     /// Batches whose product values or vial concentrations are stale (the batch list marks them).
     pub stale_batches: std::collections::HashSet<i64>,
     pub calibrations: Vec<crate::lab::calibrations::CalibrationVersion>,
-    pub preview: Option<engine::RecomputeReport>,
+    pub preview: Option<crate::lab::derivation::RecomputeReport>,
     pub trail: Vec<model::AuditRow>,
     pub trail_selected: usize,
     /// How many of the newest entries the trail has read.
@@ -811,7 +810,7 @@ impl App {
 
     /// Opens the recompute's confirmation from a fresh preview, unless nothing would change or
     /// the user is busy in a form (then the preview waits on screen for another A).
-    fn ask_to_recompute(&mut self, r: &engine::RecomputeReport) {
+    fn ask_to_recompute(&mut self, r: &crate::lab::derivation::RecomputeReport) {
         if r.stale_found == 0 && r.changed == 0 && r.vials_changed == 0 {
             self.info("nothing is stale: a recompute would change nothing");
             return;
@@ -1998,7 +1997,7 @@ impl App {
                     .store
                     .write(|tx, who| {
                         let id = model::insert_vial(tx, who, &nv)?;
-                        engine::estimate_vial(tx, id)?;
+                        crate::lab::derivation::estimate_vial(tx, id)?;
                         Ok(id)
                     })
                     .map_err(e)?;
@@ -2041,7 +2040,7 @@ impl App {
                     .store
                     .write(|tx, who| {
                         let core = model::material_by_name(tx, &m)?.core;
-                        let (v, _) = engine::change_calibration(tx, who, &why, &|_, body| {
+                        let (v, _) = crate::lab::derivation::change_calibration(tx, who, &why, &|_, body| {
                             body.set_curve(&core, &c);
                             Ok(())
                         })?;
@@ -2287,9 +2286,9 @@ impl App {
                 });
             };
             let r = if dry_run {
-                store.read(|c| engine::recompute(c, false, true, p))
+                store.read(|c| crate::lab::derivation::recompute(c, false, true, p))
             } else {
-                store.write(|c, who| engine::recompute_recorded(c, who, false, p))
+                store.write(|c, who| crate::lab::derivation::recompute_recorded(c, who, false, p))
             };
             let _ = tx.send(match r {
                 Ok(r) if dry_run => Note::Preview(r),

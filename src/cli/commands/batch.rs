@@ -4,7 +4,6 @@
 use super::open_for;
 use crate::cli::args::*;
 use crate::cli::output::{json, line, molar, num};
-use crate::derive::engine;
 use crate::store::model;
 use anyhow::Result;
 use serde_json::Value;
@@ -88,15 +87,15 @@ pub(super) fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
             let row = store.write(|tx, who| {
                 let r = model::edit_batch(tx, who, a.id, &e)?;
                 if e.pin_calibration.is_some() || e.unpin {
-                    engine::mark_stale(tx)?;
+                    crate::lab::derivation::mark_stale(tx)?;
                 }
                 if e.product_aliquot_id.is_some() {
-                    engine::refresh_vials(tx, Some(a.id), false)?;
+                    crate::lab::derivation::refresh_vials(tx, Some(a.id), false)?;
                 }
                 // A shelled batch takes its core's size from its parent's product: a new parent
                 // moves it, in this same transaction.
                 let followed = match e.parent_batch_id {
-                    Some(p) => engine::follow_parent_cores(tx, Some(p))?,
+                    Some(p) => crate::lab::derivation::follow_parent_cores(tx, Some(p))?,
                     None => 0,
                 };
                 Ok((r, followed))

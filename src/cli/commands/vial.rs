@@ -5,7 +5,6 @@ use super::{open_for, open_read};
 use crate::bench;
 use crate::cli::args::*;
 use crate::cli::output::{json, line, molar, num};
-use crate::derive::engine;
 use crate::store::{Store, model};
 use anyhow::{Result, bail};
 
@@ -65,7 +64,7 @@ pub(super) fn vial(cli: &Cli, c: &VialCmd) -> Result<()> {
                     },
                 )?;
                 if conc.is_none() {
-                    engine::estimate_vial(tx, id)?;
+                    crate::lab::derivation::estimate_vial(tx, id)?;
                 }
                 model::get_vial(tx, id)
             })?;
