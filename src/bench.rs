@@ -218,7 +218,7 @@ pub fn add_aliquot(
         // A new aliquot may be the batch's product now: its vials' estimates follow.
         crate::lab::derivation::refresh_vials(tx, Some(a.batch_id), false)?;
         let row = model::get_aliquot(tx, id)?;
-        growth::aliquot_summary(tx, &row)
+        crate::report::aliquot_summary(tx, &row)
     })
 }
 
@@ -266,7 +266,7 @@ pub fn add_series(
         let ids = log_series(tx, who, template, file, &spectra, &sha, door, None)?;
         crate::lab::derivation::refresh_vials(tx, Some(template.batch_id), false)?;
         ids.iter()
-            .map(|id| growth::aliquot_summary(tx, &model::get_aliquot(tx, *id)?))
+            .map(|id| crate::report::aliquot_summary(tx, &model::get_aliquot(tx, *id)?))
             .collect()
     })
 }
@@ -936,7 +936,7 @@ pub fn add_spectrum_to_aliquot(
         crate::lab::derivation::derive_aliquot(tx, aliquot_id)?;
         crate::lab::derivation::refresh_vials(tx, Some(row.batch_id), false)?;
         let row = model::get_aliquot(tx, aliquot_id)?;
-        growth::aliquot_summary(tx, &row)
+        crate::report::aliquot_summary(tx, &row)
     })
 }
 

@@ -11,7 +11,6 @@ const SQL_OUTSIDE_STORE_YET: &[&str] = &[
     "src/cli/commands/calib.rs",
     "src/cli/commands/records.rs",
     "src/demo.rs",
-    "src/derive/growth.rs",
     "src/error.rs",
 ];
 

@@ -169,7 +169,7 @@ fn summaries(store: &Store, b: i64) -> Vec<g::AliquotSummary> {
     model::aliquots_of(&store.conn, b)
         .unwrap()
         .iter()
-        .map(|a| g::aliquot_summary(&store.conn, a).unwrap())
+        .map(|a| cuvette::report::aliquot_summary(&store.conn, a).unwrap())
         .collect()
 }
 

@@ -8,12 +8,14 @@ mod export;
 mod handover;
 mod outfile;
 pub mod plot;
+mod summary;
 pub mod yields;
 
 pub use export::export;
 pub use handover::{HandoverReport, handover};
 pub use outfile::{create_output, create_outputs};
 pub use plot::{plot_batch_svg, plot_series_svg};
+pub use summary::{aliquot_summary, recipe_stats};
 
 use crate::derive::{calibration, engine, growth, sizing};
 use crate::error::Result;
@@ -99,7 +101,7 @@ pub fn product_concentration(conn: &Db, batch_id: i64) -> Result<Option<f64>> {
     let b = model::get_batch(conn, batch_id)?;
     let series: Vec<growth::AliquotSummary> = model::aliquots_of(conn, batch_id)?
         .iter()
-        .map(|a| growth::aliquot_summary(conn, a))
+        .map(|a| aliquot_summary(conn, a))
         .collect::<Result<_>>()?;
     Ok(growth::product_of(&b, &series).and_then(|p| p.concentration_molar))
 }
@@ -363,7 +365,7 @@ pub fn batch_sheet(db: &Db, id: i64) -> Result<BatchSheet> {
     let b = model::get_batch(db, id)?;
     let aliquots: Vec<growth::AliquotSummary> = model::all_aliquots_of(db, id)?
         .iter()
-        .map(|a| growth::aliquot_summary(db, a))
+        .map(|a| aliquot_summary(db, a))
         .collect::<Result<_>>()?;
     let g = growth::growth(&aliquots);
     let product = growth::product_of(&b, &aliquots).cloned();
