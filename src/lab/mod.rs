@@ -2,6 +2,11 @@
 //! built from the store's reads and writes and derive's pure computation. The faces (`cli`,
 //! `tui`) call `lab` for writes and `report` for views; `lab` runs no SQL itself.
 //!
+//! `derivation` holds the steps those actions are made of (deriving an aliquot, recompute,
+//! stale marking, the vials' concentrations, `check`'s recomputation), each running inside the
+//! caller's transaction; `calibrations` the calibration versions, typed and with the rules for
+//! a change.
+//!
 //! Opening a lab for writing goes through here: a new lab is seeded with the shipped
 //! calibration (version 1) and the shipped reagents, which the store, knowing nothing of
 //! either, does not do.
