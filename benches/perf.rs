@@ -6,7 +6,6 @@
 use criterion::{Criterion, criterion_group, criterion_main};
 use cuvette::spectra::analysis::{AnalysisSettings, analyze_absorbance};
 use cuvette::spectra::{ReadOptions, Trace};
-use cuvette::store::Store;
 use std::hint::black_box;
 use std::path::PathBuf;
 
@@ -19,7 +18,7 @@ fn lab(batches: usize) -> PathBuf {
     if !path.exists() {
         let tmp = dir.join(format!("lab-{batches}.building"));
         let _ = std::fs::remove_file(&tmp);
-        let mut st = Store::open(&tmp, "bench").expect("open");
+        let mut st = cuvette::lab::open(&tmp, "bench").expect("open");
         cuvette::demo::build(&mut st, Some(batches), |_, _| {}).expect("build");
         drop(st);
         std::fs::rename(&tmp, &path).expect("rename");
@@ -95,12 +94,12 @@ fn lab_after_curve_change(batches: usize) -> PathBuf {
     if !dst.exists() {
         let tmp = src.with_file_name(format!("lab-{batches}-curve.building"));
         std::fs::copy(&src, &tmp).expect("copy");
-        let mut st = Store::open(&tmp, "bench").expect("open");
+        let mut st = cuvette::lab::open(&tmp, "bench").expect("open");
         st.write(|tx, who| {
-            let mut body = cuvette::derive::calibration::latest(tx)?.body;
+            let mut body = cuvette::lab::calibrations::latest(tx)?.body;
             body.set_curve("CdSe", "jasieniak2009");
-            cuvette::derive::calibration::save(tx, who, "bench: curve change", &body)?;
-            cuvette::derive::engine::mark_stale(tx)
+            cuvette::lab::calibrations::save(tx, who, "bench: curve change", &body)?;
+            cuvette::lab::derivation::mark_stale(tx)
         })
         .expect("change curve");
         drop(st);
@@ -131,15 +130,15 @@ fn recompute_group(c: &mut Criterion, batches: usize, label: &str) {
     });
     g.bench_function("recompute after a curve change (dry run)", |b| {
         b.iter(|| {
-            let mut st = Store::open(&changed, "bench").expect("open");
-            st.read(|tx| cuvette::derive::engine::recompute(tx, false, true, |_, _| {}))
+            let mut st = cuvette::lab::open(&changed, "bench").expect("open");
+            st.read(|tx| cuvette::lab::derivation::recompute(tx, false, true, |_, _| {}))
                 .expect("recompute")
         })
     });
     g.bench_function("recompute --all, spectra analysed again (dry run)", |b| {
         b.iter(|| {
-            let mut st = Store::open(&path, "bench").expect("open");
-            st.read(|tx| cuvette::derive::engine::recompute(tx, true, true, |_, _| {}))
+            let mut st = cuvette::lab::open(&path, "bench").expect("open");
+            st.read(|tx| cuvette::lab::derivation::recompute(tx, true, true, |_, _| {}))
                 .expect("recompute")
         })
     });
@@ -156,7 +155,7 @@ fn recompute(c: &mut Criterion) {
 
 fn search(c: &mut Criterion) {
     let path = lab(10000);
-    let st = Store::open(&path, "bench").expect("open");
+    let st = cuvette::lab::open(&path, "bench").expect("open");
     let facts = cuvette::search::load_facts(&st.conn).expect("facts");
     let q = cuvette::search::parse("CdSe size 3 to 3.5 qy > 30% stock").expect("parse");
     let words = cuvette::search::parse("Halloway oleylamine").expect("parse");
@@ -181,12 +180,12 @@ fn render(c: &mut Criterion) {
     g.sample_size(10);
     g.bench_function("first frame (open, load, draw 80x24)", |b| {
         b.iter(|| {
-            let app = cuvette::tui::app::App::new(Store::open(&path, "bench").expect("open"), keys());
+            let app = cuvette::tui::app::App::new(cuvette::lab::open(&path, "bench").expect("open"), keys());
             let mut t = Terminal::new(TestBackend::new(80, 24)).expect("terminal");
             t.draw(|f| cuvette::tui::draw::draw(f, &app)).expect("draw");
         })
     });
-    let mut app = cuvette::tui::app::App::new(Store::open(&path, "bench").expect("open"), keys());
+    let mut app = cuvette::tui::app::App::new(cuvette::lab::open(&path, "bench").expect("open"), keys());
     let mut t = Terminal::new(TestBackend::new(80, 24)).expect("terminal");
     g.sample_size(50);
     g.bench_function("keystroke in the search box: re-filter and redraw", |b| {

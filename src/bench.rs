@@ -214,11 +214,11 @@ pub fn add_aliquot(
         for (f, (raw, sha)) in &read {
             model::insert_spectrum(tx, who, &new_spectrum(Some(id), f, raw, sha))?;
         }
-        engine::derive_aliquot(tx, id)?;
+        crate::lab::derivation::derive_aliquot(tx, id)?;
         // A new aliquot may be the batch's product now: its vials' estimates follow.
-        engine::refresh_vials(tx, Some(a.batch_id), false)?;
+        crate::lab::derivation::refresh_vials(tx, Some(a.batch_id), false)?;
         let row = model::get_aliquot(tx, id)?;
-        growth::aliquot_summary(tx, &row)
+        crate::report::aliquot_summary(tx, &row)
     })
 }
 
@@ -264,9 +264,9 @@ pub fn add_series(
     let (spectra, sha) = read_series_for_logging(&file.path, opts, file.kind, door.kind_as_is)?;
     store.write(|tx, who| {
         let ids = log_series(tx, who, template, file, &spectra, &sha, door, None)?;
-        engine::refresh_vials(tx, Some(template.batch_id), false)?;
+        crate::lab::derivation::refresh_vials(tx, Some(template.batch_id), false)?;
         ids.iter()
-            .map(|id| growth::aliquot_summary(tx, &model::get_aliquot(tx, *id)?))
+            .map(|id| crate::report::aliquot_summary(tx, &model::get_aliquot(tx, *id)?))
             .collect()
     })
 }
@@ -316,7 +316,7 @@ fn log_series(
         };
         let id = model::insert_aliquot(tx, who, &a)?;
         model::insert_spectrum(tx, who, &new_spectrum(Some(id), file, raw, sha))?;
-        engine::derive_aliquot(tx, id)?;
+        crate::lab::derivation::derive_aliquot(tx, id)?;
         ids.push(id);
     }
     Ok(ids)
@@ -391,7 +391,7 @@ fn import_series(
             report.aliquots.extend(ids);
             progress(i + 1, total);
         }
-        engine::refresh_vials(tx, Some(batch_id), false)?;
+        crate::lab::derivation::refresh_vials(tx, Some(batch_id), false)?;
         Ok(report)
     })
 }
@@ -436,8 +436,8 @@ pub fn measure_vial(store: &mut Store, vial: i64, abs: &Path, dilution: f64, pat
         ns.dilution_factor = Some(dilution);
         ns.path_cm = Some(path_cm);
         let sid = model::insert_spectrum(tx, who, &ns)?;
-        let version = engine::effective_calibration_version(tx, v.batch_id)?;
-        let cal = crate::derive::calibration::get(tx, version)?;
+        let version = crate::store::values::effective_calibration_version(tx, v.batch_id)?;
+        let cal = crate::lab::calibrations::get(tx, version)?;
         let stored = model::get_spectrum(tx, sid)?;
         let (r, values, conc) = engine::vial_measured(&stored, &core, dilution, path_cm, version, &cal.body)?;
         let get = |q: &str| engine::find_value(&values, q);
@@ -811,11 +811,11 @@ pub fn import_folder(
             for (f, (raw, sha)) in fresh {
                 model::insert_spectrum(tx, who, &new_spectrum(Some(id), f, raw, sha))?;
             }
-            engine::derive_aliquot(tx, id)?;
+            crate::lab::derivation::derive_aliquot(tx, id)?;
             report.aliquots.push(id);
             progress(i + 1, total);
         }
-        engine::refresh_vials(tx, Some(batch_id), false)?;
+        crate::lab::derivation::refresh_vials(tx, Some(batch_id), false)?;
         Ok(report)
     })
 }
@@ -933,10 +933,10 @@ pub fn add_spectrum_to_aliquot(
             refuse_duplicate(tx, row.batch_id, &f.path, &sha, raw.label.as_deref())?;
         }
         model::insert_spectrum(tx, who, &new_spectrum(Some(aliquot_id), f, &raw, &sha))?;
-        engine::derive_aliquot(tx, aliquot_id)?;
-        engine::refresh_vials(tx, Some(row.batch_id), false)?;
+        crate::lab::derivation::derive_aliquot(tx, aliquot_id)?;
+        crate::lab::derivation::refresh_vials(tx, Some(row.batch_id), false)?;
         let row = model::get_aliquot(tx, aliquot_id)?;
-        growth::aliquot_summary(tx, &row)
+        crate::report::aliquot_summary(tx, &row)
     })
 }
 

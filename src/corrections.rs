@@ -3,7 +3,6 @@
 //! re-derives what depends on it (through `derive::engine`), all in one transaction. Nothing is
 //! deleted; every correction carries a reason.
 
-use crate::derive::engine;
 use crate::error::Result;
 use crate::store::Store;
 use crate::store::model::{self, AliquotEdit, AliquotRow, BatchRow, VialRow};
@@ -16,7 +15,7 @@ pub fn set_aliquot_void(store: &mut Store, id: i64, void: bool, why: &str) -> Re
         } else {
             model::reinstate_aliquot(tx, who, id, why)?
         };
-        engine::after_correction(tx, id)?;
+        crate::lab::derivation::after_correction(tx, id)?;
         Ok(row)
     })
 }
@@ -25,7 +24,7 @@ pub fn set_aliquot_void(store: &mut Store, id: i64, void: bool, why: &str) -> Re
 pub fn edit_aliquot(store: &mut Store, id: i64, edit: &AliquotEdit, why: &str) -> Result<AliquotRow> {
     store.write(|tx, who| {
         model::edit_aliquot(tx, who, id, edit, why)?;
-        engine::after_correction(tx, id)?;
+        crate::lab::derivation::after_correction(tx, id)?;
         model::get_aliquot(tx, id)
     })
 }
@@ -47,7 +46,7 @@ pub fn set_spectrum_cuvette(
     .checked("--path-cm", "--dilution")?;
     store.write(|tx, who| {
         let aliquot = model::set_spectrum_cuvette(tx, who, spectrum, c.path_cm, c.dilution_factor, why)?;
-        engine::after_correction(tx, aliquot)?;
+        crate::lab::derivation::after_correction(tx, aliquot)?;
         Ok(aliquot)
     })
 }
@@ -56,8 +55,8 @@ pub fn set_spectrum_cuvette(
 pub fn move_spectrum(store: &mut Store, spectrum: i64, to_aliquot: i64, why: &str) -> Result<(i64, i64)> {
     store.write(|tx, who| {
         let (from, to) = model::move_spectrum(tx, who, spectrum, to_aliquot, why)?;
-        engine::after_correction(tx, from)?;
-        engine::after_correction(tx, to)?;
+        crate::lab::derivation::after_correction(tx, from)?;
+        crate::lab::derivation::after_correction(tx, to)?;
         Ok((from, to))
     })
 }
@@ -70,7 +69,7 @@ pub fn set_batch_void(store: &mut Store, id: i64, void: bool, why: &str) -> Resu
         } else {
             model::reinstate_batch(tx, who, id, why)?
         };
-        engine::refresh_vials(tx, Some(id), false)?;
+        crate::lab::derivation::refresh_vials(tx, Some(id), false)?;
         Ok(row)
     })
 }

@@ -5,7 +5,7 @@
 //! logs them through the same store and engine a user's files go through. `--scale N` makes a
 //! large invented lab for load tests. Nothing here is real data.
 
-use crate::derive::{calibration, engine, qy};
+use crate::derive::{calibration, qy};
 use crate::error::{Error, Result};
 use crate::spectra::HC_EV_NM;
 use crate::store::model::{self, NewAliquot, NewBatch, NewSpectrum, NewVial, RecipeReagent, RecipeStep};
@@ -322,7 +322,7 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                 r.notes.as_deref(),
             )?;
         }
-        let mut cal = calibration::latest(tx)?.body;
+        let mut cal = crate::lab::calibrations::latest(tx)?.body;
         let q = &m.qy_reference;
         cal.qy_reference = Some(calibration::QyReference {
             dye: q.dye.clone(),
@@ -332,12 +332,12 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
             integral: q.integral,
             abs_at_excitation: q.abs_at_excitation,
         });
-        calibration::save(tx, &q.set_by, &q.why, &cal)?;
+        crate::lab::calibrations::save(tx, &q.set_by, &q.why, &cal)?;
         Ok(())
     })?;
     let total = scale.unwrap_or(m.batches.len());
     let mut rng = Rng::new(0x00C0_FFEE);
-    let cal = calibration::latest(&store.conn)?.body;
+    let cal = crate::lab::calibrations::latest(&store.conn)?.body;
     let qref = cal
         .qy_reference
         .clone()
@@ -492,7 +492,7 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                         },
                     )?;
                 }
-                engine::derive_aliquot(tx, aid)?;
+                crate::lab::derivation::derive_aliquot(tx, aid)?;
             }
             if plan.status == "done" || plan.status == "failed" {
                 model::set_batch_status(tx, op, bid, &plan.status)?;
@@ -531,7 +531,7 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                             created_at: Some(format!("{day} 16:00")),
                         },
                     )?;
-                    engine::estimate_vial(tx, vid)?;
+                    crate::lab::derivation::estimate_vial(tx, vid)?;
                     let draws = rng.next_u64() % 4;
                     let mut left = ml;
                     for _ in 0..draws {

@@ -2,8 +2,11 @@
 //! the binary is a thin shell over [`cli::run`].
 //!
 //! Layers, lowest first: `spectra` (readers and pure analysis) and `derive` (published methods,
-//! calibrations, the recompute engine) know nothing of the UI; `store` owns SQLite; `search`,
-//! `report` and `demo` build on those; `cli` and `tui` are the two faces.
+//! calibrations and the pure computation of derived values) know nothing of the UI or of
+//! SQLite; `store` alone speaks SQL and imports nothing above it (`tests/architecture.rs` names
+//! the files still on their way there); `lab` is one function per user action, each owning its
+//! transaction, built from store functions and derive's computation; `search`, `report` (the views) and `demo` build on those; `cli` and `tui` are
+//! the two faces, calling `lab` for writes and `report` for views.
 
 #![deny(clippy::unwrap_used)]
 

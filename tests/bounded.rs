@@ -221,8 +221,8 @@ fn absurdly_long_queries_are_refused_with_their_reason() {
 
 #[test]
 fn search_over_a_very_long_word_in_a_note_is_bounded() {
-    use cuvette::store::{Store, model};
-    let mut st = Store::in_memory("tester").unwrap();
+    use cuvette::store::model;
+    let mut st = cuvette::lab::in_memory("tester").unwrap();
     // One 200,000-character word: every short run of a's then b's is a subsequence of it,
     // which is what makes a fuzzy matcher fill its whole length-by-length table.
     let note = format!("{} washed twice", "ab".repeat(100_000));

@@ -673,7 +673,7 @@ fn batch_show_json_carries_the_reaction_yield() {
 #[test]
 fn gradient_qy_runs_over_a_dilution_series_logged_as_aliquots() {
     use cuvette::store::model;
-    let mut store = cuvette::store::Store::in_memory("Test Runner").unwrap();
+    let mut store = cuvette::lab::in_memory("Test Runner").unwrap();
     let (px, shape) = pl_trace();
     // Known truth: the sample gives `k` PL counts·nm per unit absorbance (in the PL cuvette),
     // against the reference's 52000 / 0.05; same solvent as the reference (ethanol).
@@ -743,30 +743,30 @@ fn gradient_qy_runs_over_a_dilution_series_logged_as_aliquots() {
                         },
                     )?;
                 }
-                engine::derive_aliquot(tx, a)?;
+                cuvette::lab::derivation::derive_aliquot(tx, a)?;
                 ids.push(a);
             }
             Ok(ids)
         })
         .unwrap();
-    let q = engine::gradient_qy(&store.conn, &ids).unwrap();
+    let q = cuvette::report::yields::gradient_qy(&store.conn, &ids).unwrap();
     // Williams et al. 1983 with one reference point through the origin: Φ = 0.95 · 0.6. The
     // spectra hold no scattering, so what is left (about +6 % today) is the absorbance
     // analysis taking part of the exciton's red tail for background.
     assert!((q.qy / (0.95 * 0.6) - 1.0).abs() < 0.08, "QY {} against 0.57", q.qy);
     assert!(q.warnings.iter().any(|w| w.contains("one point")), "{:?}", q.warnings);
     assert!(!q.warnings.iter().any(|w| w.contains("at least 4")), "{:?}", q.warnings);
-    let q3 = engine::gradient_qy(&store.conn, &ids[..3]).unwrap();
+    let q3 = cuvette::report::yields::gradient_qy(&store.conn, &ids[..3]).unwrap();
     assert!(
         q3.warnings.iter().any(|w| w.contains("at least 4")),
         "{:?}",
         q3.warnings
     );
-    assert!(engine::gradient_qy(&store.conn, &[]).is_err());
+    assert!(cuvette::report::yields::gradient_qy(&store.conn, &[]).is_err());
 }
 
 fn calibration_with_reference(tx: &rusqlite::Connection, who: &str) -> cuvette::Result<()> {
     let body = cal_with_reference();
-    cuvette::derive::calibration::save(tx, who, "reference for the test", &body)?;
+    cuvette::lab::calibrations::save(tx, who, "reference for the test", &body)?;
     Ok(())
 }

@@ -79,8 +79,8 @@ fn every_query_seed_parses_or_fails_cleanly() {
 
 #[test]
 fn every_evaluation_seed_runs_against_a_lab() {
-    use cuvette::store::{Store, model};
-    let mut st = Store::in_memory("tester").unwrap();
+    use cuvette::store::model;
+    let mut st = cuvette::lab::in_memory("tester").unwrap();
     st.write(|tx, who| {
         for (name, notes) in [("µµ-probe", "washed twice"), ("T1", "ZnS shell grown at 240 °C")] {
             model::insert_batch(

@@ -8,7 +8,6 @@ mod common;
 use common::*;
 use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
 use cuvette::safe_text::is_hazard;
-use cuvette::store::Store;
 use cuvette::tui::app::App;
 use cuvette::tui::{draw, keys};
 use ratatui::Terminal;
@@ -114,7 +113,7 @@ fn press(app: &mut App, code: KeyCode) {
 #[test]
 fn escape_sequences_in_names_never_reach_a_ui_cell() {
     let lab = hostile_lab();
-    let store = Store::open(&lab.db, "Test Runner").unwrap();
+    let store = cuvette::lab::open(&lab.db, "Test Runner").unwrap();
     let mut app = App::new(store, keys::KeyMap::new(&Default::default()).unwrap());
     let s = assert_clean_buffer(&app, "ledger");
     assert!(s.contains("pwned"), "the name is still shown, made harmless: {s}");

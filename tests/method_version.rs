@@ -48,7 +48,7 @@ fn values_from_an_earlier_analysis_method_are_told_apart_and_recompute_brings_th
                 |r| r.get(0),
             )
             .unwrap();
-        let cal = cuvette::derive::calibration::get(&c, version).unwrap().body;
+        let cal = cuvette::lab::calibrations::get(&c, version).unwrap().body;
         let metas: Vec<SpectrumMeta> = cuvette::store::model::spectra_of_aliquot(&c, a)
             .unwrap()
             .iter()

@@ -89,7 +89,7 @@ fn the_batch_sheet_shows_the_reaction_yield() {
 // 1998), so the stated wavelengths rise with the minutes.
 
 use cuvette::demo::{Rng, absorbance};
-use cuvette::derive::{engine, growth as g};
+use cuvette::derive::growth as g;
 use cuvette::store::{Store, model};
 
 const HC_EV_NM: f64 = 1239.841984;
@@ -100,7 +100,7 @@ type Plan = (f64, f64, Option<(f64, f64, f64)>);
 /// A CdSe growth series in an in-memory lab, each aliquot derived as it is logged (so a later
 /// aliquot's arrival has to re-check the earlier ones). Returns the store, batch and aliquots.
 fn series_lab(plan: &[Plan]) -> (Store, i64, Vec<i64>) {
-    let mut store = Store::in_memory("Test Runner").unwrap();
+    let mut store = cuvette::lab::in_memory("Test Runner").unwrap();
     let (b, ids) = store
         .write(|tx, who| {
             let _ = model::add_material(tx, who, "CdSe", "CdSe", None);
@@ -156,7 +156,7 @@ fn series_lab(plan: &[Plan]) -> (Store, i64, Vec<i64>) {
                         label: None,
                     },
                 )?;
-                engine::derive_aliquot(tx, a)?;
+                cuvette::lab::derivation::derive_aliquot(tx, a)?;
                 ids.push(a);
             }
             Ok((b, ids))
@@ -169,12 +169,12 @@ fn summaries(store: &Store, b: i64) -> Vec<g::AliquotSummary> {
     model::aliquots_of(&store.conn, b)
         .unwrap()
         .iter()
-        .map(|a| g::aliquot_summary(&store.conn, a).unwrap())
+        .map(|a| cuvette::report::aliquot_summary(&store.conn, a).unwrap())
         .collect()
 }
 
 fn value(store: &Store, a: i64, q: &str) -> Option<f64> {
-    engine::current_values(&store.conn, a)
+    cuvette::store::values::current_values(&store.conn, a)
         .unwrap()
         .into_iter()
         .find(|v| v.quantity == q)
@@ -235,7 +235,7 @@ fn a_reading_taken_from_a_foreign_band_is_reassigned_to_the_series_own_transitio
         .unwrap();
     assert_eq!(n, 1);
     // The deep check recomputes every value from its stored inputs and finds them as stored.
-    let (_, problems) = engine::verify_values(&store.conn, true).unwrap();
+    let (_, problems) = cuvette::lab::derivation::verify_values(&store.conn, true).unwrap();
     assert!(problems.is_empty(), "{problems:?}");
 }
 
@@ -245,7 +245,7 @@ fn recomputing_a_reassigned_series_twice_changes_nothing() {
     let before: Vec<Vec<(String, Option<f64>)>> = ids
         .iter()
         .map(|a| {
-            engine::current_values(&store.conn, *a)
+            cuvette::store::values::current_values(&store.conn, *a)
                 .unwrap()
                 .into_iter()
                 .map(|v| (v.quantity, v.value))
@@ -260,17 +260,19 @@ fn recomputing_a_reassigned_series_twice_changes_nothing() {
     let n0 = rows(&store);
     for _ in 0..2 {
         let r = store
-            .write(|tx, who| engine::recompute_recorded(tx, who, true, |_, _| {}))
+            .write(|tx, who| cuvette::lab::derivation::recompute_recorded(tx, who, true, |_, _| {}))
             .unwrap();
         assert_eq!(r.changed, 0, "{r:?}");
-        let again = store.write(|tx, _| engine::series_pass(tx, b)).unwrap();
+        let again = store
+            .write(|tx, _| cuvette::lab::derivation::series_pass(tx, b))
+            .unwrap();
         assert_eq!(again, 0);
     }
     assert_eq!(rows(&store), n0, "no value superseded");
     let after: Vec<Vec<(String, Option<f64>)>> = ids
         .iter()
         .map(|a| {
-            engine::current_values(&store.conn, *a)
+            cuvette::store::values::current_values(&store.conn, *a)
                 .unwrap()
                 .into_iter()
                 .map(|v| (v.quantity, v.value))

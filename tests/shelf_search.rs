@@ -171,7 +171,7 @@ fn handover_is_all_or_nothing() {
     let owned_before = lab.ok(&["shelf", "--json"]).json();
     let counts = lab.counts();
     let out = lab.path("pack");
-    let mut store = cuvette::store::Store::open(&lab.db, "Test Runner").unwrap();
+    let mut store = cuvette::lab::open(&lab.db, "Test Runner").unwrap();
     let e = cuvette::lab::handover::handover(
         &mut store,
         "Wren Halloway",

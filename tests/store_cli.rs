@@ -5,7 +5,7 @@
 
 mod common;
 use common::*;
-use cuvette::store::{MIGRATIONS, SCHEMA_VERSION, Store, model};
+use cuvette::store::{MIGRATIONS, SCHEMA_VERSION, model};
 
 fn lab_with_batch() -> (Lab, i64) {
     let lab = Lab::new();
@@ -20,7 +20,7 @@ fn lab_with_batch() -> (Lab, i64) {
 
 #[test]
 fn every_entity_round_trips_through_the_store() {
-    let mut st = Store::in_memory("tester").unwrap();
+    let mut st = cuvette::lab::in_memory("tester").unwrap();
     let out = st
         .write(|tx, who| {
             model::add_person(tx, who, "tester", Some("t@example.invalid"))?;

@@ -7,7 +7,6 @@
 mod common;
 use common::*;
 use crossterm::event::KeyCode;
-use cuvette::store::Store;
 use cuvette::tui::app::App;
 use cuvette::tui::keys;
 use std::process::{Command, Stdio};
@@ -32,7 +31,7 @@ fn files_with(lab: &Lab, needle: &str) -> Vec<String> {
 fn issue10_ui_and_command_line_on_one_lab_lose_nothing() {
     let lab = Lab::new();
     lab.ok(&["demo"]);
-    let store = Store::open(&lab.db, "UI User").unwrap();
+    let store = cuvette::lab::open(&lab.db, "UI User").unwrap();
     let mut app = App::new(store, keys::KeyMap::new(&Default::default()).unwrap());
     // A background job of the UI: the recompute preview.
     press(&mut app, KeyCode::Char('3'));
@@ -139,7 +138,7 @@ fn a_process_that_had_the_lab_open_is_refused_after_a_restore() {
     lab.ok(&["init"]);
     let backup = lab.path("b.db");
     lab.ok(&["backup", "--out", s(&backup)]);
-    let mut ui = Store::open(&lab.db, "UI User").unwrap();
+    let mut ui = cuvette::lab::open(&lab.db, "UI User").unwrap();
     ui.write(|tx, who| {
         cuvette::store::model::insert_batch(
             tx,
@@ -1003,7 +1002,7 @@ fn writes_are_attributed_to_a_real_person() {
 // ------------------------------------------------------------------ the UI offers the same
 
 fn ui(lab: &Lab) -> App {
-    let store = Store::open(&lab.db, "UI User").unwrap();
+    let store = cuvette::lab::open(&lab.db, "UI User").unwrap();
     App::new(store, keys::KeyMap::new(&Default::default()).unwrap())
 }
 

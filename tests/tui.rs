@@ -9,7 +9,7 @@ fn screen(app: &App) -> String {
 
 use common::*;
 use crossterm::event::KeyCode;
-use cuvette::store::{Store, model};
+use cuvette::store::model;
 use cuvette::tui::app::{App, View};
 use cuvette::tui::{draw, keys};
 use ratatui::Terminal;
@@ -18,7 +18,7 @@ use ratatui::backend::TestBackend;
 fn demo_app() -> (Lab, App) {
     let lab = Lab::new();
     lab.ok(&["demo"]);
-    let store = Store::open(&lab.db, "Test Runner").unwrap();
+    let store = cuvette::lab::open(&lab.db, "Test Runner").unwrap();
     let app = App::new(store, keys::KeyMap::new(&Default::default()).unwrap());
     (lab, app)
 }
@@ -133,7 +133,7 @@ fn a_bench_session_driven_by_keys_lands_in_the_database() {
         let (x, y) = cuvette::demo::absorbance("CdSe", peak, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(1));
         std::fs::write(exports.join(name), csv(&x, &y)).unwrap();
     }
-    let store = Store::open(&lab.db, "Test Runner").unwrap();
+    let store = cuvette::lab::open(&lab.db, "Test Runner").unwrap();
     let mut app = App::new(store, keys::KeyMap::new(&Default::default()).unwrap());
     app.export_dir = exports.clone();
     // Log a batch.
@@ -206,7 +206,7 @@ fn a_bench_session_driven_by_keys_lands_in_the_database() {
     press(&mut app, KeyCode::Char('q'));
     assert!(app.quit);
     drop(app);
-    let st = Store::open(&lab.db, "check").unwrap();
+    let st = cuvette::lab::open(&lab.db, "check").unwrap();
     let b = model::list_batches(&st.conn).unwrap();
     assert_eq!(b.len(), 1);
     assert_eq!(b[0].name, "Key run");
@@ -229,7 +229,7 @@ fn forms_and_the_file_picker_render_and_watching_a_folder_logs_new_exports() {
     std::fs::create_dir(&exports).unwrap();
     let (x, y) = cuvette::demo::absorbance("CdSe", 540.0, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(1));
     std::fs::write(exports.join("abs_01min.csv"), csv(&x, &y)).unwrap();
-    let store = Store::open(&lab.db, "Test Runner").unwrap();
+    let store = cuvette::lab::open(&lab.db, "Test Runner").unwrap();
     let mut app = App::new(store, keys::KeyMap::new(&Default::default()).unwrap());
     app.export_dir = exports.clone();
     press(&mut app, KeyCode::Char('n'));
@@ -278,7 +278,7 @@ fn forms_and_the_file_picker_render_and_watching_a_folder_logs_new_exports() {
     }
     assert!(app.watching.is_none(), "the watch did not stop");
     assert!(!screen(&app).contains("● watching"));
-    let st = Store::open(&lab.db, "check").unwrap();
+    let st = cuvette::lab::open(&lab.db, "check").unwrap();
     let b = model::list_batches(&st.conn).unwrap();
     let al = model::aliquots_of(&st.conn, b[0].id).unwrap();
     assert_eq!(al.len(), 1);

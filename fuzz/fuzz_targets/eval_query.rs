@@ -3,14 +3,13 @@
 #![no_main]
 
 use cuvette::search::{Facts, filter, load_facts, parse};
-use cuvette::store::Store;
 use libfuzzer_sys::fuzz_target;
 use std::sync::OnceLock;
 
 fn facts() -> &'static Vec<Facts> {
     static FACTS: OnceLock<Vec<Facts>> = OnceLock::new();
     FACTS.get_or_init(|| {
-        let mut st = Store::in_memory("fuzz").expect("an in-memory store opens");
+        let mut st = cuvette::lab::in_memory("fuzz").expect("an in-memory store opens");
         cuvette::demo::build(&mut st, None, |_, _| {}).expect("the demo lab builds");
         st.read(|tx| load_facts(tx)).expect("facts load")
     })

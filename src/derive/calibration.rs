@@ -1,14 +1,14 @@
 //! Calibrations: everything a derived value depends on besides the measurement itself — the
 //! sizing curve chosen per material, the extinction model, the quantum-yield reference, the PL
 //! detector correction, solvent indices, bulk parameters and the analysis settings. They are
-//! versioned as a whole: a change writes a new version with who, when and why, and the old
-//! versions stay. Every change is validated first; a bad one is refused and nothing changes.
+//! versioned as a whole (`store::calibrations` keeps the versions, `lab::calibrations` reads and
+//! changes them): a change writes a new version with who, when and why, and the old versions
+//! stay. This module holds the calibration's types and its validation, and runs no SQL: a bad
+//! change is refused by [`Calibration::validate`] before anything is written.
 
 use super::{extinction, qy, sizing, solvents};
 use crate::error::{Error, Result, invalid};
 use crate::spectra::analysis::AnalysisSettings;
-use crate::store::{Store, audit, now};
-use rusqlite::{Connection, OptionalExtension, params};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 
@@ -388,102 +388,4 @@ impl Calibration {
         }
         Ok(())
     }
-}
-
-#[derive(Debug, Clone, Serialize)]
-pub struct CalibrationVersion {
-    pub version: i64,
-    pub created_at: String,
-    pub created_by: String,
-    pub why: String,
-    pub body: Calibration,
-}
-
-/// Writes version 1 with the shipped defaults, and the shipped reagents, on a new lab.
-pub fn ensure_initial(store: &mut Store) -> Result<()> {
-    let n: i64 = store
-        .conn
-        .query_row("SELECT count(*) FROM calibration", [], |r| r.get(0))?;
-    if n > 0 {
-        return Ok(());
-    }
-    store.write(|tx, who| {
-        let body = serde_json::to_string(&Calibration::default())?;
-        tx.execute(
-            "INSERT INTO calibration (version, body, created_at, created_by, why) VALUES (1, ?1, ?2, ?3, 'shipped defaults')",
-            params![body, now(), who],
-        )?;
-        audit(tx, who, "calibration", Some(1), "create", None, Some(&serde_json::json!({"why": "shipped defaults"})))?;
-        for r in crate::hazards::SHIPPED_REAGENTS {
-            let hazards: Vec<String> = r.hazards.split_whitespace().map(String::from).collect();
-            if crate::store::model::reagent_by_name(tx, r.name).is_err() {
-                crate::store::model::add_reagent(tx, who, r.name, Some(r.formula), None, &hazards, r.pyrophoric)?;
-            }
-        }
-        Ok(())
-    })
-}
-
-fn row(conn: &Connection, version: Option<i64>) -> Result<CalibrationVersion> {
-    let sql = "SELECT version, body, created_at, created_by, why FROM calibration
-               WHERE (?1 IS NULL OR version = ?1) ORDER BY version DESC LIMIT 1";
-    let found: Option<(i64, String, String, String, String)> = conn
-        .query_row(sql, params![version], |r| {
-            Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?, r.get(4)?))
-        })
-        .optional()?;
-    let (v, body, at, by, why) = found.ok_or_else(|| Error::NotFound {
-        kind: "calibration version",
-        what: version.map(|v| v.to_string()).unwrap_or_else(|| "(none)".into()),
-    })?;
-    let body: Calibration = serde_json::from_str(&body)
-        .map_err(|e| Error::Invalid(format!("calibration version {v} cannot be read: {e}")))?;
-    Ok(CalibrationVersion {
-        version: v,
-        created_at: at,
-        created_by: by,
-        why,
-        body,
-    })
-}
-
-pub fn latest(conn: &Connection) -> Result<CalibrationVersion> {
-    row(conn, None)
-}
-
-pub fn get(conn: &Connection, version: i64) -> Result<CalibrationVersion> {
-    row(conn, Some(version))
-}
-
-pub fn history(conn: &Connection) -> Result<Vec<CalibrationVersion>> {
-    let mut st = conn.prepare("SELECT version FROM calibration ORDER BY version")?;
-    let versions: Vec<i64> = st.query_map([], |r| r.get(0))?.collect::<rusqlite::Result<_>>()?;
-    versions.into_iter().map(|v| get(conn, v)).collect()
-}
-
-/// Validates `body` and writes it as the next version. Returns the new version number.
-pub fn save(tx: &Connection, who: &str, why: &str, body: &Calibration) -> Result<i64> {
-    if why.trim().is_empty() {
-        return invalid("a calibration change needs a reason (--why)");
-    }
-    body.validate()?;
-    let prev = latest(tx)?;
-    if &prev.body == body {
-        return invalid(format!("nothing to change: version {} already says this", prev.version));
-    }
-    let v = prev.version + 1;
-    tx.execute(
-        "INSERT INTO calibration (version, body, created_at, created_by, why) VALUES (?1, ?2, ?3, ?4, ?5)",
-        params![v, serde_json::to_string(body)?, now(), who, why],
-    )?;
-    audit(
-        tx,
-        who,
-        "calibration",
-        Some(v),
-        "new_version",
-        Some(&serde_json::to_value(&prev.body)?),
-        Some(&serde_json::to_value(body)?),
-    )?;
-    Ok(v)
 }

@@ -2,11 +2,11 @@
 //! PL peak against minutes), the growth rate, the turn from size focusing to defocusing
 //! (dispersion falling, then rising: the picture of Peng, Wickham & Alivisatos, J. Am. Chem.
 //! Soc. 120, 5343 (1998)), a batch's product values, and the repeatability of a recipe version.
+//! Pure: the rows come from the store (`report::aliquot_summary` and `report::recipe_stats`
+//! read them) and nothing here runs SQL.
 
-use super::engine::current_values;
-use crate::error::Result;
 use crate::store::model;
-use rusqlite::Connection;
+use crate::store::values::StoredValue;
 use serde::Serialize;
 
 /// An aliquot with its current derived values, as scripts and screens see it.
@@ -59,8 +59,20 @@ pub struct SpectrumBrief {
     pub excitation_nm: Option<f64>,
 }
 
-pub fn aliquot_summary(conn: &Connection, a: &model::AliquotRow) -> Result<AliquotSummary> {
-    let vals = current_values(conn, a.id)?;
+impl From<model::SpectrumRow> for SpectrumBrief {
+    fn from(sp: model::SpectrumRow) -> Self {
+        SpectrumBrief {
+            id: sp.id,
+            kind: sp.kind,
+            file_name: sp.file_name,
+            sha256: sp.sha256,
+            excitation_nm: sp.excitation_nm,
+        }
+    }
+}
+
+/// An aliquot with its current values `vals` and its spectra, as scripts and screens see it.
+pub fn summarise(a: &model::AliquotRow, vals: &[StoredValue], spectra: Vec<SpectrumBrief>) -> AliquotSummary {
     let mut s = AliquotSummary {
         id: a.id,
         minutes: a.minutes,
@@ -72,7 +84,7 @@ pub fn aliquot_summary(conn: &Connection, a: &model::AliquotRow) -> Result<Aliqu
         void_why: a.void_why.clone(),
         ..Default::default()
     };
-    for v in &vals {
+    for v in vals {
         let x = v.value;
         match v.quantity.as_str() {
             "first_exciton_nm" => s.first_exciton_nm = x,
@@ -112,17 +124,8 @@ pub fn aliquot_summary(conn: &Connection, a: &model::AliquotRow) -> Result<Aliqu
     if s.calibration_version.is_none() {
         s.calibration_version = vals.iter().map(|v| v.calibration_version).max();
     }
-    s.spectra = model::spectra_of_aliquot(conn, a.id)?
-        .into_iter()
-        .map(|sp| SpectrumBrief {
-            id: sp.id,
-            kind: sp.kind,
-            file_name: sp.file_name,
-            sha256: sp.sha256,
-            excitation_nm: sp.excitation_nm,
-        })
-        .collect();
-    Ok(s)
+    s.spectra = spectra;
+    s
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -357,41 +360,39 @@ pub struct RecipeStats {
     pub failed: usize,
 }
 
-/// How repeatable a recipe version is: mean and spread of its batches' product values.
-pub fn recipe_stats(conn: &Connection, recipe_version_id: i64) -> Result<RecipeStats> {
-    let view = model::recipe_view(conn, recipe_version_id)?;
-    let batches: Vec<model::BatchRow> = model::list_batches(conn)?
-        .into_iter()
-        .filter(|b| b.recipe_version_id == Some(recipe_version_id))
-        .collect();
+/// Whether a batch counts as failed for a recipe's repeatability (its aliquots are then not
+/// looked at).
+pub fn failed(b: &model::BatchRow) -> bool {
+    b.status == "failed"
+}
+
+/// How repeatable a recipe version is: mean and spread of its batches' product values, from
+/// each batch with its aliquots (none needed for a [`failed`] one).
+pub fn recipe_stats(recipe: String, version: i64, batches: &[(model::BatchRow, Vec<AliquotSummary>)]) -> RecipeStats {
     let (mut d, mut s, mut p, mut q) = (vec![], vec![], vec![], vec![]);
-    let mut failed = 0;
-    for b in &batches {
-        if b.status == "failed" {
-            failed += 1;
+    let mut failed_n = 0;
+    for (b, series) in batches {
+        if failed(b) {
+            failed_n += 1;
             continue;
         }
-        let series: Vec<AliquotSummary> = model::aliquots_of(conn, b.id)?
-            .iter()
-            .map(|a| aliquot_summary(conn, a))
-            .collect::<Result<_>>()?;
-        if let Some(prod) = product_of(b, &series) {
+        if let Some(prod) = product_of(b, series) {
             d.extend(prod.diameter_nm);
             s.extend(prod.size_dispersion_pct);
             p.extend(prod.pl_peak_nm);
             q.extend(prod.qy);
         }
     }
-    Ok(RecipeStats {
-        recipe: view.name,
-        version: view.version,
+    RecipeStats {
+        recipe,
+        version,
         batches: batches.len(),
         diameter_nm: spread(&d),
         size_dispersion_pct: spread(&s),
         pl_peak_nm: spread(&p),
         qy: spread(&q),
-        failed,
-    })
+        failed: failed_n,
+    }
 }
 
 #[cfg(test)]

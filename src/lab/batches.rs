@@ -1,7 +1,6 @@
 //! Batches: logging one, editing it (with the values its edit moves derived again in the same
 //! transaction), setting its status and starting a repeat of it.
 
-use crate::derive::engine;
 use crate::error::Result;
 use crate::store::{Store, model};
 
@@ -28,15 +27,15 @@ pub fn edit_batch(store: &mut Store, id: i64, edit: &model::BatchEdit) -> Result
     store.write(|tx, who| {
         let batch = model::edit_batch(tx, who, id, edit)?;
         if edit.pin_calibration.is_some() || edit.unpin {
-            engine::mark_stale(tx)?;
+            crate::lab::derivation::mark_stale(tx)?;
         }
         if edit.product_aliquot_id.is_some() {
-            engine::refresh_vials(tx, Some(id), false)?;
+            crate::lab::derivation::refresh_vials(tx, Some(id), false)?;
         }
         // A shelled batch takes its core's size from its parent's product: a new parent
         // moves it, in this same transaction.
         let aliquots_followed = match edit.parent_batch_id {
-            Some(p) => engine::follow_parent_cores(tx, Some(p))?,
+            Some(p) => crate::lab::derivation::follow_parent_cores(tx, Some(p))?,
             None => 0,
         };
         Ok(BatchEdited {

@@ -2,7 +2,6 @@
 //! none is given), drawing from it, moving it and disposing of it. Each is one audited
 //! transaction; a draw larger than what is left is refused by the store and changes nothing.
 
-use crate::derive::engine;
 use crate::error::Result;
 use crate::store::{Store, model};
 
@@ -12,7 +11,7 @@ pub fn new_vial(store: &mut Store, new: &model::NewVial) -> Result<model::VialRo
     store.write(|tx, who| {
         let id = model::insert_vial(tx, who, new)?;
         if new.concentration_molar.is_none() {
-            engine::estimate_vial(tx, id)?;
+            crate::lab::derivation::estimate_vial(tx, id)?;
         }
         model::get_vial(tx, id)
     })

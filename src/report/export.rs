@@ -4,7 +4,6 @@
 //! cuvette formats stay numbers. The JSON escapes the controls serde_json leaves raw.
 
 use super::create_outputs;
-use crate::derive::engine;
 use crate::error::{Error, Result};
 use crate::safe_text::{csv_number, csv_text};
 use crate::store::{Db, model};
@@ -32,7 +31,7 @@ pub fn export(conn: &Db, as_json: bool, out: Option<&Path>, force: bool) -> Resu
     let mut values = Vec::new();
     for b in &batches {
         for a in model::aliquots_of(conn, b.id)? {
-            values.extend(engine::current_values(conn, a.id)?);
+            values.extend(crate::store::values::current_values(conn, a.id)?);
             aliquots.push(a);
         }
     }
@@ -150,8 +149,8 @@ struct ValueCsv {
     computed_at: String,
 }
 
-impl From<&engine::StoredValue> for ValueCsv {
-    fn from(v: &engine::StoredValue) -> Self {
+impl From<&crate::store::values::StoredValue> for ValueCsv {
+    fn from(v: &crate::store::values::StoredValue) -> Self {
         ValueCsv {
             aliquot_id: v.aliquot_id,
             quantity: text(&v.quantity),

@@ -8,10 +8,13 @@ mod export;
 pub mod handover;
 mod outfile;
 pub mod plot;
+mod summary;
+pub mod yields;
 
 pub use export::export;
 pub use outfile::{create_output, create_outputs};
 pub use plot::{plot_batch_svg, plot_series_svg};
+pub use summary::{aliquot_summary, recipe_stats};
 
 use crate::derive::{calibration, engine, growth, sizing};
 use crate::error::Result;
@@ -97,12 +100,17 @@ pub fn product_concentration(conn: &Db, batch_id: i64) -> Result<Option<f64>> {
     let b = model::get_batch(conn, batch_id)?;
     let series: Vec<growth::AliquotSummary> = model::aliquots_of(conn, batch_id)?
         .iter()
-        .map(|a| growth::aliquot_summary(conn, a))
+        .map(|a| aliquot_summary(conn, a))
         .collect::<Result<_>>()?;
     Ok(growth::product_of(&b, &series).and_then(|p| p.concentration_molar))
 }
 
 pub use crate::par::parallel_map;
+
+/// Batches whose product values (or a vial's concentration) are stale: what the ledger marks.
+pub fn stale_batches(db: &Db) -> Result<std::collections::HashSet<i64>> {
+    crate::store::values::stale_batches(db)
+}
 
 /// Each derived value of an aliquot with where it came from, as `explain --json` prints it:
 /// the aliquot, its calibration, its spectra, the chain of current values and the superseded
@@ -125,7 +133,7 @@ pub struct ExplainChain {
     pub spectra: Vec<ExplainSpectrum>,
     /// The current values, in the order one follows from another.
     pub chain: Vec<ExplainStep>,
-    pub history: Vec<engine::StoredValue>,
+    pub history: Vec<crate::store::values::StoredValue>,
 }
 
 /// The parts of the calibration behind an aliquot's values that apply to its batch's core.
@@ -162,7 +170,7 @@ pub struct ExplainSpectrum {
 #[derive(Debug, Clone, Serialize)]
 pub struct ExplainStep {
     #[serde(flatten)]
-    pub value: engine::StoredValue,
+    pub value: crate::store::values::StoredValue,
     /// Present only for a value whose method is a sizing curve's id.
     #[serde(flatten)]
     pub curve: Option<CurveNote>,
@@ -216,11 +224,11 @@ pub fn explain_chain(db: &Db, aliquot_id: i64) -> Result<ExplainChain> {
     let a = model::get_aliquot(db, aliquot_id)?;
     let b = model::get_batch(db, a.batch_id)?;
     let spectra = model::spectra_of_aliquot(db, aliquot_id)?;
-    let values = engine::current_values(db, aliquot_id)?;
-    let history = engine::value_history(db, aliquot_id)?;
+    let values = crate::store::values::current_values(db, aliquot_id)?;
+    let history = crate::store::values::value_history(db, aliquot_id)?;
     let version = values.iter().map(|v| v.calibration_version).max();
     let cal = match version {
-        Some(v) => Some(calibration::get(db, v)?),
+        Some(v) => Some(crate::lab::calibrations::get(db, v)?),
         None => None,
     };
     let mut chain = Vec::new();
@@ -356,7 +364,7 @@ pub fn batch_sheet(db: &Db, id: i64) -> Result<BatchSheet> {
     let b = model::get_batch(db, id)?;
     let aliquots: Vec<growth::AliquotSummary> = model::all_aliquots_of(db, id)?
         .iter()
-        .map(|a| growth::aliquot_summary(db, a))
+        .map(|a| aliquot_summary(db, a))
         .collect::<Result<_>>()?;
     let g = growth::growth(&aliquots);
     let product = growth::product_of(&b, &aliquots).cloned();
@@ -378,7 +386,7 @@ pub fn batch_sheet(db: &Db, id: i64) -> Result<BatchSheet> {
         Some(r) => cautions(r),
         None => crate::hazards::general_cautions(&b.core, false),
     };
-    let reaction_yield = engine::reaction_yield_of(db, id)?;
+    let reaction_yield = yields::reaction_yield_of(db, id)?;
     Ok(BatchSheet {
         batch: b,
         aliquots,
@@ -411,7 +419,7 @@ mod tests {
     /// printed as it is would then carry the key twice, and through a `Value` lose one.
     #[test]
     fn the_typed_views_add_no_key_their_rows_already_have() -> Result<()> {
-        let mut store = crate::store::Store::in_memory("tester")?;
+        let mut store = crate::lab::in_memory("tester")?;
         crate::demo::build(&mut store, None, |_, _| {})?;
         let shelled = model::list_batches(&store.conn)?
             .into_iter()

@@ -7,7 +7,7 @@
 //! panel says how many; every axis gets a finite, non-empty span, because plotters' tick search
 //! asserts on NaN and never ends on an infinite span.
 
-use crate::derive::{engine, growth};
+use crate::derive::engine;
 use crate::error::{Error, Result};
 use crate::safe_text;
 use crate::spectra::Trace;
@@ -92,7 +92,7 @@ fn plot_err(e: impl std::fmt::Display) -> Error {
 pub fn series(conn: &Db, batch_id: i64) -> Result<Vec<SeriesItem>> {
     let mut out = Vec::new();
     for a in model::aliquots_of(conn, batch_id)? {
-        let s = growth::aliquot_summary(conn, &a)?;
+        let s = crate::report::aliquot_summary(conn, &a)?;
         let spectra = model::spectra_of_aliquot(conn, a.id)?;
         let abs = spectra
             .iter()

@@ -12,11 +12,13 @@
 //!   generation: a restore gives the lab a new one), refusing otherwise.
 
 pub mod backup;
+pub mod calibrations;
 pub mod check;
 pub mod facts;
 pub mod handover;
 pub mod model;
 pub mod search_bounds;
+pub mod values;
 
 /// The open database (a connection or a transaction) as the layers above the store hold it: they pass it to store functions and never run SQL on it.
 pub type Db = rusqlite::Connection;
@@ -141,7 +143,8 @@ fn missing_lab(path: &Path) -> Error {
 }
 
 impl Store {
-    /// Opens (creating if needed) the database at `path` and migrates it.
+    /// Opens (creating if needed) the database at `path` and migrates it. A new lab's shipped
+    /// calibration and reagents are not the store's to know: `lab::open` seeds them.
     pub fn open(path: &Path, actor: &str) -> Result<Store> {
         Store::open_with(path, actor, Access::Create)
     }
@@ -219,12 +222,12 @@ impl Store {
         } else {
             store.setup(existed, version)?;
             store.generation = model::meta_get(&store.conn, GENERATION_KEY)?;
-            crate::derive::calibration::ensure_initial(&mut store)?;
         }
         Ok(store)
     }
 
-    /// An in-memory database, set up exactly as a file would be (for tests and benchmarks).
+    /// An in-memory database, set up exactly as a file would be, unseeded (`lab::in_memory`
+    /// seeds it as a new lab is).
     pub fn in_memory(actor: &str) -> Result<Store> {
         let conn = Connection::open_in_memory()?;
         let mut store = Store {
@@ -238,7 +241,6 @@ impl Store {
         };
         let version = store.identify(false)?;
         store.setup(false, version)?;
-        crate::derive::calibration::ensure_initial(&mut store)?;
         Ok(store)
     }
 

@@ -7,7 +7,6 @@ use super::keys::{Action, KeyMap, Scope};
 use super::picker::Picker;
 use super::{shelf, units};
 use crate::bench::{self, SpectrumFile};
-use crate::derive::{calibration, engine};
 use crate::report::plot::SeriesItem;
 use crate::search::{self, Facts, Hit};
 use crate::store::{Store, model};
@@ -238,7 +237,7 @@ pub enum Note {
     },
     Done(String),
     Failed(String),
-    Preview(engine::RecomputeReport),
+    Preview(crate::lab::derivation::RecomputeReport),
     /// What the folder watch did with an export; true when it logged it.
     Watched(String, bool),
     /// The watch has stopped (asked to, or its folder went away).
@@ -336,8 +335,8 @@ pub struct App {
     pub aliquot_selected: usize,
     /// Batches whose product values or vial concentrations are stale (the batch list marks them).
     pub stale_batches: std::collections::HashSet<i64>,
-    pub calibrations: Vec<calibration::CalibrationVersion>,
-    pub preview: Option<engine::RecomputeReport>,
+    pub calibrations: Vec<crate::lab::calibrations::CalibrationVersion>,
+    pub preview: Option<crate::lab::derivation::RecomputeReport>,
     pub trail: Vec<model::AuditRow>,
     pub trail_selected: usize,
     /// How many of the newest entries the trail has read.
@@ -506,8 +505,8 @@ impl App {
             if self.vial_selected >= self.vials.len() {
                 self.vial_selected = self.vials.len().saturating_sub(1);
             }
-            self.stale_batches = engine::stale_batches(&self.store.conn)?;
-            self.calibrations = calibration::history(&self.store.conn)?;
+            self.stale_batches = crate::report::stale_batches(&self.store.conn)?;
+            self.calibrations = crate::lab::calibrations::history(&self.store.conn)?;
             self.load_trail()?;
             if let Some(id) = self.sheet.as_ref().and_then(|s| s["id"].as_i64()) {
                 match self.open_sheet(id) {
@@ -733,7 +732,7 @@ impl App {
                     self.reload();
                 }
             }
-            Ok(Some(what)) => match self.store.reopen() {
+            Ok(Some(what)) => match crate::lab::reopen(&self.store) {
                 Ok(s) => {
                     self.store = s;
                     if !matches!(self.mode, Mode::Normal | Mode::Help) {
@@ -811,7 +810,7 @@ impl App {
 
     /// Opens the recompute's confirmation from a fresh preview, unless nothing would change or
     /// the user is busy in a form (then the preview waits on screen for another A).
-    fn ask_to_recompute(&mut self, r: &engine::RecomputeReport) {
+    fn ask_to_recompute(&mut self, r: &crate::lab::derivation::RecomputeReport) {
         if r.stale_found == 0 && r.changed == 0 && r.vials_changed == 0 {
             self.info("nothing is stale: a recompute would change nothing");
             return;
@@ -2015,7 +2014,7 @@ impl App {
                     .store
                     .write(|tx, who| {
                         let core = model::material_by_name(tx, &m)?.core;
-                        let (v, _) = engine::change_calibration(tx, who, &why, &|_, body| {
+                        let (v, _) = crate::lab::derivation::change_calibration(tx, who, &why, &|_, body| {
                             body.set_curve(&core, &c);
                             Ok(())
                         })?;
@@ -2253,9 +2252,9 @@ impl App {
                 });
             };
             let r = if dry_run {
-                store.read(|c| engine::recompute(c, false, true, p))
+                store.read(|c| crate::lab::derivation::recompute(c, false, true, p))
             } else {
-                store.write(|c, who| engine::recompute_recorded(c, who, false, p))
+                store.write(|c, who| crate::lab::derivation::recompute_recorded(c, who, false, p))
             };
             let _ = tx.send(match r {
                 Ok(r) if dry_run => Note::Preview(r),

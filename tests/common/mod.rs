@@ -191,7 +191,7 @@ pub fn cdse_series_dir() -> Option<PathBuf> {
 
 /// The terminal UI on a lab, as `Test Runner`, with the shipped keys.
 pub fn open_ui(lab: &Lab) -> cuvette::tui::app::App {
-    let store = cuvette::store::Store::open(&lab.db, "Test Runner").unwrap();
+    let store = cuvette::lab::open(&lab.db, "Test Runner").unwrap();
     cuvette::tui::app::App::new(store, cuvette::tui::keys::KeyMap::new(&Default::default()).unwrap())
 }
 

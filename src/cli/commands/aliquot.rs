@@ -6,7 +6,6 @@ use super::{open_for, open_write, read_options};
 use crate::bench::{self, SpectrumFile};
 use crate::cli::args::*;
 use crate::cli::output::{self, Progress, json, line, molar, num};
-use crate::derive::growth;
 use crate::store::model;
 use anyhow::{Context, Result, anyhow, bail};
 use serde_json::json;
@@ -145,7 +144,7 @@ pub(super) fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
                 solvent: solvent.clone(),
             };
             let row = crate::corrections::edit_aliquot(&mut store, *id, &e, why)?;
-            let s = store.read(|tx| growth::aliquot_summary(tx, &row))?;
+            let s = store.read(|tx| crate::report::aliquot_summary(tx, &row))?;
             if *j {
                 json(&s)?;
             } else {
@@ -160,7 +159,7 @@ pub(super) fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
         AliquotCmd::Show { id, json: j } => {
             let s = store.read(|tx| {
                 let a = model::get_aliquot(tx, *id)?;
-                growth::aliquot_summary(tx, &a)
+                crate::report::aliquot_summary(tx, &a)
             })?;
             if *j {
                 json(&s)?

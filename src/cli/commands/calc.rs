@@ -5,7 +5,7 @@
 use super::{open_read, read_options};
 use crate::cli::args::*;
 use crate::cli::output::{json, line};
-use crate::derive::{engine, qy, sizing, solvents};
+use crate::derive::{qy, sizing, solvents};
 use crate::spectra::{self, ReadOptions, analysis};
 use anyhow::{Result, anyhow, bail};
 use serde_json::{Value, json};
@@ -205,7 +205,7 @@ pub(super) fn qy_cmd(a: &QyArgs) -> Result<()> {
 /// `qy gradient`: the gradient quantum yield of a dilution series logged as aliquots.
 pub(super) fn qy_gradient(cli: &Cli, aliquots: &[i64], j: bool) -> Result<()> {
     let mut store = open_read(cli)?;
-    let g = store.read(|tx| engine::gradient_qy_series(tx, aliquots))?;
+    let g = store.read(|tx| crate::report::yields::gradient_qy_series(tx, aliquots))?;
     if j {
         return json(&g);
     }

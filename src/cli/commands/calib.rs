@@ -4,7 +4,7 @@
 use super::{open_for, open_read};
 use crate::cli::args::*;
 use crate::cli::output::{Progress, json, line, num};
-use crate::derive::{calibration, engine, sizing, solvents};
+use crate::derive::{calibration, sizing, solvents};
 use crate::spectra::{self, ReadOptions};
 use crate::store::{Store, model};
 use anyhow::{Result, anyhow, bail};
@@ -39,7 +39,7 @@ pub(super) fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
                   j: bool,
                   f: &dyn Fn(&rusqlite::Connection, &mut calibration::Calibration) -> crate::Result<()>|
      -> Result<()> {
-        let (v, stale) = store.write(|tx, who| engine::change_calibration(tx, who, why, f))?;
+        let (v, stale) = store.write(|tx, who| crate::lab::derivation::change_calibration(tx, who, why, f))?;
         if j {
             json(&json!({"version": v, "marked_stale": stale}))
         } else {
@@ -50,7 +50,7 @@ pub(super) fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
     };
     match c {
         CalibCmd::List(f) | CalibCmd::History(f) => {
-            let h = store.read(|tx| calibration::history(tx))?;
+            let h = store.read(|tx| crate::lab::calibrations::history(tx))?;
             if f.json {
                 return json(&h);
             }
@@ -63,8 +63,8 @@ pub(super) fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
         }
         CalibCmd::Show { version, json: j } => {
             let v = store.read(|tx| match version {
-                Some(v) => calibration::get(tx, *v),
-                None => calibration::latest(tx),
+                Some(v) => crate::lab::calibrations::get(tx, *v),
+                None => crate::lab::calibrations::latest(tx),
             })?;
             if *j {
                 return json(&v);
@@ -355,9 +355,9 @@ pub(super) fn recompute(cli: &Cli, a: &RecomputeArgs) -> Result<()> {
     let mut store = open_for(cli, !a.dry_run)?;
     let progress = Progress::new("recompute", a.json);
     let report = if a.dry_run {
-        store.read(|tx| engine::recompute(tx, a.all, true, |d, t| progress.tick(d, t)))?
+        store.read(|tx| crate::lab::derivation::recompute(tx, a.all, true, |d, t| progress.tick(d, t)))?
     } else {
-        store.write(|tx, who| engine::recompute_recorded(tx, who, a.all, |d, t| progress.tick(d, t)))?
+        store.write(|tx, who| crate::lab::derivation::recompute_recorded(tx, who, a.all, |d, t| progress.tick(d, t)))?
     };
     if a.json {
         return json(&report);

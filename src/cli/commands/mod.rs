@@ -92,7 +92,7 @@ fn open_write(cli: &Cli) -> Result<Store> {
         ));
     }
     let who = identity::for_write(cli.actor.as_deref())?;
-    let store = Store::open_existing(&path, &who).map_err(|e| with_path(&path, e))?;
+    let store = crate::lab::open_existing(&path, &who).map_err(|e| with_path(&path, e))?;
     report_migration(&store, &path);
     Ok(store)
 }
@@ -114,7 +114,7 @@ fn open_create(cli: &Cli) -> Result<Store> {
     {
         std::fs::create_dir_all(dir).with_context(|| format!("cannot create {}", dir.display()))?;
     }
-    let store = Store::open(&path, &who).map_err(|e| with_path(&path, e))?;
+    let store = crate::lab::open(&path, &who).map_err(|e| with_path(&path, e))?;
     report_migration(&store, &path);
     Ok(store)
 }

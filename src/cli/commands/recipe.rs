@@ -4,7 +4,6 @@
 use super::open_for;
 use crate::cli::args::*;
 use crate::cli::output::{json, line, num};
-use crate::derive::growth;
 use crate::store::model;
 use anyhow::{Result, anyhow};
 use serde_json::json;
@@ -142,7 +141,7 @@ pub(super) fn recipe(cli: &Cli, c: &RecipeCmd) -> Result<()> {
         RecipeCmd::Stats { name, version, json: j } => {
             let st = store.read(|tx| {
                 let vid = model::recipe_version_id(tx, name, *version)?;
-                growth::recipe_stats(tx, vid)
+                crate::report::recipe_stats(tx, vid)
             })?;
             if *j {
                 json(&st)?;

@@ -5,7 +5,6 @@ use super::{db_path, default_db_path, open_create, open_read, open_write, tui_wr
 use crate::cli::args::*;
 use crate::cli::identity;
 use crate::cli::output::{Progress, json, line};
-use crate::derive::engine;
 use anyhow::Result;
 use serde_json::json;
 use std::path::{Path, PathBuf};
@@ -15,7 +14,7 @@ pub(super) fn check(cli: &Cli, a: &CheckArgs) -> Result<ExitCode> {
     let mut store = open_read(cli)?;
     let (problems, checked) = store.read(|tx| {
         let mut p = crate::store::check::check(tx)?;
-        let (n, more) = engine::verify_values(tx, a.deep)?;
+        let (n, more) = crate::lab::derivation::verify_values(tx, a.deep)?;
         p.extend(more);
         Ok((p, n))
     })?;
@@ -52,7 +51,7 @@ pub(super) fn restore(cli: &Cli, file: &Path, recompute_after: bool) -> Result<(
         if recompute_after {
             return Ok(Vec::new());
         }
-        Ok(engine::verify_values(c, true)?.1)
+        Ok(crate::lab::derivation::verify_values(c, true)?.1)
     };
     let r = if target.exists() {
         let mut store = open_write(cli)?;
@@ -63,7 +62,7 @@ pub(super) fn restore(cli: &Cli, file: &Path, recompute_after: bool) -> Result<(
     };
     if recompute_after {
         let mut store = open_write(cli)?;
-        let rep = store.write(|tx, who| engine::recompute_recorded(tx, who, true, |_, _| {}))?;
+        let rep = store.write(|tx, who| crate::lab::derivation::recompute_recorded(tx, who, true, |_, _| {}))?;
         line(&format!(
             "recomputed {} values, {} changed",
             rep.recomputed, rep.changed
