@@ -79,7 +79,7 @@ fn copy_to_partial(src: &Connection, dest: &Path) -> Result<PathBuf> {
         n += 1;
     };
     let result = src
-        .backup(rusqlite::DatabaseName::Main, &tmp, None)
+        .backup(rusqlite::MAIN_DB, &tmp, None::<fn(rusqlite::backup::Progress)>)
         .map_err(Error::from)
         .and_then(|_| {
             // Synced before it gets a real name, so a crash cannot leave a named file whose

@@ -198,7 +198,7 @@ impl Store {
                 })?
             }
         };
-        if access != Access::Read && conn.is_readonly(rusqlite::DatabaseName::Main).unwrap_or(false) {
+        if access != Access::Read && conn.is_readonly(rusqlite::MAIN_DB).unwrap_or(false) {
             return Err(Error::Storage(
                 "the file is read-only: cuvette needs to write to it and to its folder (it keeps a write-ahead journal beside it); nothing was changed".into(),
             ));
@@ -565,7 +565,7 @@ fn open_read_only(path: &Path) -> Result<Connection> {
     if let Ok(c) = Connection::open_with_flags(
         path,
         OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_NO_MUTEX,
-    ) && !c.is_readonly(rusqlite::DatabaseName::Main).unwrap_or(true)
+    ) && !c.is_readonly(rusqlite::MAIN_DB).unwrap_or(true)
     {
         return match probe(&c) {
             Ok(()) => {

@@ -691,19 +691,39 @@ fn draw_chart(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
             Some((0..6).map(|k| (pk, a + (y1 - y0) * 0.02 * k as f64)).collect())
         })
         .collect();
-    let count = traces.len();
-    let mut sets: Vec<Dataset> = traces
+    let x_labels = [format!("{x0:.0}"), format!("{x1:.0}")];
+    let y_labels = [super::units::fixed(y0, 1), super::units::fixed(y1, 2)];
+    let (x_bounds, y_bounds) = ([x0, x1], [y0, y1 * 1.05]);
+    let (cols, rows) = plot_cells(area, &x_labels, &y_labels);
+    let braille = Dots {
+        x: x_bounds,
+        y: y_bounds,
+        across: f64::from(cols) * 2.0,
+        down: f64::from(rows) * 4.0,
+    };
+    let dot = Dots {
+        across: f64::from(cols),
+        down: f64::from(rows),
+        ..braille
+    };
+    let runs: Vec<Vec<Vec<(f64, f64)>>> = data.iter().map(|d| braille.runs(d)).collect();
+    let marks: Vec<Vec<(f64, f64)>> = marks
         .iter()
-        .zip(&data)
-        .map(|((i, s, _), d)| {
-            Dataset::default()
-                .name(s.label.clone())
+        .map(|m| m.iter().map(|&pt| dot.place(pt)).collect())
+        .collect();
+    let count = traces.len();
+    let mut sets: Vec<Dataset> = Vec::new();
+    for ((i, s, _), runs) in traces.iter().zip(&runs) {
+        for (k, run) in runs.iter().enumerate() {
+            let set = Dataset::default()
                 .marker(Marker::Braille)
                 .graph_type(GraphType::Line)
                 .style(p.trace(*i, count))
-                .data(d)
-        })
-        .collect();
+                .data(run);
+            // The legend names a trace once, however many pieces the bounds cut it into.
+            sets.push(if k == 0 { set.name(s.label.clone()) } else { set });
+        }
+    }
     for m in &marks {
         sets.push(
             Dataset::default()
@@ -713,21 +733,104 @@ fn draw_chart(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
                 .data(m),
         );
     }
+    let [x_low, x_high] = x_labels;
+    let [y_low, y_high] = y_labels;
     let chart = Chart::new(sets)
         .block(Block::bordered().title(title))
-        .x_axis(
-            Axis::default()
-                .title("nm")
-                .bounds([x0, x1])
-                .labels([format!("{x0:.0}"), format!("{x1:.0}")]),
-        )
-        .y_axis(
-            Axis::default()
-                .bounds([y0, y1 * 1.05])
-                .labels([super::units::fixed(y0, 1), super::units::fixed(y1, 2)]),
-        )
+        .x_axis(Axis::default().title("nm").bounds(x_bounds).labels([x_low, x_high]))
+        .y_axis(Axis::default().bounds(y_bounds).labels([y_low, y_high]))
         .hidden_legend_constraints((Constraint::Ratio(1, 2), Constraint::Ratio(1, 2)));
     f.render_widget(chart, area);
+}
+
+/// The cells of the graph area inside a bordered chart with two labels on each axis: the x
+/// labels and the x axis take the two bottom rows, the y labels (or the part of the first x
+/// label left of the y axis, at most a third of the width) and the y axis the left columns.
+fn plot_cells(area: Rect, x_labels: &[String], y_labels: &[String]) -> (u16, u16) {
+    let inner = Block::bordered().inner(area);
+    if inner.width == 0 || inner.height == 0 {
+        return (0, 0);
+    }
+    let width = |l: &String| Line::from(l.as_str()).width();
+    let mut bottom = inner.bottom() - 1;
+    if bottom > inner.top() {
+        bottom -= 1;
+    }
+    let y_label_w = y_labels.iter().map(width).max().unwrap_or(0);
+    let x_label_w = x_labels.first().map(width).unwrap_or(0).saturating_sub(1);
+    let labels_w = u16::try_from(y_label_w.max(x_label_w)).unwrap_or(u16::MAX);
+    let mut left = inner.left() + labels_w.min(inner.width / 3);
+    if bottom > inner.top() {
+        bottom -= 1;
+    }
+    if left + 1 < inner.right() {
+        left += 1;
+    }
+    (inner.right().saturating_sub(left), bottom - inner.top() + 1)
+}
+
+/// The dots a chart's graph area is drawn with, so a spectrum can be put exactly on them.
+///
+/// A point lands on the dot at or before it (not the nearest one), and a trace is drawn in
+/// pieces where it leaves the bounds (not joined to the edge): the plots keep the look they
+/// have always had, which the charting library no longer gives by itself.
+#[derive(Clone, Copy)]
+struct Dots {
+    x: [f64; 2],
+    y: [f64; 2],
+    across: f64,
+    down: f64,
+}
+
+impl Dots {
+    /// Within the bounds, tested as the chart tests it (a NaN passes and lands on the first dot).
+    fn inside(&self, (x, y): (f64, f64)) -> bool {
+        !(x < self.x[0] || x > self.x[1] || y < self.y[0] || y > self.y[1])
+    }
+
+    /// The point moved to its dot; a point out of bounds, or bounds with no extent, as given.
+    fn place(&self, (x, y): (f64, f64)) -> (f64, f64) {
+        let [left, right] = self.x;
+        let [bottom, top] = self.y;
+        let (w, h) = (right - left, top - bottom);
+        if !self.inside((x, y)) || !(w > 0.0) || !(h > 0.0) {
+            return (x, y);
+        }
+        // Dots are counted from the left and from the top; `as usize` floors (and takes a NaN
+        // to the first dot).
+        let dot_x = ((x - left) * (self.across - 1.0) / w) as usize as f64;
+        let dot_y = ((top - y) * (self.down - 1.0) / h) as usize as f64;
+        let x = if self.across > 1.0 {
+            left + dot_x * w / (self.across - 1.0)
+        } else {
+            left
+        };
+        let y = if self.down > 1.0 {
+            top - dot_y * h / (self.down - 1.0)
+        } else {
+            top
+        };
+        (x.clamp(left, right), y.clamp(bottom, top))
+    }
+
+    /// The trace as the runs of its points within the bounds, each placed on its dot; at least
+    /// one run, so a trace wholly out of bounds still has its name in the legend.
+    fn runs(&self, data: &[(f64, f64)]) -> Vec<Vec<(f64, f64)>> {
+        let mut runs = vec![Vec::new()];
+        for &pt in data {
+            if self.inside(pt) {
+                if let Some(run) = runs.last_mut() {
+                    run.push(self.place(pt));
+                }
+            } else if runs.last().is_some_and(|r| !r.is_empty()) {
+                runs.push(Vec::new());
+            }
+        }
+        if runs.len() > 1 && runs.last().is_some_and(|r| r.is_empty()) {
+            runs.pop();
+        }
+        runs
+    }
 }
 
 /// A label cut to `w` cells from its middle, so the end that tells vials of one batch apart
@@ -999,20 +1102,34 @@ fn draw_calibrations(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         }
         lines
     };
-    let rows = (0..app.calibrations.len()).rev().map(|i| {
-        let c = &app.calibrations[i];
-        let why = capped(wrap_words(&c.why, why_w.saturating_sub(1)));
-        let curves = capped(wrap_words(&changed(i), curves_w.saturating_sub(1)));
-        let height = why.len().max(curves.len()).max(1) as u16;
-        Row::new(vec![
-            Cell::from(format!("v{}", c.version)),
-            Cell::from(c.created_at.get(..10).unwrap_or("").to_string()),
-            Cell::from(c.created_by.clone()),
-            Cell::from(why.join("\n")),
-            Cell::from(curves.join("\n")),
-        ])
-        .height(height)
-    });
+    // Only the versions that fit whole are drawn: a version cut off at its first line would
+    // read as one that changed nothing (the table would draw such a partial row).
+    let mut room = list.height.saturating_sub(3);
+    let rows = (0..app.calibrations.len())
+        .rev()
+        .map(|i| {
+            let c = &app.calibrations[i];
+            let why = capped(wrap_words(&c.why, why_w.saturating_sub(1)));
+            let curves = capped(wrap_words(&changed(i), curves_w.saturating_sub(1)));
+            let height = why.len().max(curves.len()).max(1) as u16;
+            let row = Row::new(vec![
+                Cell::from(format!("v{}", c.version)),
+                Cell::from(c.created_at.get(..10).unwrap_or("").to_string()),
+                Cell::from(c.created_by.clone()),
+                Cell::from(why.join("\n")),
+                Cell::from(curves.join("\n")),
+            ])
+            .height(height);
+            (height, row)
+        })
+        .take_while(|(height, _)| match room.checked_sub(*height) {
+            Some(left) => {
+                room = left;
+                true
+            }
+            None => false,
+        })
+        .map(|(_, row)| row);
     let widths = [
         Constraint::Length(4),
         Constraint::Length(10),
@@ -1793,4 +1910,39 @@ fn draw_picker(f: &mut Frame, app: &App, pk: &Picker, p: &Palette) {
         Line::default()
     };
     f.render_widget(Paragraph::new(note), note_row);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::Dots;
+
+    /// A grid of 21 × 9 dots over x 0..10 and y 0..1: a dot every 0.5 across, every 0.125 down.
+    const GRID: Dots = Dots {
+        x: [0.0, 10.0],
+        y: [0.0, 1.0],
+        across: 21.0,
+        down: 9.0,
+    };
+
+    #[test]
+    fn a_point_goes_to_the_dot_at_or_before_it_not_the_nearest() {
+        // x 0.9 is 1.8 dots across: it goes to dot 1 (x 0.5), where the nearest is dot 2 (1.0);
+        // y 0.30 is 5.6 dots down from the top: dot 5 (y 0.375), where the nearest is 6 (0.25).
+        let (x, y) = GRID.place((0.9, 0.30));
+        assert!((x - 0.5).abs() < 1e-12, "x {x}");
+        assert!((y - 0.375).abs() < 1e-12, "y {y}");
+        // The edges stay on the edges.
+        assert_eq!(GRID.place((10.0, 0.0)), (10.0, 0.0));
+        assert_eq!(GRID.place((0.0, 1.0)), (0.0, 1.0));
+        // Out of bounds is left as given, for the chart to leave out.
+        assert_eq!(GRID.place((3.0, 1.5)), (3.0, 1.5));
+    }
+
+    #[test]
+    fn a_trace_that_leaves_the_bounds_is_cut_into_pieces_not_joined_to_the_edge() {
+        let runs = GRID.runs(&[(0.0, 0.5), (1.0, 2.0), (2.0, 0.5), (3.0, 0.5), (4.0, -1.0)]);
+        assert_eq!(runs, vec![vec![(0.0, 0.5)], vec![(2.0, 0.5), (3.0, 0.5)]]);
+        // Wholly out of bounds: one empty piece, which still carries the trace's name.
+        assert_eq!(GRID.runs(&[(1.0, 5.0)]), vec![Vec::<(f64, f64)>::new()]);
+    }
 }
