@@ -164,13 +164,7 @@ fn admit(path: &Path, mut raw: RawSpectrum, kind: &str, kind_as_is: bool) -> Res
 
 /// Refuses a file whose bytes are already logged in the batch (a folder imported twice, the
 /// same export picked again), naming where it is; `again` lets it through.
-fn refuse_duplicate(
-    tx: &rusqlite::Connection,
-    batch_id: i64,
-    path: &Path,
-    sha: &str,
-    label: Option<&str>,
-) -> Result<()> {
+fn refuse_duplicate(tx: &crate::store::Db, batch_id: i64, path: &Path, sha: &str, label: Option<&str>) -> Result<()> {
     if let Some((sid, aid)) = model::spectrum_in_batch(tx, batch_id, sha, label)? {
         return Err(Error::Invalid(format!(
             "{}{} is already logged in batch {batch_id} (spectrum {sid} of aliquot {aid}, same SHA-256); give --again to log it twice",
@@ -210,6 +204,7 @@ pub fn add_aliquot(
                 refuse_duplicate(tx, a.batch_id, &f.path, sha, raw.label.as_deref())?;
             }
         }
+        crate::derive::solvents::check(&a.solvent)?;
         let id = model::insert_aliquot(tx, who, a)?;
         for (f, (raw, sha)) in &read {
             model::insert_spectrum(tx, who, &new_spectrum(Some(id), f, raw, sha))?;
@@ -276,7 +271,7 @@ pub fn add_series(
 /// in the batch are skipped and named in `skipped` when one is given, else refused.
 #[allow(clippy::too_many_arguments)]
 fn log_series(
-    tx: &rusqlite::Connection,
+    tx: &crate::store::Db,
     who: &str,
     template: &NewAliquot,
     file: &SpectrumFile,
@@ -314,6 +309,7 @@ fn log_series(
             stage,
             ..template.clone()
         };
+        crate::derive::solvents::check(&a.solvent)?;
         let id = model::insert_aliquot(tx, who, &a)?;
         model::insert_spectrum(tx, who, &new_spectrum(Some(id), file, raw, sha))?;
         crate::lab::derivation::derive_aliquot(tx, id)?;
@@ -455,10 +451,7 @@ pub fn measure_vial(store: &mut Store, vial: i64, abs: &Path, dilution: f64, pat
         };
         if out.concentration_molar.is_some() {
             model::set_vial_concentration(tx, vial, &conc)?;
-            tx.execute(
-                "INSERT INTO vial_event (vial_id, kind, who, why, at) VALUES (?1, 'measure', ?2, ?3, ?4)",
-                rusqlite::params![vial, who, format!("spectrum {sid}"), crate::store::now()],
-            )?;
+            model::record_vial_measured(tx, who, vial, sid)?;
             crate::store::audit(
                 tx,
                 who,
@@ -807,6 +800,7 @@ pub fn import_folder(
                 stage: g.stage.clone(),
                 ..template.clone()
             };
+            crate::derive::solvents::check(&a.solvent)?;
             let id = model::insert_aliquot(tx, who, &a)?;
             for (f, (raw, sha)) in fresh {
                 model::insert_spectrum(tx, who, &new_spectrum(Some(id), f, raw, sha))?;

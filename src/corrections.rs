@@ -23,6 +23,9 @@ pub fn set_aliquot_void(store: &mut Store, id: i64, void: bool, why: &str) -> Re
 /// Corrects an aliquot's logged facts; what depends on them is recomputed.
 pub fn edit_aliquot(store: &mut Store, id: i64, edit: &AliquotEdit, why: &str) -> Result<AliquotRow> {
     store.write(|tx, who| {
+        if let Some(solvent) = &edit.solvent {
+            crate::derive::solvents::check(solvent)?;
+        }
         model::edit_aliquot(tx, who, id, edit, why)?;
         crate::lab::derivation::after_correction(tx, id)?;
         model::get_aliquot(tx, id)

@@ -8,9 +8,9 @@
 use crate::derive::{calibration, qy};
 use crate::error::{Error, Result};
 use crate::spectra::HC_EV_NM;
+use crate::store::demo_marks::DemoMarks;
 use crate::store::model::{self, NewAliquot, NewBatch, NewSpectrum, NewVial, RecipeReagent, RecipeStep};
 use crate::store::{Store, model::meta_set};
-use rusqlite::Connection;
 use serde::Deserialize;
 use std::path::Path;
 
@@ -191,13 +191,8 @@ pub fn prepare_file(path: &Path, force: bool) -> Result<()> {
     };
     crate::store::check_is_sqlite(path).map_err(|_| refuse())?;
     {
-        let c = Connection::open_with_flags(path, rusqlite::OpenFlags::SQLITE_OPEN_READ_ONLY).map_err(|_| refuse())?;
-        let is_demo = c
-            .query_row("SELECT value FROM lab_meta WHERE key = 'demo'", [], |r| {
-                r.get::<_, String>(0)
-            })
-            .map(|v| v == "1")
-            .unwrap_or(false);
+        let c = DemoMarks::open(path).ok_or_else(refuse)?;
+        let is_demo = c.meta("demo").is_some_and(|v| v == "1");
         if !is_demo {
             return Err(refuse());
         }
@@ -217,11 +212,8 @@ pub fn prepare_file(path: &Path, force: bool) -> Result<()> {
 /// Work is any audited change after the build's last one, except lab_meta settings (the
 /// remembered bits a read may leave). A demo lab without the mark (built by an older cuvette,
 /// or a build that stopped half way) cannot be told apart from one with work in it.
-fn refuse_real_work(c: &Connection, path: &Path) -> Result<()> {
-    let through: Option<i64> = model::meta_get(c, BUILT_THROUGH_KEY)
-        .ok()
-        .flatten()
-        .and_then(|v| v.parse().ok());
+fn refuse_real_work(c: &DemoMarks, path: &Path) -> Result<()> {
+    let through: Option<i64> = c.meta(BUILT_THROUGH_KEY).and_then(|v| v.parse().ok());
     let Some(through) = through else {
         return Err(Error::Invalid(format!(
             "refusing to rebuild the demo lab in {}: it does not record where the demo ended \
@@ -229,13 +221,7 @@ fn refuse_real_work(c: &Connection, path: &Path) -> Result<()> {
             path.display()
         )));
     };
-    let (count, first): (i64, Option<String>) = c.query_row(
-        "SELECT COUNT(*), (SELECT action || ' ' || entity || COALESCE(' ' || entity_id, '') || ' by ' || who || ' at ' || at
-                           FROM audit_log WHERE id > ?1 AND entity <> 'lab_meta' ORDER BY id LIMIT 1)
-         FROM audit_log WHERE id > ?1 AND entity <> 'lab_meta'",
-        [through],
-        |r| Ok((r.get(0)?, r.get(1)?)),
-    )?;
+    let (count, first) = c.work_after(through)?;
     if count > 0 {
         return Err(Error::Invalid(format!(
             "refusing to rebuild the demo lab in {}: it holds work logged after the demo was built \
@@ -570,7 +556,7 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
             }
         }
         // The mark re-running `demo` checks: changes after it are someone's work.
-        let last: i64 = tx.query_row("SELECT COALESCE(MAX(id), 0) FROM audit_log", [], |r| r.get(0))?;
+        let last = crate::store::demo_marks::last_audit_id(tx)?;
         meta_set(tx, who, BUILT_THROUGH_KEY, &last.to_string())?;
         Ok(())
     })?;

@@ -28,8 +28,10 @@ pub enum Error {
     /// A search query did not parse; `column` is 1-based.
     #[error("query error at column {column}: {reason}")]
     Query { column: usize, reason: String },
+    /// Any other error the database gave (the store turns those a person can act on, a full
+    /// disk or a busy lab, into `Storage` as it converts them).
     #[error("database: {0}")]
-    Sqlite(rusqlite::Error),
+    Sqlite(crate::store::DbError),
     /// The disk or the file refused a write; nothing was written.
     #[error("{0}")]
     Storage(String),
@@ -40,27 +42,6 @@ pub enum Error {
     Io(#[from] std::io::Error),
     #[error("json: {0}")]
     Json(#[from] serde_json::Error),
-}
-
-impl From<rusqlite::Error> for Error {
-    fn from(e: rusqlite::Error) -> Self {
-        use rusqlite::ErrorCode;
-        match e.sqlite_error_code() {
-            Some(ErrorCode::DiskFull) => {
-                Error::Storage("the disk holding the database is full: nothing was written".into())
-            }
-            Some(ErrorCode::ReadOnly) => Error::Storage("the database file is read-only: nothing was written".into()),
-            Some(ErrorCode::DatabaseBusy) | Some(ErrorCode::DatabaseLocked) => Error::Storage(
-                "the database stayed busy with another process past the wait ($CUVETTE_BUSY_SECONDS, 30 s by default): nothing was written; try again".into(),
-            ),
-            Some(ErrorCode::SystemIoFailure) => Error::Storage(
-                "disk I/O error on the database (is the disk full or failing?): nothing was written".into(),
-            ),
-            Some(ErrorCode::NotADatabase) => Error::Storage("the file is not a database (or it is corrupt)".into()),
-            Some(ErrorCode::CannotOpen) => Error::Storage(format!("cannot open the database: {e}")),
-            _ => Error::Sqlite(e),
-        }
-    }
 }
 
 pub type Result<T> = std::result::Result<T, Error>;

@@ -140,3 +140,13 @@ pub fn excitation_warning(d: &Dye, excitation_nm: f64) -> Option<String> {
         d.name, d.excitation_source
     ))
 }
+
+/// Refuses a solvent the table does not hold, naming the ones it does: an aliquot's solvent
+/// sets the refractive index its quantum yield is corrected with, so an unknown one is a
+/// mistake to catch when the aliquot is logged, not when its yield is asked for.
+pub fn check(name: &str) -> crate::Result<()> {
+    if refractive_index(name).is_none() {
+        return crate::error::invalid(format!("unknown solvent '{name}' (known: {})", names().join(", ")));
+    }
+    Ok(())
+}

@@ -14,6 +14,7 @@
 pub mod backup;
 pub mod calibrations;
 pub mod check;
+pub mod demo_marks;
 pub mod facts;
 pub mod handover;
 pub mod model;
@@ -22,6 +23,32 @@ pub mod values;
 
 /// The open database (a connection or a transaction) as the layers above the store hold it: they pass it to store functions and never run SQL on it.
 pub type Db = rusqlite::Connection;
+
+/// An error of the database engine, as the library's error type carries it.
+pub type DbError = rusqlite::Error;
+
+/// The store's errors become the library's here, where the engine is known: the ones a person
+/// can act on (a full disk, a read-only file, a lab busy past the wait) say so in words.
+impl From<rusqlite::Error> for Error {
+    fn from(e: rusqlite::Error) -> Self {
+        use rusqlite::ErrorCode;
+        match e.sqlite_error_code() {
+            Some(ErrorCode::DiskFull) => {
+                Error::Storage("the disk holding the database is full: nothing was written".into())
+            }
+            Some(ErrorCode::ReadOnly) => Error::Storage("the database file is read-only: nothing was written".into()),
+            Some(ErrorCode::DatabaseBusy) | Some(ErrorCode::DatabaseLocked) => Error::Storage(
+                "the database stayed busy with another process past the wait ($CUVETTE_BUSY_SECONDS, 30 s by default): nothing was written; try again".into(),
+            ),
+            Some(ErrorCode::SystemIoFailure) => Error::Storage(
+                "disk I/O error on the database (is the disk full or failing?): nothing was written".into(),
+            ),
+            Some(ErrorCode::NotADatabase) => Error::Storage("the file is not a database (or it is corrupt)".into()),
+            Some(ErrorCode::CannotOpen) => Error::Storage(format!("cannot open the database: {e}")),
+            _ => Error::Sqlite(e),
+        }
+    }
+}
 
 use crate::error::{Error, Result};
 use rusqlite::{Connection, OpenFlags, Transaction, TransactionBehavior, params};

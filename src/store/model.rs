@@ -860,13 +860,6 @@ pub fn insert_aliquot(tx: &Connection, who: &str, a: &NewAliquot) -> Result<i64>
             a.dilution_factor
         ));
     }
-    if crate::derive::solvents::refractive_index(&a.solvent).is_none() {
-        return invalid(format!(
-            "unknown solvent '{}' (known: {})",
-            a.solvent,
-            crate::derive::solvents::names().join(", ")
-        ));
-    }
     let stage = match (&a.minutes, &a.stage) {
         (None, None) => Some("crude".to_string()),
         (_, s) => s.clone(),
@@ -1501,6 +1494,16 @@ pub struct VialEventRow {
     pub at: String,
 }
 
+/// Records that a vial's concentration was measured from a spectrum (the event the vial's
+/// history shows; the value itself is `set_vial_concentration`'s).
+pub fn record_vial_measured(tx: &Connection, who: &str, vial_id: i64, spectrum_id: i64) -> Result<()> {
+    tx.execute(
+        "INSERT INTO vial_event (vial_id, kind, who, why, at) VALUES (?1, 'measure', ?2, ?3, ?4)",
+        params![vial_id, who, format!("spectrum {spectrum_id}"), crate::store::now()],
+    )?;
+    Ok(())
+}
+
 pub fn vial_events(conn: &Connection, vial_id: i64) -> Result<Vec<VialEventRow>> {
     let mut st = conn
         .prepare("SELECT id, vial_id, kind, amount_ml, who, why, at FROM vial_event WHERE vial_id = ?1 ORDER BY id")?;
@@ -1828,14 +1831,6 @@ pub fn edit_aliquot(tx: &Connection, who: &str, id: i64, e: &AliquotEdit, why: &
     }
     if let Some(p) = e.path_cm {
         check_bounded("path length", p, false, 100.0, "cm")?;
-    }
-    if let Some(s) = &e.solvent
-        && crate::derive::solvents::refractive_index(s).is_none()
-    {
-        return invalid(format!(
-            "unknown solvent '{s}' (known: {})",
-            crate::derive::solvents::names().join(", ")
-        ));
     }
     // A timed aliquot given a stage (or the reverse) keeps exactly one of the two.
     let (minutes, stage) = match (e.minutes, &e.stage) {

@@ -10,7 +10,7 @@ use crate::store::{Store, model};
 use anyhow::{Result, anyhow, bail};
 use serde_json::json;
 
-fn core_of(tx: &rusqlite::Connection, material: &str) -> crate::Result<String> {
+fn core_of(tx: &crate::store::Db, material: &str) -> crate::Result<String> {
     match model::material_by_name(tx, material) {
         Ok(m) => Ok(m.core),
         Err(e) => {
@@ -37,7 +37,7 @@ pub(super) fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
     let change = |store: &mut Store,
                   why: &str,
                   j: bool,
-                  f: &dyn Fn(&rusqlite::Connection, &mut calibration::Calibration) -> crate::Result<()>|
+                  f: &dyn Fn(&crate::store::Db, &mut calibration::Calibration) -> crate::Result<()>|
      -> Result<()> {
         let (v, stale) = store.write(|tx, who| crate::lab::derivation::change_calibration(tx, who, why, f))?;
         if j {

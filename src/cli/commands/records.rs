@@ -47,7 +47,7 @@ pub(super) fn restore(cli: &Cli, file: &Path, recompute_after: bool) -> Result<(
     let target = db_path(cli);
     // A backup must pass the whole check, derived values recomputed included, unless the user
     // takes it to recompute them.
-    let extra = |c: &rusqlite::Connection| -> crate::Result<Vec<crate::store::check::Problem>> {
+    let extra = |c: &crate::store::Db| -> crate::Result<Vec<crate::store::check::Problem>> {
         if recompute_after {
             return Ok(Vec::new());
         }
