@@ -37,3 +37,15 @@ pub fn save(tx: &Db, who: &str, why: &str, body: &Calibration) -> Result<i64> {
     }
     calibrations::insert_next(tx, who, why, &prev, body)
 }
+
+/// A calibration change as a person makes it: `edit` changes the newest version's body (it may
+/// read the lab, to name a material's core), which is saved as the next version with `why`,
+/// and the values it moves are marked stale, in one transaction. Returns the new version and
+/// how many values are now stale.
+pub fn change(
+    store: &mut crate::store::Store,
+    why: &str,
+    edit: &dyn Fn(&Db, &mut Calibration) -> Result<()>,
+) -> Result<(i64, usize)> {
+    store.write(|tx, who| crate::lab::derivation::change_calibration(tx, who, why, edit))
+}

@@ -39,7 +39,7 @@ pub(super) fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
                   j: bool,
                   f: &dyn Fn(&crate::store::Db, &mut calibration::Calibration) -> crate::Result<()>|
      -> Result<()> {
-        let (v, stale) = store.write(|tx, who| crate::lab::derivation::change_calibration(tx, who, why, f))?;
+        let (v, stale) = crate::lab::calibrations::change(store, why, f)?;
         if j {
             json(&json!({"version": v, "marked_stale": stale}))
         } else {
@@ -357,7 +357,7 @@ pub(super) fn recompute(cli: &Cli, a: &RecomputeArgs) -> Result<()> {
     let report = if a.dry_run {
         store.read(|tx| crate::lab::derivation::recompute(tx, a.all, true, |d, t| progress.tick(d, t)))?
     } else {
-        store.write(|tx, who| crate::lab::derivation::recompute_recorded(tx, who, a.all, |d, t| progress.tick(d, t)))?
+        crate::lab::derivation::recompute_now(&mut store, a.all, |d, t| progress.tick(d, t))?
     };
     if a.json {
         return json(&report);

@@ -62,7 +62,7 @@ pub(super) fn restore(cli: &Cli, file: &Path, recompute_after: bool) -> Result<(
     };
     if recompute_after {
         let mut store = open_write(cli)?;
-        let rep = store.write(|tx, who| crate::lab::derivation::recompute_recorded(tx, who, true, |_, _| {}))?;
+        let rep = crate::lab::derivation::recompute_now(&mut store, true, |_, _| {})?;
         line(&format!(
             "recomputed {} values, {} changed",
             rep.recomputed, rep.changed

@@ -12,7 +12,8 @@ mod verify;
 mod vials;
 
 pub use recompute::{
-    Crossing, Move, RecomputeReport, THRESHOLD_FIELDS, mark_stale, recompute, recompute_recorded, search_thresholds,
+    Crossing, Move, RecomputeReport, THRESHOLD_FIELDS, mark_stale, recompute, recompute_now, recompute_recorded,
+    search_thresholds,
 };
 pub use verify::{CHECK_SAMPLE, verify_values};
 pub use vials::{estimate_vial, mark_vials_stale, refresh_vials};

@@ -483,3 +483,13 @@ pub fn recompute_recorded(
     )?;
     Ok(r)
 }
+
+/// Recomputes the lab's stale values (every value with `all`) as the person's action: one
+/// transaction, audited with what it changed (see [`recompute_recorded`]).
+pub fn recompute_now(
+    store: &mut crate::store::Store,
+    all: bool,
+    progress: impl FnMut(usize, usize),
+) -> Result<RecomputeReport> {
+    store.write(|tx, who| recompute_recorded(tx, who, all, progress))
+}
