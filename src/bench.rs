@@ -206,10 +206,15 @@ pub fn add_aliquot(
         }
         crate::derive::solvents::check(&a.solvent)?;
         let id = model::insert_aliquot(tx, who, a)?;
+        // The spectra just read are analysed as they are in memory: nothing is read back or
+        // decoded from the BLOBs written here.
+        let mut written = Vec::with_capacity(read.len());
         for (f, (raw, sha)) in &read {
-            model::insert_spectrum(tx, who, &new_spectrum(Some(id), f, raw, sha))?;
+            let s = new_spectrum(Some(id), f, raw, sha);
+            let sid = model::insert_spectrum(tx, who, &s)?;
+            written.push(s.into_row(sid));
         }
-        crate::lab::derivation::derive_aliquot(tx, id)?;
+        crate::lab::derivation::derive_new_aliquot(tx, id, &written)?;
         // A new aliquot may be the batch's product now: its vials' estimates follow.
         crate::lab::derivation::refresh_vials(tx, Some(a.batch_id), false)?;
         let row = model::get_aliquot(tx, id)?;

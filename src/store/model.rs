@@ -949,6 +949,32 @@ pub struct NewSpectrum {
     pub label: Option<String>,
 }
 
+impl NewSpectrum {
+    /// The row this spectrum is once inserted with `id`: what the store would give back when
+    /// asked, without reading or decoding the BLOB it just wrote (the points are kept exactly;
+    /// the BLOB is their lossless encoding).
+    pub fn into_row(self, id: i64) -> SpectrumRow {
+        SpectrumRow {
+            id,
+            aliquot_id: self.aliquot_id,
+            vial_id: self.vial_id,
+            kind: self.kind,
+            x_unit: self.x_unit,
+            y_unit: self.y_unit,
+            npoints: self.x.len() as i64,
+            x: self.x,
+            y: self.y,
+            file_name: self.file_name,
+            sha256: self.sha256,
+            excitation_nm: self.excitation_nm,
+            instrument: self.instrument,
+            dilution_factor: self.dilution_factor,
+            path_cm: self.path_cm,
+            label: self.label,
+        }
+    }
+}
+
 #[derive(Debug, Clone, Serialize)]
 pub struct SpectrumRow {
     pub id: i64,

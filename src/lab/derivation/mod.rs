@@ -25,6 +25,7 @@ use crate::derive::engine::{
 };
 use crate::derive::series::{self, SeriesHint, SeriesPoint};
 use crate::error::Result;
+use crate::store::model::SpectrumRow;
 use crate::store::values::{self, StoredValue};
 use crate::store::{Db, now};
 use std::collections::HashMap;
@@ -144,6 +145,12 @@ fn apply(
 pub fn derive_aliquot(tx: &Db, aliquot_id: i64) -> Result<Vec<Derived>> {
     let old = values::current_values(tx, aliquot_id)?;
     let values = derive_aliquot_with(tx, aliquot_id, stored_series_hint(&old).as_ref())?;
+    with_series_pass(tx, aliquot_id, values)
+}
+
+/// The series pass after one aliquot was derived: when it gave the aliquot (or a neighbour) a
+/// second look, the aliquot's values are the stored ones it left.
+fn with_series_pass(tx: &Db, aliquot_id: i64, values: Vec<Derived>) -> Result<Vec<Derived>> {
     let a = crate::store::model::get_aliquot(tx, aliquot_id)?;
     if series_pass(tx, a.batch_id)? > 0 {
         return Ok(values::current_values(tx, aliquot_id)?
@@ -160,13 +167,39 @@ pub fn derive_aliquot(tx: &Db, aliquot_id: i64) -> Result<Vec<Derived>> {
     Ok(values)
 }
 
+/// Derives a new aliquot from the spectra just written for it, as they are in memory (no
+/// spectrum read back or decoded), then looks at its growth series again as
+/// [`derive_aliquot`] does. `spectra` must be every spectrum of the aliquot, in the order they
+/// were inserted (the store's order).
+pub fn derive_new_aliquot(tx: &Db, aliquot_id: i64, spectra: &[SpectrumRow]) -> Result<Vec<Derived>> {
+    let values = derive_aliquot_from(tx, aliquot_id, None, Some(spectra))?;
+    with_series_pass(tx, aliquot_id, values)
+}
+
 /// Derives one aliquot with the range its growth series gives (None: no second look).
 fn derive_aliquot_with(tx: &Db, aliquot_id: i64, hint: Option<&SeriesHint>) -> Result<Vec<Derived>> {
+    derive_aliquot_from(tx, aliquot_id, hint, None)
+}
+
+/// Derives one aliquot from `in_memory` spectra when the caller has them, else from the store.
+fn derive_aliquot_from(
+    tx: &Db,
+    aliquot_id: i64,
+    hint: Option<&SeriesHint>,
+    in_memory: Option<&[SpectrumRow]>,
+) -> Result<Vec<Derived>> {
     let a = crate::store::model::get_aliquot(tx, aliquot_id)?;
     let batch = crate::store::model::get_batch(tx, a.batch_id)?;
     let version = values::effective_calibration_version(tx, a.batch_id)?;
     let cal = crate::lab::calibrations::get(tx, version)?.body;
-    let spectra = crate::store::model::spectra_of_aliquot(tx, aliquot_id)?;
+    let read;
+    let spectra = match in_memory {
+        Some(s) => s,
+        None => {
+            read = crate::store::model::spectra_of_aliquot(tx, aliquot_id)?;
+            &read[..]
+        }
+    };
     let metas: Vec<SpectrumMeta> = spectra.iter().map(SpectrumMeta::from).collect();
     let ctx = batch_context(tx, a.batch_id)?;
     let hash = inputs_hash(&a, &batch.core, &metas, &cal, &ctx);
