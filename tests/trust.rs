@@ -1050,14 +1050,14 @@ fn the_ui_voids_reinstates_and_corrects_an_aliquot() {
     for (w, h) in [(80, 24), (160, 45)] {
         assert!(screen_at(&app, w, h).contains("VOID"), "{w}x{h}");
     }
-    let product = app.sheet.as_ref().unwrap()["product"]["id"].as_i64();
+    let product = app.sheet.as_ref().unwrap().product.as_ref().map(|p| p.id);
     assert_eq!(product, Some(ids[2]));
     // Reinstated again from the same key.
     press(&mut app, KeyCode::Char('x'));
     assert!(screen_at(&app, 80, 24).contains("Reinstate aliquot"));
     typ(&mut app, "it was absorbance");
     press(&mut app, KeyCode::Enter);
-    assert_eq!(app.sheet.as_ref().unwrap()["product"]["id"].as_i64(), Some(ids[3]));
+    assert_eq!(app.sheet.as_ref().unwrap().product.as_ref().map(|p| p.id), Some(ids[3]));
     // A correction of the dilution recomputes the concentration.
     press(&mut app, KeyCode::Up);
     press(&mut app, KeyCode::Char('e'));

@@ -126,7 +126,7 @@ fn sheet_23(app: &mut App) {
     typ(app, "23");
     press(app, KeyCode::Enter);
     assert_eq!(app.view, View::Sheet);
-    assert_eq!(app.sheet.as_ref().unwrap()["id"], 23);
+    assert_eq!(app.sheet.as_ref().unwrap().batch.id, 23);
 }
 
 fn form_title(app: &App) -> String {

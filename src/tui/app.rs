@@ -12,7 +12,6 @@ use crate::report::plot::SeriesItem;
 use crate::search::{self, Facts, Hit};
 use crate::store::{Store, model};
 use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
-use serde_json::Value;
 use std::path::PathBuf;
 use std::sync::mpsc::{Receiver, Sender, channel};
 use std::time::{Duration, Instant};
@@ -321,7 +320,7 @@ pub struct App {
     pub sort: SortKey,
     pub sort_desc: bool,
     pub selected: usize,
-    pub sheet: Option<Value>,
+    pub sheet: Option<crate::report::BatchSheet>,
     pub series: Vec<SeriesItem>,
     pub show_pl: bool,
     /// The vials shown, as the shelf's query, grouping and sort arrange them.
@@ -385,6 +384,13 @@ fn error_column(e: &crate::Error) -> Option<usize> {
         crate::Error::Query { column, .. } => Some(*column),
         _ => None,
     }
+}
+
+/// How a growth table row names its aliquot: its minutes, else its stage.
+fn aliquot_label(a: &crate::derive::growth::AliquotSummary) -> String {
+    a.minutes
+        .map(|m| format!("{} min", units::minutes(m)))
+        .unwrap_or_else(|| a.stage.clone().unwrap_or_default())
 }
 
 fn num(v: Option<f64>, d: usize) -> String {
@@ -509,7 +515,7 @@ impl App {
             self.stale_batches = engine::stale_batches(&self.store.conn)?;
             self.calibrations = calibration::history(&self.store.conn)?;
             self.load_trail()?;
-            if let Some(id) = self.sheet.as_ref().and_then(|s| s["id"].as_i64()) {
+            if let Some(id) = self.sheet.as_ref().map(|s| s.batch.id) {
                 match self.open_sheet(id) {
                     Ok(()) => {}
                     // The batch is gone (the lab was restored from a backup without it): the
@@ -654,11 +660,7 @@ impl App {
         match self.view {
             View::Shelf => self.vial_selected = moved(self.vial_selected, self.vials.len()),
             View::Sheet => {
-                let n = self
-                    .sheet
-                    .as_ref()
-                    .and_then(|s| s["aliquots"].as_array().map(|a| a.len()))
-                    .unwrap_or(0);
+                let n = self.sheet.as_ref().map(|s| s.aliquots.len()).unwrap_or(0);
                 self.aliquot_selected = moved(self.aliquot_selected, n);
             }
             View::Trail => self.trail_step(step),
@@ -684,9 +686,9 @@ impl App {
     }
 
     pub fn open_sheet(&mut self, id: i64) -> crate::Result<()> {
-        let same = self.sheet.as_ref().and_then(|s| s["id"].as_i64()) == Some(id);
-        let sheet = crate::report::batch_detail(&self.store.conn, id)?;
-        let n = sheet["aliquots"].as_array().map(|a| a.len()).unwrap_or(0);
+        let same = self.sheet.as_ref().map(|s| s.batch.id) == Some(id);
+        let sheet = crate::report::batch_sheet(&self.store.conn, id)?;
+        let n = sheet.aliquots.len();
         self.aliquot_selected = if same {
             self.aliquot_selected.min(n.saturating_sub(1))
         } else {
@@ -699,15 +701,8 @@ impl App {
 
     /// The aliquot selected in the batch sheet: (id, label, voided).
     fn selected_aliquot(&self) -> Option<(i64, String, bool)> {
-        let a = self.sheet.as_ref()?["aliquots"]
-            .as_array()?
-            .get(self.aliquot_selected)?
-            .clone();
-        let label = a["minutes"]
-            .as_f64()
-            .map(|m| format!("{} min", units::minutes(m)))
-            .unwrap_or_else(|| a["stage"].as_str().unwrap_or("").to_string());
-        Some((a["id"].as_i64()?, label, a["voided"].as_bool() == Some(true)))
+        let a = self.sheet.as_ref()?.aliquots.get(self.aliquot_selected)?;
+        Some((a.id, aliquot_label(a), a.voided))
     }
 
     pub fn scope(&self) -> Scope {
@@ -1074,7 +1069,7 @@ impl App {
             FormKind::Draw | FormKind::Move | FormKind::Dispose | FormKind::ReinstateVial => f.target.map(Follow::Vial),
             FormKind::NewVial => self.new_vial.take().map(Follow::Vial),
             FormKind::VoidBatch | FormKind::ReinstateBatch | FormKind::GoToBatch => f.target.map(Follow::Batch),
-            FormKind::NewBatch => self.sheet.as_ref().and_then(|s| s["id"].as_i64()).map(Follow::Batch),
+            FormKind::NewBatch => self.sheet.as_ref().map(|s| Follow::Batch(s.batch.id)),
             _ => None,
         };
         self.reload();
@@ -1100,7 +1095,7 @@ impl App {
 
     fn selected_batch(&self) -> Option<i64> {
         match self.view {
-            View::Sheet => self.sheet.as_ref().and_then(|s| s["id"].as_i64()),
+            View::Sheet => self.sheet.as_ref().map(|s| s.batch.id),
             _ => self.hits.get(self.selected).map(|h| h.id),
         }
     }
@@ -1385,15 +1380,10 @@ impl App {
             Action::VoidBatch => match self
                 .sheet
                 .as_ref()
-                .and_then(|s| Some((s["id"].as_i64()?, s["voided"] == true)))
+                .map(|s| (s.batch.id, s.batch.voided, s.batch.name.clone()))
             {
                 None => self.error("no batch open"),
-                Some((id, voided)) => {
-                    let name = self
-                        .sheet
-                        .as_ref()
-                        .and_then(|s| s["name"].as_str().map(String::from))
-                        .unwrap_or_default();
+                Some((id, voided, name)) => {
                     let (kind, verb) = if voided {
                         (FormKind::ReinstateBatch, "Reinstate")
                     } else {
@@ -1409,12 +1399,8 @@ impl App {
                     let kinds: Vec<String> = self
                         .sheet
                         .as_ref()
-                        .and_then(|s| s["aliquots"].as_array()?.get(self.aliquot_selected).cloned())
-                        .and_then(|a| {
-                            a["spectra"]
-                                .as_array()
-                                .map(|v| v.iter().filter_map(|s| s["kind"].as_str().map(String::from)).collect())
-                        })
+                        .and_then(|s| s.aliquots.get(self.aliquot_selected))
+                        .map(|a| a.spectra.iter().map(|s| s.kind.clone()).collect())
                         .unwrap_or_default();
                     let first = kinds.first().cloned().unwrap_or_else(|| "abs".into());
                     self.mode = Mode::Form(
@@ -1691,7 +1677,7 @@ impl App {
     /// "batch 3 CdSe-0412": how a form names the batch it acts on.
     pub fn batch_words(&self, id: i64) -> String {
         let name = match &self.sheet {
-            Some(s) if s["id"].as_i64() == Some(id) => s["name"].as_str().map(String::from),
+            Some(s) if s.batch.id == id => Some(s.batch.name.clone()),
             _ => self.facts.iter().find(|b| b.id == id).map(|b| b.name.clone()),
         };
         match name {
@@ -1777,29 +1763,21 @@ impl App {
                 )
             }
             FormKind::VoidAliquot => {
-                let a = self
-                    .sheet
-                    .as_ref()
-                    .and_then(|s| {
-                        s["aliquots"]
-                            .as_array()?
-                            .iter()
-                            .find(|a| a["id"].as_i64() == Some(id))
-                            .cloned()
-                    })
+                let s = self.sheet.as_ref().ok_or("that aliquot is not in the open batch")?;
+                let a = s
+                    .aliquots
+                    .iter()
+                    .find(|a| a.id == id)
                     .ok_or("that aliquot is not in the open batch")?;
-                let batch = self.sheet.as_ref().and_then(|s| s["id"].as_i64()).unwrap_or(0);
-                let when = a["minutes"]
-                    .as_f64()
-                    .map(|m| format!("{} min", units::minutes(m)))
-                    .unwrap_or_else(|| a["stage"].as_str().unwrap_or("").to_string());
-                let product = self.sheet.as_ref().and_then(|s| s["product"]["id"].as_i64()) == Some(id);
+                let batch = s.batch.id;
+                let when = aliquot_label(a);
+                let product = s.product.as_ref().map(|p| p.id) == Some(id);
                 let mut l = vec![
                     format!(
                         "aliquot {id} ({when}) of {}: peak {} nm, D {} nm",
                         self.batch_words(batch),
-                        num(a["first_exciton_nm"].as_f64(), 1),
-                        num(a["diameter_nm"].as_f64(), 2)
+                        num(a.first_exciton_nm, 1),
+                        num(a.diameter_nm, 2)
                     ),
                     "It is left out of the growth series, product, search, plots and pack;".into(),
                     "  its spectra and values stay in the record, and x reinstates it.".into(),
@@ -1811,17 +1789,16 @@ impl App {
             }
             FormKind::VoidBatch => {
                 let s = self.sheet.as_ref().ok_or("no batch open")?;
-                let count = |k: &str| s[k].as_array().map(|a| a.len()).unwrap_or(0);
                 (
                     format!("Void {}?", self.batch_words(id)),
                     vec![
                         format!(
                             "{} ({}, {}): {} aliquots, {} vials",
                             self.batch_words(id),
-                            s["material"].as_str().unwrap_or(""),
-                            s["status"].as_str().map(units::words).unwrap_or_default(),
-                            count("aliquots"),
-                            count("vials")
+                            s.batch.material,
+                            units::words(&s.batch.status),
+                            s.aliquots.len(),
+                            s.vials.len()
                         ),
                         "It is left out of the batch list, search and the pack;".into(),
                         "  nothing is deleted: g opens it by id, and X there reinstates it.".into(),
