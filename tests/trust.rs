@@ -5,6 +5,7 @@
 #![allow(clippy::unwrap_used, clippy::panic, clippy::expect_used)]
 
 mod common;
+use common::settled::{check_lab, press, typ, wait_idle};
 use common::*;
 use crossterm::event::KeyCode;
 use cuvette::store::Store;
@@ -1162,7 +1163,7 @@ fn the_ui_notices_a_restore_and_reopens_the_restored_lab() {
         app.message
     );
     press(&mut app, KeyCode::Esc);
-    app.check_lab();
+    check_lab(&mut app);
     assert!(
         app.message
             .as_ref()
@@ -1340,7 +1341,7 @@ fn the_ui_follows_others_writes_and_closes_a_sheet_the_restore_removed() {
     // The newest batch is selected (the ledger sorts newest first); another process adds one.
     let selected = app.hits[app.selected].id;
     lab.ok(&["batch", "new", "--material", "CdSe", "--name", "from elsewhere"]);
-    app.check_lab();
+    check_lab(&mut app);
     assert_eq!(app.hits.len(), 3, "others' writes show without a write of our own");
     assert_eq!(
         app.hits[app.selected].id, selected,
@@ -1353,7 +1354,7 @@ fn the_ui_follows_others_writes_and_closes_a_sheet_the_restore_removed() {
     press(&mut app, KeyCode::Enter);
     assert_eq!(app.view, cuvette::tui::app::View::Sheet);
     lab.ok(&["restore", s(&backup)]);
-    app.check_lab();
+    check_lab(&mut app);
     assert_eq!(
         app.view,
         cuvette::tui::app::View::Batches,

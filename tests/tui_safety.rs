@@ -6,6 +6,7 @@
 #![allow(clippy::unwrap_used, clippy::panic, clippy::expect_used)]
 
 mod common;
+use common::settled::{ctrl, press, reload, typ, wait_idle};
 use common::*;
 use crossterm::event::KeyCode;
 use cuvette::tui::app::{App, Mode, View};
@@ -222,7 +223,7 @@ fn applying_a_recompute_previews_then_asks() {
     press(&mut app, KeyCode::Esc);
     wait_idle(&mut app);
     assert_eq!(recomputes(&lab), runs, "declined: nothing recomputed");
-    app.reload();
+    reload(&mut app);
     assert!(!app.stale_batches.is_empty());
     press(&mut app, KeyCode::Char('A'));
     wait_idle(&mut app);

@@ -7,6 +7,7 @@
 #![allow(clippy::unwrap_used, clippy::panic, clippy::expect_used)]
 
 mod common;
+use common::settled::{press, typ, wait_idle};
 use common::*;
 use crossterm::event::KeyCode;
 use cuvette::tui::app::{App, Mode, View};

@@ -1359,6 +1359,14 @@ fn status_line(app: &App, width: u16, p: &Palette) -> Line<'static> {
         }
         spans.push(Span::raw(format!("{label}: {done}/{total}")));
     }
+    // What the UI's worker is doing while the person waits (a write held up by the lab's
+    // lock, a large sheet being read); the screen and the keys go on meanwhile.
+    if let Some(w) = app.working() {
+        if !spans.is_empty() {
+            spans.push(Span::raw("  ·  "));
+        }
+        spans.push(Span::styled(format!("working… {w}"), p.dim()));
+    }
     Line::from(spans)
 }
 

@@ -1,12 +1,19 @@
-//! The keyboard-driven terminal UI. `app` holds state and actions, `draw` renders it, `keys`
-//! is the one key table behind dispatch, help and footer, `shelf` arranges the shelf (query,
-//! grouping, sort), `units` rounds numbers for people. The terminal is restored on every
-//! way out, a panic included (ratatui's init installs the hook).
+//! The keyboard-driven terminal UI. `app` holds state and dispatches keys, `actions` is what a
+//! view's keys do, `forms` the forms and what they save, `jobs` the UI's worker (every read and
+//! write of the lab, off the UI thread) and the long jobs, `replies` what the worker's answers
+//! do to the screen; `draw` renders it, `keys` is the one key table behind dispatch, help and
+//! footer, `shelf` arranges the shelf (query, grouping, sort), `units` rounds numbers for
+//! people. The terminal is restored on every way out, a panic included (ratatui's init
+//! installs the hook).
 
+mod actions;
 pub mod app;
 pub mod draw;
+pub mod forms;
+pub mod jobs;
 pub mod keys;
 pub mod picker;
+mod replies;
 pub mod shelf;
 pub mod units;
 pub mod watch;
@@ -64,12 +71,18 @@ fn event_loop(terminal: &mut ratatui::DefaultTerminal, app: &mut app::App) -> Re
             app.size = (s.width, s.height);
         }
         terminal.draw(|f| draw::draw(f, app))?;
-        if event::poll(Duration::from_millis(150))? {
+        // While the worker has a request out, look for its answer often, so it is on screen as
+        // soon as it comes; otherwise keys are all there is to wait for.
+        let wait = if app.waiting() { 15 } else { 150 };
+        if event::poll(Duration::from_millis(wait))? {
             match event::read()? {
                 Event::Key(k) if k.kind == KeyEventKind::Press => app.on_key(k),
                 Event::Paste(text) => app.on_paste(&text),
                 _ => {}
             }
+            // A quick answer (a sheet opened, a vial drawn) is drawn in the very next frame;
+            // a slow one (a write waiting for the lab) shows as "working…" meanwhile.
+            app.settle_workers(Duration::from_millis(20));
         }
     }
     Ok(())
