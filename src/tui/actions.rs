@@ -170,7 +170,18 @@ impl App {
             | Action::PickParent
             | Action::PickTypePath
             | Action::PickContinue
-            | Action::PickCancel => {}
+            | Action::PickCancel
+            | Action::PickFirst
+            | Action::PickLast
+            | Action::PathComplete
+            | Action::PathGo
+            | Action::PathStop
+            | Action::HelpLineDown
+            | Action::HelpLineUp
+            | Action::HelpTop
+            | Action::HelpBottom
+            | Action::HelpClose
+            | Action::LeaveSearch => {}
             Action::NewVial => match self.selected_batch() {
                 None => self.error("no batch open"),
                 Some(id) => {

@@ -697,8 +697,8 @@ impl App {
 
     fn search_key(&mut self, ev: KeyEvent) {
         self.typing_query = true;
-        match ev.code {
-            KeyCode::Esc | KeyCode::Enter => {
+        match self.keys.action_in(&ev, Scope::Search) {
+            Some(Action::LeaveSearch) => {
                 // Leaving the box finishes the query: a half-typed word is a word now.
                 self.typing_query = false;
                 if self.view == View::Shelf {
@@ -708,8 +708,8 @@ impl App {
                 }
                 return;
             }
-            KeyCode::Down => self.step(1),
-            KeyCode::Up => self.step(-1),
+            Some(Action::Down) => self.step(1),
+            Some(Action::Up) => self.step(-1),
             _ => {
                 if let Some(e) = self.field_edit(&ev) {
                     let (text, cursor) = self.search_text();
@@ -726,23 +726,43 @@ impl App {
         let page = super::draw::help_page_lines(self.size.0, self.size.1);
         let total = self.keys.help().len() + super::keys::SCOPES.len();
         let last = total.saturating_sub(page);
-        match self.keys.action_in(&ev, Scope::Help) {
+        // The table's keys first; then the alternates its help names (? and q close, j and k
+        // scroll, Space pages), for keys the table leaves free here.
+        let action = self.keys.action_in(&ev, Scope::Help).or(match ev.code {
+            KeyCode::Char('?') | KeyCode::Char('q') => Some(Action::HelpClose),
+            KeyCode::Char('j') => Some(Action::HelpLineDown),
+            KeyCode::Char('k') => Some(Action::HelpLineUp),
+            KeyCode::Char(' ') => Some(Action::HelpPageDown),
+            _ => None,
+        });
+        match action {
             Some(Action::HelpPageDown) => self.help_scroll = (self.help_scroll + page).min(last),
             Some(Action::HelpPageUp) => self.help_scroll = self.help_scroll.saturating_sub(page),
-            _ => match ev.code {
-                KeyCode::Esc | KeyCode::Char('?') | KeyCode::Char('q') => {
-                    self.help_scroll = 0;
-                    return;
-                }
-                KeyCode::Down | KeyCode::Char('j') => self.help_scroll = (self.help_scroll + 1).min(last),
-                KeyCode::Up | KeyCode::Char('k') => self.help_scroll = self.help_scroll.saturating_sub(1),
-                KeyCode::Char(' ') => self.help_scroll = (self.help_scroll + page).min(last),
-                KeyCode::Home => self.help_scroll = 0,
-                KeyCode::End => self.help_scroll = last,
-                _ => {}
-            },
+            Some(Action::HelpLineDown) => self.help_scroll = (self.help_scroll + 1).min(last),
+            Some(Action::HelpLineUp) => self.help_scroll = self.help_scroll.saturating_sub(1),
+            Some(Action::HelpTop) => self.help_scroll = 0,
+            Some(Action::HelpBottom) => self.help_scroll = last,
+            Some(Action::HelpClose) => {
+                self.help_scroll = 0;
+                return;
+            }
+            _ => {}
         }
         self.mode = Mode::Help;
+    }
+
+    /// The scope of the key table the keys are read in now, for the footer: the mode's, or in
+    /// a view the view's.
+    pub fn mode_scope(&self) -> Scope {
+        match &self.mode {
+            Mode::Normal => self.scope(),
+            Mode::Search => Scope::Search,
+            Mode::Help => Scope::Help,
+            Mode::Form(_) => Scope::Form,
+            Mode::Picker(p) if p.typing => Scope::PickerPath,
+            Mode::Picker(_) => Scope::Picker,
+            Mode::Confirm(_) => Scope::Confirm,
+        }
     }
 
     fn confirm_key(&mut self, c: Confirm, ev: KeyEvent) {

@@ -1371,25 +1371,20 @@ fn status_line(app: &App, width: u16, p: &Palette) -> Line<'static> {
 }
 
 fn draw_footer(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
-    let scope = match app.mode {
-        Mode::Search => None,
-        Mode::Form(_) => Some(Scope::Form),
-        Mode::Confirm(_) => Some(Scope::Confirm),
-        Mode::Picker(_) => Some(Scope::Picker),
-        _ => Some(app.scope()),
-    };
+    let scope = app.mode_scope();
     let spans: Vec<Span> = match scope {
-        None => vec![Span::raw("type a query · Enter/Esc leave the search box")],
-        Some(s) => {
+        Scope::Search => vec![Span::raw(app.keys.search_footer())],
+        s => {
             let mut v = Vec::new();
-            let keys = if matches!(s, Scope::Form | Scope::Confirm | Scope::Picker) {
-                app.keys.footer_in(s)
-            } else {
+            let keys = if s.is_view() {
                 app.keys.footer(s)
+            } else {
+                app.keys.footer_in(s)
             };
             let mut keys: Vec<(String, &str)> = keys.into_iter().collect();
             if s == Scope::Sheet {
-                keys.push(("Esc".into(), "back"));
+                let back = app.keys.key_for(super::keys::Action::Back, Scope::Everywhere);
+                keys.push((back.unwrap_or_default(), "back"));
             }
             // What does not fit is left out whole, never cut mid-name, and the line says
             // where the rest is.
@@ -1478,12 +1473,8 @@ fn draw_help(f: &mut Frame, app: &App, p: &Palette) {
     let page = help_page_lines(full.width, full.height);
     let start = app.help_scroll.min(total.saturating_sub(page));
     let end = (start + page).min(total);
-    let more = if total > page {
-        format!(" · lines {}-{end} of {total}, ↓/PgDn more, ↑/PgUp back", start + 1)
-    } else {
-        String::new()
-    };
-    let block = Block::bordered().title(format!("keys{more} · Esc or ? closes"));
+    let lines_shown = (total > page).then_some((start + 1, end, total));
+    let block = Block::bordered().title(app.keys.help_title(lines_shown));
     let inner = block.inner(area);
     f.render_widget(block, area);
     let mut shown: Vec<Line> = lines.drain(start..end).collect();
@@ -1784,7 +1775,7 @@ fn draw_picker(f: &mut Frame, app: &App, pk: &Picker, p: &Palette) {
     } else if !pk.completions.is_empty() {
         Line::from(format!("fits: {}", pk.completions.join("  ")))
     } else if pk.typing {
-        Line::styled("Tab completes · Enter goes there · Esc back to the list", p.dim())
+        Line::styled(app.keys.path_hint(), p.dim())
     } else {
         Line::default()
     };

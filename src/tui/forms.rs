@@ -303,16 +303,16 @@ impl App {
 
     pub(super) fn picker_key(&mut self, mut p: Picker, ev: KeyEvent) {
         if p.typing {
-            match ev.code {
-                KeyCode::Esc => {
+            match self.keys.action_in(&ev, Scope::PickerPath) {
+                Some(Action::PathStop) => {
                     p.typing = false;
                     p.completions.clear();
                 }
-                KeyCode::Tab => {
+                Some(Action::PathComplete) => {
                     p.path_fresh = false;
                     p.complete()
                 }
-                KeyCode::Enter => {
+                Some(Action::PathGo) => {
                     p.go_typed();
                 }
                 _ => {
@@ -331,17 +331,24 @@ impl App {
             return;
         }
         let page = self.page_rows() as isize;
-        match ev.code {
-            KeyCode::Down | KeyCode::Char('j') => p.step(1),
-            KeyCode::Up | KeyCode::Char('k') => p.step(-1),
-            KeyCode::PageDown => p.step(page),
-            KeyCode::PageUp => p.step(-page),
-            KeyCode::Home => p.step(-(p.entries.len() as isize)),
-            KeyCode::End => p.step(p.entries.len() as isize),
-            KeyCode::Left => p.up(),
+        // The table's keys first; then the alternates its help names (j, k and ←), for keys
+        // the table leaves free here.
+        let action = self.keys.action_in(&ev, Scope::Picker).or(match ev.code {
+            KeyCode::Char('j') => Some(Action::Down),
+            KeyCode::Char('k') => Some(Action::Up),
+            KeyCode::Left => Some(Action::PickParent),
+            _ => None,
+        });
+        match action {
+            Some(Action::Down) => p.step(1),
+            Some(Action::Up) => p.step(-1),
+            Some(Action::PageDown) => p.step(page),
+            Some(Action::PageUp) => p.step(-page),
+            Some(Action::PickFirst) => p.step(-(p.entries.len() as isize)),
+            Some(Action::PickLast) => p.step(p.entries.len() as isize),
             _ => {}
         }
-        let said = match self.keys.action_in(&ev, Scope::Picker) {
+        let said = match action {
             Some(Action::PickCancel) => return,
             Some(Action::PickTake) => match p.selected_entry().cloned() {
                 Some(e) if e.is_dir => {
