@@ -6,10 +6,11 @@
 
 use super::app::{App, Mode, SORT_KEYS, View};
 use super::forms::{Form, FormKind};
-use super::jobs::{self, BenchDefaults, Read};
+use super::jobs;
 use super::keys::Action;
 use super::picker::Picker;
 use super::replies::Then;
+use super::worker::{BenchDefaults, Read};
 use super::{shelf, units};
 use std::path::PathBuf;
 

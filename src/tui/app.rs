@@ -1,20 +1,22 @@
-//! The UI's state and what each key does, mode by mode: the views' lists and selections, the
-//! search boxes, the help, confirmations, and the dispatch of keys to the forms (`forms`), the
-//! picker and the views' actions (`actions`). It never touches the lab itself: every read and
-//! write goes to the UI's worker (`jobs`), whose answers `replies` applies, so this thread only
-//! draws and handles keys. Slow work (importing a folder, watching for exports, recomputing)
-//! runs on threads of its own and reports back over the same channel.
+//! The UI's state and what each key does, mode by mode: the views with their selections, the
+//! search boxes, the help and confirmations, and the dispatch of keys to the forms (`forms`),
+//! the picker and the views' actions (`actions`). It never touches the lab itself: every read
+//! and write goes to the UI's worker (`worker`), whose answers `replies` applies, so this
+//! thread only draws and handles keys. Slow work (importing a folder, watching for exports,
+//! recomputing, a handover) runs on threads of its own and reports over the same channel.
 
 pub use super::forms::{Edit, Field, Form, FormKind, edit_line};
-pub use super::jobs::Note;
-use super::jobs::{BenchDefaults, RecomputeReport, Worker};
+use super::jobs::RecomputeReport;
 use super::keys::{Action, KeyMap, Scope};
+pub use super::lists::{SORT_KEYS, ShelfOrder, SortKey, TRAIL_PAGE};
 use super::picker::Picker;
 use super::replies::Asked;
-use super::{shelf, units};
+use super::units;
+pub use super::worker::Note;
+use super::worker::{BenchDefaults, Worker};
 use crate::derive::calibration;
 use crate::report::plot::SeriesItem;
-use crate::search::{self, Facts, Hit};
+use crate::search::{Facts, Hit};
 use crate::store::{Store, model};
 use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
 use std::path::PathBuf;
@@ -85,61 +87,6 @@ pub enum Mode {
     Confirm(Box<Confirm>),
 }
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum SortKey {
-    Id,
-    Date,
-    Material,
-    Peak,
-    Diameter,
-    Qy,
-    Stock,
-}
-
-pub const SORT_KEYS: &[SortKey] = &[
-    SortKey::Id,
-    SortKey::Date,
-    SortKey::Material,
-    SortKey::Peak,
-    SortKey::Diameter,
-    SortKey::Qy,
-    SortKey::Stock,
-];
-
-/// The shelf's own query, grouping and sort (see [`super::shelf`]).
-#[derive(Debug, Clone)]
-pub struct ShelfOrder {
-    pub query: String,
-    /// Where the cursor is in the shelf's search box (a character index).
-    pub cursor: usize,
-    pub error: Option<String>,
-    /// The 1-based column of the error, while the query has one.
-    pub error_column: Option<usize>,
-    /// What the last query that parsed means: the vials on screen are its vials.
-    pub meaning: String,
-    pub group: shelf::Group,
-    pub sort: shelf::Sort,
-    pub desc: bool,
-}
-
-impl Default for ShelfOrder {
-    fn default() -> ShelfOrder {
-        ShelfOrder {
-            query: String::new(),
-            cursor: 0,
-            error: None,
-            error_column: None,
-            meaning: "every vial".into(),
-            group: shelf::Group::Location,
-            sort: shelf::Sort::Added,
-            desc: false,
-        }
-    }
-}
-
-/// How many audit entries the trail reads at a time; scrolling past them reads more.
-pub const TRAIL_PAGE: i64 = 300;
-
 pub struct App {
     pub store: Store,
     pub db_path: Option<PathBuf>,
@@ -197,7 +144,7 @@ pub struct App {
     /// What the worker was asked and has not answered yet.
     pub(super) asked: Asked,
     /// When the UI last asked whether its lab was restored or replaced under it.
-    last_lab_check: std::time::Instant,
+    pub(super) last_lab_check: std::time::Instant,
     /// SQLite's count of commits by others when the UI last read: a change means reload.
     pub(super) data_version: Option<i64>,
     /// The open sheet's bench defaults: where its exports are, how its next aliquot is measured.
@@ -225,15 +172,7 @@ pub struct App {
     /// How the writer's name was found; the first-run form may make its name the writer's.
     pub writer: super::Writer,
     /// The search box is being typed in (see [`App::parse_query`]).
-    typing_query: bool,
-}
-
-/// The 1-based column a query error names.
-fn error_column(e: &crate::Error) -> Option<usize> {
-    match e {
-        crate::Error::Query { column, .. } => Some(*column),
-        _ => None,
-    }
+    pub(super) typing_query: bool,
 }
 
 /// How a growth table row names its aliquot: its minutes, else its stage.
@@ -352,139 +291,6 @@ impl App {
         self.message = Some((true, s.into()));
     }
 
-    /// Re-filters the batch list from the facts in memory: cheap enough for every keystroke.
-    /// A query with an error leaves the last good results (and their meaning) in place.
-    pub fn refilter(&mut self) {
-        match self.parse_query(&self.query) {
-            Ok((q, typing)) => {
-                self.query_error = None;
-                self.query_error_column = None;
-                self.query_meaning = search::describe(&q) + &typing;
-                self.hits = search::filter(&self.facts, &q);
-                if q.words().is_empty() {
-                    self.sort_hits();
-                }
-            }
-            Err(e) => {
-                self.query_error_column = error_column(&e);
-                self.query_error = Some(e.to_string());
-            }
-        }
-        if self.selected >= self.hits.len() {
-            self.selected = self.hits.len().saturating_sub(1);
-        }
-    }
-
-    /// A search box's query: while it is being typed, a last word that is only the start of a
-    /// field name waits (see [`search::parse_typing`]), and the meaning says so.
-    fn parse_query(&self, text: &str) -> crate::Result<(search::Query, String)> {
-        if !self.typing_query {
-            return search::parse(text).map(|q| (q, String::new()));
-        }
-        let (q, word, names) = search::parse_typing(text)?;
-        let note = match names.as_slice() {
-            [] => String::new(),
-            [one] => format!(" · typing '{word}' ({one}?)"),
-            [rest @ .., last] => format!(" · typing '{word}' ({} or {last}?)", rest.join(", ")),
-        };
-        Ok((q, note))
-    }
-
-    /// Arranges the shelf from the vials in memory: its query, grouping and sort. The
-    /// selection stays on the vial it was on while that vial still shows. A query with an error
-    /// leaves the last good arrangement in place.
-    pub fn reshelve(&mut self) {
-        let was = self.vials.get(self.vial_selected).map(|v| v.id);
-        match self.parse_query(&self.shelf.query) {
-            Ok((q, typing)) => {
-                self.shelf.error = None;
-                self.shelf.error_column = None;
-                self.shelf.meaning = if q.clauses.is_empty() {
-                    "every vial".to_string() + &typing
-                } else {
-                    search::describe(&q) + &typing
-                };
-                let o = &self.shelf;
-                self.vials = shelf::arrange(&self.all_vials, &self.facts, &q, o.group, o.sort, o.desc);
-            }
-            Err(e) => {
-                self.shelf.error_column = error_column(&e);
-                self.shelf.error = Some(e.to_string());
-                // The vials shown stay; their rows are refreshed from what was just read.
-                let fresh: std::collections::HashMap<i64, &model::VialRow> =
-                    self.all_vials.iter().map(|v| (v.id, v)).collect();
-                self.vials = self
-                    .vials
-                    .iter()
-                    .filter_map(|v| fresh.get(&v.id).map(|f| (*f).clone()))
-                    .collect();
-            }
-        }
-        if let Some(i) = was.and_then(|id| self.vials.iter().position(|v| v.id == id)) {
-            self.vial_selected = i;
-        }
-        if self.vial_selected >= self.vials.len() {
-            self.vial_selected = self.vials.len().saturating_sub(1);
-        }
-    }
-
-    /// Moves the trail's selection by `step` entries, reading older entries when it passes
-    /// the last one read.
-    fn trail_step(&mut self, step: isize) {
-        let want = self.trail_selected as isize + step;
-        if want >= self.trail.len() as isize
-            && self.trail_focus.is_none()
-            && self.trail.len() as i64 >= self.trail_limit
-        {
-            self.trail_limit += TRAIL_PAGE.max(step as i64);
-            let last = self.trail.len().saturating_sub(1) as isize;
-            let at = want.clamp(0, last.max(0)) as usize;
-            let then = super::replies::Then::Trail {
-                select: Some((want, at)),
-            };
-            let ask = super::jobs::Read::Trail(self.trail_ask());
-            self.ask(ask, then, Some("reading older entries of the trail".into()));
-        }
-        let last = self.trail.len().saturating_sub(1) as isize;
-        self.trail_selected = want.clamp(0, last.max(0)) as usize;
-    }
-
-    /// Rows a page of a list moves by: the body of the screen less its headers.
-    pub(super) fn page_rows(&self) -> usize {
-        (self.size.1 as usize).saturating_sub(9).max(1)
-    }
-
-    /// Moves the selection of the view's list by `step` rows (negative: up).
-    pub(super) fn step(&mut self, step: isize) {
-        let moved = |at: usize, len: usize| (at as isize + step).clamp(0, len.saturating_sub(1) as isize) as usize;
-        match self.view {
-            View::Shelf => self.vial_selected = moved(self.vial_selected, self.vials.len()),
-            View::Sheet => {
-                let n = self.sheet.as_ref().map(|s| s.aliquots.len()).unwrap_or(0);
-                self.aliquot_selected = moved(self.aliquot_selected, n);
-            }
-            View::Trail => self.trail_step(step),
-            _ => self.selected = moved(self.selected, self.hits.len()),
-        }
-    }
-
-    pub(super) fn sort_hits(&mut self) {
-        let key = self.sort;
-        let cmp_opt = |a: Option<f64>, b: Option<f64>| a.unwrap_or(f64::MIN).total_cmp(&b.unwrap_or(f64::MIN));
-        self.hits.sort_by(|a, b| match key {
-            SortKey::Id => a.id.cmp(&b.id),
-            SortKey::Date => a.started_at.cmp(&b.started_at),
-            SortKey::Material => a.material.cmp(&b.material).then(a.id.cmp(&b.id)),
-            SortKey::Peak => cmp_opt(a.first_exciton_nm, b.first_exciton_nm),
-            SortKey::Diameter => cmp_opt(a.diameter_nm, b.diameter_nm),
-            SortKey::Qy => cmp_opt(a.qy, b.qy),
-            SortKey::Stock => a.stock_ml.total_cmp(&b.stock_ml),
-        });
-        if self.sort_desc {
-            self.hits.reverse();
-        }
-    }
-
     /// The aliquot selected in the batch sheet: (id, label, voided).
     pub(super) fn selected_aliquot(&self) -> Option<(i64, String, bool)> {
         let a = self.sheet.as_ref()?.aliquots.get(self.aliquot_selected)?;
@@ -498,80 +304,6 @@ impl App {
             View::Shelf => Scope::Shelf,
             View::Calibrations => Scope::Calibrations,
             View::Trail => Scope::Trail,
-        }
-    }
-
-    /// Asks whether the lab was restored (or its file replaced) while the UI had it open, and
-    /// whether others wrote to it: the answer reopens the lab at its path and says so, instead
-    /// of writing into a file nobody looks at, or shows others' writes. Every write also checks
-    /// this under its lock, so nothing slips in before the UI looks. The event loop asks every
-    /// two seconds; the answer comes through [`App::poll_workers`].
-    pub fn check_lab(&mut self) {
-        self.ask(super::jobs::Read::Check, super::replies::Then::Check, None);
-    }
-
-    /// Takes what the workers reported, and asks for the lab check every two seconds.
-    pub fn poll_workers(&mut self) {
-        if self.last_lab_check.elapsed() >= std::time::Duration::from_secs(2) {
-            self.last_lab_check = std::time::Instant::now();
-            self.check_lab();
-        }
-        self.drain_notes();
-    }
-
-    /// Takes every report waiting, asking nothing.
-    pub(super) fn drain_notes(&mut self) {
-        while let Ok(n) = self.rx.try_recv() {
-            self.on_note(n);
-        }
-    }
-
-    pub(super) fn on_note(&mut self, n: Note) {
-        match n {
-            Note::Answer(seq, reply) => self.take_answer(seq, *reply),
-            Note::Progress { label, done, total } => {
-                self.progress = Some((label, done, total));
-            }
-            Note::Watched(line, logged) => {
-                if logged && let Some(w) = &mut self.watching {
-                    w.logged += 1;
-                }
-                if logged {
-                    self.info(line)
-                } else {
-                    self.error(line)
-                }
-                self.reload();
-            }
-            Note::WatchEnded(line) => {
-                self.watching = None;
-                self.info(line);
-                self.reload();
-            }
-            Note::Done(s) => {
-                self.progress = None;
-                self.busy = false;
-                self.info(s);
-                self.reload();
-            }
-            Note::Failed(s) => {
-                self.progress = None;
-                self.busy = false;
-                self.error(s);
-                self.reload();
-            }
-            Note::Preview(r) => {
-                self.progress = None;
-                self.busy = false;
-                self.info(format!(
-                    "preview: {} values would be recomputed, {} would change",
-                    r.recomputed, r.changed
-                ));
-                if std::mem::take(&mut self.apply_after_preview) {
-                    self.ask_to_recompute(&r);
-                }
-                self.preview = Some(r);
-            }
         }
     }
 
@@ -796,8 +528,8 @@ impl App {
     fn go(&mut self, then: Pending) {
         match then {
             Pending::Form(f) => match self.submit(&f) {
-                Ok(super::forms::Saved::Done(msg)) => self.finished(msg, &f, None),
-                Ok(super::forms::Saved::Sent) => {}
+                Ok(super::submit::Saved::Done(msg)) => self.finished(msg, &f, None),
+                Ok(super::submit::Saved::Sent) => {}
                 Err(e) => {
                     self.error(e);
                     self.mode = Mode::Form(f);
@@ -805,7 +537,7 @@ impl App {
             },
             Pending::Repeat(id) => {
                 let then = super::replies::Then::Repeated { view: self.view };
-                self.send(super::jobs::Write::Repeat(id), then, format!("repeating batch {id}"));
+                self.send(super::worker::Write::Repeat(id), then, format!("repeating batch {id}"));
             }
             Pending::Recompute => self.spawn_recompute(false),
         }
@@ -829,21 +561,6 @@ impl App {
             self.follow(to);
         }
         self.reload_and_follow(follow);
-    }
-
-    pub(super) fn follow(&mut self, to: Follow) {
-        match to {
-            Follow::Vial(id) => {
-                if let Some(i) = self.vials.iter().position(|v| v.id == id) {
-                    self.vial_selected = i;
-                }
-            }
-            Follow::Batch(id) => {
-                if let Some(i) = self.hits.iter().position(|h| h.id == id) {
-                    self.selected = i;
-                }
-            }
-        }
     }
 
     pub(super) fn selected_batch(&self) -> Option<i64> {

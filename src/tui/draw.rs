@@ -1,6 +1,9 @@
 //! Drawing: pure functions of the app state onto a frame. Nothing here does I/O or changes
 //! state. Colour only where it carries meaning (errors, stale values, the selected row), and
 //! none at all when NO_COLOR is set.
+//!
+//! Long (one function per view, form and overlay); left whole while the terminal library's
+//! upgrade edits it, to be split by view after that.
 
 use super::app::{App, Mode, SortKey, View};
 use super::keys::Scope;

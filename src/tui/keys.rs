@@ -6,6 +6,9 @@
 //! "ctrl-f"}`. A rebinding that gives two actions of one mode the same key is refused, naming
 //! both. The file is read only up to [`MAX_KEYS_FILE_BYTES`]: a larger one (or a device that
 //! never ends) is refused with its path, never read whole.
+//!
+//! Long because the table is: one entry of six lines per binding, about a hundred bindings;
+//! the code that reads it is the last few hundred lines.
 
 use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
 use std::collections::BTreeMap;

@@ -1,10 +1,11 @@
-//! The keyboard-driven terminal UI. `app` holds state and dispatches keys, `actions` is what a
-//! view's keys do, `forms` the forms and what they save, `jobs` the UI's worker (every read and
-//! write of the lab, off the UI thread) and the long jobs, `replies` what the worker's answers
-//! do to the screen; `draw` renders it, `keys` is the one key table behind dispatch, help and
-//! footer, `shelf` arranges the shelf (query, grouping, sort), `units` rounds numbers for
-//! people. The terminal is restored on every way out, a panic included (ratatui's init
-//! installs the hook).
+//! The keyboard-driven terminal UI. `app` holds the state and dispatches keys by mode,
+//! `lists` filters, sorts and steps through the lists in memory, `actions` is what a view's
+//! keys do, `forms` the forms, their keys and confirmations, `submit` what a saved form does;
+//! `worker` is the UI's worker (every read and write of the lab, off the UI thread), `jobs`
+//! what its requests do and the long jobs, `replies` what the answers do to the screen;
+//! `draw` renders it all, `keys` is the one key table behind dispatch, help and footer,
+//! `shelf` arranges the shelf (query, grouping, sort), `units` rounds numbers for people. The
+//! terminal is restored on every way out, a panic included (ratatui's init installs the hook).
 
 mod actions;
 pub mod app;
@@ -12,11 +13,14 @@ pub mod draw;
 pub mod forms;
 pub mod jobs;
 pub mod keys;
+mod lists;
 pub mod picker;
 mod replies;
 pub mod shelf;
+mod submit;
 pub mod units;
 pub mod watch;
+pub mod worker;
 
 use crate::error::{Error, Result};
 use crate::store::Store;

@@ -1,14 +1,16 @@
-//! The UI's side of its worker: what it asked and is still waiting for, and what each answer
-//! does to the screen when it comes. Only the newest request of each read kind is waited for;
-//! an older answer of that kind (a sheet asked before another) is dropped. A sheet that comes
-//! with a write is shown unless a sheet was asked for after the write. An answer that opens
-//! something (a sheet, a confirmation, the form back with an error) does so only where the
-//! person still is: a view they have left is not pulled back on screen.
+//! The UI's side of its worker and of the long jobs: what it asked and is still waiting for,
+//! and what each answer (or a job's news) does to the screen when it comes. Only the newest
+//! request of each read kind is waited for; an older answer of that kind (a sheet asked before
+//! another) is dropped. A sheet that comes with a write is shown unless a sheet was asked for
+//! after the write. An answer that opens something (a sheet, a confirmation, the form back
+//! with an error) does so only where the person still is: a view they have left is not pulled
+//! back on screen.
 
 use super::app::{App, Follow, Mode, View};
 use super::forms::{self, Form};
-use super::jobs::{Checked, Kind, Lists, Read, RecomputeReport, Reply, SheetData, TrailAsk, Write, Wrote};
+use super::jobs::RecomputeReport;
 use super::units;
+use super::worker::{Checked, Kind, Lists, Note, Read, Reply, SheetData, TrailAsk, Write, Wrote};
 use crate::bench::WatchSetup;
 use std::collections::{BTreeMap, HashMap};
 use std::sync::mpsc::RecvTimeoutError;
@@ -476,5 +478,81 @@ impl App {
             lines,
             super::app::Pending::Recompute,
         )));
+    }
+}
+
+impl App {
+    /// Asks whether the lab was restored (or its file replaced) while the UI had it open, and
+    /// whether others wrote to it: the answer reopens the lab at its path and says so, instead
+    /// of writing into a file nobody looks at, or shows others' writes. Every write also checks
+    /// this under its lock, so nothing slips in before the UI looks. The event loop asks every
+    /// two seconds; the answer comes through [`App::poll_workers`].
+    pub fn check_lab(&mut self) {
+        self.ask(Read::Check, Then::Check, None);
+    }
+
+    /// Takes what the workers reported, and asks for the lab check every two seconds.
+    pub fn poll_workers(&mut self) {
+        if self.last_lab_check.elapsed() >= std::time::Duration::from_secs(2) {
+            self.last_lab_check = std::time::Instant::now();
+            self.check_lab();
+        }
+        self.drain_notes();
+    }
+
+    /// Takes every report waiting, asking nothing.
+    pub(super) fn drain_notes(&mut self) {
+        while let Ok(n) = self.rx.try_recv() {
+            self.on_note(n);
+        }
+    }
+
+    pub(super) fn on_note(&mut self, n: Note) {
+        match n {
+            Note::Answer(seq, reply) => self.take_answer(seq, *reply),
+            Note::Progress { label, done, total } => {
+                self.progress = Some((label, done, total));
+            }
+            Note::Watched(line, logged) => {
+                if logged && let Some(w) = &mut self.watching {
+                    w.logged += 1;
+                }
+                if logged {
+                    self.info(line)
+                } else {
+                    self.error(line)
+                }
+                self.reload();
+            }
+            Note::WatchEnded(line) => {
+                self.watching = None;
+                self.info(line);
+                self.reload();
+            }
+            Note::Done(s) => {
+                self.progress = None;
+                self.busy = false;
+                self.info(s);
+                self.reload();
+            }
+            Note::Failed(s) => {
+                self.progress = None;
+                self.busy = false;
+                self.error(s);
+                self.reload();
+            }
+            Note::Preview(r) => {
+                self.progress = None;
+                self.busy = false;
+                self.info(format!(
+                    "preview: {} values would be recomputed, {} would change",
+                    r.recomputed, r.changed
+                ));
+                if std::mem::take(&mut self.apply_after_preview) {
+                    self.ask_to_recompute(&r);
+                }
+                self.preview = Some(r);
+            }
+        }
     }
 }
