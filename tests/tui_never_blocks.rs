@@ -4,7 +4,8 @@
 //! Every step (a key, taking the worker's news, drawing) must return within the bound
 //! of 50 ms; the write waits for the lock on the worker, the status line says "working…", the
 //! sheets asked for arrive once the lock is released (the last one asked is the one shown),
-//! and the queued write lands exactly once.
+//! and the queued write lands exactly once. A save still waiting when the person quits is
+//! finished as the app closes, never dropped.
 #![allow(clippy::unwrap_used, clippy::panic, clippy::expect_used)]
 
 mod common;
@@ -220,5 +221,46 @@ fn a_person_works_on_while_the_lab_is_locked_and_the_write_lands_once() {
     assert!(
         slowest < STEP_BOUND,
         "a step took {slowest:?}, over the issue's bound of {STEP_BOUND:?}"
+    );
+}
+
+/// A save still waiting for the lock when the person quits is finished, not dropped: the app
+/// closes once the lock is free and the save has landed.
+#[test]
+fn a_save_waiting_for_the_lock_lands_when_the_ui_closes() {
+    let lab = Lab::new();
+    lab.ok(&["demo"]);
+    let mut app = open_ui(&lab);
+    let mut d = Driver {
+        term: Terminal::new(TestBackend::new(80, 24)).unwrap(),
+        steps: Vec::new(),
+    };
+    d.step(&mut app, Some(KeyCode::Enter));
+    assert!(app.settle_workers(SETTLE_LIMIT));
+    assert_eq!(app.view, View::Sheet);
+    let blocker = rusqlite::Connection::open(&lab.db).unwrap();
+    blocker.execute_batch("BEGIN IMMEDIATE").unwrap();
+    d.step(&mut app, Some(KeyCode::Char('v')));
+    d.text(&mut app, "0.5");
+    d.keys(&mut app, &[KeyCode::Tab, KeyCode::Tab]);
+    d.text(&mut app, LABEL);
+    d.step(&mut app, Some(KeyCode::Enter));
+    d.step(&mut app, Some(KeyCode::Char('q')));
+    assert!(app.quit);
+    assert_eq!(app.saves_waiting(), 1, "the save waits for the lock");
+    let releaser = std::thread::spawn(move || {
+        std::thread::sleep(Duration::from_millis(800));
+        blocker.execute_batch("ROLLBACK").unwrap();
+    });
+    let closing = Instant::now();
+    drop(app);
+    assert!(
+        closing.elapsed() >= Duration::from_millis(500),
+        "closing waited for the save"
+    );
+    releaser.join().unwrap();
+    assert_eq!(
+        count(&lab, &format!("SELECT count(*) FROM vial WHERE label = '{LABEL}'")),
+        1
     );
 }

@@ -65,6 +65,12 @@ pub fn run(store: Store, writer: Writer) -> Result<()> {
     }
     let _ = crossterm::execute!(std::io::stdout(), DisableBracketedPaste);
     ratatui::restore();
+    // Saves still queued are finished, not dropped, as the app closes: say why it waits.
+    app.drain_notes();
+    if app.saves_waiting() > 0 {
+        eprintln!("cuvette: finishing the saves still waiting for the lab…");
+    }
+    drop(app);
     result
 }
 

@@ -118,6 +118,11 @@ impl App {
         self.asked.label()
     }
 
+    /// How many writes are queued or running on the worker.
+    pub fn saves_waiting(&self) -> usize {
+        self.asked.writes.len()
+    }
+
     /// Whether any request is out (the lab checks included).
     pub fn waiting(&self) -> bool {
         self.asked.any()
@@ -140,11 +145,8 @@ impl App {
                 return false;
             }
             if !self.worker.alive() {
-                self.drain_notes();
-                if self.asked.any() {
-                    self.asked = Asked::default();
-                    self.error("the UI's worker stopped: quit and open the lab again");
-                }
+                // Let go of what waited, and say the wait failed.
+                self.worker_gone();
                 return false;
             }
             match self.rx.recv_timeout(left.min(Duration::from_millis(50))) {
@@ -498,6 +500,20 @@ impl App {
             self.check_lab();
         }
         self.drain_notes();
+        self.worker_gone();
+    }
+
+    /// A worker that ended (it cannot, short of a bug outside its handlers) answers nothing
+    /// more: what was waiting for it is let go and the person told, rather than "working…"
+    /// for ever.
+    fn worker_gone(&mut self) {
+        if self.asked.any() && !self.worker.alive() {
+            self.drain_notes();
+            if self.asked.any() {
+                self.asked = Asked::default();
+                self.error("the UI's worker stopped: quit and open the lab again");
+            }
+        }
     }
 
     /// Takes every report waiting, asking nothing.
