@@ -85,14 +85,18 @@ fn event_loop(terminal: &mut ratatui::DefaultTerminal, app: &mut app::App) -> Re
         // soon as it comes; otherwise keys are all there is to wait for.
         let wait = if app.waiting() { 15 } else { 150 };
         if event::poll(Duration::from_millis(wait))? {
+            let asked = app.requests_made();
             match event::read()? {
                 Event::Key(k) if k.kind == KeyEventKind::Press => app.on_key(k),
                 Event::Paste(text) => app.on_paste(&text),
                 _ => {}
             }
-            // A quick answer (a sheet opened, a vial drawn) is drawn in the very next frame;
-            // a slow one (a write waiting for the lab) shows as "working…" meanwhile.
-            app.settle_workers(Duration::from_millis(20));
+            // What a key asked, when it comes quickly (a sheet opened, a vial drawn), is drawn
+            // in the very next frame; a slow answer (a write waiting for the lab) shows as
+            // "working…" meanwhile, and the wait for it is never more than this.
+            if app.requests_made() != asked {
+                app.settle_workers(Duration::from_millis(20));
+            }
         }
     }
     Ok(())

@@ -118,6 +118,11 @@ impl App {
         self.asked.label()
     }
 
+    /// How many requests were made of the worker so far: a key that asked something changes it.
+    pub fn requests_made(&self) -> u64 {
+        self.worker.made()
+    }
+
     /// How many writes are queued or running on the worker.
     pub fn saves_waiting(&self) -> usize {
         self.asked.writes.len()

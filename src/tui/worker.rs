@@ -368,6 +368,11 @@ impl Worker {
         self.thread.as_ref().is_some_and(|t| !t.is_finished())
     }
 
+    /// How many requests were made so far (the number of the last one).
+    pub fn made(&self) -> u64 {
+        self.next_seq
+    }
+
     fn number(&mut self) -> u64 {
         self.next_seq += 1;
         self.next_seq
