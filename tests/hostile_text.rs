@@ -108,6 +108,8 @@ fn assert_clean_buffer(app: &App, what: &str) -> String {
 
 fn press(app: &mut App, code: KeyCode) {
     app.on_key(KeyEvent::new(code, KeyModifiers::NONE));
+    // What the key asked of the UI's worker (a sheet) is on screen before it is looked at.
+    assert!(app.settle_workers(std::time::Duration::from_secs(60)));
 }
 
 #[test]

@@ -5,6 +5,7 @@
 #![allow(clippy::unwrap_used, clippy::panic, clippy::expect_used)]
 
 mod common;
+use common::settled::{check_lab, press, typ, wait_idle};
 use common::*;
 use crossterm::event::KeyCode;
 use cuvette::tui::app::App;
@@ -1049,14 +1050,14 @@ fn the_ui_voids_reinstates_and_corrects_an_aliquot() {
     for (w, h) in [(80, 24), (160, 45)] {
         assert!(screen_at(&app, w, h).contains("VOID"), "{w}x{h}");
     }
-    let product = app.sheet.as_ref().unwrap()["product"]["id"].as_i64();
+    let product = app.sheet.as_ref().unwrap().product.as_ref().map(|p| p.id);
     assert_eq!(product, Some(ids[2]));
     // Reinstated again from the same key.
     press(&mut app, KeyCode::Char('x'));
     assert!(screen_at(&app, 80, 24).contains("Reinstate aliquot"));
     typ(&mut app, "it was absorbance");
     press(&mut app, KeyCode::Enter);
-    assert_eq!(app.sheet.as_ref().unwrap()["product"]["id"].as_i64(), Some(ids[3]));
+    assert_eq!(app.sheet.as_ref().unwrap().product.as_ref().map(|p| p.id), Some(ids[3]));
     // A correction of the dilution recomputes the concentration.
     press(&mut app, KeyCode::Up);
     press(&mut app, KeyCode::Char('e'));
@@ -1161,7 +1162,7 @@ fn the_ui_notices_a_restore_and_reopens_the_restored_lab() {
         app.message
     );
     press(&mut app, KeyCode::Esc);
-    app.check_lab();
+    check_lab(&mut app);
     assert!(
         app.message
             .as_ref()
@@ -1339,7 +1340,7 @@ fn the_ui_follows_others_writes_and_closes_a_sheet_the_restore_removed() {
     // The newest batch is selected (the ledger sorts newest first); another process adds one.
     let selected = app.hits[app.selected].id;
     lab.ok(&["batch", "new", "--material", "CdSe", "--name", "from elsewhere"]);
-    app.check_lab();
+    check_lab(&mut app);
     assert_eq!(app.hits.len(), 3, "others' writes show without a write of our own");
     assert_eq!(
         app.hits[app.selected].id, selected,
@@ -1352,7 +1353,7 @@ fn the_ui_follows_others_writes_and_closes_a_sheet_the_restore_removed() {
     press(&mut app, KeyCode::Enter);
     assert_eq!(app.view, cuvette::tui::app::View::Sheet);
     lab.ok(&["restore", s(&backup)]);
-    app.check_lab();
+    check_lab(&mut app);
     assert_eq!(
         app.view,
         cuvette::tui::app::View::Batches,

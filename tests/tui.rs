@@ -7,6 +7,7 @@ fn screen(app: &App) -> String {
     screen_at(app, 80, 24)
 }
 
+use common::settled::{press, typ};
 use common::*;
 use crossterm::event::KeyCode;
 use cuvette::store::model;

@@ -9,7 +9,8 @@
 
 mod common;
 
-use common::{Lab, ctrl, open_ui, press, scalar, screen_at, typ, wait_until};
+use common::settled::{ctrl, press, typ, wait_until};
+use common::{Lab, open_ui, scalar, screen_at};
 use crossterm::event::KeyCode;
 use cuvette::tui::app::{App, Mode, View};
 use std::path::{Path, PathBuf};

@@ -5,6 +5,7 @@
 #![allow(clippy::unwrap_used, clippy::panic, clippy::expect_used)]
 
 mod common;
+use common::settled::{press, reload, typ, wait_idle};
 use common::*;
 use crossterm::event::KeyCode;
 use cuvette::tui::app::{App, Mode, View};
@@ -426,7 +427,7 @@ fn a_batch_with_no_vial_shows_no_volume() {
 fn the_trail_opens_on_the_newest_entry_after_writes() {
     let (lab, mut app) = demo_ui();
     lab.ok(&["person", "add", "Orla Vance"]);
-    app.reload();
+    reload(&mut app);
     press(&mut app, KeyCode::Char('4'));
     let newest = app.trail.iter().map(|r| r.id).max().unwrap();
     assert_eq!(app.trail[app.trail_selected].id, newest);
@@ -434,6 +435,6 @@ fn the_trail_opens_on_the_newest_entry_after_writes() {
     press(&mut app, KeyCode::Down);
     let kept = app.trail[app.trail_selected].id;
     lab.ok(&["person", "add", "Piet Vance"]);
-    app.reload();
+    reload(&mut app);
     assert_eq!(app.trail[app.trail_selected].id, kept);
 }

@@ -6,6 +6,7 @@
 #![allow(clippy::unwrap_used, clippy::panic, clippy::expect_used)]
 
 mod common;
+use common::settled::{ctrl, press, reload, typ, wait_idle};
 use common::*;
 use crossterm::event::KeyCode;
 use cuvette::tui::app::{App, Mode, View};
@@ -136,7 +137,7 @@ fn repeat_and_void_batch_confirm_first() {
     press(&mut app, KeyCode::Char('y'));
     assert_eq!(batches(), n + 1.0);
     assert_eq!(app.view, View::Sheet);
-    let new = app.sheet.as_ref().unwrap()["id"].as_i64().unwrap();
+    let new = app.sheet.as_ref().unwrap().batch.id;
     press(&mut app, KeyCode::Esc);
     assert_eq!(app.hits[app.selected].id, new, "the selection follows the new batch");
     // Voiding the open batch: a summary, Esc keeps it.
@@ -172,8 +173,8 @@ fn voiding_an_aliquot_confirms_and_names_it() {
     press(&mut app, KeyCode::Down);
     press(&mut app, KeyCode::Down);
     press(&mut app, KeyCode::Enter);
-    let b = app.sheet.as_ref().unwrap()["id"].as_i64().unwrap();
-    let a = app.sheet.as_ref().unwrap()["aliquots"][0]["id"].as_i64().unwrap();
+    let b = app.sheet.as_ref().unwrap().batch.id;
+    let a = app.sheet.as_ref().unwrap().aliquots[0].id;
     press(&mut app, KeyCode::Char('x'));
     typ(&mut app, "PL logged as absorbance");
     press(&mut app, KeyCode::Enter);
@@ -222,7 +223,7 @@ fn applying_a_recompute_previews_then_asks() {
     press(&mut app, KeyCode::Esc);
     wait_idle(&mut app);
     assert_eq!(recomputes(&lab), runs, "declined: nothing recomputed");
-    app.reload();
+    reload(&mut app);
     assert!(!app.stale_batches.is_empty());
     press(&mut app, KeyCode::Char('A'));
     wait_idle(&mut app);
@@ -479,8 +480,8 @@ fn every_form_names_what_it_acts_on() {
     press(&mut app, KeyCode::Down);
     press(&mut app, KeyCode::Down);
     press(&mut app, KeyCode::Enter);
-    let b = app.sheet.as_ref().unwrap()["id"].as_i64().unwrap();
-    let name = app.sheet.as_ref().unwrap()["name"].as_str().unwrap().to_string();
+    let b = app.sheet.as_ref().unwrap().batch.id;
+    let name = app.sheet.as_ref().unwrap().batch.name.clone();
     for (key, title) in [
         ('v', format!("New vial of batch {b} {name}")),
         ('i', format!("Import a folder of exports into batch {b} {name}")),

@@ -7,6 +7,7 @@
 #![allow(clippy::unwrap_used, clippy::panic, clippy::expect_used)]
 
 mod common;
+use common::settled::{press, typ, wait_idle};
 use common::*;
 use crossterm::event::KeyCode;
 use cuvette::tui::app::{App, Mode, View};
@@ -126,7 +127,7 @@ fn sheet_23(app: &mut App) {
     typ(app, "23");
     press(app, KeyCode::Enter);
     assert_eq!(app.view, View::Sheet);
-    assert_eq!(app.sheet.as_ref().unwrap()["id"], 23);
+    assert_eq!(app.sheet.as_ref().unwrap().batch.id, 23);
 }
 
 fn form_title(app: &App) -> String {

@@ -1,11 +1,15 @@
 //! Drawing: pure functions of the app state onto a frame. Nothing here does I/O or changes
 //! state. Colour only where it carries meaning (errors, stale values, the selected row), and
 //! none at all when NO_COLOR is set.
+//!
+//! Long (one function per view, form and overlay); left whole while the terminal library's
+//! upgrade edits it, to be split by view after that.
 
 use super::app::{App, Mode, SortKey, View};
 use super::keys::Scope;
 use super::picker::Picker;
 use super::units;
+use crate::report::BatchSheet;
 use crate::search::Facts;
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Layout, Rect};
@@ -400,7 +404,7 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         f.render_widget(Paragraph::new("no batch open"), area);
         return;
     };
-    let s = |k: &str| b[k].as_str().unwrap_or("").to_string();
+    let bt = &b.batch;
     // The foot takes the lines it needs as wrapped (the safety notice is never cut), up to 7.
     let foot_lines = sheet_foot(app, b, p);
     let width = area.width.max(1) as usize;
@@ -411,19 +415,31 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
         Constraint::Length(foot_rows.clamp(3, 7) as u16),
     ])
     .areas(area);
-    let g = &b["growth"];
+    let g = &b.growth;
     let mut title = vec![
-        Span::styled(format!("Batch {} {}", b["id"], s("name")), p.head()),
-        Span::raw(format!("  {} · {} · {}", s("material"), s("status"), s("operator"))),
+        Span::styled(format!("Batch {} {}", bt.id, bt.name), p.head()),
+        Span::raw(format!(
+            "  {} · {} · {}",
+            bt.material,
+            bt.status,
+            bt.operator.as_deref().unwrap_or("")
+        )),
     ];
-    if b["voided"] == true {
-        title.push(Span::styled(format!("  VOID: {}", s("void_why")), p.warn()));
+    if bt.voided {
+        title.push(Span::styled(
+            format!("  VOID: {}", bt.void_why.as_deref().unwrap_or("")),
+            p.warn(),
+        ));
     }
     let mut marks = String::new();
-    if g["mixed_calibrations"] == true {
-        marks.push_str(&format!(" · only cal. v{} used", g["calibration_version"]));
+    if g.mixed_calibrations {
+        // Mixed versions mean at least one sized aliquot, so the version is there.
+        marks.push_str(&format!(
+            " · only cal. v{} used",
+            g.calibration_version.unwrap_or_default()
+        ));
     }
-    if g["stale"] == true {
+    if g.stale {
         marks.push_str(" · STALE");
     }
     // The growth verdict and the marks come first and the recipe last: on a narrow terminal
@@ -431,21 +447,22 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     // rate's unit or a STALE mark.
     // The rate is the diameter's, between the last two timed aliquots; the regime needs the
     // dispersion of three, so with fewer it says what it waits for rather than a verdict.
-    let regime = match g["regime"].as_str().unwrap_or("") {
+    let regime = match g.regime.as_str() {
         "too few points" => "focusing needs 3 aliquots",
         r => r,
     };
     let growth = format!(
         "growth: {regime} · D {} nm/min{}",
-        n(g["growth_rate_nm_per_min"].as_f64(), 3),
-        g["focusing_turn_min"]
-            .as_f64()
+        n(g.growth_rate_nm_per_min, 3),
+        g.focusing_turn_min
             .map(|m| format!(" · turns at {m} min"))
             .unwrap_or_default()
     );
-    let recipe = b["recipe"]
-        .as_str()
-        .map(|r| format!(" · {r} v{}", b["recipe_version"]))
+    // A recipe comes with its version (both are read from the recipe version the batch names).
+    let recipe = bt
+        .recipe
+        .as_deref()
+        .map(|r| format!(" · {r} v{}", bt.recipe_version.unwrap_or_default()))
         .unwrap_or_else(|| " · no recipe".into());
     let mut second = vec![Span::raw(growth)];
     if !marks.is_empty() {
@@ -457,20 +474,15 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
     // The growth table is as wide as its longest cells (curve names, versions, STALE and VOID
     // in full) and at least two fifths of the screen; the plot has the rest.
     let header = ["state", "min", "peak", "D nm", "σ/D", "PL", "QY", "curve"];
-    let cells: Vec<(bool, [String; 8])> = b["aliquots"]
-        .as_array()
-        .into_iter()
-        .flatten()
+    let cells: Vec<(bool, [String; 8])> = b
+        .aliquots
+        .iter()
         .map(|a| {
-            let stale = a["stale"].as_bool() == Some(true);
-            let voided = a["voided"].as_bool() == Some(true);
+            let (stale, voided) = (a.stale, a.voided);
             let cal = format!(
                 "{}{}",
-                a["curve"].as_str().unwrap_or("-"),
-                a["calibration_version"]
-                    .as_i64()
-                    .map(|v| format!(" v{v}"))
-                    .unwrap_or_default()
+                a.curve.as_deref().unwrap_or("-"),
+                a.calibration_version.map(|v| format!(" v{v}")).unwrap_or_default()
             );
             let state = match (voided, stale) {
                 (true, _) => "VOID",
@@ -481,19 +493,18 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
                 stale || voided,
                 [
                     state.to_string(),
-                    a["minutes"]
-                        .as_f64()
+                    a.minutes
                         .map(units::minutes)
-                        .unwrap_or_else(|| a["stage"].as_str().unwrap_or("").to_string()),
+                        .unwrap_or_else(|| a.stage.clone().unwrap_or_default()),
                     format!(
                         "{}{}",
-                        n(a["first_exciton_nm"].as_f64(), 1),
-                        if a["shoulder"].as_bool() == Some(true) { "s" } else { "" }
+                        n(a.first_exciton_nm, 1),
+                        if a.shoulder == Some(true) { "s" } else { "" }
                     ),
-                    n(a["diameter_nm"].as_f64(), 2),
-                    n(a["size_dispersion_pct"].as_f64(), 1),
-                    n(a["pl_peak_nm"].as_f64(), 1),
-                    n(a["qy"].as_f64(), 2),
+                    n(a.diameter_nm, 2),
+                    n(a.size_dispersion_pct, 1),
+                    n(a.pl_peak_nm, 1),
+                    n(a.qy, 2),
                     cal,
                 ],
             )
@@ -545,22 +556,13 @@ fn draw_sheet(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
 
 /// A batch sheet's foot: its vials, the recipe's reagents with their GHS codes, and the
 /// material's cautions with the notice to follow the SDS.
-fn sheet_foot(app: &App, b: &serde_json::Value, p: &Palette) -> Vec<Line<'static>> {
-    let s = |k: &str| b[k].as_str().unwrap_or("").to_string();
+fn sheet_foot(app: &App, b: &BatchSheet, p: &Palette) -> Vec<Line<'static>> {
     let mut lines: Vec<Line> = Vec::new();
-    let vials: Vec<String> = b["vials"]
-        .as_array()
-        .into_iter()
-        .flatten()
-        .filter(|v| v["status"] != "disposed")
-        .map(|v| {
-            format!(
-                "{} {} mL @ {}",
-                v["label"].as_str().unwrap_or(""),
-                units::ml(v["volume_ml"].as_f64().unwrap_or(0.0)),
-                v["location"].as_str().unwrap_or("")
-            )
-        })
+    let vials: Vec<String> = b
+        .vials
+        .iter()
+        .filter(|v| v.status != "disposed")
+        .map(|v| format!("{} {} mL @ {}", v.label, units::ml(v.volume_ml), v.location))
         .collect();
     lines.push(Line::from(format!(
         "vials: {}",
@@ -571,23 +573,16 @@ fn sheet_foot(app: &App, b: &serde_json::Value, p: &Palette) -> Vec<Line<'static
         }
     )));
     // The recipe's reagents with their GHS statements, compactly, then the standing notice.
-    let hazards: Vec<String> = b["recipe_detail"]["reagents"]
-        .as_array()
-        .into_iter()
-        .flatten()
-        .filter(|g| g["ghs_hazards"].as_array().is_some_and(|h| !h.is_empty()))
+    let reagents = b.recipe_detail.iter().flat_map(|r| &r.reagents);
+    let hazards: Vec<String> = reagents
+        .clone()
+        .filter(|g| !g.ghs_hazards.is_empty())
         .map(|g| {
-            let codes: Vec<&str> = g["ghs_hazards"]
-                .as_array()
-                .into_iter()
-                .flatten()
-                .filter_map(|h| h.as_str())
-                .collect();
             format!(
                 "{}{} {}",
-                g["reagent"].as_str().unwrap_or(""),
-                if g["pyrophoric"] == true { " (pyrophoric)" } else { "" },
-                codes.join(" ")
+                g.reagent,
+                if g.pyrophoric { " (pyrophoric)" } else { "" },
+                g.ghs_hazards.join(" ")
             )
         })
         .collect();
@@ -596,18 +591,14 @@ fn sheet_foot(app: &App, b: &serde_json::Value, p: &Palette) -> Vec<Line<'static
     }
     // The material's own cautions (cadmium, lead, a pyrophoric reagent, hot solvents), as
     // `batch show` gives them, with the short form of the notice to follow the SDS.
-    let pyrophoric = b["recipe_detail"]["reagents"]
-        .as_array()
-        .is_some_and(|r| r.iter().any(|g| g["pyrophoric"] == true));
-    let mut general = crate::hazards::general_cautions(&s("core"), pyrophoric);
+    let pyrophoric = reagents.clone().any(|g| g.pyrophoric);
+    let mut general = crate::hazards::general_cautions(&b.batch.core, pyrophoric);
     general.retain(|c| c != crate::hazards::SDS_NOTICE);
     general.push(crate::hazards::SDS_NOTICE_SHORT.to_string());
     lines.push(Line::styled(format!("! {}", general.join(" ")), p.warn()));
     // A relative QY needs the lab's reference; without one every QY is `-`, so say why
     // (last: where rows run short it is this hint, never the safety notice, that is cut).
-    let has_pl = b["aliquots"]
-        .as_array()
-        .is_some_and(|a| a.iter().any(|x| x["pl_peak_nm"].is_number()));
+    let has_pl = b.aliquots.iter().any(|x| x.pl_peak_nm.is_some());
     let has_reference = app.calibrations.last().is_some_and(|c| c.body.qy_reference.is_some());
     if has_pl && !has_reference {
         lines.push(Line::styled(
@@ -1488,29 +1479,32 @@ fn status_line(app: &App, width: u16, p: &Palette) -> Line<'static> {
         }
         spans.push(Span::raw(format!("{label}: {done}/{total}")));
     }
+    // What the UI's worker is doing while the person waits (a write held up by the lab's
+    // lock, a large sheet being read); the screen and the keys go on meanwhile.
+    if let Some(w) = app.working() {
+        if !spans.is_empty() {
+            spans.push(Span::raw("  ·  "));
+        }
+        spans.push(Span::styled(format!("working… {w}"), p.dim()));
+    }
     Line::from(spans)
 }
 
 fn draw_footer(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
-    let scope = match app.mode {
-        Mode::Search => None,
-        Mode::Form(_) => Some(Scope::Form),
-        Mode::Confirm(_) => Some(Scope::Confirm),
-        Mode::Picker(_) => Some(Scope::Picker),
-        _ => Some(app.scope()),
-    };
+    let scope = app.mode_scope();
     let spans: Vec<Span> = match scope {
-        None => vec![Span::raw("type a query · Enter/Esc leave the search box")],
-        Some(s) => {
+        Scope::Search => vec![Span::raw(app.keys.search_footer())],
+        s => {
             let mut v = Vec::new();
-            let keys = if matches!(s, Scope::Form | Scope::Confirm | Scope::Picker) {
-                app.keys.footer_in(s)
-            } else {
+            let keys = if s.is_view() {
                 app.keys.footer(s)
+            } else {
+                app.keys.footer_in(s)
             };
             let mut keys: Vec<(String, &str)> = keys.into_iter().collect();
             if s == Scope::Sheet {
-                keys.push(("Esc".into(), "back"));
+                let back = app.keys.key_for(super::keys::Action::Back, Scope::Everywhere);
+                keys.push((back.unwrap_or_default(), "back"));
             }
             // What does not fit is left out whole, never cut mid-name, and the line says
             // where the rest is.
@@ -1599,12 +1593,8 @@ fn draw_help(f: &mut Frame, app: &App, p: &Palette) {
     let page = help_page_lines(full.width, full.height);
     let start = app.help_scroll.min(total.saturating_sub(page));
     let end = (start + page).min(total);
-    let more = if total > page {
-        format!(" · lines {}-{end} of {total}, ↓/PgDn more, ↑/PgUp back", start + 1)
-    } else {
-        String::new()
-    };
-    let block = Block::bordered().title(format!("keys{more} · Esc or ? closes"));
+    let lines_shown = (total > page).then_some((start + 1, end, total));
+    let block = Block::bordered().title(app.keys.help_title(lines_shown));
     let inner = block.inner(area);
     f.render_widget(block, area);
     let mut shown: Vec<Line> = lines.drain(start..end).collect();
@@ -1905,7 +1895,7 @@ fn draw_picker(f: &mut Frame, app: &App, pk: &Picker, p: &Palette) {
     } else if !pk.completions.is_empty() {
         Line::from(format!("fits: {}", pk.completions.join("  ")))
     } else if pk.typing {
-        Line::styled("Tab completes · Enter goes there · Esc back to the list", p.dim())
+        Line::styled(app.keys.path_hint(), p.dim())
     } else {
         Line::default()
     };

@@ -1,8 +1,14 @@
 //! The one key table. Help, footer and dispatch all read it, so a binding cannot be documented
-//! in one place and behave differently in another. Users may rebind actions in a JSON file
-//! (`$CUVETTE_KEYS`, else `keys.json` in the platform's config folder for cuvette):
-//! `{"draw": "D", "search": "ctrl-f"}`. The file is read only up to [`MAX_KEYS_FILE_BYTES`]:
-//! a larger one (or a device that never ends) is refused with its path, never read whole.
+//! in one place and behave differently in another; every mode has its scope here (the views,
+//! the search box, the file picker and its path line, forms and their text fields,
+//! confirmations, the help). Users may rebind actions in a JSON file (`$CUVETTE_KEYS`, else
+//! `keys.json` in the platform's config folder for cuvette): `{"draw": "D", "search":
+//! "ctrl-f"}`. A rebinding that gives two actions of one mode the same key is refused, naming
+//! both. The file is read only up to [`MAX_KEYS_FILE_BYTES`]: a larger one (or a device that
+//! never ends) is refused with its path, never read whole.
+//!
+//! Long because the table is: one entry of six lines per binding, about a hundred bindings;
+//! the code that reads it is the last few hundred lines.
 
 use crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
 use std::collections::BTreeMap;
@@ -53,8 +59,22 @@ pub enum Action {
     PickTypePath,
     PickContinue,
     PickCancel,
+    PickFirst,
+    PickLast,
+    // Typing a path in the file picker.
+    PathComplete,
+    PathGo,
+    PathStop,
+    // The help.
     HelpPageDown,
     HelpPageUp,
+    HelpLineDown,
+    HelpLineUp,
+    HelpTop,
+    HelpBottom,
+    HelpClose,
+    // The search box.
+    LeaveSearch,
     // Lists: the batch list, the shelf, the growth table and the trail.
     PageDown,
     PageUp,
@@ -99,6 +119,37 @@ pub enum Scope {
     Confirm,
     /// The file picker: browsing folders for export files.
     Picker,
+    /// Typing a path in the file picker.
+    PickerPath,
+    /// The search box, while the cursor is in it.
+    Search,
+}
+
+impl Scope {
+    /// A view's scope: its keys and the ones of every view apply there.
+    pub fn is_view(self) -> bool {
+        matches!(
+            self,
+            Scope::Batches | Scope::Sheet | Scope::Shelf | Scope::Calibrations | Scope::Trail
+        )
+    }
+
+    /// Whether a key pressed where `self` applies can also mean something of `other`: every
+    /// view takes the keys of every view, and the text being edited (a form's field, the search
+    /// box, a path) takes the text field's keys.
+    pub fn meets(self, other: Scope) -> bool {
+        let with_field = |s: Scope| matches!(s, Scope::Form | Scope::Search | Scope::PickerPath);
+        self == other
+            || (self == Scope::Everywhere && other.is_view())
+            || (other == Scope::Everywhere && self.is_view())
+            || (self == Scope::Field && with_field(other))
+            || (other == Scope::Field && with_field(self))
+    }
+
+    /// How the help titles the scope.
+    pub fn title(self) -> &'static str {
+        SCOPES.iter().find(|(s, _)| *s == self).map(|(_, t)| *t).unwrap_or("")
+    }
 }
 
 /// The order scopes are listed in the help, and their titles there.
@@ -109,7 +160,9 @@ pub const SCOPES: &[(Scope, &str)] = &[
     (Scope::Shelf, "shelf"),
     (Scope::Calibrations, "calibrations"),
     (Scope::Trail, "trail"),
+    (Scope::Search, "in the search box"),
     (Scope::Picker, "choosing export files"),
+    (Scope::PickerPath, "typing a path to export files"),
     (Scope::Form, "in a form"),
     (Scope::Field, "in a text field (forms and the search box)"),
     (Scope::Confirm, "when asked to confirm"),
@@ -460,15 +513,87 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "help-page-down",
         key: "pagedown",
         scope: Scope::Help,
-        help: "next page (↓ scrolls a line, Space a page too)",
-        footer: false,
+        help: "next page (Space a page too)",
+        footer: true,
     },
     Binding {
         action: Action::HelpPageUp,
         name: "help-page-up",
         key: "pageup",
         scope: Scope::Help,
-        help: "previous page (↑ scrolls a line)",
+        help: "previous page",
+        footer: true,
+    },
+    Binding {
+        action: Action::HelpLineDown,
+        name: "help-line-down",
+        key: "down",
+        scope: Scope::Help,
+        help: "a line down (also j)",
+        footer: false,
+    },
+    Binding {
+        action: Action::HelpLineUp,
+        name: "help-line-up",
+        key: "up",
+        scope: Scope::Help,
+        help: "a line up (also k)",
+        footer: false,
+    },
+    Binding {
+        action: Action::HelpTop,
+        name: "help-top",
+        key: "home",
+        scope: Scope::Help,
+        help: "the first page",
+        footer: false,
+    },
+    Binding {
+        action: Action::HelpBottom,
+        name: "help-bottom",
+        key: "end",
+        scope: Scope::Help,
+        help: "the last page",
+        footer: false,
+    },
+    Binding {
+        action: Action::HelpClose,
+        name: "close-help",
+        key: "esc",
+        scope: Scope::Help,
+        help: "close the help (also ? and q)",
+        footer: true,
+    },
+    Binding {
+        action: Action::LeaveSearch,
+        name: "search-done",
+        key: "enter",
+        scope: Scope::Search,
+        help: "leave the search box; the list keeps the query",
+        footer: true,
+    },
+    Binding {
+        action: Action::LeaveSearch,
+        name: "search-leave",
+        key: "esc",
+        scope: Scope::Search,
+        help: "leave the search box as Enter does",
+        footer: true,
+    },
+    Binding {
+        action: Action::Down,
+        name: "search-down",
+        key: "down",
+        scope: Scope::Search,
+        help: "the row below, still typing",
+        footer: false,
+    },
+    Binding {
+        action: Action::Up,
+        name: "search-up",
+        key: "up",
+        scope: Scope::Search,
+        help: "the row above, still typing",
         footer: false,
     },
     Binding {
@@ -508,7 +633,7 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         name: "up",
         key: "backspace",
         scope: Scope::Picker,
-        help: "the folder above",
+        help: "the folder above (also ←)",
         footer: true,
     },
     Binding {
@@ -533,6 +658,78 @@ pub const DEFAULT_KEYS: &[Binding] = &[
         key: "esc",
         scope: Scope::Picker,
         help: "close the picker; nothing is logged",
+        footer: true,
+    },
+    Binding {
+        action: Action::Down,
+        name: "pick-down",
+        key: "down",
+        scope: Scope::Picker,
+        help: "the entry below (also j)",
+        footer: false,
+    },
+    Binding {
+        action: Action::Up,
+        name: "pick-up",
+        key: "up",
+        scope: Scope::Picker,
+        help: "the entry above (also k)",
+        footer: false,
+    },
+    Binding {
+        action: Action::PageDown,
+        name: "pick-page-down",
+        key: "pagedown",
+        scope: Scope::Picker,
+        help: "a page down the folder",
+        footer: false,
+    },
+    Binding {
+        action: Action::PageUp,
+        name: "pick-page-up",
+        key: "pageup",
+        scope: Scope::Picker,
+        help: "a page up the folder",
+        footer: false,
+    },
+    Binding {
+        action: Action::PickFirst,
+        name: "pick-first",
+        key: "home",
+        scope: Scope::Picker,
+        help: "the first entry",
+        footer: false,
+    },
+    Binding {
+        action: Action::PickLast,
+        name: "pick-last",
+        key: "end",
+        scope: Scope::Picker,
+        help: "the last entry",
+        footer: false,
+    },
+    Binding {
+        action: Action::PathComplete,
+        name: "complete-path",
+        key: "tab",
+        scope: Scope::PickerPath,
+        help: "complete the path as a shell does (several fits are listed)",
+        footer: true,
+    },
+    Binding {
+        action: Action::PathGo,
+        name: "go-to-path",
+        key: "enter",
+        scope: Scope::PickerPath,
+        help: "go there (a file's path opens its folder on it)",
+        footer: true,
+    },
+    Binding {
+        action: Action::PathStop,
+        name: "stop-typing",
+        key: "esc",
+        scope: Scope::PickerPath,
+        help: "back to the list",
         footer: true,
     },
     Binding {
@@ -752,17 +949,41 @@ impl KeyMap {
                 return Err(format!("keys: no action called '{name}'"));
             }
         }
+        // Two actions of one mode on one key: only one could ever be reached. The shipped
+        // table has no such pair, so it is a rebinding that made it.
+        for (i, (ka, a)) in entries.iter().enumerate() {
+            for (kb, b) in &entries[i + 1..] {
+                if ka == kb && a.scope.meets(b.scope) && a.action != b.action {
+                    let (rebound, other) = if overrides.contains_key(a.name) { (a, b) } else { (b, a) };
+                    let narrow = if rebound.scope == Scope::Everywhere {
+                        other.scope
+                    } else {
+                        rebound.scope
+                    };
+                    return Err(format!(
+                        "keys: {} and {} would both be {} ({}); give one of them another key",
+                        rebound.name,
+                        other.name,
+                        describe(ka),
+                        narrow.title()
+                    ));
+                }
+            }
+        }
         Ok(KeyMap { entries })
     }
 
     /// Reads the user's override file, if there is one.
     pub fn load() -> Result<KeyMap, String> {
-        let path = crate::paths::keys_file();
-        let overrides = match path {
-            Some(p) if p.exists() => read_overrides(&p)?,
-            _ => BTreeMap::new(),
-        };
-        KeyMap::new(&overrides)
+        match crate::paths::keys_file() {
+            Some(p) if p.exists() => KeyMap::from_file(&p),
+            _ => KeyMap::new(&BTreeMap::new()),
+        }
+    }
+
+    /// The shipped keys with the overrides of one file (what [`KeyMap::load`] reads).
+    pub fn from_file(p: &std::path::Path) -> Result<KeyMap, String> {
+        KeyMap::new(&read_overrides(p)?)
     }
 
     /// The action a key press asks for in a scope.
@@ -822,6 +1043,54 @@ impl KeyMap {
             .iter()
             .find(|(_, b)| b.action == action && b.scope == scope)
             .map(|(k, _)| describe(k))
+    }
+
+    /// Every key bound to an action in a scope, as the help writes them, joined by `/`.
+    fn keys_for(&self, action: Action, scope: Scope) -> String {
+        let keys: Vec<String> = self
+            .entries
+            .iter()
+            .filter(|(_, b)| b.action == action && b.scope == scope)
+            .map(|(k, _)| describe(k))
+            .collect();
+        keys.join("/")
+    }
+
+    /// The footer while the search box is being typed in.
+    pub fn search_footer(&self) -> String {
+        format!(
+            "type a query · {} leave the search box",
+            self.keys_for(Action::LeaveSearch, Scope::Search)
+        )
+    }
+
+    /// The help's title: which lines show of how many, and the keys that page and close it.
+    pub fn help_title(&self, lines: Option<(usize, usize, usize)>) -> String {
+        let more = match lines {
+            Some((first, last, total)) => format!(
+                " · lines {first}-{last} of {total}, {}/{} more, {}/{} back",
+                self.keys_for(Action::HelpLineDown, Scope::Help),
+                self.keys_for(Action::HelpPageDown, Scope::Help),
+                self.keys_for(Action::HelpLineUp, Scope::Help),
+                self.keys_for(Action::HelpPageUp, Scope::Help)
+            ),
+            None => String::new(),
+        };
+        format!(
+            "keys{more} · {} or ? closes",
+            self.keys_for(Action::HelpClose, Scope::Help)
+        )
+    }
+
+    /// The picker's line while a path is typed.
+    pub fn path_hint(&self) -> String {
+        let k = |a| self.keys_for(a, Scope::PickerPath);
+        format!(
+            "{} completes · {} goes there · {} back to the list",
+            k(Action::PathComplete),
+            k(Action::PathGo),
+            k(Action::PathStop)
+        )
     }
 
     /// (scope title, key, help) for the help overlay, grouped by scope in [`SCOPES`] order.
@@ -888,6 +1157,106 @@ mod tests {
         let mut titles: Vec<&str> = help.iter().map(|(t, _, _)| *t).collect();
         titles.dedup();
         assert_eq!(titles.len(), SCOPES.len(), "{titles:?}");
+    }
+
+    #[test]
+    fn every_mode_reads_its_keys_from_the_table() {
+        // The modes of the UI and the scope each reads: the views, the search box, the picker
+        // and its path line, forms with their text fields, confirmations, the help.
+        for scope in [
+            Scope::Everywhere,
+            Scope::Batches,
+            Scope::Sheet,
+            Scope::Shelf,
+            Scope::Calibrations,
+            Scope::Trail,
+            Scope::Search,
+            Scope::Picker,
+            Scope::PickerPath,
+            Scope::Form,
+            Scope::Field,
+            Scope::Confirm,
+            Scope::Help,
+        ] {
+            assert!(
+                SCOPES.iter().any(|(s, _)| *s == scope),
+                "{scope:?} has no place in the help"
+            );
+            assert!(DEFAULT_KEYS.iter().any(|b| b.scope == scope), "{scope:?} has no keys");
+        }
+        assert_eq!(SCOPES.len(), 13);
+        // Leaving a mode is a key of that mode, so its footer can say how.
+        for (scope, leave) in [
+            (Scope::Search, Action::LeaveSearch),
+            (Scope::Picker, Action::PickCancel),
+            (Scope::PickerPath, Action::PathStop),
+            (Scope::Form, Action::Cancel),
+            (Scope::Confirm, Action::Decline),
+            (Scope::Help, Action::HelpClose),
+        ] {
+            assert!(
+                DEFAULT_KEYS
+                    .iter()
+                    .any(|b| b.scope == scope && b.action == leave && b.footer),
+                "{scope:?}"
+            );
+        }
+    }
+
+    #[test]
+    fn the_shipped_table_gives_no_key_two_actions_in_one_mode() {
+        for (i, a) in DEFAULT_KEYS.iter().enumerate() {
+            for b in &DEFAULT_KEYS[i + 1..] {
+                if a.key == b.key && a.scope.meets(b.scope) {
+                    assert_eq!(a.action, b.action, "{} and {} share {}", a.name, b.name, a.key);
+                }
+            }
+        }
+        assert!(KeyMap::new(&BTreeMap::new()).is_ok());
+    }
+
+    #[test]
+    fn a_rebinding_onto_another_key_of_the_same_mode_is_refused_naming_both() {
+        let refused = |name: &str, key: &str| {
+            let mut o = BTreeMap::new();
+            o.insert(name.to_string(), key.to_string());
+            match KeyMap::new(&o) {
+                Err(e) => e,
+                Ok(_) => panic!("{name} on {key} was taken"),
+            }
+        };
+        for (name, key, other, mode) in [
+            // Two keys of the shelf.
+            ("draw", "m", "move", "(shelf)"),
+            // A view's key onto a key of every view.
+            ("sort", "q", "quit", "(batches)"),
+            ("quit", "s", "sort", "(batches)"),
+            // Leaving the search box onto a key that edits its text.
+            ("search-done", "ctrl-w", "delete-word", "(in the search box)"),
+            // The picker's path line, the help, a form, a confirmation.
+            (
+                "complete-path",
+                "ctrl-u",
+                "delete-to-start",
+                "(typing a path to export files)",
+            ),
+            ("close-help", "pagedown", "help-page-down", "(in this help)"),
+            ("save", "tab", "next-field", "(in a form)"),
+            ("confirm", "n", "decline", "(when asked to confirm)"),
+        ] {
+            let e = refused(name, key);
+            assert!(e.starts_with("keys: ") && !e.contains('\n'), "one line: {e}");
+            assert!(
+                e.contains(&format!("{name} and {other}")) && e.contains(mode),
+                "{name} on {key}: {e}"
+            );
+        }
+        // The same key in modes that never meet is no conflict: p plots on the sheet and would
+        // draw on the shelf; Esc closes the help and leaves the picker.
+        let mut o = BTreeMap::new();
+        o.insert("draw".to_string(), "p".to_string());
+        o.insert("close-help".to_string(), "x".to_string());
+        assert!(KeyMap::new(&o).is_ok());
     }
 
     #[test]

@@ -1,15 +1,26 @@
-//! The keyboard-driven terminal UI. `app` holds state and actions, `draw` renders it, `keys`
-//! is the one key table behind dispatch, help and footer, `shelf` arranges the shelf (query,
-//! grouping, sort), `units` rounds numbers for people. The terminal is restored on every
-//! way out, a panic included (ratatui's init installs the hook).
+//! The keyboard-driven terminal UI. `app` holds the state and dispatches keys by mode,
+//! `lists` filters, sorts and steps through the lists in memory, `actions` is what a view's
+//! keys do, `forms` the forms, their keys and confirmations, `submit` what a saved form does;
+//! `worker` is the UI's worker (every read and write of the lab, off the UI thread), `jobs`
+//! what its requests do and the long jobs, `replies` what the answers do to the screen;
+//! `draw` renders it all, `keys` is the one key table behind dispatch, help and footer,
+//! `shelf` arranges the shelf (query, grouping, sort), `units` rounds numbers for people. The
+//! terminal is restored on every way out, a panic included (ratatui's init installs the hook).
 
+mod actions;
 pub mod app;
 pub mod draw;
+pub mod forms;
+pub mod jobs;
 pub mod keys;
+mod lists;
 pub mod picker;
+mod replies;
 pub mod shelf;
+mod submit;
 pub mod units;
 pub mod watch;
+pub mod worker;
 
 use crate::error::{Error, Result};
 use crate::store::Store;
@@ -54,6 +65,12 @@ pub fn run(store: Store, writer: Writer) -> Result<()> {
     }
     let _ = crossterm::execute!(std::io::stdout(), DisableBracketedPaste);
     ratatui::restore();
+    // Saves still queued are finished, not dropped, as the app closes: say why it waits.
+    app.drain_notes();
+    if app.saves_waiting() > 0 {
+        eprintln!("cuvette: finishing the saves still waiting for the lab…");
+    }
+    drop(app);
     result
 }
 
@@ -64,11 +81,21 @@ fn event_loop(terminal: &mut ratatui::DefaultTerminal, app: &mut app::App) -> Re
             app.size = (s.width, s.height);
         }
         terminal.draw(|f| draw::draw(f, app))?;
-        if event::poll(Duration::from_millis(150))? {
+        // While the worker has a request out, look for its answer often, so it is on screen as
+        // soon as it comes; otherwise keys are all there is to wait for.
+        let wait = if app.waiting() { 15 } else { 150 };
+        if event::poll(Duration::from_millis(wait))? {
+            let asked = app.requests_made();
             match event::read()? {
                 Event::Key(k) if k.kind == KeyEventKind::Press => app.on_key(k),
                 Event::Paste(text) => app.on_paste(&text),
                 _ => {}
+            }
+            // What a key asked, when it comes quickly (a sheet opened, a vial drawn), is drawn
+            // in the very next frame; a slow answer (a write waiting for the lab) shows as
+            // "working…" meanwhile, and the wait for it is never more than this.
+            if app.requests_made() != asked {
+                app.settle_workers(Duration::from_millis(20));
             }
         }
     }

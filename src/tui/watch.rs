@@ -3,7 +3,7 @@
 //! and says what it logged, with the first exciton, until the person stops it. The watch
 //! never blocks the screen and never stops by itself; the status line shows it while it runs.
 
-use super::app::Note;
+use super::worker::Note;
 use crate::bench::{self, WatchSetup};
 use crate::store::Store;
 use std::path::PathBuf;

@@ -212,3 +212,63 @@ pub fn wait_idle(app: &mut cuvette::tui::app::App) {
     }
     assert!(!app.busy, "the background job did not finish");
 }
+
+/// How long the settled helpers wait for the UI's worker: far longer than any answer takes, so
+/// only a worker that never answers fails a test on it.
+pub const SETTLE_LIMIT: std::time::Duration = std::time::Duration::from_secs(60);
+
+/// The harness's key helpers, each waiting until the UI's worker has answered everything the
+/// key asked (a sheet opened, a form saved), so a test can look at the app right after a key
+/// as a person looks at the screen. Import them by name, after `use common::*`, to drive the
+/// app this way: `use common::settled::{ctrl, press, typ};`.
+pub mod settled {
+    use cuvette::tui::app::App;
+
+    fn settle(app: &mut App) {
+        assert!(
+            app.settle_workers(super::SETTLE_LIMIT),
+            "the UI's worker did not answer: still {:?}",
+            app.working()
+        );
+    }
+
+    pub fn press(app: &mut App, code: crossterm::event::KeyCode) {
+        super::press(app, code);
+        settle(app);
+    }
+
+    pub fn ctrl(app: &mut App, c: char) {
+        super::ctrl(app, c);
+        settle(app);
+    }
+
+    pub fn typ(app: &mut App, s: &str) {
+        for c in s.chars() {
+            press(app, crossterm::event::KeyCode::Char(c));
+        }
+    }
+
+    /// As `super::wait_idle`, then until the reload the job's end asked for has been read.
+    pub fn wait_idle(app: &mut App) {
+        super::wait_idle(app);
+        settle(app);
+    }
+
+    /// As `super::wait_until`, then until what the last report asked for has been read.
+    pub fn wait_until(app: &mut App, secs: u64, done: impl Fn(&App) -> bool) {
+        super::wait_until(app, secs, done);
+        settle(app);
+    }
+
+    /// The UI asked to check its lab (`App::check_lab`) and given the answer.
+    pub fn check_lab(app: &mut App) {
+        app.check_lab();
+        settle(app);
+    }
+
+    /// The UI asked to read the lab again (`App::reload`) and given the answer.
+    pub fn reload(app: &mut App) {
+        app.reload();
+        settle(app);
+    }
+}

@@ -204,7 +204,7 @@ fn derive_aliquot_from(
     let ctx = batch_context(tx, a.batch_id)?;
     let hash = inputs_hash(&a, &batch.core, &metas, &cal, &ctx);
     let stage1 = analysis_hash(&metas, &cal);
-    let comp = compute_in_series(&a, &batch.core, &spectra, &cal, &ctx, hint);
+    let comp = compute_in_series(&a, &batch.core, spectra, &cal, &ctx, hint);
     let old = values::current_values(tx, aliquot_id)?;
     apply(tx, aliquot_id, version, &stage1, &hash, &comp.values, &old)?;
     follow_parent_cores(tx, Some(a.batch_id))?;
