@@ -5,7 +5,7 @@
 //! figures before and after the use-case layer).
 
 use criterion::{Criterion, criterion_group, criterion_main};
-use cuvette::bench::{Door, SpectrumFile};
+use cuvette::lab::bench::{Door, SpectrumFile};
 use cuvette::store::model::NewAliquot;
 use std::hint::black_box;
 use std::path::{Path, PathBuf};
@@ -18,8 +18,8 @@ const HC_EV_NM: f64 = 1239.841984;
 fn spectrum_files(dir: &Path) -> (PathBuf, PathBuf) {
     let abs = dir.join("abs_601.csv");
     let pl = dir.join("pl_601.csv");
-    let mut rng = cuvette::demo::Rng::new(7);
-    let (x, y) = cuvette::demo::absorbance("CdSe", 560.0, 0.045, 0.3, 0.001, &mut rng);
+    let mut rng = cuvette::lab::demo::Rng::new(7);
+    let (x, y) = cuvette::lab::demo::absorbance("CdSe", 560.0, 0.045, 0.3, 0.001, &mut rng);
     let mut s = String::from("Wavelength (nm),Absorbance\n");
     for (a, b) in x.iter().zip(&y).filter(|(a, _)| (300.0..=900.0).contains(*a)) {
         s.push_str(&format!("{a},{b:.6}\n"));
@@ -41,7 +41,7 @@ fn add_aliquot(c: &mut Criterion) {
     let (abs, pl) = spectrum_files(dir.path());
     let db = dir.path().join("lab.db");
     let mut store = cuvette::store::Store::open(&db, "bench").expect("open");
-    cuvette::demo::build(&mut store, Some(300), |_, _| {}).expect("build");
+    cuvette::lab::demo::build(&mut store, Some(300), |_, _| {}).expect("build");
     let batch = cuvette::lab::batches::log_batch(
         &mut store,
         &cuvette::store::model::NewBatch {
@@ -86,7 +86,7 @@ fn add_aliquot(c: &mut Criterion) {
                 solvent: "hexane".into(),
                 taken_at: None,
             };
-            cuvette::bench::add_aliquot(&mut store, black_box(&a), &files, &Default::default(), &door)
+            cuvette::lab::bench::add_aliquot(&mut store, black_box(&a), &files, &Default::default(), &door)
                 .expect("add aliquot")
         })
     });

@@ -19,7 +19,7 @@ fn lab(batches: usize) -> PathBuf {
         let tmp = dir.join(format!("lab-{batches}.building"));
         let _ = std::fs::remove_file(&tmp);
         let mut st = cuvette::lab::open(&tmp, "bench").expect("open");
-        cuvette::demo::build(&mut st, Some(batches), |_, _| {}).expect("build");
+        cuvette::lab::demo::build(&mut st, Some(batches), |_, _| {}).expect("build");
         drop(st);
         std::fs::rename(&tmp, &path).expect("rename");
         for ext in ["-wal", "-shm"] {
@@ -30,7 +30,7 @@ fn lab(batches: usize) -> PathBuf {
 }
 
 fn spectrum() -> Trace {
-    let (x, y) = cuvette::demo::absorbance("CdSe", 550.0, 0.045, 0.3, 0.001, &mut cuvette::demo::Rng::new(1));
+    let (x, y) = cuvette::lab::demo::absorbance("CdSe", 550.0, 0.045, 0.3, 0.001, &mut cuvette::lab::demo::Rng::new(1));
     Trace { nm: x, y }
 }
 
@@ -54,13 +54,13 @@ fn many_files(c: &mut Criterion) {
         .map(|i| {
             let p = dir.join(format!("abs_{i:05}.csv"));
             if !p.exists() {
-                let (x, y) = cuvette::demo::absorbance(
+                let (x, y) = cuvette::lab::demo::absorbance(
                     "CdSe",
                     500.0 + (i % 100) as f64,
                     0.045,
                     0.3,
                     0.001,
-                    &mut cuvette::demo::Rng::new(i as u64),
+                    &mut cuvette::lab::demo::Rng::new(i as u64),
                 );
                 let mut s = String::from("Wavelength (nm),Absorbance\n");
                 for (a, b) in x.iter().zip(&y) {

@@ -10,10 +10,7 @@
 
 #![deny(clippy::unwrap_used)]
 
-pub mod bench;
 pub mod cli;
-pub mod corrections;
-pub mod demo;
 pub mod derive;
 pub mod error;
 pub mod hazards;

@@ -161,7 +161,7 @@ fn old_lab(path: &Path, version: usize) {
         [],
     )
     .unwrap();
-    let (x, y) = cuvette::demo::absorbance("CdSe", 560.0, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(7));
+    let (x, y) = cuvette::lab::demo::absorbance("CdSe", 560.0, 0.04, 0.1, 0.0005, &mut cuvette::lab::demo::Rng::new(7));
     let data = cuvette::store::encode_xy(&x, &y);
     c.execute_batch(
         "INSERT INTO person (name) VALUES ('Old Timer');
@@ -800,7 +800,7 @@ fn a_void_batch_takes_no_new_aliquot() {
     lab.refuses(&["aliquot", "add", &b, "--abs", s(&f), "--minutes", "30"], "void");
     let dir = lab.path("more");
     std::fs::create_dir(&dir).unwrap();
-    let (x, y) = cuvette::demo::absorbance("CdSe", 595.0, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(9));
+    let (x, y) = cuvette::lab::demo::absorbance("CdSe", 595.0, 0.04, 0.1, 0.0005, &mut cuvette::lab::demo::Rng::new(9));
     std::fs::write(dir.join("abs_40min.csv"), csv(&x, &y)).unwrap();
     lab.refuses(&["import", &b, s(&dir)], "void");
 }

@@ -29,9 +29,9 @@ const HIGHER_LAYERS: &[&str] = &[
     "crate::search",
     "crate::cli",
     "crate::tui",
-    "crate::bench",
-    "crate::demo",
-    "crate::corrections",
+    "crate::lab::bench",
+    "crate::lab::demo",
+    "crate::lab::corrections",
 ];
 
 fn rust_files(dir: &Path, out: &mut Vec<PathBuf>) {

@@ -373,15 +373,16 @@ fn import_and_the_manifest_record_the_pl_cuvette_of_each_pl_file() {
     let dir = lab.path("run");
     std::fs::create_dir(&dir).unwrap();
     for (m, peak) in [(2, 540.0), (5, 555.0)] {
-        let (x, y) = cuvette::demo::absorbance("CdSe", peak, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(m));
+        let (x, y) =
+            cuvette::lab::demo::absorbance("CdSe", peak, 0.04, 0.1, 0.0005, &mut cuvette::lab::demo::Rng::new(m));
         std::fs::write(dir.join(format!("abs_{m:02}min.csv")), csv(&x, &y)).unwrap();
-        let (x, y) = cuvette::demo::photoluminescence(
+        let (x, y) = cuvette::lab::demo::photoluminescence(
             "CdSe",
             peak + 15.0,
             0.045,
             20_000.0,
             2.0,
-            &mut cuvette::demo::Rng::new(m),
+            &mut cuvette::lab::demo::Rng::new(m),
         );
         std::fs::write(
             dir.join(format!("pl_{m:02}min.csv")),

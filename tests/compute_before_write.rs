@@ -4,7 +4,7 @@
 //! again from the BLOBs) finds nothing, and a full recompute changes nothing.
 #![allow(clippy::unwrap_used, clippy::panic, clippy::expect_used)]
 
-use cuvette::bench::{Door, SpectrumFile};
+use cuvette::lab::bench::{Door, SpectrumFile};
 use cuvette::store::model::{NewAliquot, NewBatch};
 
 fn samples(rel: &str) -> std::path::PathBuf {
@@ -51,7 +51,8 @@ fn values_computed_in_memory_are_those_the_stored_spectra_give() {
             solvent: "hexane".into(),
             taken_at: None,
         };
-        let s = cuvette::bench::add_aliquot(&mut store, &a, &files, &Default::default(), &Door::default()).unwrap();
+        let s =
+            cuvette::lab::bench::add_aliquot(&mut store, &a, &files, &Default::default(), &Door::default()).unwrap();
         assert!(s.diameter_nm.is_some(), "aliquot {m} min was sized");
     }
     let (checked, problems) = store

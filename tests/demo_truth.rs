@@ -8,7 +8,7 @@ use cuvette::spectra::Trace;
 use cuvette::spectra::analysis::{AnalysisSettings, analyze_absorbance};
 
 fn check(core: &str, peaks: (f64, f64), sigma: (f64, f64), a1: (f64, f64), noise: f64, tol_nm: f64) -> (usize, f64) {
-    let mut rng = cuvette::demo::Rng::new(5);
+    let mut rng = cuvette::lab::demo::Rng::new(5);
     let mut worst: f64 = 0.0;
     let mut n = 0;
     for i in 0..40 {
@@ -16,7 +16,7 @@ fn check(core: &str, peaks: (f64, f64), sigma: (f64, f64), a1: (f64, f64), noise
         let peak = peaks.0 + (peaks.1 - peaks.0) * f;
         let s = sigma.0 + (sigma.1 - sigma.0) * ((i * 7) % 40) as f64 / 39.0;
         let a = rng.range(a1.0, a1.1);
-        let (x, y) = cuvette::demo::absorbance(core, peak, s, a, noise, &mut rng);
+        let (x, y) = cuvette::lab::demo::absorbance(core, peak, s, a, noise, &mut rng);
         let r = analyze_absorbance(&Trace { nm: x, y }, &AnalysisSettings::default())
             .expect("a demo spectrum is analysable");
         let got = r.first_exciton_nm.unwrap_or(f64::NAN);

@@ -237,7 +237,7 @@ fn csv_cells_that_a_spreadsheet_would_run_are_neutralised() {
     let lab = hostile_lab();
     // An aliquot whose spectrum sits below zero (a baseline set on a darker blank), so the
     // export carries negative absorbances that must stay numbers.
-    let (x, y) = cuvette::demo::absorbance("CdSe", 540.0, 0.04, 0.1, 0.0, &mut cuvette::demo::Rng::new(7));
+    let (x, y) = cuvette::lab::demo::absorbance("CdSe", 540.0, 0.04, 0.1, 0.0, &mut cuvette::lab::demo::Rng::new(7));
     let y: Vec<f64> = y.iter().map(|v| v - 0.5).collect();
     let low = lab.write("low.csv", &csv(&x, &y));
     lab.ok(&["aliquot", "add", "1", "--abs", s(&low), "--minutes", "4"]);

@@ -94,13 +94,13 @@ fn a_killed_import_leaves_the_batch_whole_or_empty() {
     let dir = lab.path("exports");
     std::fs::create_dir(&dir).unwrap();
     for i in 0..120 {
-        let (x, y) = cuvette::demo::absorbance(
+        let (x, y) = cuvette::lab::demo::absorbance(
             "CdSe",
             520.0 + 0.3 * i as f64,
             0.04,
             0.1,
             0.0005,
-            &mut cuvette::demo::Rng::new(i),
+            &mut cuvette::lab::demo::Rng::new(i),
         );
         std::fs::write(dir.join(format!("abs_{i:03}min.csv")), csv(&x, &y)).unwrap();
     }
@@ -344,13 +344,13 @@ fn a_manifest_imports_each_batch_whole_or_not_at_all() {
         let d = lab.path(dir);
         std::fs::create_dir(&d).unwrap();
         for i in 0..3 {
-            let (x, y) = cuvette::demo::absorbance(
+            let (x, y) = cuvette::lab::demo::absorbance(
                 "CdSe",
                 530.0 + 5.0 * i as f64,
                 0.04,
                 0.1,
                 0.0005,
-                &mut cuvette::demo::Rng::new(i),
+                &mut cuvette::lab::demo::Rng::new(i),
             );
             std::fs::write(d.join(format!("abs_{i:02}min.csv")), csv(&x, &y)).unwrap();
         }

@@ -190,7 +190,7 @@ fn every_bad_delimited_file_gets_a_message_naming_it() {
 /// that is negligible on the red side, plus noise. Then the peak is at hc/E0 and the
 /// low-energy half maximum at E0 - σ√(2 ln 2).
 fn resolved(e0: f64, sigma: f64, noise: f64, seed: u64) -> Trace {
-    let mut rng = cuvette::demo::Rng::new(seed);
+    let mut rng = cuvette::lab::demo::Rng::new(seed);
     let nm: Vec<f64> = (0..601).map(|i| 300.0 + i as f64).collect();
     let y = nm
         .iter()
@@ -453,13 +453,13 @@ fn analyze_and_read_commands_print_the_contract_keys() {
 }
 
 fn lab_abs_in(dir: &std::path::Path, i: usize) {
-    let (x, y) = cuvette::demo::absorbance(
+    let (x, y) = cuvette::lab::demo::absorbance(
         "CdSe",
         520.0 + 10.0 * i as f64,
         0.04,
         0.1,
         0.0005,
-        &mut cuvette::demo::Rng::new(i as u64),
+        &mut cuvette::lab::demo::Rng::new(i as u64),
     );
     std::fs::write(dir.join(format!("abs_{i:02}min.csv")), csv(&x, &y)).unwrap();
 }
@@ -502,7 +502,7 @@ proptest! {
 fn the_user_can_name_the_columns_and_the_block() {
     let lab = Lab::new();
     // nm, a reference channel, then the sample: the sample is column 3.
-    let (x, y) = cuvette::demo::absorbance("CdSe", 560.0, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(4));
+    let (x, y) = cuvette::lab::demo::absorbance("CdSe", 560.0, 0.04, 0.1, 0.0005, &mut cuvette::lab::demo::Rng::new(4));
     let text: String = std::iter::once("nm;reference;sample\n".to_string())
         .chain(x.iter().zip(&y).map(|(a, b)| format!("{a};0.01;{b}\n")))
         .collect();

@@ -686,7 +686,7 @@ fn wrong_files_are_caught_at_the_door() {
     );
     lab.ok(&["aliquot", "add", &bs, "--abs", s(&abs), "--minutes", "31", "--again"]);
     // %T is converted to absorbance: A = -log10(T) (IUPAC Gold Book, "absorbance").
-    let (x, y) = cuvette::demo::absorbance("CdSe", 560.0, 0.04, 0.1, 0.0, &mut cuvette::demo::Rng::new(9));
+    let (x, y) = cuvette::lab::demo::absorbance("CdSe", 560.0, 0.04, 0.1, 0.0, &mut cuvette::lab::demo::Rng::new(9));
     let mut t = String::from("Wavelength (nm),%T\n");
     for (a, v) in x.iter().zip(&y) {
         t.push_str(&format!("{a},{}\n", 100.0 * 10f64.powf(-v)));
@@ -736,7 +736,8 @@ fn a_folder_imported_twice_is_skipped_and_reported() {
     let dir = lab.path("exports");
     std::fs::create_dir(&dir).unwrap();
     for (m, peak) in [(2, 525.0), (6, 550.0)] {
-        let (x, y) = cuvette::demo::absorbance("CdSe", peak, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(m));
+        let (x, y) =
+            cuvette::lab::demo::absorbance("CdSe", peak, 0.04, 0.1, 0.0005, &mut cuvette::lab::demo::Rng::new(m));
         std::fs::write(dir.join(format!("abs_{m:02}min.csv")), csv(&x, &y)).unwrap();
     }
     let first = lab.ok(&["import", &b.to_string(), s(&dir), "--json"]).json();

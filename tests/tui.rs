@@ -131,7 +131,8 @@ fn a_bench_session_driven_by_keys_lands_in_the_database() {
     let exports = lab.path("exports");
     std::fs::create_dir(&exports).unwrap();
     for (name, peak) in [("abs_02min.csv", 535.0), ("abs_05min.csv", 560.0)] {
-        let (x, y) = cuvette::demo::absorbance("CdSe", peak, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(1));
+        let (x, y) =
+            cuvette::lab::demo::absorbance("CdSe", peak, 0.04, 0.1, 0.0005, &mut cuvette::lab::demo::Rng::new(1));
         std::fs::write(exports.join(name), csv(&x, &y)).unwrap();
     }
     let store = cuvette::lab::open(&lab.db, "Test Runner").unwrap();
@@ -228,7 +229,7 @@ fn forms_and_the_file_picker_render_and_watching_a_folder_logs_new_exports() {
     lab.ok(&["init"]);
     let exports = lab.path("exports");
     std::fs::create_dir(&exports).unwrap();
-    let (x, y) = cuvette::demo::absorbance("CdSe", 540.0, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(1));
+    let (x, y) = cuvette::lab::demo::absorbance("CdSe", 540.0, 0.04, 0.1, 0.0005, &mut cuvette::lab::demo::Rng::new(1));
     std::fs::write(exports.join("abs_01min.csv"), csv(&x, &y)).unwrap();
     let store = cuvette::lab::open(&lab.db, "Test Runner").unwrap();
     let mut app = App::new(store, keys::KeyMap::new(&Default::default()).unwrap());
@@ -259,7 +260,7 @@ fn forms_and_the_file_picker_render_and_watching_a_folder_logs_new_exports() {
     );
     assert!(screen_at(&app, 160, 45).contains("● watching exports/ → batch"));
     std::thread::sleep(std::time::Duration::from_millis(300));
-    let (x, y) = cuvette::demo::absorbance("CdSe", 552.0, 0.04, 0.1, 0.0005, &mut cuvette::demo::Rng::new(2));
+    let (x, y) = cuvette::lab::demo::absorbance("CdSe", 552.0, 0.04, 0.1, 0.0005, &mut cuvette::lab::demo::Rng::new(2));
     std::fs::write(exports.join("abs_07min.csv"), csv(&x, &y)).unwrap();
     let start = std::time::Instant::now();
     while app.watching.as_ref().is_some_and(|w| w.logged == 0) && start.elapsed().as_secs() < 20 {

@@ -81,7 +81,7 @@ fn a_person_works_on_while_the_lab_is_locked_and_the_write_lands_once() {
     let lab = Lab::new();
     {
         let mut store = cuvette::lab::open(&lab.db, "Test Runner").unwrap();
-        let n = cuvette::demo::build(&mut store, Some(BATCHES), |_, _| {}).unwrap();
+        let n = cuvette::lab::demo::build(&mut store, Some(BATCHES), |_, _| {}).unwrap();
         assert_eq!(n, BATCHES);
     }
     let store = cuvette::lab::open(&lab.db, "Test Runner").unwrap();

@@ -10,7 +10,7 @@ fn facts() -> &'static Vec<Facts> {
     static FACTS: OnceLock<Vec<Facts>> = OnceLock::new();
     FACTS.get_or_init(|| {
         let mut st = cuvette::lab::in_memory("fuzz").expect("an in-memory store opens");
-        cuvette::demo::build(&mut st, None, |_, _| {}).expect("the demo lab builds");
+        cuvette::lab::demo::build(&mut st, None, |_, _| {}).expect("the demo lab builds");
         st.read(|tx| load_facts(tx)).expect("facts load")
     })
 }

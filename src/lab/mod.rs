@@ -16,7 +16,10 @@
 //! either, does not do.
 
 pub mod batches;
+pub mod bench;
 pub mod calibrations;
+pub mod corrections;
+pub mod demo;
 pub mod derivation;
 pub mod handover;
 pub mod register;

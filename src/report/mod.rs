@@ -420,7 +420,7 @@ mod tests {
     #[test]
     fn the_typed_views_add_no_key_their_rows_already_have() -> Result<()> {
         let mut store = crate::lab::in_memory("tester")?;
-        crate::demo::build(&mut store, None, |_, _| {})?;
+        crate::lab::demo::build(&mut store, None, |_, _| {})?;
         let shelled = model::list_batches(&store.conn)?
             .into_iter()
             .find(|b| b.parent_batch_id.is_some())

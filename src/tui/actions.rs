@@ -415,7 +415,7 @@ impl App {
     }
 
     /// Starts watching a folder for a batch; says what it watches.
-    pub(super) fn start_watch(&mut self, setup: crate::bench::WatchSetup) -> Result<String, String> {
+    pub(super) fn start_watch(&mut self, setup: crate::lab::bench::WatchSetup) -> Result<String, String> {
         if let Some(w) = &self.watching {
             return Err(format!(
                 "already watching {} for batch {}; W stops it",

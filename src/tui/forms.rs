@@ -12,7 +12,7 @@ use super::replies::Then;
 use super::submit::{Saved, handover_dir};
 use super::units;
 use super::worker::{HandoverCounts, Read};
-use crate::bench;
+use crate::lab::bench;
 use crate::store::model;
 use crossterm::event::{KeyCode, KeyEvent};
 

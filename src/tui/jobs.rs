@@ -8,7 +8,7 @@
 use super::worker::{
     BenchDefaults, Checked, HandoverCounts, Lists, Note, Read, Reply, SheetData, SheetError, TrailAsk, Write, Wrote,
 };
-use crate::bench;
+use crate::lab::bench;
 use crate::report;
 use crate::search;
 use crate::store::{Db, Store, model};
@@ -240,7 +240,7 @@ pub(super) fn write(store: &mut Store, w: &Write) -> Result<Wrote, String> {
         )),
         Write::Dispose { vial, why } => said(vial_said(&lab::vials::dispose(store, *vial, why).map_err(e)?)),
         Write::ReinstateVial { vial, why } => {
-            let v = crate::corrections::reinstate_vial(store, *vial, why).map_err(e)?;
+            let v = crate::lab::corrections::reinstate_vial(store, *vial, why).map_err(e)?;
             said(format!(
                 "vial {} is back: {} mL at {}",
                 v.label,
@@ -258,7 +258,7 @@ pub(super) fn write(store: &mut Store, w: &Write) -> Result<Wrote, String> {
             said(format!("calibration version {v}; press p to preview the recompute"))
         }
         Write::AliquotVoid { aliquot, void, why } => {
-            let a = crate::corrections::set_aliquot_void(store, *aliquot, *void, why).map_err(e)?;
+            let a = crate::lab::corrections::set_aliquot_void(store, *aliquot, *void, why).map_err(e)?;
             let text = if *void {
                 format!("aliquot {aliquot} is void; the batch's values no longer use it")
             } else {
@@ -282,7 +282,7 @@ pub(super) fn write(store: &mut Store, w: &Write) -> Result<Wrote, String> {
                 path_cm: f.path_cm.filter(|p| *p != before.path_cm),
                 solvent: Some(f.solvent.clone()).filter(|s| !s.is_empty() && *s != before.solvent),
             };
-            crate::corrections::edit_aliquot(store, *aliquot, &ed, why).map_err(e)?;
+            crate::lab::corrections::edit_aliquot(store, *aliquot, &ed, why).map_err(e)?;
             with_sheet(
                 store,
                 format!("aliquot {aliquot} corrected and recomputed"),
@@ -290,7 +290,7 @@ pub(super) fn write(store: &mut Store, w: &Write) -> Result<Wrote, String> {
             )
         }
         Write::BatchVoid { batch, void, why } => {
-            crate::corrections::set_batch_void(store, *batch, *void, why).map_err(e)?;
+            crate::lab::corrections::set_batch_void(store, *batch, *void, why).map_err(e)?;
             let text = if *void {
                 format!("batch {batch} is void: left out of search and the pack (g opens it by id)")
             } else {
@@ -310,7 +310,7 @@ pub(super) fn write(store: &mut Store, w: &Write) -> Result<Wrote, String> {
                 .into_iter()
                 .find(|s| s.kind == *kind)
                 .ok_or_else(|| format!("aliquot {from} has no {kind} spectrum"))?;
-            crate::corrections::move_spectrum(store, spectrum.id, *to, why).map_err(e)?;
+            crate::lab::corrections::move_spectrum(store, spectrum.id, *to, why).map_err(e)?;
             let text = format!(
                 "spectrum {} moved from aliquot {from} to aliquot {to}; both recomputed",
                 spectrum.id

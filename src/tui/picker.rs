@@ -3,7 +3,7 @@
 //! exciton or PL peak, a small outline). The picker only reads the file system; nothing is
 //! logged until the aliquot's form that follows is saved. Drawing lives in `draw`.
 
-use crate::bench::{self, FilePreview};
+use crate::lab::bench::{self, FilePreview};
 use std::path::{Path, PathBuf};
 
 /// One row of a folder listing.

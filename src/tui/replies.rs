@@ -11,7 +11,7 @@ use super::forms::{self, Form};
 use super::jobs::RecomputeReport;
 use super::units;
 use super::worker::{Checked, Kind, Lists, Note, Read, Reply, SheetData, TrailAsk, Write, Wrote};
-use crate::bench::WatchSetup;
+use crate::lab::bench::WatchSetup;
 use std::collections::{BTreeMap, HashMap};
 use std::sync::mpsc::RecvTimeoutError;
 use std::time::{Duration, Instant};

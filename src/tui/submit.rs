@@ -10,7 +10,7 @@ use super::jobs;
 use super::replies::{Opening, Then};
 use super::units;
 use super::worker::{AliquotFields, Read, Write};
-use crate::bench::{self, SpectrumFile};
+use crate::lab::bench::{self, SpectrumFile};
 use crate::store::model;
 use std::path::PathBuf;
 

@@ -4,7 +4,7 @@
 //! never blocks the screen and never stops by itself; the status line shows it while it runs.
 
 use super::worker::Note;
-use crate::bench::{self, WatchSetup};
+use crate::lab::bench::{self, WatchSetup};
 use crate::store::Store;
 use std::path::PathBuf;
 use std::sync::Arc;

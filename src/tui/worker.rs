@@ -13,7 +13,7 @@
 
 use super::RememberName;
 use super::jobs::RecomputeReport;
-use crate::bench::SpectrumFile;
+use crate::lab::bench::SpectrumFile;
 use crate::report::{self, plot::SeriesItem};
 use crate::search::Facts;
 use crate::store::{Store, model};

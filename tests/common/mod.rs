@@ -87,19 +87,25 @@ impl Lab {
     }
     /// A CdSe-like absorbance file: a Gaussian in energy at `peak_nm` on a rising background.
     pub fn abs_file(&self, name: &str, peak_nm: f64) -> PathBuf {
-        let (x, y) = cuvette::demo::absorbance(
+        let (x, y) = cuvette::lab::demo::absorbance(
             "CdSe",
             peak_nm,
             0.04,
             0.1,
             0.0005,
-            &mut cuvette::demo::Rng::new(peak_nm as u64),
+            &mut cuvette::lab::demo::Rng::new(peak_nm as u64),
         );
         self.write(name, &csv(&x, &y))
     }
     pub fn pl_file(&self, name: &str, peak_nm: f64, integral: f64) -> PathBuf {
-        let (x, y) =
-            cuvette::demo::photoluminescence("CdSe", peak_nm, 0.045, integral, 2.0, &mut cuvette::demo::Rng::new(3));
+        let (x, y) = cuvette::lab::demo::photoluminescence(
+            "CdSe",
+            peak_nm,
+            0.045,
+            integral,
+            2.0,
+            &mut cuvette::lab::demo::Rng::new(3),
+        );
         self.write(name, &csv(&x, &y).replacen("Absorbance", "Intensity (counts)", 1))
     }
 }

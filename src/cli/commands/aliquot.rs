@@ -3,9 +3,9 @@
 //! correcting, voiding or showing an aliquot.
 
 use super::{open_for, open_write, read_options};
-use crate::bench::{self, SpectrumFile};
 use crate::cli::args::*;
 use crate::cli::output::{self, Progress, json, line, molar, num};
+use crate::lab::bench::{self, SpectrumFile};
 use crate::store::model;
 use anyhow::{Context, Result, anyhow, bail};
 use serde_json::json;
@@ -112,7 +112,7 @@ pub(super) fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
         }
         AliquotCmd::Void { id, why, json: j } | AliquotCmd::Reinstate { id, why, json: j } => {
             let voiding = matches!(c, AliquotCmd::Void { .. });
-            let row = crate::corrections::set_aliquot_void(&mut store, *id, voiding, why)?;
+            let row = crate::lab::corrections::set_aliquot_void(&mut store, *id, voiding, why)?;
             if *j {
                 json(&row)?;
             } else if voiding {
@@ -143,7 +143,7 @@ pub(super) fn aliquot(cli: &Cli, c: &AliquotCmd) -> Result<()> {
                 path_cm: *path_cm,
                 solvent: solvent.clone(),
             };
-            let row = crate::corrections::edit_aliquot(&mut store, *id, &e, why)?;
+            let row = crate::lab::corrections::edit_aliquot(&mut store, *id, &e, why)?;
             let s = store.read(|tx| crate::report::aliquot_summary(tx, &row))?;
             if *j {
                 json(&s)?;

@@ -449,7 +449,8 @@ mod tests {
     fn analyze_lines_serialise_with_sorted_keys() {
         let cal = calibration::Calibration::default();
         for peak in [480.0, 550.0, 610.0] {
-            let (nm, y) = crate::demo::absorbance("CdSe", peak, 0.045, 0.3, 0.001, &mut crate::demo::Rng::new(3));
+            let (nm, y) =
+                crate::lab::demo::absorbance("CdSe", peak, 0.045, 0.3, 0.001, &mut crate::lab::demo::Rng::new(3));
             let t = spectra::Trace { nm, y };
             let (r, _) = engine::derive_from_trace(&t, "CdSe", 1.0, 1.0, &cal).expect("analyses");
             let be = r.band_edge.clone().expect("a band edge");

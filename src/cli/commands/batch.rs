@@ -112,7 +112,7 @@ pub(super) fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
         }
         BatchCmd::Void { id, why, json: j } | BatchCmd::Reinstate { id, why, json: j } => {
             let voiding = matches!(c, BatchCmd::Void { .. });
-            let row = crate::corrections::set_batch_void(&mut store, *id, voiding, why)?;
+            let row = crate::lab::corrections::set_batch_void(&mut store, *id, voiding, why)?;
             if *j {
                 json(&row)?
             } else if voiding {

@@ -242,7 +242,7 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
             json: j,
         }) => {
             let mut store = open_write(&cli)?;
-            let (from, to) = crate::corrections::move_spectrum(&mut store, *spectrum, *to_aliquot, why)?;
+            let (from, to) = crate::lab::corrections::move_spectrum(&mut store, *spectrum, *to_aliquot, why)?;
             if *j {
                 json(&json!({"spectrum_id": spectrum, "from_aliquot": from, "to_aliquot": to}))?;
             } else {
@@ -259,7 +259,8 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
             json: j,
         }) => {
             let mut store = open_write(&cli)?;
-            let aliquot = crate::corrections::set_spectrum_cuvette(&mut store, *spectrum, *path_cm, *dilution, why)?;
+            let aliquot =
+                crate::lab::corrections::set_spectrum_cuvette(&mut store, *spectrum, *path_cm, *dilution, why)?;
             if *j {
                 json(&json!({"spectrum_id": spectrum, "aliquot_id": aliquot}))?;
             } else {

@@ -116,10 +116,10 @@ pub(super) fn demo(cli: &Cli, a: &DemoArgs) -> Result<ExitCode> {
         create: true,
         cmd: None,
     };
-    crate::demo::prepare_file(&path, a.force)?;
+    crate::lab::demo::prepare_file(&path, a.force)?;
     let mut store = open_create(cli)?;
     let progress = Progress::new("demo", false);
-    let n = crate::demo::build(&mut store, a.scale, |d, t| progress.tick(d, t))?;
+    let n = crate::lab::demo::build(&mut store, a.scale, |d, t| progress.tick(d, t))?;
     use std::io::IsTerminal;
     if !a.no_ui && std::io::stdout().is_terminal() && std::io::stdin().is_terminal() {
         crate::tui::run(store, tui_writer(cli.actor.as_deref()))?;

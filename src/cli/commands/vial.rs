@@ -2,9 +2,9 @@
 //! listing.
 
 use super::{open_for, open_read};
-use crate::bench;
 use crate::cli::args::*;
 use crate::cli::output::{json, line, molar, num};
+use crate::lab::bench;
 use crate::store::{Store, model};
 use anyhow::{Result, bail};
 
@@ -86,7 +86,7 @@ pub(super) fn vial(cli: &Cli, c: &VialCmd) -> Result<()> {
         }
         VialCmd::Reinstate { vial, why, json: j } => {
             let id = vial_id(&mut store, vial)?;
-            let v = crate::corrections::reinstate_vial(&mut store, id, why)?;
+            let v = crate::lab::corrections::reinstate_vial(&mut store, id, why)?;
             print_vial(&v, *j)?;
         }
         VialCmd::Measure {

@@ -14,7 +14,7 @@ use crate::store::{Store, model::meta_set};
 use serde::Deserialize;
 use std::path::Path;
 
-pub const MANIFEST: &str = include_str!("../demo-db/lab.json");
+pub const MANIFEST: &str = include_str!("../../demo-db/lab.json");
 
 #[derive(Debug, Deserialize)]
 struct Manifest {

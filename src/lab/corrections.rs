@@ -42,7 +42,7 @@ pub fn set_spectrum_cuvette(
     why: &str,
 ) -> Result<i64> {
     // The bounds a PL cuvette is held to when it is logged.
-    let c = crate::bench::OwnCuvette {
+    let c = crate::lab::bench::OwnCuvette {
         path_cm,
         dilution_factor,
     }
