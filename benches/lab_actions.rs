@@ -40,7 +40,7 @@ fn add_aliquot(c: &mut Criterion) {
     let dir = tempfile::tempdir().expect("temp folder");
     let (abs, pl) = spectrum_files(dir.path());
     let db = dir.path().join("lab.db");
-    let mut store = cuvette::store::Store::open(&db, "bench").expect("open");
+    let mut store = cuvette::lab::open(&db, "bench").expect("open");
     cuvette::lab::demo::build(&mut store, Some(300), |_, _| {}).expect("build");
     let batch = cuvette::lab::batches::log_batch(
         &mut store,
