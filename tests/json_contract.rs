@@ -224,6 +224,30 @@ fn writes_answer_with_the_contracted_keys() {
         ),
         ("recompute", ["recompute", "--json"].map(String::from).to_vec()),
         ("whoami", ["whoami", "--json"].map(String::from).to_vec()),
+        (
+            "person_add",
+            ["person", "add", "Odile Brandt", "--json"].map(String::from).to_vec(),
+        ),
+        (
+            "material_add",
+            [
+                "material", "add", "CdTe/CdS", "--core", "CdTe", "--shell", "CdS", "--json",
+            ]
+            .map(String::from)
+            .to_vec(),
+        ),
+        (
+            "reagent_add",
+            ["reagent", "add", "zinc undecylenate", "--hazard", "h410", "--json"]
+                .map(String::from)
+                .to_vec(),
+        ),
+        (
+            "location_add",
+            ["location", "add", "Glovebox G2", "--kind", "glovebox", "--json"]
+                .map(String::from)
+                .to_vec(),
+        ),
     ];
     for (name, args) in runs {
         let args: Vec<&str> = args.iter().map(String::as_str).collect();

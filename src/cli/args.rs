@@ -286,13 +286,19 @@ pub struct DemoArgs {
 #[derive(Debug, Subcommand)]
 pub enum PersonCmd {
     /// Add a person to the lab.
-    #[command(after_help = examples!("cuvette person add \"Juno Achterberg\" --email juno@harrow-lane.example"))]
+    #[command(after_help = examples!(
+        "cuvette person add \"Juno Achterberg\" --email juno@harrow-lane.example",
+        "cuvette person add \"Odile Brandt\" --json",
+    ))]
     Add {
         /// The person's full name, as batches, vials and the audit log will show it.
         name: String,
         /// An e-mail address kept with the name.
         #[arg(long)]
         email: Option<String>,
+        /// Print the new entry as JSON (as `list --json` gives it, with its id).
+        #[arg(long)]
+        json: bool,
     },
     /// List the people of the lab.
     #[command(after_help = examples!("cuvette person list", "cuvette person list --json"))]
@@ -312,6 +318,9 @@ pub enum MaterialCmd {
         /// The shell material of a core/shell crystal (ZnS for CdSe/ZnS).
         #[arg(long)]
         shell: Option<String>,
+        /// Print the new entry as JSON (as `list --json` gives it, with its id).
+        #[arg(long)]
+        json: bool,
     },
     /// List the materials and their sizing curves.
     #[command(after_help = examples!("cuvette material list", "cuvette material list --json"))]
@@ -339,6 +348,9 @@ pub enum ReagentCmd {
         /// It ignites in air.
         #[arg(long)]
         pyrophoric: bool,
+        /// Print the new entry as JSON (as `list --json` gives it, with its id).
+        #[arg(long)]
+        json: bool,
     },
     /// List the reagents and their hazard statements.
     #[command(after_help = examples!("cuvette reagent list", "cuvette reagent list --json"))]
@@ -717,6 +729,9 @@ pub enum LocationCmd {
         /// Where it is (room, shelf, rack).
         #[arg(long)]
         position: Option<String>,
+        /// Print the new entry as JSON (as `list --json` gives it, with its id).
+        #[arg(long)]
+        json: bool,
     },
     /// List the storage locations.
     #[command(after_help = examples!("cuvette location list", "cuvette location list --json"))]

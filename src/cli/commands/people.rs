@@ -11,8 +11,12 @@ use serde_json::{Value, json};
 pub(super) fn person(cli: &Cli, c: &PersonCmd) -> Result<()> {
     let mut store = open_for(cli, matches!(c, PersonCmd::Add { .. }))?;
     match c {
-        PersonCmd::Add { name, email } => {
+        PersonCmd::Add { name, email, json: j } => {
             let id = crate::lab::register::add_person(&mut store, name, email.as_deref())?;
+            if *j {
+                let people = store.read(|tx| model::list_people(tx))?;
+                return json(&people.iter().find(|p| p.id == id));
+            }
             line(&format!("person {id}: {name}"))?;
         }
         PersonCmd::List(f) => {
@@ -32,17 +36,23 @@ pub(super) fn person(cli: &Cli, c: &PersonCmd) -> Result<()> {
 pub(super) fn material(cli: &Cli, c: &MaterialCmd) -> Result<()> {
     let mut store = open_for(cli, matches!(c, MaterialCmd::Add { .. }))?;
     match c {
-        MaterialCmd::Add { name, core, shell } => {
+        MaterialCmd::Add {
+            name,
+            core,
+            shell,
+            json: j,
+        } => {
             let id = crate::lab::register::add_material(&mut store, name, core, shell.as_deref())?;
+            if *j {
+                let ms = store.read(|tx| model::list_materials(tx))?;
+                return json(&ms.iter().find(|m| m.id == id).map(material_json));
+            }
             line(&format!("material {id}: {name}"))?;
         }
         MaterialCmd::List(f) => {
             let ms = store.read(|tx| model::list_materials(tx))?;
             if f.json {
-                let v: Vec<Value> = ms
-                    .iter()
-                    .map(|m| json!({"id": m.id, "name": m.name, "core": m.core, "shell": m.shell, "curves": sizing::curves_for(&m.core)}))
-                    .collect();
+                let v: Vec<Value> = ms.iter().map(material_json).collect();
                 json(&v)?;
             } else {
                 for m in ms {
@@ -69,6 +79,7 @@ pub(super) fn reagent(cli: &Cli, c: &ReagentCmd) -> Result<()> {
             cas,
             hazards,
             pyrophoric,
+            json: j,
         } => {
             let id = crate::lab::register::add_reagent(
                 &mut store,
@@ -78,6 +89,10 @@ pub(super) fn reagent(cli: &Cli, c: &ReagentCmd) -> Result<()> {
                 hazards,
                 *pyrophoric,
             )?;
+            if *j {
+                let rs = store.read(|tx| model::list_reagents(tx))?;
+                return json(&rs.iter().find(|r| r.id == id));
+            }
             line(&format!("reagent {id}: {name}"))?;
         }
         ReagentCmd::List(f) => {
@@ -104,8 +119,17 @@ pub(super) fn reagent(cli: &Cli, c: &ReagentCmd) -> Result<()> {
 pub(super) fn location(cli: &Cli, c: &LocationCmd) -> Result<()> {
     let mut store = open_for(cli, matches!(c, LocationCmd::Add { .. }))?;
     match c {
-        LocationCmd::Add { name, kind, position } => {
+        LocationCmd::Add {
+            name,
+            kind,
+            position,
+            json: j,
+        } => {
             let id = crate::lab::register::add_location(&mut store, name, kind, position.as_deref())?;
+            if *j {
+                let ls = store.read(|tx| model::list_locations(tx))?;
+                return json(&ls.iter().find(|l| l.id == id));
+            }
             line(&format!("location {id}: {name}"))?;
         }
         LocationCmd::List(f) => {
@@ -126,4 +150,10 @@ pub(super) fn location(cli: &Cli, c: &LocationCmd) -> Result<()> {
         }
     }
     Ok(())
+}
+
+/// A material as `material list --json` and `material add --json` give it: with the sizing
+/// curves that apply to its core.
+fn material_json(m: &model::MaterialRow) -> Value {
+    json!({"id": m.id, "name": m.name, "core": m.core, "shell": m.shell, "curves": sizing::curves_for(&m.core)})
 }
