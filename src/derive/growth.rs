@@ -307,30 +307,6 @@ fn second_looks(timed: &[&AliquotSummary], reassigned: bool) -> Vec<Reassigned> 
         .collect()
 }
 
-/// The product aliquot of a batch: the one marked, else the last of the growth series, else
-/// the last logged.
-/// Void aliquots never count (the same rule as the `batch_product` view of schema 0005).
-pub fn product_of<'a>(batch: &model::BatchRow, series: &'a [AliquotSummary]) -> Option<&'a AliquotSummary> {
-    if batch.voided {
-        return None;
-    }
-    if let Some(id) = batch.product_aliquot_id
-        && let Some(a) = series.iter().find(|a| a.id == id && !a.voided)
-    {
-        return Some(a);
-    }
-    let live = || series.iter().filter(|a| !a.voided);
-    live()
-        .filter(|a| a.minutes.is_some())
-        .max_by(|a, b| {
-            a.minutes
-                .unwrap_or(0.0)
-                .total_cmp(&b.minutes.unwrap_or(0.0))
-                .then(a.id.cmp(&b.id))
-        })
-        .or_else(|| live().max_by_key(|a| a.id))
-}
-
 #[derive(Debug, Clone, Serialize)]
 pub struct Spread {
     pub n: usize,
@@ -367,16 +343,21 @@ pub fn failed(b: &model::BatchRow) -> bool {
 }
 
 /// How repeatable a recipe version is: mean and spread of its batches' product values, from
-/// each batch with its aliquots (none needed for a [`failed`] one).
-pub fn recipe_stats(recipe: String, version: i64, batches: &[(model::BatchRow, Vec<AliquotSummary>)]) -> RecipeStats {
+/// each batch with its product aliquot (chosen by the store's one product rule; none needed for
+/// a [`failed`] batch).
+pub fn recipe_stats(
+    recipe: String,
+    version: i64,
+    batches: &[(model::BatchRow, Option<AliquotSummary>)],
+) -> RecipeStats {
     let (mut d, mut s, mut p, mut q) = (vec![], vec![], vec![], vec![]);
     let mut failed_n = 0;
-    for (b, series) in batches {
+    for (b, product) in batches {
         if failed(b) {
             failed_n += 1;
             continue;
         }
-        if let Some(prod) = product_of(b, series) {
+        if let Some(prod) = product {
             d.extend(prod.diameter_nm);
             s.extend(prod.size_dispersion_pct);
             p.extend(prod.pl_peak_nm);
@@ -429,40 +410,5 @@ mod tests {
         let f = growth(&s[..3]);
         assert_eq!(f.regime, "focusing");
         assert_eq!(growth(&s[..2]).regime, "too few points");
-    }
-
-    #[test]
-    fn the_product_is_the_marked_aliquot_else_the_last_timed_one() {
-        let s = vec![
-            point(1, 1.0, 2.0, 12.0),
-            point(2, 5.0, 2.6, 8.0),
-            AliquotSummary {
-                id: 3,
-                stage: Some("washed".into()),
-                ..Default::default()
-            },
-        ];
-        let mut b = crate::store::model::BatchRow {
-            id: 1,
-            name: "b".into(),
-            material: "CdSe".into(),
-            core: "CdSe".into(),
-            recipe: None,
-            recipe_version: None,
-            recipe_version_id: None,
-            operator: None,
-            started_at: String::new(),
-            status: "done".into(),
-            parent_batch_id: None,
-            parent_relation: None,
-            pinned_calibration: None,
-            product_aliquot_id: None,
-            notes: String::new(),
-            voided: false,
-            void_why: None,
-        };
-        assert_eq!(product_of(&b, &s).map(|a| a.id), Some(2));
-        b.product_aliquot_id = Some(3);
-        assert_eq!(product_of(&b, &s).map(|a| a.id), Some(3));
     }
 }

@@ -95,14 +95,20 @@ pub fn concentration_note(v: &model::VialRow) -> &'static str {
     }
 }
 
+/// A batch's product aliquot, chosen by the store's one product rule (the `batch_product`
+/// view: the marked aliquot, else the last timed one, else the last logged; void ones never),
+/// with its values; None for a void batch or one without aliquots.
+pub fn product_summary(db: &Db, batch_id: i64) -> Result<Option<growth::AliquotSummary>> {
+    match crate::store::values::product_aliquot(db, batch_id)? {
+        Some(id) => Ok(Some(aliquot_summary(db, &model::get_aliquot(db, id)?)?)),
+        None => Ok(None),
+    }
+}
+
 /// The concentration of a batch's product aliquot (undiluted), if derived.
 pub fn product_concentration(conn: &Db, batch_id: i64) -> Result<Option<f64>> {
-    let b = model::get_batch(conn, batch_id)?;
-    let series: Vec<growth::AliquotSummary> = model::aliquots_of(conn, batch_id)?
-        .iter()
-        .map(|a| aliquot_summary(conn, a))
-        .collect::<Result<_>>()?;
-    Ok(growth::product_of(&b, &series).and_then(|p| p.concentration_molar))
+    model::get_batch(conn, batch_id)?;
+    Ok(product_summary(conn, batch_id)?.and_then(|p| p.concentration_molar))
 }
 
 pub use crate::par::parallel_map;
@@ -367,7 +373,9 @@ pub fn batch_sheet(db: &Db, id: i64) -> Result<BatchSheet> {
         .map(|a| aliquot_summary(db, a))
         .collect::<Result<_>>()?;
     let g = growth::growth(&aliquots);
-    let product = growth::product_of(&b, &aliquots).cloned();
+    // The product by the store's one rule (the `batch_product` view), taken from the series.
+    let product_id = crate::store::values::product_aliquot(db, id)?;
+    let product = aliquots.iter().find(|a| Some(a.id) == product_id).cloned();
     let vials = model::vials_of_batch(db, id)?;
     let recipe_detail = match b.recipe_version_id {
         Some(v) => Some(model::recipe_view(db, v)?),

@@ -25,15 +25,12 @@ pub fn recipe_stats(db: &Db, recipe_version_id: i64) -> Result<RecipeStats> {
         .filter(|b| b.recipe_version_id == Some(recipe_version_id))
     {
         // A failed batch's aliquots are not read: it only counts as failed.
-        let series = if growth::failed(&b) {
-            Vec::new()
+        let product = if growth::failed(&b) {
+            None
         } else {
-            model::aliquots_of(db, b.id)?
-                .iter()
-                .map(|a| aliquot_summary(db, a))
-                .collect::<Result<_>>()?
+            super::product_summary(db, b.id)?
         };
-        batches.push((b, series));
+        batches.push((b, product));
     }
     Ok(growth::recipe_stats(view.name, view.version, &batches))
 }
