@@ -444,6 +444,32 @@ pub fn first_transition(t: &Trace, hint: &BandEdgeHint, saturation_abs: f64) -> 
         return few(warnings);
     };
     let found = candidates(&g, &noise);
+    let Some((ci, first)) = choose(&g, &noise, &found, hint, saturation_abs, &mut warnings) else {
+        return Found {
+            edge: None,
+            noise: noise.typical,
+            warnings,
+        };
+    };
+    let edge = fit_chosen(&g, &noise, &found, ci, &first);
+    Found {
+        edge: Some(edge),
+        noise: noise.typical,
+        warnings,
+    }
+}
+
+/// The first exciton among the candidates (its index, and the candidate with its σ taken from
+/// the red side where that is measurable), or None when no candidate stands on evidence; the
+/// reasons go to `warnings`.
+fn choose(
+    g: &EnergyGrid,
+    noise: &LocalNoise,
+    found: &[Candidate],
+    hint: &BandEdgeHint,
+    saturation_abs: f64,
+    warnings: &mut Vec<String>,
+) -> Option<(usize, Candidate)> {
     let top = noise
         .smooth
         .iter()
@@ -545,11 +571,7 @@ pub fn first_transition(t: &Trace, hint: &BandEdgeHint, saturation_abs: f64) -> 
             HC_EV_NM / e,
             hint.bulk_gap_nm.unwrap_or(f64::NAN)
         ));
-        return Found {
-            edge: None,
-            noise: noise.typical,
-            warnings,
-        };
+        return None;
     }
     if chosen.is_none()
         && let Some(i) = fallback_outside
@@ -565,30 +587,30 @@ pub fn first_transition(t: &Trace, hint: &BandEdgeHint, saturation_abs: f64) -> 
             HC_EV_NM / e
         ));
     }
-    let Some(ci) = chosen else {
-        return Found {
-            edge: None,
-            noise: noise.typical,
-            warnings,
-        };
-    };
+    let ci = chosen?;
     let mut first = found[ci].clone();
-    if let Some(s) = red_side_sigma(&g, &noise, first.e_ev) {
+    if let Some(s) = red_side_sigma(g, noise, first.e_ev) {
         // The red side can include a scattering tail: never more than twice the derivative's.
         first.sigma_ev = s.min(2.0 * first.sigma_ev).clamp(MIN_SIGMA_EV, MAX_SIGMA_EV);
     }
+    Some((ci, first))
+}
+
+/// The band edge of the chosen first transition: the fit, else the derivative's estimate,
+/// with the plausibility of its red side checked.
+fn fit_chosen(g: &EnergyGrid, noise: &LocalNoise, found: &[Candidate], ci: usize, first: &Candidate) -> BandEdge {
     let higher: Vec<&Candidate> = found[ci + 1..]
         .iter()
         .filter(|c| c.significance >= 4.0 && c.e_ev > first.e_ev + 0.5 * first.sigma_ev)
         .collect();
-    let edge = fit_band_edge(&g, &noise, &first, &higher);
+    let edge = fit_band_edge(g, noise, first, &higher);
     let mut edge = match edge {
         Some(e) => e,
-        None => derivative_estimate(&g, &noise, &first),
+        None => derivative_estimate(g, noise, first),
     };
     // Plausibility: absorption that rises well red of the first exciton means a redder
     // feature was missed or the sample scatters strongly.
-    if let Some(onset) = onset_ev(&g, &noise, edge.centre_ev, edge.height)
+    if let Some(onset) = onset_ev(g, noise, edge.centre_ev, edge.height)
         && onset < edge.centre_ev - 4.0 * edge.hwhm_ev.max(0.03) - 0.05
     {
         edge.warnings.push(format!(
@@ -597,10 +619,63 @@ pub fn first_transition(t: &Trace, hint: &BandEdgeHint, saturation_abs: f64) -> 
             HC_EV_NM / edge.centre_ev
         ));
     }
-    Found {
-        edge: Some(edge),
-        noise: noise.typical,
-        warnings,
+    edge
+}
+
+/// The stages of [`first_transition`] one at a time, for `benches/analysis_stages.rs`: not
+/// an interface to build on.
+#[doc(hidden)]
+pub mod stages {
+    use super::*;
+
+    /// A spectrum carried up to the choice of its first transition.
+    pub struct Prepared {
+        pub grid: EnergyGrid,
+        pub noise: LocalNoise,
+        found: Vec<Candidate>,
+        chosen: Option<(usize, Candidate)>,
+    }
+
+    pub fn prepare(t: &Trace) -> Option<Prepared> {
+        let grid = energy_grid(t)?;
+        let noise = local_noise(&grid.y)?;
+        let found = super::candidates(&grid, &noise);
+        let chosen = super::choose(&grid, &noise, &found, &BandEdgeHint::default(), 2.0, &mut Vec::new());
+        Some(Prepared {
+            grid,
+            noise,
+            found,
+            chosen,
+        })
+    }
+
+    /// The local noise of the grid's points; its typical value.
+    pub fn noise(p: &Prepared) -> Option<f64> {
+        local_noise(&p.grid.y).map(|n| n.typical)
+    }
+
+    /// The candidate search at every width; how many candidates it kept.
+    pub fn candidates(p: &Prepared) -> usize {
+        super::candidates(&p.grid, &p.noise).len()
+    }
+
+    /// The choice of the first transition among the candidates (without a hint).
+    pub fn choose(p: &Prepared) -> Option<usize> {
+        super::choose(
+            &p.grid,
+            &p.noise,
+            &p.found,
+            &BandEdgeHint::default(),
+            2.0,
+            &mut Vec::new(),
+        )
+        .map(|c| c.0)
+    }
+
+    /// The band-edge fit of the chosen transition, its fallback and plausibility check.
+    pub fn fit(p: &Prepared) -> Option<BandEdge> {
+        let (ci, first) = p.chosen.as_ref()?;
+        Some(fit_chosen(&p.grid, &p.noise, &p.found, *ci, first))
     }
 }
 
