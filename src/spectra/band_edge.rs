@@ -243,6 +243,27 @@ fn local_noise(y: &[f64]) -> Option<LocalNoise> {
     })
 }
 
+/// Means of consecutive runs of `f` points (a last partial run is dropped), each summed in
+/// order from -0.0 as `Iterator::sum` does, into `out`. Four runs are summed side by side:
+/// one run's sum waits on each of its additions, four of them overlap.
+fn bin_means(y: &[f64], f: usize, out: &mut Vec<f64>) {
+    let per = 1.0 / f as f64;
+    out.clear();
+    let runs = y.chunks_exact(f);
+    out.reserve(runs.len());
+    let mut quads = y.chunks_exact(4 * f);
+    for q in &mut quads {
+        let mut s = [-0.0f64; 4];
+        for t in 0..f {
+            for (l, v) in s.iter_mut().enumerate() {
+                *v += q[l * f + t];
+            }
+        }
+        out.extend(s.iter().map(|v| v * per));
+    }
+    out.extend(quads.remainder().chunks_exact(f).map(|c| c.iter().sum::<f64>() * per));
+}
+
 /// A possible transition found in the second derivative.
 #[derive(Debug, Clone)]
 struct Candidate {
@@ -253,6 +274,9 @@ struct Candidate {
     /// The derivative's positive lobes (red side, blue side) over its minimum's depth. A lone
     /// Gaussian's are equal (about 0.45 each); a step's are one-sided (about 1 and 0).
     lobes: (f64, f64),
+    /// Where it was found: the smoothing width's index, the bin, and how far its lobes reach
+    /// in bins (the lobes are measured only for the candidates kept).
+    found_at: (usize, usize, usize),
 }
 
 /// The least significance a candidate needs to matter to any later choice: the first
@@ -264,16 +288,16 @@ const CANDIDATE_SIGNIFICANCE: f64 = 4.0;
 fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
     let mut all: Vec<Candidate> = Vec::new();
     let mut binned: Vec<f64> = Vec::new();
-    let mut d2: Vec<f64> = Vec::new();
+    // Each width's derivative is kept until the lobes of the candidates kept are measured.
+    let mut d2s: [Vec<f64>; SCALES_EV.len()] = Default::default();
     let quietest = noise.quietest();
-    for &h_ev in &SCALES_EV {
+    for (scale, &h_ev) in SCALES_EV.iter().enumerate() {
+        let d2 = &mut d2s[scale];
         let f = ((h_ev / (5.0 * g.step_ev)).floor() as usize).max(1);
         let d2_of: &[f64] = if f == 1 {
             &g.y
         } else {
-            binned.clear();
-            let per = 1.0 / f as f64;
-            binned.extend(g.y.chunks_exact(f).map(|c| c.iter().sum::<f64>() * per));
+            bin_means(&g.y, f, &mut binned);
             &binned
         };
         let step = f as f64 * g.step_ev;
@@ -283,7 +307,7 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
         if nb < 2 * half + 3 {
             continue;
         }
-        if savgol::filter_into(d2_of, half, 2, 2, step, &mut d2).is_err() {
+        if savgol::filter_into(d2_of, half, 2, 2, step, d2).is_err() {
             continue;
         }
         let Ok(gain) = savgol::noise_gain(half, 2, 2) else {
@@ -298,31 +322,20 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
         // go with one well-predicted comparison.
         let shallow = -CANDIDATE_SIGNIFICANCE * sd_gain * quietest;
         let edge = half.max(1);
-        // Each position with its two neighbours (`w[1]` is bin k): no bounds to check in the
-        // one loop that visits every bin. Runs of eight bins none of which is below `shallow`
-        // (most of them) are passed over with one vectorised comparison.
-        let skip_runs = !shallow.is_nan();
-        let end = nb - edge;
-        let mut next = edge;
-        while next < end {
-            let k = next;
-            next += 1;
-            if skip_runs && k + 8 <= end {
-                let run: &[f64; 8] = d2[k..k + 8].as_array().unwrap_or(&[f64::NEG_INFINITY; 8]);
-                if !run.iter().fold(false, |any, &v| any | (v < shallow)) {
-                    next = k + 8;
-                    continue;
-                }
-            }
+        // A bin is judged only where it is below `shallow` (or every bin, should `shallow` not
+        // be a number): whatever is not cannot be a candidate. Such bins are found eight at a
+        // time from one vectorised comparison's bit mask, so the flat stretches between
+        // features (most of the derivative) cost one comparison a bin.
+        let judge = |k: usize| -> Option<Candidate> {
             let w = [d2[k - 1], d2[k], d2[k + 1]];
-            if w[1] >= shallow || !(w[1] < 0.0 && w[1] < w[0] && w[1] <= w[2]) {
-                continue;
+            if !(w[1] < 0.0 && w[1] < w[0] && w[1] <= w[2]) {
+                return None;
             }
             let sd = sd_gain * noise.at(k * f + f / 2);
             // The prominence never exceeds the depth: most noise wiggles are let go here,
             // before their ridges are walked.
             if -d2[k] < CANDIDATE_SIGNIFICANCE * sd {
-                continue;
+                return None;
             }
             // Significance is the minimum's prominence, not its depth: a wiggle of noise inside
             // a broad feature's trough is as deep as the trough but barely below its ridges.
@@ -347,7 +360,7 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
             let prominence = ridge(-1).min(ridge(1)) - d2[k];
             let significance = if sd > 0.0 { prominence / sd } else { f64::INFINITY };
             if significance < CANDIDATE_SIGNIFICANCE {
-                continue;
+                return None;
             }
             let denom = d2[k - 1] - 2.0 * d2[k] + d2[k + 1];
             let off = if denom > 0.0 {
@@ -380,25 +393,49 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
                 (true, true) => 0.5 * (zr - zl),
                 (true, false) => kc - zl,
                 (false, true) => zr - kc,
-                (false, false) => continue,
+                (false, false) => return None,
             } * step;
             let sigma_obs = wh;
             let sigma = (wh * wh - smoothing_var).max(0.0).sqrt();
             // A minimum narrower than any excitonic band is a wiggle, a step or a spike at
             // this width; the same feature seen at a wider window is judged there.
             if !(sigma >= MIN_SIGMA_EV) {
-                continue;
+                return None;
             }
             let height = -d2[k] * sigma_obs.powi(3) / sigma;
             let reach = ((3.0 * wh / step).ceil() as usize).max(2);
-            let lobe = |range: std::ops::Range<usize>| d2[range].iter().copied().fold(0.0f64, f64::max) / -d2[k];
-            all.push(Candidate {
+            Some(Candidate {
                 e_ev: e_at(kc),
                 sigma_ev: sigma,
                 height,
                 significance,
-                lobes: (lobe(k.saturating_sub(reach)..k), lobe(k + 1..(k + reach + 1).min(nb))),
-            });
+                lobes: (f64::NAN, f64::NAN),
+                found_at: (scale, k, reach),
+            })
+        };
+        let all_bins = shallow.is_nan();
+        let end = nb - edge;
+        let mut k0 = edge;
+        while k0 < end {
+            let run = &d2[k0..(k0 + 8).min(end)];
+            let mut below = match run.as_array::<8>() {
+                _ if all_bins => (1u32 << run.len()) - 1,
+                // Most runs have no bin below: one vectorised test says so.
+                Some(run) if !run.iter().fold(false, |any, &v| any | (v < shallow)) => 0,
+                Some(run) => (0..8).fold(0u32, |m, j| m | ((run[j] < shallow) as u32) << j),
+                None => run
+                    .iter()
+                    .enumerate()
+                    .fold(0u32, |m, (j, &v)| m | ((v < shallow) as u32) << j),
+            };
+            while below != 0 {
+                let k = k0 + below.trailing_zeros() as usize;
+                below &= below - 1;
+                if let Some(c) = judge(k) {
+                    all.push(c);
+                }
+            }
+            k0 += run.len();
         }
     }
     // One feature shows at several widths: keep, for each, the width where it stands out most.
@@ -411,6 +448,15 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
         if !near {
             kept.push(c);
         }
+    }
+    for c in &mut kept {
+        let (scale, k, reach) = c.found_at;
+        let d2 = &d2s[scale];
+        let lobe = |range: std::ops::Range<usize>| d2[range].iter().copied().fold(0.0f64, f64::max) / -d2[k];
+        c.lobes = (
+            lobe(k.saturating_sub(reach)..k),
+            lobe(k + 1..(k + reach + 1).min(d2.len())),
+        );
     }
     kept.sort_by(|a, b| a.e_ev.total_cmp(&b.e_ev));
     kept
