@@ -243,6 +243,27 @@ fn local_noise(y: &[f64]) -> Option<LocalNoise> {
     })
 }
 
+/// Means of consecutive runs of `f` points (a last partial run is dropped), each summed in
+/// order from -0.0 as `Iterator::sum` does, into `out`. Four runs are summed side by side:
+/// one run's sum waits on each of its additions, four of them overlap.
+fn bin_means(y: &[f64], f: usize, out: &mut Vec<f64>) {
+    let per = 1.0 / f as f64;
+    out.clear();
+    let runs = y.chunks_exact(f);
+    out.reserve(runs.len());
+    let mut quads = y.chunks_exact(4 * f);
+    for q in &mut quads {
+        let mut s = [-0.0f64; 4];
+        for t in 0..f {
+            for (l, v) in s.iter_mut().enumerate() {
+                *v += q[l * f + t];
+            }
+        }
+        out.extend(s.iter().map(|v| v * per));
+    }
+    out.extend(quads.remainder().chunks_exact(f).map(|c| c.iter().sum::<f64>() * per));
+}
+
 /// A possible transition found in the second derivative.
 #[derive(Debug, Clone)]
 struct Candidate {
@@ -253,6 +274,9 @@ struct Candidate {
     /// The derivative's positive lobes (red side, blue side) over its minimum's depth. A lone
     /// Gaussian's are equal (about 0.45 each); a step's are one-sided (about 1 and 0).
     lobes: (f64, f64),
+    /// Where it was found: the smoothing width's index, the bin, and how far its lobes reach
+    /// in bins (the lobes are measured only for the candidates kept).
+    found_at: (usize, usize, usize),
 }
 
 /// The least significance a candidate needs to matter to any later choice: the first
@@ -264,16 +288,16 @@ const CANDIDATE_SIGNIFICANCE: f64 = 4.0;
 fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
     let mut all: Vec<Candidate> = Vec::new();
     let mut binned: Vec<f64> = Vec::new();
-    let mut d2: Vec<f64> = Vec::new();
+    // Each width's derivative is kept until the lobes of the candidates kept are measured.
+    let mut d2s: [Vec<f64>; SCALES_EV.len()] = Default::default();
     let quietest = noise.quietest();
-    for &h_ev in &SCALES_EV {
+    for (scale, &h_ev) in SCALES_EV.iter().enumerate() {
+        let d2 = &mut d2s[scale];
         let f = ((h_ev / (5.0 * g.step_ev)).floor() as usize).max(1);
         let d2_of: &[f64] = if f == 1 {
             &g.y
         } else {
-            binned.clear();
-            let per = 1.0 / f as f64;
-            binned.extend(g.y.chunks_exact(f).map(|c| c.iter().sum::<f64>() * per));
+            bin_means(&g.y, f, &mut binned);
             &binned
         };
         let step = f as f64 * g.step_ev;
@@ -283,7 +307,7 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
         if nb < 2 * half + 3 {
             continue;
         }
-        if savgol::filter_into(d2_of, half, 2, 2, step, &mut d2).is_err() {
+        if savgol::filter_into(d2_of, half, 2, 2, step, d2).is_err() {
             continue;
         }
         let Ok(gain) = savgol::noise_gain(half, 2, 2) else {
@@ -298,31 +322,20 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
         // go with one well-predicted comparison.
         let shallow = -CANDIDATE_SIGNIFICANCE * sd_gain * quietest;
         let edge = half.max(1);
-        // Each position with its two neighbours (`w[1]` is bin k): no bounds to check in the
-        // one loop that visits every bin. Runs of eight bins none of which is below `shallow`
-        // (most of them) are passed over with one vectorised comparison.
-        let skip_runs = !shallow.is_nan();
-        let end = nb - edge;
-        let mut next = edge;
-        while next < end {
-            let k = next;
-            next += 1;
-            if skip_runs && k + 8 <= end {
-                let run: &[f64; 8] = d2[k..k + 8].as_array().unwrap_or(&[f64::NEG_INFINITY; 8]);
-                if !run.iter().fold(false, |any, &v| any | (v < shallow)) {
-                    next = k + 8;
-                    continue;
-                }
-            }
+        // A bin is judged only where it is below `shallow` (or every bin, should `shallow` not
+        // be a number): whatever is not cannot be a candidate. Such bins are found eight at a
+        // time from one vectorised comparison's bit mask, so the flat stretches between
+        // features (most of the derivative) cost one comparison a bin.
+        let judge = |k: usize| -> Option<Candidate> {
             let w = [d2[k - 1], d2[k], d2[k + 1]];
-            if w[1] >= shallow || !(w[1] < 0.0 && w[1] < w[0] && w[1] <= w[2]) {
-                continue;
+            if !(w[1] < 0.0 && w[1] < w[0] && w[1] <= w[2]) {
+                return None;
             }
             let sd = sd_gain * noise.at(k * f + f / 2);
             // The prominence never exceeds the depth: most noise wiggles are let go here,
             // before their ridges are walked.
             if -d2[k] < CANDIDATE_SIGNIFICANCE * sd {
-                continue;
+                return None;
             }
             // Significance is the minimum's prominence, not its depth: a wiggle of noise inside
             // a broad feature's trough is as deep as the trough but barely below its ridges.
@@ -347,7 +360,7 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
             let prominence = ridge(-1).min(ridge(1)) - d2[k];
             let significance = if sd > 0.0 { prominence / sd } else { f64::INFINITY };
             if significance < CANDIDATE_SIGNIFICANCE {
-                continue;
+                return None;
             }
             let denom = d2[k - 1] - 2.0 * d2[k] + d2[k + 1];
             let off = if denom > 0.0 {
@@ -380,25 +393,49 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
                 (true, true) => 0.5 * (zr - zl),
                 (true, false) => kc - zl,
                 (false, true) => zr - kc,
-                (false, false) => continue,
+                (false, false) => return None,
             } * step;
             let sigma_obs = wh;
             let sigma = (wh * wh - smoothing_var).max(0.0).sqrt();
             // A minimum narrower than any excitonic band is a wiggle, a step or a spike at
             // this width; the same feature seen at a wider window is judged there.
             if !(sigma >= MIN_SIGMA_EV) {
-                continue;
+                return None;
             }
             let height = -d2[k] * sigma_obs.powi(3) / sigma;
             let reach = ((3.0 * wh / step).ceil() as usize).max(2);
-            let lobe = |range: std::ops::Range<usize>| d2[range].iter().copied().fold(0.0f64, f64::max) / -d2[k];
-            all.push(Candidate {
+            Some(Candidate {
                 e_ev: e_at(kc),
                 sigma_ev: sigma,
                 height,
                 significance,
-                lobes: (lobe(k.saturating_sub(reach)..k), lobe(k + 1..(k + reach + 1).min(nb))),
-            });
+                lobes: (f64::NAN, f64::NAN),
+                found_at: (scale, k, reach),
+            })
+        };
+        let all_bins = shallow.is_nan();
+        let end = nb - edge;
+        let mut k0 = edge;
+        while k0 < end {
+            let run = &d2[k0..(k0 + 8).min(end)];
+            let mut below = match run.as_array::<8>() {
+                _ if all_bins => (1u32 << run.len()) - 1,
+                // Most runs have no bin below: one vectorised test says so.
+                Some(run) if !run.iter().fold(false, |any, &v| any | (v < shallow)) => 0,
+                Some(run) => (0..8).fold(0u32, |m, j| m | ((run[j] < shallow) as u32) << j),
+                None => run
+                    .iter()
+                    .enumerate()
+                    .fold(0u32, |m, (j, &v)| m | ((v < shallow) as u32) << j),
+            };
+            while below != 0 {
+                let k = k0 + below.trailing_zeros() as usize;
+                below &= below - 1;
+                if let Some(c) = judge(k) {
+                    all.push(c);
+                }
+            }
+            k0 += run.len();
         }
     }
     // One feature shows at several widths: keep, for each, the width where it stands out most.
@@ -411,6 +448,15 @@ fn candidates(g: &EnergyGrid, noise: &LocalNoise) -> Vec<Candidate> {
         if !near {
             kept.push(c);
         }
+    }
+    for c in &mut kept {
+        let (scale, k, reach) = c.found_at;
+        let d2 = &d2s[scale];
+        let lobe = |range: std::ops::Range<usize>| d2[range].iter().copied().fold(0.0f64, f64::max) / -d2[k];
+        c.lobes = (
+            lobe(k.saturating_sub(reach)..k),
+            lobe(k + 1..(k + reach + 1).min(d2.len())),
+        );
     }
     kept.sort_by(|a, b| a.e_ev.total_cmp(&b.e_ev));
     kept
@@ -444,6 +490,32 @@ pub fn first_transition(t: &Trace, hint: &BandEdgeHint, saturation_abs: f64) -> 
         return few(warnings);
     };
     let found = candidates(&g, &noise);
+    let Some((ci, first)) = choose(&g, &noise, &found, hint, saturation_abs, &mut warnings) else {
+        return Found {
+            edge: None,
+            noise: noise.typical,
+            warnings,
+        };
+    };
+    let edge = fit_chosen(&g, &noise, &found, ci, &first);
+    Found {
+        edge: Some(edge),
+        noise: noise.typical,
+        warnings,
+    }
+}
+
+/// The first exciton among the candidates (its index, and the candidate with its σ taken from
+/// the red side where that is measurable), or None when no candidate stands on evidence; the
+/// reasons go to `warnings`.
+fn choose(
+    g: &EnergyGrid,
+    noise: &LocalNoise,
+    found: &[Candidate],
+    hint: &BandEdgeHint,
+    saturation_abs: f64,
+    warnings: &mut Vec<String>,
+) -> Option<(usize, Candidate)> {
     let top = noise
         .smooth
         .iter()
@@ -545,11 +617,7 @@ pub fn first_transition(t: &Trace, hint: &BandEdgeHint, saturation_abs: f64) -> 
             HC_EV_NM / e,
             hint.bulk_gap_nm.unwrap_or(f64::NAN)
         ));
-        return Found {
-            edge: None,
-            noise: noise.typical,
-            warnings,
-        };
+        return None;
     }
     if chosen.is_none()
         && let Some(i) = fallback_outside
@@ -565,30 +633,30 @@ pub fn first_transition(t: &Trace, hint: &BandEdgeHint, saturation_abs: f64) -> 
             HC_EV_NM / e
         ));
     }
-    let Some(ci) = chosen else {
-        return Found {
-            edge: None,
-            noise: noise.typical,
-            warnings,
-        };
-    };
+    let ci = chosen?;
     let mut first = found[ci].clone();
-    if let Some(s) = red_side_sigma(&g, &noise, first.e_ev) {
+    if let Some(s) = red_side_sigma(g, noise, first.e_ev) {
         // The red side can include a scattering tail: never more than twice the derivative's.
         first.sigma_ev = s.min(2.0 * first.sigma_ev).clamp(MIN_SIGMA_EV, MAX_SIGMA_EV);
     }
+    Some((ci, first))
+}
+
+/// The band edge of the chosen first transition: the fit, else the derivative's estimate,
+/// with the plausibility of its red side checked.
+fn fit_chosen(g: &EnergyGrid, noise: &LocalNoise, found: &[Candidate], ci: usize, first: &Candidate) -> BandEdge {
     let higher: Vec<&Candidate> = found[ci + 1..]
         .iter()
         .filter(|c| c.significance >= 4.0 && c.e_ev > first.e_ev + 0.5 * first.sigma_ev)
         .collect();
-    let edge = fit_band_edge(&g, &noise, &first, &higher);
+    let edge = fit_band_edge(g, noise, first, &higher);
     let mut edge = match edge {
         Some(e) => e,
-        None => derivative_estimate(&g, &noise, &first),
+        None => derivative_estimate(g, noise, first),
     };
     // Plausibility: absorption that rises well red of the first exciton means a redder
     // feature was missed or the sample scatters strongly.
-    if let Some(onset) = onset_ev(&g, &noise, edge.centre_ev, edge.height)
+    if let Some(onset) = onset_ev(g, noise, edge.centre_ev, edge.height)
         && onset < edge.centre_ev - 4.0 * edge.hwhm_ev.max(0.03) - 0.05
     {
         edge.warnings.push(format!(
@@ -597,10 +665,63 @@ pub fn first_transition(t: &Trace, hint: &BandEdgeHint, saturation_abs: f64) -> 
             HC_EV_NM / edge.centre_ev
         ));
     }
-    Found {
-        edge: Some(edge),
-        noise: noise.typical,
-        warnings,
+    edge
+}
+
+/// The stages of [`first_transition`] one at a time, for `benches/analysis_stages.rs`: not
+/// an interface to build on.
+#[doc(hidden)]
+pub mod stages {
+    use super::*;
+
+    /// A spectrum carried up to the choice of its first transition.
+    pub struct Prepared {
+        pub grid: EnergyGrid,
+        pub noise: LocalNoise,
+        found: Vec<Candidate>,
+        chosen: Option<(usize, Candidate)>,
+    }
+
+    pub fn prepare(t: &Trace) -> Option<Prepared> {
+        let grid = energy_grid(t)?;
+        let noise = local_noise(&grid.y)?;
+        let found = super::candidates(&grid, &noise);
+        let chosen = super::choose(&grid, &noise, &found, &BandEdgeHint::default(), 2.0, &mut Vec::new());
+        Some(Prepared {
+            grid,
+            noise,
+            found,
+            chosen,
+        })
+    }
+
+    /// The local noise of the grid's points; its typical value.
+    pub fn noise(p: &Prepared) -> Option<f64> {
+        local_noise(&p.grid.y).map(|n| n.typical)
+    }
+
+    /// The candidate search at every width; how many candidates it kept.
+    pub fn candidates(p: &Prepared) -> usize {
+        super::candidates(&p.grid, &p.noise).len()
+    }
+
+    /// The choice of the first transition among the candidates (without a hint).
+    pub fn choose(p: &Prepared) -> Option<usize> {
+        super::choose(
+            &p.grid,
+            &p.noise,
+            &p.found,
+            &BandEdgeHint::default(),
+            2.0,
+            &mut Vec::new(),
+        )
+        .map(|c| c.0)
+    }
+
+    /// The band-edge fit of the chosen transition, its fallback and plausibility check.
+    pub fn fit(p: &Prepared) -> Option<BandEdge> {
+        let (ci, first) = p.chosen.as_ref()?;
+        Some(fit_chosen(&p.grid, &p.noise, &p.found, *ci, first))
     }
 }
 
@@ -692,6 +813,22 @@ fn model(p: &[f64], e_ref: f64, e: f64) -> f64 {
 /// when it is not positive definite. The normal matrices of the fit are, and this costs half
 /// a pivoted elimination.
 fn cholesky_in_place(a: &mut [f64], n: usize) -> bool {
+    // The fit's normal matrix is always 8 x 8 (a line and two Gaussians) and its linear start
+    // 4 x 4: with the size known the compiler drops the index checks and unrolls, and the
+    // operations stay the same ones in the same order.
+    match n {
+        8 => cholesky_fixed::<8>(a),
+        4 => cholesky_fixed::<4>(a),
+        _ => cholesky_any(a, n),
+    }
+}
+
+fn cholesky_fixed<const N: usize>(a: &mut [f64]) -> bool {
+    cholesky_any(&mut a[..N * N], N)
+}
+
+#[inline(always)]
+fn cholesky_any(a: &mut [f64], n: usize) -> bool {
     for j in 0..n {
         let mut d = a[j * n + j];
         for k in 0..j {
@@ -715,6 +852,19 @@ fn cholesky_in_place(a: &mut [f64], n: usize) -> bool {
 
 /// Solves L Lᵀ x = b in place with the factor from [`cholesky_in_place`].
 fn cholesky_solve(l: &[f64], b: &mut [f64], n: usize) -> bool {
+    match n {
+        8 => cholesky_solve_fixed::<8>(l, b),
+        4 => cholesky_solve_fixed::<4>(l, b),
+        _ => cholesky_solve_any(l, b, n),
+    }
+}
+
+fn cholesky_solve_fixed<const N: usize>(l: &[f64], b: &mut [f64]) -> bool {
+    cholesky_solve_any(&l[..N * N], &mut b[..N], N)
+}
+
+#[inline(always)]
+fn cholesky_solve_any(l: &[f64], b: &mut [f64], n: usize) -> bool {
     for i in 0..n {
         let mut v = b[i];
         for k in 0..i {
@@ -740,9 +890,26 @@ struct Window<'a> {
     y: &'a [f64],
     w: &'a [f64],
     e_ref: f64,
+    /// `e(i)` at every point, and `e(i) - e_ref` (the background's x), computed once for the
+    /// fit instead of at every point of every step.
+    e: Vec<f64>,
+    x: Vec<f64>,
 }
 
-impl Window<'_> {
+impl<'a> Window<'a> {
+    fn new(e0_ev: f64, step_ev: f64, y: &'a [f64], w: &'a [f64], e_ref: f64) -> Window<'a> {
+        let e: Vec<f64> = (0..y.len()).map(|i| e0_ev + i as f64 * step_ev).collect();
+        let x = e.iter().map(|e| e - e_ref).collect();
+        Window {
+            e0_ev,
+            step_ev,
+            y,
+            w,
+            e_ref,
+            e,
+            x,
+        }
+    }
     fn len(&self) -> usize {
         self.y.len()
     }
@@ -818,62 +985,170 @@ fn jacobian_products(win: &Window, p: &[f64], jtj: &mut [f64], jtr: &mut [f64], 
     #[cfg(target_arch = "x86_64")]
     {
         if std::is_x86_feature_detected!("avx") {
-            // SAFETY: `jacobian_products_avx` only differs from `jacobian_products_lanes` by
-            // being compiled for AVX; the CPU was checked just above to have it, which is all
-            // the `target_feature` attribute requires of its caller.
+            // SAFETY: `jacobian_products_avx` only needs AVX, which the CPU was checked just
+            // above to have; that is all its `target_feature` attribute requires of its caller.
             unsafe { jacobian_products_avx(win, p, jtj, jtr, sc) };
             return;
         }
     }
-    jacobian_products_lanes(win, p, jtj, jtr, sc);
+    jacobian_products_with(win, p, jtj, jtr, sc, |x, ys, out| {
+        for (o, y) in out.iter_mut().zip(ys) {
+            *o = dot(x, y);
+        }
+    });
 }
 
+/// The same with the columns built and the products run in AVX registers: the same
+/// operations in the same order (no fused multiply-add is enabled), so the same bits.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx")]
 fn jacobian_products_avx(win: &Window, p: &[f64], jtj: &mut [f64], jtr: &mut [f64], sc: &mut Scratch) {
-    jacobian_products_lanes(win, p, jtj, jtr, sc);
+    jacobian_products_with(win, p, jtj, jtr, sc, |x, ys, out| lanes::products(x, ys, out));
 }
 
-/// The same operations in the same order with or without AVX (no fused multiply-add is
-/// enabled), so both give the same bits.
 #[inline(always)]
-fn jacobian_products_lanes(win: &Window, p: &[f64], jtj: &mut [f64], jtr: &mut [f64], sc: &mut Scratch) {
+fn jacobian_products_with(
+    win: &Window,
+    p: &[f64],
+    jtj: &mut [f64],
+    jtr: &mut [f64],
+    sc: &mut Scratch,
+    products: impl Fn(&[f64], &[&[f64]], &mut [f64]),
+) {
+    jacobian_columns(win, p, sc);
     let np = p.len();
     let m = win.len();
-    sc.jac.resize(np * m, 0.0);
-    sc.weighted.resize(m, 0.0);
-    let (jac, res, cols, weighted) = (&mut sc.jac, &sc.res, &sc.cols, &mut sc.weighted);
-    {
-        let (c0, rest) = jac.split_at_mut(m);
-        let (c1, rest) = rest.split_at_mut(m);
-        for i in 0..m {
-            c0[i] = 1.0;
-            c1[i] = win.e(i) - win.e_ref;
-        }
-        for (k, q) in p[G..].chunks_exact(3).enumerate() {
-            let g = &cols[k * m..(k + 1) * m];
-            let (ca, rest2) = rest[3 * k * m..].split_at_mut(m);
-            let (cc, cs) = rest2.split_at_mut(m);
-            let inv = 1.0 / q[2];
-            for i in 0..m {
-                let z = (win.e(i) - q[1]) * inv;
-                let ag = q[0] * g[i];
-                ca[i] = g[i];
-                cc[i] = ag * z * inv;
-                cs[i] = ag * z * z * inv;
-            }
-        }
-    }
+    let (jac, res, weighted) = (&sc.jac[..], &sc.res[..], &mut sc.weighted);
+    // Row a of the products takes the residual and columns a..np against weighted column a.
+    // The fit has 8 parameters; room for 15 keeps the rows off the heap.
+    const ROOM: usize = 16;
+    let mut row: [&[f64]; ROOM] = [&[]; ROOM];
+    let mut out = [0.0f64; ROOM];
     for a in 0..np {
         let ja = &jac[a * m..(a + 1) * m];
         for ((o, x), w) in weighted.iter_mut().zip(ja).zip(win.w) {
             *o = x * w;
         }
-        jtr[a] = dot(weighted, res);
-        for b in a..np {
-            let v = dot(weighted, &jac[b * m..(b + 1) * m]);
-            jtj[a * np + b] = v;
-            jtj[b * np + a] = v;
+        let count = np - a + 1;
+        if count > ROOM {
+            jtr[a] = dot(weighted, res);
+            for b in a..np {
+                let v = dot(weighted, &jac[b * m..(b + 1) * m]);
+                jtj[a * np + b] = v;
+                jtj[b * np + a] = v;
+            }
+            continue;
+        }
+        row[0] = res;
+        for (slot, col) in row[1..count].iter_mut().zip(jac[a * m..].chunks_exact(m)) {
+            *slot = col;
+        }
+        let out = &mut out[..count];
+        products(weighted, &row[..count], out);
+        jtr[a] = out[0];
+        for (j, v) in out[1..].iter().enumerate() {
+            let b = a + j;
+            jtj[a * np + b] = *v;
+            jtj[b * np + a] = *v;
+        }
+    }
+}
+
+/// The Jacobian at p, one contiguous column of `len()` values per parameter, into `sc.jac`.
+#[inline(always)]
+fn jacobian_columns(win: &Window, p: &[f64], sc: &mut Scratch) {
+    let np = p.len();
+    let m = win.len();
+    sc.jac.resize(np * m, 0.0);
+    sc.weighted.resize(m, 0.0);
+    let (jac, cols) = (&mut sc.jac, &sc.cols);
+    let (c0, rest) = jac.split_at_mut(m);
+    let (c1, rest) = rest.split_at_mut(m);
+    c0.fill(1.0);
+    c1.copy_from_slice(&win.x);
+    for (k, q) in p[G..].chunks_exact(3).enumerate() {
+        let g = &cols[k * m..(k + 1) * m];
+        let (ca, rest2) = rest[3 * k * m..].split_at_mut(m);
+        let (cc, cs) = rest2.split_at_mut(m);
+        let inv = 1.0 / q[2];
+        ca.copy_from_slice(g);
+        let (cc, cs, e) = (&mut cc[..m], &mut cs[..m], &win.e[..m]);
+        for i in 0..m {
+            let z = (e[i] - q[1]) * inv;
+            let ag = q[0] * g[i];
+            cc[i] = ag * z * inv;
+            cs[i] = ag * z * z * inv;
+        }
+    }
+}
+
+/// The fit's dot products in AVX registers: lane j of a register is running sum j of [`dot`].
+#[cfg(target_arch = "x86_64")]
+mod lanes {
+    use std::arch::x86_64::*;
+
+    #[inline]
+    #[target_feature(enable = "avx")]
+    fn load(x: &[f64; 4]) -> __m256d {
+        _mm256_set_pd(x[3], x[2], x[1], x[0])
+    }
+
+    /// (s₀ + s₁) + (s₂ + s₃) + tail, as [`super::dot`] ends.
+    #[inline]
+    #[target_feature(enable = "avx")]
+    fn finish(s: __m256d, tail: f64) -> f64 {
+        let lo = _mm256_castpd256_pd128(s);
+        let hi = _mm256_extractf128_pd::<1>(s);
+        let s01 = _mm_cvtsd_f64(lo) + _mm_cvtsd_f64(_mm_unpackhi_pd(lo, lo));
+        let s23 = _mm_cvtsd_f64(hi) + _mm_cvtsd_f64(_mm_unpackhi_pd(hi, hi));
+        (s01 + s23) + tail
+    }
+
+    #[inline]
+    #[target_feature(enable = "avx")]
+    fn tail(x: &[f64], y: &[f64]) -> f64 {
+        x.iter().zip(y).map(|(x, z)| x * z).sum()
+    }
+
+    /// `out[t] = dot(x, ys[t])`, four targets at a time; every target at least as long as x.
+    #[target_feature(enable = "avx")]
+    pub(super) fn products(x: &[f64], ys: &[&[f64]], out: &mut [f64]) {
+        let m = x.len();
+        let (cx, tx) = x.as_chunks::<4>();
+        let nc = cx.len();
+        let mut t = 0;
+        while t + 4 <= ys.len() {
+            let (y0, y1, y2, y3) = (&ys[t][..m], &ys[t + 1][..m], &ys[t + 2][..m], &ys[t + 3][..m]);
+            let (c0, c1, c2, c3) = (
+                &y0.as_chunks::<4>().0[..nc],
+                &y1.as_chunks::<4>().0[..nc],
+                &y2.as_chunks::<4>().0[..nc],
+                &y3.as_chunks::<4>().0[..nc],
+            );
+            let mut s = [_mm256_setzero_pd(); 4];
+            for i in 0..nc {
+                let xv = load(&cx[i]);
+                s[0] = _mm256_add_pd(s[0], _mm256_mul_pd(xv, load(&c0[i])));
+                s[1] = _mm256_add_pd(s[1], _mm256_mul_pd(xv, load(&c1[i])));
+                s[2] = _mm256_add_pd(s[2], _mm256_mul_pd(xv, load(&c2[i])));
+                s[3] = _mm256_add_pd(s[3], _mm256_mul_pd(xv, load(&c3[i])));
+            }
+            out[t] = finish(s[0], tail(tx, &y0[4 * nc..]));
+            out[t + 1] = finish(s[1], tail(tx, &y1[4 * nc..]));
+            out[t + 2] = finish(s[2], tail(tx, &y2[4 * nc..]));
+            out[t + 3] = finish(s[3], tail(tx, &y3[4 * nc..]));
+            t += 4;
+        }
+        // The last few one at a time: they overlap with the next row's work anyway.
+        while t < ys.len() {
+            let y = &ys[t][..m];
+            let c = &y.as_chunks::<4>().0[..nc];
+            let mut s = _mm256_setzero_pd();
+            for i in 0..nc {
+                s = _mm256_add_pd(s, _mm256_mul_pd(load(&cx[i]), load(&c[i])));
+            }
+            out[t] = finish(s, tail(tx, &y[4 * nc..]));
+            t += 1;
         }
     }
 }
@@ -900,14 +1175,21 @@ fn residuals(win: &Window, p: &[f64], sc: &mut Scratch) -> f64 {
     let m = win.len();
     win.columns(p, &mut sc.cols);
     sc.res.resize(m, 0.0);
-    for (i, r) in sc.res.iter_mut().enumerate() {
-        let mut v = p[0] + p[1] * (win.e(i) - win.e_ref);
-        for k in 0..(p.len() - G) / 3 {
-            v += p[G + 3 * k] * sc.cols[k * m + i];
-        }
-        *r = v - win.y[i];
+    // Column by column, each point's sum still in the order background, first Gaussian, next.
+    let res = &mut sc.res[..m];
+    for (r, x) in res.iter_mut().zip(&win.x) {
+        *r = p[0] + p[1] * x;
     }
-    sc.res.iter().zip(win.w).map(|(r, w)| w * r * r).sum()
+    for (k, col) in sc.cols.chunks_exact(m).enumerate() {
+        let a = p[G + 3 * k];
+        for (r, g) in res.iter_mut().zip(col) {
+            *r += a * g;
+        }
+    }
+    for (r, y) in res.iter_mut().zip(win.y) {
+        *r -= y;
+    }
+    res.iter().zip(win.w).map(|(r, w)| w * r * r).sum()
 }
 
 /// Keeps parameters physical: positive heights, widths in the excitonic range, the first
@@ -1070,13 +1352,13 @@ fn fit_band_edge(g: &EnergyGrid, noise: &LocalNoise, first: &Candidate, higher: 
         i += f;
     }
     let m = y.len();
-    let win = Window {
-        e0_ev: g.e(i0 as f64 + 0.5 * (f - 1) as f64),
-        step_ev: f as f64 * g.step_ev,
-        y: &y,
-        w: &w,
-        e_ref: first.e_ev,
-    };
+    let win = Window::new(
+        g.e(i0 as f64 + 0.5 * (f - 1) as f64),
+        f as f64 * g.step_ev,
+        &y,
+        &w,
+        first.e_ev,
+    );
     let mut sc = Scratch {
         cols: Vec::with_capacity(2 * m),
         jac: Vec::with_capacity((G + 6) * m),
@@ -1281,6 +1563,35 @@ mod tests {
                     (v - want).abs() <= 1e-12 * want.max(1e-300) + 1e-300,
                     "c {c} σ {sigma} at {e}: {v} vs {want}"
                 );
+            }
+        }
+    }
+
+    /// The fit's products side by side in AVX registers must be the one-at-a-time dot
+    /// products bit for bit (known truth: `dot`), so the fit gives the numbers it gave before
+    /// it was made faster.
+    #[test]
+    fn side_by_side_products_equal_one_at_a_time() {
+        let mut state: u64 = 0x9E37_79B9_7F4A_7C15;
+        let mut next = || {
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5
+        };
+        for m in [0usize, 1, 3, 4, 5, 7, 8, 39, 45, 61] {
+            let x: Vec<f64> = (0..m).map(|_| next() * 1e3).collect();
+            for targets in 1..=9 {
+                let ys: Vec<Vec<f64>> = (0..targets).map(|_| (0..m).map(|_| next()).collect()).collect();
+                let refs: Vec<&[f64]> = ys.iter().map(|y| &y[..]).collect();
+                let want: Vec<u64> = refs.iter().map(|y| dot(&x, y).to_bits()).collect();
+                let mut got = vec![0.0; targets];
+                #[cfg(target_arch = "x86_64")]
+                if std::is_x86_feature_detected!("avx") {
+                    // SAFETY: the CPU has AVX, checked just above.
+                    unsafe { lanes::products(&x, &refs, &mut got) };
+                    assert_eq!(got.iter().map(|v| v.to_bits()).collect::<Vec<_>>(), want, "m {m}");
+                }
             }
         }
     }
