@@ -7,7 +7,6 @@ use crate::cli::output::{self, json_line, line, molar, num};
 use crate::derive::{calibration, engine, sizing};
 use crate::spectra::{self, analysis};
 use anyhow::{Context, Result, bail};
-use serde_json::{Value, json};
 use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -42,18 +41,15 @@ fn expand(paths: &[PathBuf]) -> Result<Vec<PathBuf>> {
 }
 
 /// One result line of `analyze`: a spectrum's analysis or the refusal of a file. Its JSON lists
-/// keys in alphabetical order at every depth, as it always has (it was once built as a
-/// `serde_json::Value`, whose maps are sorted), so scripts and tests see the same text.
+/// the keys of the line (and of an absorbance line's band edge) in alphabetical order, as it
+/// always has (it was once built as a `serde_json::Value`, whose maps are sorted), so scripts
+/// and tests see the same text.
 #[derive(Debug, serde::Serialize)]
 #[serde(untagged)]
 pub enum AnalyzeLine {
     Abs(Box<AbsLine>),
-    /// A PL result, as a JSON object.
-    Pl(Value),
-    Refused {
-        error: String,
-        file: String,
-    },
+    Pl(Box<PlLine>),
+    Refused { error: String, file: String },
 }
 
 impl AnalyzeLine {
@@ -88,6 +84,26 @@ pub struct AbsLine {
     #[serde(skip_serializing_if = "Option::is_none")]
     label: Option<Option<String>>,
     shoulder: bool,
+    warnings: Vec<String>,
+}
+
+/// A PL result; fields in alphabetical order (see [`AnalyzeLine`]); the bands, narrow lines and
+/// gaps as [`spectra::pl`] lists them. `label` only for a file with several spectra.
+#[derive(Debug, serde::Serialize)]
+pub struct PlLine {
+    bands: Vec<spectra::pl::PlBand>,
+    baseline_model: String,
+    file: String,
+    grid_gaps: Vec<spectra::pl::GridGap>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    label: Option<Option<String>>,
+    narrow_lines: Vec<spectra::pl::NarrowLine>,
+    pl_fwhm_mev: Option<f64>,
+    pl_fwhm_nm: Option<f64>,
+    pl_integral: f64,
+    pl_integral_band_edge: Option<f64>,
+    pl_integral_energy: f64,
+    pl_peak_nm: Option<f64>,
     warnings: Vec<String>,
 }
 
@@ -202,7 +218,7 @@ pub fn analyze_file(path: &Path, a: &AnalyzeArgs, cal: &calibration::Calibration
             if several {
                 match &mut line {
                     AnalyzeLine::Abs(l) => l.label = Some(raw.label),
-                    AnalyzeLine::Pl(v) => v["label"] = json!(raw.label),
+                    AnalyzeLine::Pl(l) => l.label = Some(raw.label),
                     AnalyzeLine::Refused { .. } => {}
                 }
             }
@@ -250,19 +266,20 @@ fn analyze_one(file: &str, raw: &spectra::RawSpectrum, a: &AnalyzeArgs, cal: &ca
             }
             Kind::Pl => {
                 let r = analysis::analyze_pl(&t, &cal.analysis)?;
-                Ok(AnalyzeLine::Pl(json!({
-                    "file": file,
-                    "pl_peak_nm": r.pl_peak_nm,
-                    "pl_fwhm_nm": r.pl_fwhm_nm,
-                    "pl_fwhm_mev": r.pl_fwhm_mev,
-                    "pl_integral": r.pl_integral,
-                    "pl_integral_energy": r.pl_integral_energy,
-                    "pl_integral_band_edge": r.pl_integral_band_edge,
-                    "baseline_model": r.baseline_model,
-                    "bands": r.bands,
-                    "narrow_lines": r.narrow_lines,
-                    "grid_gaps": r.grid_gaps,
-                    "warnings": r.warnings,
+                Ok(AnalyzeLine::Pl(Box::new(PlLine {
+                    file: file.to_string(),
+                    pl_peak_nm: r.pl_peak_nm,
+                    pl_fwhm_nm: r.pl_fwhm_nm,
+                    pl_fwhm_mev: r.pl_fwhm_mev,
+                    pl_integral: r.pl_integral,
+                    pl_integral_energy: r.pl_integral_energy,
+                    pl_integral_band_edge: r.pl_integral_band_edge,
+                    baseline_model: r.baseline_model,
+                    bands: r.bands,
+                    narrow_lines: r.narrow_lines,
+                    grid_gaps: r.grid_gaps,
+                    warnings: r.warnings,
+                    label: None,
                 })))
             }
         }
@@ -351,8 +368,7 @@ pub(super) fn analyze(a: &AnalyzeArgs) -> Result<ExitCode> {
                 if a.json {
                     json_line(&v)
                 } else {
-                    analyze_lines(&serde_json::to_value(&v)?, a)
-                        .and_then(|lines| lines.iter().try_for_each(|l| line(l)))
+                    analyze_lines(&v, a).and_then(|lines| lines.iter().try_for_each(|l| line(l)))
                 }
             }
             Done::Rendered { text, .. } => text.and_then(|t| output::stdout_written(out.write_all(t.as_bytes()))),
@@ -382,7 +398,7 @@ fn analyze_text(v: &AnalyzeLine, a: &AnalyzeArgs) -> Result<String> {
         return Ok(crate::safe_text::json_text(text));
     }
     let mut text = String::new();
-    for l in analyze_lines(&serde_json::to_value(v)?, a)? {
+    for l in analyze_lines(v, a)? {
         text.push_str(&crate::safe_text::for_terminal_lines(&l));
         text.push('\n');
     }
@@ -392,56 +408,57 @@ fn analyze_text(v: &AnalyzeLine, a: &AnalyzeArgs) -> Result<String> {
 /// The lines `analyze` prints on stdout for one result, before they are made safe for a
 /// terminal: the JSON text, or the summary and its warnings (nothing for a refused file, which
 /// is named on stderr).
-fn analyze_lines(v: &Value, a: &AnalyzeArgs) -> Result<Vec<String>> {
-    let mut lines = Vec::new();
+fn analyze_lines(v: &AnalyzeLine, a: &AnalyzeArgs) -> Result<Vec<String>> {
     if a.json {
-        lines.push(crate::safe_text::json_text(serde_json::to_string(v)?));
-    } else if v.get("error").is_none() {
-        let f = |k: &str, d: usize| num(v[k].as_f64(), d);
-        let name = match v["label"].as_str() {
-            Some(l) => format!("{} [{l}]", v["file"].as_str().unwrap_or("")),
-            None => v["file"].as_str().unwrap_or("").to_string(),
-        };
-        lines.push(match a.kind {
-            Kind::Pl => format!(
+        return Ok(vec![crate::safe_text::json_text(serde_json::to_string(v)?)]);
+    }
+    // As the JSON has it: a number that is not finite is written null, and printed "-".
+    let n = |x: Option<f64>, d: usize| num(x.filter(|x| x.is_finite()), d);
+    let named = |file: &str, label: &Option<Option<String>>| match label {
+        Some(Some(l)) => format!("{file} [{l}]"),
+        _ => file.to_string(),
+    };
+    let (summary, warnings) = match v {
+        AnalyzeLine::Refused { .. } => return Ok(Vec::new()),
+        AnalyzeLine::Pl(p) => (
+            format!(
                 "{}  PL {} nm  FWHM {} nm  integral {}",
-                name,
-                f("pl_peak_nm", 1),
-                f("pl_fwhm_nm", 1),
-                f("pl_integral", 1)
+                named(&p.file, &p.label),
+                n(p.pl_peak_nm, 1),
+                n(p.pl_fwhm_nm, 1),
+                n(Some(p.pl_integral), 1)
             ),
-            _ => format!(
+            &p.warnings,
+        ),
+        AnalyzeLine::Abs(l) => (
+            format!(
                 "{}  first exciton {} nm{}  A {}  HWHM {} nm{}",
-                name,
-                f("first_exciton_nm", 1),
-                if v["shoulder"].as_bool() == Some(true) {
-                    " (shoulder)"
-                } else {
-                    ""
-                },
-                f("first_exciton_abs", 3),
-                f("hwhm_nm", 1),
-                if v.get("diameter_nm").is_some() {
-                    format!(
+                named(&l.file, &l.label),
+                n(l.first_exciton_nm, 1),
+                if l.shoulder { " (shoulder)" } else { "" },
+                n(l.first_exciton_abs, 3),
+                n(l.hwhm_nm, 1),
+                match l.diameter_nm {
+                    Some(d) => format!(
                         "  D {} nm  c {}",
-                        f("diameter_nm", 2),
-                        molar(v["concentration_molar"].as_f64())
-                    )
-                } else {
-                    String::new()
+                        n(d, 2),
+                        molar(l.concentration_molar.flatten().filter(|x| x.is_finite()))
+                    ),
+                    None => String::new(),
                 }
             ),
-        });
-        for w in v["warnings"].as_array().into_iter().flatten() {
-            lines.push(format!("  warning: {}", w.as_str().unwrap_or("")));
-        }
-    }
+            &l.warnings,
+        ),
+    };
+    let mut lines = vec![summary];
+    lines.extend(warnings.iter().map(|w| format!("  warning: {w}")));
     Ok(lines)
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+    use serde_json::json;
 
     /// A line's JSON text is what the same values give as a `serde_json::Value` (whose maps
     /// are sorted), at every depth: the text `analyze --json` has always written.

@@ -8,8 +8,54 @@ use crate::cli::output::{json, line};
 use crate::derive::{qy, sizing, solvents};
 use crate::spectra::{self, ReadOptions, analysis};
 use anyhow::{Result, anyhow, bail};
-use serde_json::{Value, json};
+use serde::Serialize;
 use std::path::Path;
+
+/// What `read --json` prints for one spectrum: the spectrum as read, with its point count and
+/// the file's SHA-256.
+#[derive(Serialize)]
+struct ReadView<'a> {
+    #[serde(flatten)]
+    spectrum: &'a spectra::RawSpectrum,
+    npoints: usize,
+    sha256: &'a str,
+}
+
+impl<'a> ReadView<'a> {
+    fn of(spectrum: &'a spectra::RawSpectrum, sha256: &'a str) -> Self {
+        ReadView {
+            spectrum,
+            npoints: spectrum.x.len(),
+            sha256,
+        }
+    }
+}
+
+/// What `size --json` prints: the sizing with what it was asked and the curve's source.
+#[derive(Serialize)]
+struct SizeView<'a> {
+    #[serde(flatten)]
+    sizing: &'a sizing::Sizing,
+    material: &'a str,
+    peak_nm: f64,
+    valid_peak_range_nm: Option<[f64; 2]>,
+    source: &'a str,
+}
+
+/// What `qy --json` prints: the single-point quantum yield with every number it came from.
+#[derive(Serialize)]
+struct SinglePointQyView<'a> {
+    qy: f64,
+    method: &'a str,
+    ref_qy: f64,
+    n_sample: f64,
+    n_ref: f64,
+    sample_integral: f64,
+    sample_abs: f64,
+    ref_integral: f64,
+    ref_abs: f64,
+    warnings: &'a [String],
+}
 
 pub(super) fn read(a: &ReadArgs) -> Result<()> {
     let opts = read_options(a.x_col, a.y_col, &a.x_unit, &a.block, &a.choice);
@@ -19,15 +65,7 @@ pub(super) fn read(a: &ReadArgs) -> Result<()> {
         let all = spectra::read_all(&name, &bytes, &opts)?;
         let sha = spectra::sha256_hex(&bytes);
         if a.json {
-            let v: Vec<Value> = all
-                .iter()
-                .map(|raw| -> Result<Value> {
-                    let mut v = serde_json::to_value(raw)?;
-                    v["npoints"] = json!(raw.x.len());
-                    v["sha256"] = json!(sha);
-                    Ok(v)
-                })
-                .collect::<Result<_>>()?;
+            let v: Vec<ReadView> = all.iter().map(|raw| ReadView::of(raw, &sha)).collect();
             return json(&v);
         }
         for (i, raw) in all.iter().enumerate() {
@@ -47,10 +85,7 @@ pub(super) fn read(a: &ReadArgs) -> Result<()> {
     }
     let (raw, sha) = spectra::read_file(&a.file, &opts)?;
     if a.json {
-        let mut v = serde_json::to_value(&raw)?;
-        v["npoints"] = json!(raw.x.len());
-        v["sha256"] = json!(sha);
-        return json(&v);
+        return json(&ReadView::of(&raw, &sha));
     }
     line(&format!(
         "{}: {} ({} points)",
@@ -99,12 +134,13 @@ pub(super) fn size(a: &SizeArgs) -> Result<()> {
     let c = sizing::Curve::parse(&curve)?;
     let peak_range = sizing::peak_range_nm(c, &core, None);
     if a.json {
-        let mut v = serde_json::to_value(&sz)?;
-        v["material"] = json!(a.material);
-        v["peak_nm"] = json!(a.peak_nm);
-        v["valid_peak_range_nm"] = json!(peak_range.map(|(l, h)| [l, h]));
-        v["source"] = json!(c.source());
-        return json(&v);
+        return json(&SizeView {
+            sizing: &sz,
+            material: &a.material,
+            peak_nm: a.peak_nm,
+            valid_peak_range_nm: peak_range.map(|(l, h)| [l, h]),
+            source: c.source(),
+        });
     }
     line(&format!(
         "{} with first exciton at {} nm: D = {:.2} nm ({}; valid {:.1}-{:.1} nm)",
@@ -190,10 +226,18 @@ pub(super) fn qy_cmd(a: &QyArgs) -> Result<()> {
     let mut r = qy::single_point(fs, as_, fr, ar, ref_qy, n, nr)?;
     r.warnings.extend(extra);
     if a.json {
-        return json(
-            &json!({"qy": r.qy, "method": r.method, "ref_qy": ref_qy, "n_sample": n, "n_ref": nr,
-            "sample_integral": fs, "sample_abs": as_, "ref_integral": fr, "ref_abs": ar, "warnings": r.warnings}),
-        );
+        return json(&SinglePointQyView {
+            qy: r.qy,
+            method: &r.method,
+            ref_qy,
+            n_sample: n,
+            n_ref: nr,
+            sample_integral: fs,
+            sample_abs: as_,
+            ref_integral: fr,
+            ref_abs: ar,
+            warnings: &r.warnings,
+        });
     }
     line(&format!("QY = {:.3} ({:.1} %), {}", r.qy, r.qy * 100.0, r.method))?;
     for w in &r.warnings {
