@@ -20,7 +20,7 @@ use crate::spectra::ReadOptions;
 use crate::store::Store;
 use aliquot::{aliquot, import, import_manifest};
 use analyze::analyze;
-use anyhow::{Context, Result, anyhow, bail};
+use anyhow::{Context, Result, bail};
 use batch::batch;
 use calc::{qy_cmd, qy_gradient, read, size};
 use calib::{calib, explain, recompute};
@@ -50,12 +50,14 @@ fn db_path(cli: &Cli) -> PathBuf {
         .unwrap_or_else(default_db_path)
 }
 
+/// An error opening the lab, with the file named in front unless the message names it
+/// already. The error itself stays in the chain, so the exit table sorts it by its type.
 fn with_path(path: &Path, e: crate::Error) -> anyhow::Error {
-    let msg = e.to_string();
-    if msg.contains(&path.display().to_string()) {
-        anyhow!("{msg}")
+    let shown = path.display().to_string();
+    if e.to_string().contains(&shown) {
+        anyhow::Error::new(e)
     } else {
-        anyhow!("{}: {msg}", path.display())
+        anyhow::Error::new(e).context(shown)
     }
 }
 
@@ -311,5 +313,31 @@ fn tui_writer(flag: Option<&str>) -> crate::tui::Writer {
                 .map(|p| p.display().to_string())
                 .map_err(|e| e.to_string())
         }),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::cli::exit::Outcome;
+
+    /// The file's name goes in front of an opening error once, and the error keeps its kind,
+    /// so the exit table sorts it by type (not as "other").
+    #[test]
+    fn an_opening_error_keeps_its_kind_and_names_the_file_once() {
+        let path = Path::new("/labs/group.cuvette");
+        let named = with_path(
+            path,
+            crate::Error::NotADatabase {
+                path: path.display().to_string(),
+                reason: "no cuvette tables".into(),
+            },
+        );
+        assert_eq!(Outcome::of(&named), Outcome::NotADatabase);
+        let text = format!("{named:#}");
+        assert_eq!(text.matches("/labs/group.cuvette").count(), 1, "{text}");
+        let unnamed = with_path(path, crate::Error::Storage("the lab stayed busy".into()));
+        assert_eq!(Outcome::of(&unnamed), Outcome::Storage);
+        assert_eq!(format!("{unnamed:#}"), "/labs/group.cuvette: the lab stayed busy");
     }
 }
