@@ -195,3 +195,69 @@ fn the_faces_write_only_through_lab() {
         "{cleared:?} write only through lab now: take them off the list"
     );
 }
+
+/// The code of a file outside its `#[cfg(test)]` module: a test may build a lab through the
+/// layers above to have something to look at.
+fn non_test(text: &str) -> &str {
+    match text.find("\n#[cfg(test)]") {
+        Some(i) => &text[..i],
+        None => text,
+    }
+}
+
+/// Which layers each lower layer must not import. The faces call `lab` and `report`; `lab`
+/// may use the views (`report`) to return what it wrote; `report` reads the store and
+/// computes with `derive`, and never calls an action; `derive` and `spectra` are pure.
+const LAYER_RULES: &[(&str, &[&str])] = &[
+    (
+        "src/spectra/",
+        &[
+            "crate::derive",
+            "crate::store",
+            "crate::lab",
+            "crate::report",
+            "crate::search",
+            "crate::cli",
+            "crate::tui",
+        ],
+    ),
+    (
+        "src/derive/",
+        &["crate::lab", "crate::report", "crate::search", "crate::cli", "crate::tui"],
+    ),
+    ("src/search/", &["crate::lab", "crate::report", "crate::cli", "crate::tui"]),
+    ("src/report/", &["crate::lab", "crate::cli", "crate::tui"]),
+    ("src/lab/", &["crate::cli", "crate::tui"]),
+];
+
+#[test]
+fn each_layer_imports_only_the_layers_below_it() {
+    let all = sources();
+    let mut broken = Vec::new();
+    for (path, text) in &all {
+        let code = non_test(text);
+        for (dir, forbidden) in LAYER_RULES {
+            if path.starts_with(dir) {
+                for f in *forbidden {
+                    if code.contains(f) {
+                        broken.push(format!("{path} names {f}"));
+                    }
+                }
+            }
+        }
+    }
+    assert!(broken.is_empty(), "layers importing upwards: {broken:#?}");
+}
+
+/// The science holds no connection: `derive` computes from rows and values handed to it.
+#[test]
+fn derive_holds_no_connection() {
+    for (path, text) in sources() {
+        if path.starts_with("src/derive/") {
+            let code = non_test(&text);
+            for word in ["store::Db", "store::Store", "Db,", "&Db", "&mut Store"] {
+                assert!(!code.contains(word), "{path} names {word}");
+            }
+        }
+    }
+}

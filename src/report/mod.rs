@@ -4,6 +4,7 @@
 //! The views are typed (`BatchSheet`, `ExplainChain`); `batch_detail` and `explain` give them as
 //! JSON values for the callers that still take one.
 
+pub mod context;
 mod export;
 pub mod handover;
 mod outfile;
@@ -234,7 +235,7 @@ pub fn explain_chain(db: &Db, aliquot_id: i64) -> Result<ExplainChain> {
     let history = crate::store::values::value_history(db, aliquot_id)?;
     let version = values.iter().map(|v| v.calibration_version).max();
     let cal = match version {
-        Some(v) => Some(crate::lab::calibrations::get(db, v)?),
+        Some(v) => Some(crate::store::calibrations::get::<calibration::Calibration>(db, v)?),
         None => None,
     };
     let mut chain = Vec::new();

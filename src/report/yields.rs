@@ -2,11 +2,11 @@
 //! against the limiting precursor) and a gradient quantum yield over a dilution series logged
 //! as aliquots. Read-only: they read the current values and compute with derive's methods.
 
+use super::context::batch_context;
 pub use crate::derive::engine::ReactionYieldView;
 use crate::derive::engine::reaction_yield_from;
 use crate::derive::{qy, yields};
 use crate::error::Result;
-use crate::lab::derivation::batch_context;
 use crate::store::{Db, values};
 use serde::Serialize;
 
@@ -123,7 +123,7 @@ pub fn gradient_qy_series(conn: &Db, aliquot_ids: &[i64]) -> Result<GradientQy> 
     }
     let first = crate::store::model::get_aliquot(conn, aliquot_ids[0])?;
     let version = values::effective_calibration_version(conn, first.batch_id)?;
-    let cal = crate::lab::calibrations::get(conn, version)?.body;
+    let cal = crate::store::calibrations::get::<crate::derive::calibration::Calibration>(conn, version)?.body;
     let r = cal
         .qy_reference
         .as_ref()

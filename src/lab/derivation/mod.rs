@@ -20,8 +20,7 @@ pub use vials::{estimate_vial, mark_vials_stale, refresh_vials};
 
 use crate::derive::calibration::Calibration;
 use crate::derive::engine::{
-    BatchContext, Derived, ParentCore, SPECTRAL, SpectrumMeta, analysis_hash, compute_in_series, expected_hash,
-    inputs_hash,
+    Derived, SPECTRAL, SpectrumMeta, analysis_hash, compute_in_series, expected_hash, inputs_hash,
 };
 use crate::derive::series::{self, SeriesHint, SeriesPoint};
 use crate::error::Result;
@@ -30,38 +29,8 @@ use crate::store::values::{self, StoredValue};
 use crate::store::{Db, now};
 use std::collections::HashMap;
 
-/// Reads the batch context of a batch: its material's shell and, when shelled, the parent
-/// batch's product diameter.
-pub fn batch_context(conn: &Db, batch_id: i64) -> Result<BatchContext> {
-    let b = crate::store::model::get_batch(conn, batch_id)?;
-    let shell = crate::store::model::material_by_name(conn, &b.material)?
-        .shell
-        .filter(|s| !s.trim().is_empty());
-    let mut ctx = BatchContext {
-        material: b.material.clone(),
-        shell,
-        parent_core: None,
-    };
-    if ctx.shell.is_none() {
-        return Ok(ctx);
-    }
-    if let (Some(pid), Some("shell") | None) = (b.parent_batch_id, b.parent_relation.as_deref()) {
-        let aliquot = values::product_aliquot(conn, pid)?;
-        let d = match aliquot {
-            Some(aid) => values::current_values(conn, aid)?
-                .into_iter()
-                .find(|v| v.quantity == "diameter_nm"),
-            None => None,
-        };
-        ctx.parent_core = Some(ParentCore {
-            batch_id: pid,
-            aliquot_id: aliquot,
-            diameter_nm: d.as_ref().and_then(|v| v.value),
-            curve: d.map(|v| v.method),
-        });
-    }
-    Ok(ctx)
-}
+/// The batch context is read by the views as well; it lives with them (a read of the store).
+pub use crate::report::context::batch_context;
 
 /// The range a stored second look used, to repeat it (the method holds its basis).
 pub fn stored_series_hint(values: &[StoredValue]) -> Option<SeriesHint> {
