@@ -158,6 +158,8 @@ const STORE_WRITES: &[&str] = &[
     "reinstate_batch(",
     "reinstate_vial(",
     "hand_over(",
+    "restore(",
+    "restore_new(",
 ];
 
 /// The command line and the UI write only through `lab`: a face holding a write transaction of
@@ -175,7 +177,10 @@ fn the_faces_write_only_through_lab() {
                 .find(|w| {
                     text.match_indices(**w).any(|(i, _)| {
                         let before = &text[..i];
-                        w.starts_with('.') || before.ends_with("model::") || before.ends_with("store::handover::")
+                        w.starts_with('.')
+                            || before.ends_with("model::")
+                            || before.ends_with("store::handover::")
+                            || before.ends_with("backup::")
                     })
                 })
                 .map(|w| (path.as_str(), *w))
@@ -223,9 +228,18 @@ const LAYER_RULES: &[(&str, &[&str])] = &[
     ),
     (
         "src/derive/",
-        &["crate::lab", "crate::report", "crate::search", "crate::cli", "crate::tui"],
+        &[
+            "crate::lab",
+            "crate::report",
+            "crate::search",
+            "crate::cli",
+            "crate::tui",
+        ],
     ),
-    ("src/search/", &["crate::lab", "crate::report", "crate::cli", "crate::tui"]),
+    (
+        "src/search/",
+        &["crate::lab", "crate::report", "crate::cli", "crate::tui"],
+    ),
     ("src/report/", &["crate::lab", "crate::cli", "crate::tui"]),
     ("src/lab/", &["crate::cli", "crate::tui"]),
 ];

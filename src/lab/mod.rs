@@ -23,6 +23,7 @@ pub mod demo;
 pub mod derivation;
 pub mod handover;
 pub mod register;
+pub mod restore;
 pub mod settings;
 pub mod vials;
 

@@ -44,30 +44,29 @@ pub(super) fn check(cli: &Cli, a: &CheckArgs) -> Result<ExitCode> {
 }
 
 pub(super) fn restore(cli: &Cli, file: &Path, recompute_after: bool) -> Result<()> {
+    use crate::lab::restore::{Target, restore};
     let target = db_path(cli);
-    // A backup must pass the whole check, derived values recomputed included, unless the user
-    // takes it to recompute them.
-    let extra = |c: &crate::store::Db| -> crate::Result<Vec<crate::store::check::Problem>> {
-        if recompute_after {
-            return Ok(Vec::new());
-        }
-        Ok(crate::lab::derivation::verify_values(c, true)?.1)
-    };
-    let r = if target.exists() {
+    let done = if target.exists() {
         let mut store = open_write(cli)?;
-        crate::store::backup::restore(&mut store, file, &extra)?
+        restore(Target::Open(&mut store), file, recompute_after)?
     } else {
         let who = identity::for_write(cli.actor.as_deref())?;
-        crate::store::backup::restore_new(file, &target, &who, &extra)?
+        restore(
+            Target::New {
+                path: &target,
+                who: &who,
+            },
+            file,
+            recompute_after,
+        )?
     };
-    if recompute_after {
-        let mut store = open_write(cli)?;
-        let rep = crate::lab::derivation::recompute_now(&mut store, true, |_, _| {})?;
+    if let Some(rep) = &done.recomputed {
         line(&format!(
             "recomputed {} values, {} changed",
             rep.recomputed, rep.changed
         ))?;
     }
+    let r = done.report;
     line(&format!(
         "restored {} from {}{}",
         r.lab,
