@@ -4,17 +4,21 @@
 
 use crate::derive::engine::{BatchContext, ParentCore};
 use crate::error::Result;
-use crate::store::{Db, model, values};
+use crate::store::{Db, values};
 
 /// Reads the batch context of a batch: its material's shell and, when shelled, the parent
 /// batch's product diameter.
 pub fn batch_context(conn: &Db, batch_id: i64) -> Result<BatchContext> {
-    let b = model::get_batch(conn, batch_id)?;
-    let shell = model::material_by_name(conn, &b.material)?
-        .shell
-        .filter(|s| !s.trim().is_empty());
+    context_of(conn, values::batch_shell(conn, batch_id)?)
+}
+
+/// The batch context from its row of [`values::batch_shells`], which a walk over the whole lab
+/// reads in one query: only a shelled batch reads more (its parent's product diameter, read
+/// now, so a walk that writes sees the parent as it stands when the child is reached).
+pub fn context_of(conn: &Db, b: values::BatchShellRow) -> Result<BatchContext> {
+    let shell = b.shell.filter(|s| !s.trim().is_empty());
     let mut ctx = BatchContext {
-        material: b.material.clone(),
+        material: b.material,
         shell,
         parent_core: None,
     };
@@ -24,9 +28,7 @@ pub fn batch_context(conn: &Db, batch_id: i64) -> Result<BatchContext> {
     if let (Some(pid), Some("shell") | None) = (b.parent_batch_id, b.parent_relation.as_deref()) {
         let aliquot = values::product_aliquot(conn, pid)?;
         let d = match aliquot {
-            Some(aid) => values::current_values(conn, aid)?
-                .into_iter()
-                .find(|v| v.quantity == "diameter_nm"),
+            Some(aid) => values::current_value(conn, aid, "diameter_nm")?,
             None => None,
         };
         ctx.parent_core = Some(ParentCore {

@@ -67,7 +67,9 @@ pub fn count(conn: &Connection) -> Result<i64> {
 
 /// The newest version's number (NULL, read as an error, on a lab never seeded).
 pub fn latest_version(conn: &Connection) -> Result<i64> {
-    Ok(conn.query_row("SELECT MAX(version) FROM calibration", [], |r| r.get(0))?)
+    Ok(conn
+        .prepare_cached("SELECT MAX(version) FROM calibration")?
+        .query_row([], |r| r.get(0))?)
 }
 
 /// Writes version 1 of a new lab, with its audit row.

@@ -79,6 +79,10 @@ pub const MIGRATIONS: &[(&str, &str)] = &[
         "0007_spectrum_cuvette_index",
         include_str!("../../schema/0007_spectrum_cuvette_index.sql"),
     ),
+    (
+        "0008_current_value_hashes",
+        include_str!("../../schema/0008_current_value_hashes.sql"),
+    ),
 ];
 
 /// The schema version this build writes.

@@ -32,7 +32,13 @@ pub struct StoredValue {
 const VALUE_COLS: &str = "id, aliquot_id, quantity, value, unit, method, calibration_version, inputs_hash, warnings, computed_at, superseded_at, stale";
 
 fn value_from(r: &rusqlite::Row) -> rusqlite::Result<StoredValue> {
-    let w: String = r.get(8)?;
+    // Most values carry no warnings: the empty list is not parsed.
+    let w = r.get_ref(8)?.as_str().unwrap_or("[]");
+    let warnings = if w == "[]" {
+        Vec::new()
+    } else {
+        serde_json::from_str(w).unwrap_or_default()
+    };
     Ok(StoredValue {
         id: r.get(0)?,
         aliquot_id: r.get(1)?,
@@ -42,7 +48,7 @@ fn value_from(r: &rusqlite::Row) -> rusqlite::Result<StoredValue> {
         method: r.get(5)?,
         calibration_version: r.get(6)?,
         inputs_hash: r.get(7)?,
-        warnings: serde_json::from_str(&w).unwrap_or_default(),
+        warnings,
         computed_at: r.get(9)?,
         superseded_at: r.get(10)?,
         stale: r.get(11)?,
@@ -51,11 +57,23 @@ fn value_from(r: &rusqlite::Row) -> rusqlite::Result<StoredValue> {
 
 /// An aliquot's current values, in the order they were written.
 pub fn current_values(conn: &Connection, aliquot_id: i64) -> Result<Vec<StoredValue>> {
+    // The rows come in the index's order (by quantity) and are put in order here: an ORDER BY
+    // would have SQLite build a sorter for every aliquot.
     let mut st = conn.prepare_cached(&format!(
-        "SELECT {VALUE_COLS} FROM derived_value WHERE aliquot_id = ?1 AND superseded_at IS NULL ORDER BY id"
+        "SELECT {VALUE_COLS} FROM derived_value WHERE aliquot_id = ?1 AND superseded_at IS NULL"
     ))?;
     let rows = st.query_map([aliquot_id], value_from)?;
-    Ok(rows.collect::<rusqlite::Result<_>>()?)
+    let mut out: Vec<StoredValue> = rows.collect::<rusqlite::Result<_>>()?;
+    out.sort_unstable_by_key(|v| v.id);
+    Ok(out)
+}
+
+/// An aliquot's current value of one quantity, if it has one.
+pub fn current_value(conn: &Connection, aliquot_id: i64, quantity: &str) -> Result<Option<StoredValue>> {
+    let mut st = conn.prepare_cached(&format!(
+        "SELECT {VALUE_COLS} FROM derived_value WHERE aliquot_id = ?1 AND quantity = ?2 AND superseded_at IS NULL"
+    ))?;
+    Ok(st.query_row(params![aliquot_id, quantity], value_from).optional()?)
 }
 
 /// An aliquot's superseded values, oldest first.
@@ -71,15 +89,17 @@ pub fn value_history(conn: &Connection, aliquot_id: i64) -> Result<Vec<StoredVal
 /// one range query for a chunk of a recompute.
 pub fn current_values_between(conn: &Connection, lo: i64, hi: i64) -> Result<Vec<StoredValue>> {
     let mut st = conn.prepare_cached(&format!(
-        "SELECT {VALUE_COLS} FROM derived_value WHERE superseded_at IS NULL AND aliquot_id BETWEEN ?1 AND ?2 ORDER BY aliquot_id, id"
+        "SELECT {VALUE_COLS} FROM derived_value WHERE superseded_at IS NULL AND aliquot_id BETWEEN ?1 AND ?2"
     ))?;
     let rows = st.query_map(params![lo, hi], value_from)?;
-    Ok(rows.collect::<rusqlite::Result<_>>()?)
+    let mut out: Vec<StoredValue> = rows.collect::<rusqlite::Result<_>>()?;
+    out.sort_unstable_by_key(|v| (v.aliquot_id, v.id));
+    Ok(out)
 }
 
 /// Hands `f` (aliquot, quantity, inputs hash, stale flag) of every current value of the
-/// aliquots with an id in `lo..=hi`, without copying the strings: how a recompute compares
-/// hashes while streaming.
+/// aliquots with an id in `lo..=hi`, from the covering index of schema 0008 and without
+/// copying the strings: how a recompute compares hashes while streaming.
 pub fn current_hashes_between(
     conn: &Connection,
     lo: i64,
@@ -193,10 +213,9 @@ pub fn flag_stale_values(tx: &Connection, spectral: &[&str], rows: &[(i64, &str,
 
 /// The calibration an aliquot's batch uses: its pinned version, else the latest.
 pub fn effective_calibration_version(conn: &Connection, batch_id: i64) -> Result<i64> {
-    let pinned: Option<i64> =
-        conn.query_row("SELECT pinned_calibration FROM batch WHERE id = ?1", [batch_id], |r| {
-            r.get(0)
-        })?;
+    let pinned: Option<i64> = conn
+        .prepare_cached("SELECT pinned_calibration FROM batch WHERE id = ?1")?
+        .query_row([batch_id], |r| r.get(0))?;
     match pinned {
         Some(v) => Ok(v),
         None => super::calibrations::latest_version(conn),
@@ -206,11 +225,8 @@ pub fn effective_calibration_version(conn: &Connection, batch_id: i64) -> Result
 /// A batch's product aliquot, by the one rule (the `batch_product` view of schema 0005).
 pub fn product_aliquot(conn: &Connection, batch_id: i64) -> Result<Option<i64>> {
     Ok(conn
-        .query_row(
-            "SELECT aliquot_id FROM batch_product WHERE batch_id = ?1",
-            [batch_id],
-            |r| r.get(0),
-        )
+        .prepare_cached("SELECT aliquot_id FROM batch_product WHERE batch_id = ?1")?
+        .query_row([batch_id], |r| r.get(0))
         .optional()?
         .flatten())
 }
@@ -226,6 +242,14 @@ pub fn product_aliquots(conn: &Connection) -> Result<HashSet<i64>> {
         }
     }
     Ok(out)
+}
+
+/// Each batch's product aliquot, by batch (batches without one are left out): one query for a
+/// walk over the lab's vials.
+pub fn product_aliquot_of_batches(conn: &Connection) -> Result<std::collections::HashMap<i64, i64>> {
+    let mut st = conn.prepare_cached("SELECT batch_id, aliquot_id FROM batch_product WHERE aliquot_id IS NOT NULL")?;
+    let rows = st.query_map([], |r| Ok((r.get::<_, i64>(0)?, r.get::<_, i64>(1)?)))?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
 }
 
 /// Batches whose product values (or a vial's concentration, of a vial not disposed) are
@@ -262,6 +286,55 @@ pub fn aliquot_count(conn: &Connection) -> Result<i64> {
 pub fn aliquot_ids(conn: &Connection) -> Result<Vec<i64>> {
     let mut st = conn.prepare("SELECT id FROM aliquot ORDER BY id")?;
     let rows = st.query_map([], |r| r.get(0))?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+/// What a batch's derivation context is read from: its material and that material's shell, and
+/// the batch it was grown on, with how.
+#[derive(Debug, Clone)]
+pub struct BatchShellRow {
+    pub batch_id: i64,
+    pub material: String,
+    pub shell: Option<String>,
+    pub parent_batch_id: Option<i64>,
+    pub parent_relation: Option<String>,
+}
+
+const BATCH_SHELL_SELECT: &str = "SELECT b.id, m.name, m.shell, b.parent_batch_id, b.parent_relation
+  FROM batch b JOIN material m ON m.id = b.material_id";
+
+fn batch_shell_from(r: &rusqlite::Row) -> rusqlite::Result<BatchShellRow> {
+    Ok(BatchShellRow {
+        batch_id: r.get(0)?,
+        material: r.get(1)?,
+        shell: r.get(2)?,
+        parent_batch_id: r.get(3)?,
+        parent_relation: r.get(4)?,
+    })
+}
+
+/// One batch's material, shell and parent.
+pub fn batch_shell(conn: &Connection, batch_id: i64) -> Result<BatchShellRow> {
+    conn.prepare_cached(&format!("{BATCH_SHELL_SELECT} WHERE b.id = ?1"))?
+        .query_row([batch_id], batch_shell_from)
+        .optional()?
+        .ok_or_else(|| crate::error::Error::NotFound {
+            kind: "batch",
+            what: batch_id.to_string(),
+        })
+}
+
+/// Every batch's material, shell and parent: one query for a walk over the whole lab.
+pub fn batch_shells(conn: &Connection) -> Result<Vec<BatchShellRow>> {
+    let mut st = conn.prepare_cached(BATCH_SHELL_SELECT)?;
+    let rows = st.query_map([], batch_shell_from)?;
+    Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+/// Each vial's batch, by vial id.
+pub fn vial_batches(conn: &Connection) -> Result<std::collections::HashMap<i64, i64>> {
+    let mut st = conn.prepare_cached("SELECT id, batch_id FROM vial")?;
+    let rows = st.query_map([], |r| Ok((r.get::<_, i64>(0)?, r.get::<_, i64>(1)?)))?;
     Ok(rows.collect::<rusqlite::Result<_>>()?)
 }
 
@@ -364,4 +437,40 @@ pub fn search_thresholds(conn: &Connection) -> Result<Vec<(String, f64)>> {
     let mut st = conn.prepare("SELECT field, value FROM search_threshold ORDER BY field, value")?;
     let rows = st.query_map([], |r| Ok((r.get::<_, String>(0)?, r.get::<_, f64>(1)?)))?;
     Ok(rows.collect::<rusqlite::Result<_>>()?)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// What SQLite plans for a query (the detail column of EXPLAIN QUERY PLAN, joined).
+    fn plan(conn: &Connection, sql: &str) -> String {
+        let mut st = conn.prepare(&format!("EXPLAIN QUERY PLAN {sql}")).unwrap();
+        let rows = st.query_map(params![1, 2000], |r| r.get::<_, String>(3)).unwrap();
+        rows.map(|r| r.unwrap()).collect::<Vec<_>>().join("; ")
+    }
+
+    #[test]
+    fn the_hash_scan_reads_the_covering_index_alone() {
+        let mut store = crate::store::Store::in_memory("test").unwrap();
+        let p = store
+            .read(|tx| {
+                Ok(plan(
+                    tx,
+                    "SELECT aliquot_id, quantity, inputs_hash, stale FROM derived_value WHERE superseded_at IS NULL AND aliquot_id BETWEEN ?1 AND ?2",
+                ))
+            })
+            .unwrap();
+        assert!(p.contains("COVERING INDEX derived_current_hash"), "plan: {p}");
+        // An aliquot's value of one quantity is found through the same index.
+        let p = store
+            .read(|tx| {
+                Ok(plan(
+                    tx,
+                    "SELECT value FROM derived_value WHERE aliquot_id = ?1 AND quantity = 'x' AND superseded_at IS NULL AND ?2 > 0",
+                ))
+            })
+            .unwrap();
+        assert!(p.contains("INDEX derived_current_hash"), "plan: {p}");
+    }
 }

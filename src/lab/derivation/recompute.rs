@@ -93,6 +93,9 @@ struct Scanner {
     analysis_cache: HashMap<(i64, bool), String>,
     /// Each batch's context (shell, parent core), read once per scan.
     contexts: HashMap<i64, BatchContext>,
+    /// Each batch's material, shell and parent, read for the whole lab in one query; a batch
+    /// logged during the scan is read on its own.
+    shells: HashMap<i64, crate::store::values::BatchShellRow>,
 }
 
 impl Scanner {
@@ -104,6 +107,10 @@ impl Scanner {
             relevant_cache: HashMap::new(),
             analysis_cache: HashMap::new(),
             contexts: HashMap::new(),
+            shells: values::batch_shells(conn)?
+                .into_iter()
+                .map(|r| (r.batch_id, r))
+                .collect(),
         })
     }
 
@@ -143,7 +150,10 @@ impl Scanner {
                 .entry((version, core.clone(), a.solvent.to_ascii_lowercase(), has_pl))
                 .or_insert_with(|| relevant(cal, &core, &a.solvent, has_pl).to_string());
             if let std::collections::hash_map::Entry::Vacant(e) = self.contexts.entry(a.batch_id) {
-                e.insert(batch_context(conn, a.batch_id)?);
+                e.insert(match self.shells.remove(&a.batch_id) {
+                    Some(row) => crate::report::context::context_of(conn, row)?,
+                    None => batch_context(conn, a.batch_id)?,
+                });
             }
             let ctx_part = self
                 .contexts

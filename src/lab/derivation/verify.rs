@@ -2,7 +2,7 @@
 //! concentration recomputed from their stored inputs, and each current value that differs from
 //! what its inputs give now without being flagged stale reported as a problem.
 
-use super::vials::vial_expected;
+use super::vials::VialScan;
 use super::{batch_context, same, stored_series_hint};
 use crate::derive::calibration::Calibration;
 use crate::derive::engine::{
@@ -110,11 +110,12 @@ pub fn verify_values(conn: &Db, deep: bool) -> Result<(usize, Vec<Problem>)> {
             ),
         ));
     }
+    let mut vials = VialScan::new(conn, true)?;
     for row in crate::store::model::derived_vial_concentrations(conn, None)? {
         if row.stale {
             continue;
         }
-        let expected = match vial_expected(conn, &row, &mut cals) {
+        let expected = match vials.expected(conn, &row) {
             Ok(e) => e,
             Err(e) => {
                 problems.push(Problem::new(

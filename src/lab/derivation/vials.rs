@@ -13,13 +13,15 @@ use std::collections::BTreeMap;
 
 /// What a vial concentration estimated from its batch's product aliquot should be now.
 fn vial_estimate(conn: &Db, batch_id: i64) -> Result<Option<VialConcentration>> {
-    let Some(aid) = values::product_aliquot(conn, batch_id)? else {
-        return Ok(None);
-    };
-    let Some(v) = values::current_values(conn, aid)?
-        .into_iter()
-        .find(|v| v.quantity == "concentration_molar")
-    else {
+    match values::product_aliquot(conn, batch_id)? {
+        Some(aid) => estimate_from(conn, aid),
+        None => Ok(None),
+    }
+}
+
+/// The estimate carried over from this product aliquot's concentration.
+fn estimate_from(conn: &Db, aid: i64) -> Result<Option<VialConcentration>> {
+    let Some(v) = values::current_value(conn, aid, "concentration_molar")? else {
         return Ok(None);
     };
     let mut warnings = vec![
@@ -38,35 +40,80 @@ fn vial_estimate(conn: &Db, batch_id: i64) -> Result<Option<VialConcentration>> 
     }))
 }
 
-/// What a vial's derived concentration should be now, given its current row.
-pub(super) fn vial_expected(
-    conn: &Db,
-    row: &StoredVialConcentration,
-    cals: &mut BTreeMap<i64, Calibration>,
-) -> Result<Option<VialConcentration>> {
-    let vial = crate::store::model::get_vial(conn, row.vial_id)?;
-    match row.c.source.as_str() {
-        "estimate" => vial_estimate(conn, vial.batch_id),
-        "measured" => {
-            let Some(sid) = row.c.spectrum_id else { return Ok(None) };
-            let s = crate::store::model::vial_spectrum(conn, sid)?;
-            let core = crate::store::model::get_batch(conn, vial.batch_id)?.core;
-            let version = values::effective_calibration_version(conn, vial.batch_id)?;
-            if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
-                e.insert(crate::lab::calibrations::get(conn, version)?.body);
-            }
-            let cal = &cals[&version];
-            let (_, _, c) = vial_measured(
-                &s,
-                &core,
-                s.dilution_factor.unwrap_or(1.0),
-                s.path_cm.unwrap_or(1.0),
-                version,
-                cal,
-            )?;
-            Ok(Some(c))
+/// What the vials' derived concentrations should be now, worked out across a walk of the
+/// lab's vial concentrations: each vial's batch read once for the walk, each batch's estimate
+/// once however many vials share it, each calibration version parsed once.
+pub(super) struct VialScan {
+    batch_of: std::collections::HashMap<i64, i64>,
+    /// Each batch's product aliquot as the walk began; a batch not in it is asked on its own.
+    products: std::collections::HashMap<i64, i64>,
+    estimates: std::collections::HashMap<i64, Option<VialConcentration>>,
+    cals: BTreeMap<i64, Calibration>,
+}
+
+impl VialScan {
+    /// A walk over the whole lab (`whole_lab`) reads each vial's batch and each batch's product
+    /// up front, in one query each; a walk over one batch's vials asks as it goes.
+    pub(super) fn new(conn: &Db, whole_lab: bool) -> Result<VialScan> {
+        let (batch_of, products) = if whole_lab {
+            (values::vial_batches(conn)?, values::product_aliquot_of_batches(conn)?)
+        } else {
+            Default::default()
+        };
+        Ok(VialScan {
+            batch_of,
+            products,
+            estimates: std::collections::HashMap::new(),
+            cals: BTreeMap::new(),
+        })
+    }
+
+    fn batch_of(&self, conn: &Db, vial_id: i64) -> Result<i64> {
+        match self.batch_of.get(&vial_id) {
+            Some(b) => Ok(*b),
+            None => Ok(crate::store::model::get_vial(conn, vial_id)?.batch_id),
         }
-        _ => Ok(None),
+    }
+
+    /// The estimate a vial of this batch carries over from its product aliquot.
+    fn estimate(&mut self, conn: &Db, batch_id: i64) -> Result<Option<VialConcentration>> {
+        if let Some(e) = self.estimates.get(&batch_id) {
+            return Ok(e.clone());
+        }
+        let e = match self.products.get(&batch_id) {
+            Some(&aid) => estimate_from(conn, aid)?,
+            None => vial_estimate(conn, batch_id)?,
+        };
+        self.estimates.insert(batch_id, e.clone());
+        Ok(e)
+    }
+
+    /// What a vial's derived concentration should be now, given its current row.
+    pub(super) fn expected(&mut self, conn: &Db, row: &StoredVialConcentration) -> Result<Option<VialConcentration>> {
+        let batch_id = self.batch_of(conn, row.vial_id)?;
+        match row.c.source.as_str() {
+            "estimate" => self.estimate(conn, batch_id),
+            "measured" => {
+                let Some(sid) = row.c.spectrum_id else { return Ok(None) };
+                let s = crate::store::model::vial_spectrum(conn, sid)?;
+                let core = crate::store::model::get_batch(conn, batch_id)?.core;
+                let version = values::effective_calibration_version(conn, batch_id)?;
+                if let std::collections::btree_map::Entry::Vacant(e) = self.cals.entry(version) {
+                    e.insert(crate::lab::calibrations::get(conn, version)?.body);
+                }
+                let cal = &self.cals[&version];
+                let (_, _, c) = vial_measured(
+                    &s,
+                    &core,
+                    s.dilution_factor.unwrap_or(1.0),
+                    s.path_cm.unwrap_or(1.0),
+                    version,
+                    cal,
+                )?;
+                Ok(Some(c))
+            }
+            _ => Ok(None),
+        }
     }
 }
 
@@ -78,11 +125,11 @@ pub fn refresh_vials(conn: &Db, batch: Option<i64>, dry_run: bool) -> Result<(us
     if let (Some(b), false) = (batch, dry_run) {
         follow_parent_cores(conn, Some(b))?;
     }
-    let mut cals = BTreeMap::new();
+    let mut scan = VialScan::new(conn, batch.is_none())?;
     let (mut considered, mut changed) = (0, 0);
     for row in crate::store::model::derived_vial_concentrations(conn, batch)? {
         considered += 1;
-        let expected = vial_expected(conn, &row, &mut cals)?;
+        let expected = scan.expected(conn, &row)?;
         let Some(new) = expected else {
             // The estimate has nothing to follow any more (its product was voided): say so.
             if row.c.source == "estimate" && !row.stale {
@@ -109,10 +156,11 @@ pub fn mark_vials_stale(tx: &Db) -> Result<usize> {
     let mut n = 0;
     let latest = crate::lab::calibrations::latest(tx)?.version;
     let mut cals: BTreeMap<i64, Calibration> = BTreeMap::new();
+    let mut scan = VialScan::new(tx, true)?;
     for row in crate::store::model::derived_vial_concentrations(tx, None)? {
-        let vial = crate::store::model::get_vial(tx, row.vial_id)?;
+        let batch_id = scan.batch_of(tx, row.vial_id)?;
         let stale = match row.c.source.as_str() {
-            "estimate" => match vial_estimate(tx, vial.batch_id)? {
+            "estimate" => match scan.estimate(tx, batch_id)? {
                 None => true,
                 Some(e) => {
                     let src_stale = values::current_stale_flag(tx, e.aliquot_id.unwrap_or(0), "concentration_molar")?
@@ -123,7 +171,7 @@ pub fn mark_vials_stale(tx: &Db) -> Result<usize> {
             _ => {
                 let Some(sid) = row.c.spectrum_id else { continue };
                 let s = values::spectrum_hash_inputs(tx, sid)?;
-                let b = crate::store::model::get_batch(tx, vial.batch_id)?;
+                let b = crate::store::model::get_batch(tx, batch_id)?;
                 let version = b.pinned_calibration.unwrap_or(latest);
                 if let std::collections::btree_map::Entry::Vacant(e) = cals.entry(version) {
                     e.insert(crate::lab::calibrations::get(tx, version)?.body);
