@@ -9,9 +9,10 @@ use rusqlite::{Connection, OptionalExtension, Row, params};
 use serde::Serialize;
 use serde_json::json;
 
-pub const BATCH_STATUSES: &[&str] = &["planned", "growing", "done", "failed", "archived"];
-pub const AMOUNT_UNITS: &[&str] = &["mg", "g", "mL", "uL", "mmol", "umol"];
-pub const LOCATION_KINDS: &[&str] = &["freezer", "fridge", "glovebox", "shelf", "cabinet"];
+pub use crate::vocab::{
+    AmountUnit, BatchRelation, BatchStatus, ConcentrationSource, LocationKind, SpectrumKind, VialEventKind, VialStatus,
+    Vocabulary,
+};
 
 fn not_found(kind: &'static str, what: impl ToString) -> Error {
     Error::NotFound {
@@ -322,12 +323,12 @@ pub fn save_recipe(
     for r in reagents {
         reagent_by_name(tx, &r.reagent)?;
         check_number(&format!("amount of {}", r.reagent), r.amount, true)?;
-        if !AMOUNT_UNITS.contains(&r.unit.as_str()) {
+        if r.unit.parse::<AmountUnit>().is_err() {
             return invalid(format!(
                 "bad unit '{}' for {} (use one of {})",
                 r.unit,
                 r.reagent,
-                AMOUNT_UNITS.join(", ")
+                AmountUnit::WORDS.join(", ")
             ));
         }
     }
@@ -502,9 +503,9 @@ pub struct BatchRow {
     pub recipe_version_id: Option<i64>,
     pub operator: Option<String>,
     pub started_at: String,
-    pub status: String,
+    pub status: BatchStatus,
     pub parent_batch_id: Option<i64>,
-    pub parent_relation: Option<String>,
+    pub parent_relation: Option<BatchRelation>,
     pub pinned_calibration: Option<i64>,
     pub product_aliquot_id: Option<i64>,
     pub notes: String,
@@ -551,21 +552,10 @@ pub struct NewBatch {
     pub recipe_version: Option<i64>,
     pub operator: Option<String>,
     pub started_at: Option<String>,
-    pub status: Option<String>,
+    pub status: Option<BatchStatus>,
     pub parent_batch_id: Option<i64>,
-    pub parent_relation: Option<String>,
+    pub parent_relation: Option<BatchRelation>,
     pub notes: Option<String>,
-}
-
-pub fn check_status(s: &str) -> Result<()> {
-    if BATCH_STATUSES.contains(&s) {
-        Ok(())
-    } else {
-        invalid(format!(
-            "unknown status '{s}' (use one of {})",
-            BATCH_STATUSES.join(", ")
-        ))
-    }
 }
 
 /// Accepts RFC 3339, "YYYY-MM-DD HH:MM" or a bare date; returns the stored form, the instant
@@ -630,8 +620,7 @@ pub fn insert_batch(tx: &Connection, who: &str, b: &NewBatch) -> Result<i64> {
         Some(p) => Some(person_id(tx, p)?),
         None => person_id(tx, who).ok(),
     };
-    let status = b.status.clone().unwrap_or_else(|| "planned".into());
-    check_status(&status)?;
+    let status = b.status.unwrap_or(BatchStatus::Planned);
     let started = match &b.started_at {
         Some(s) => parse_time("started at", s)?,
         None => now(),
@@ -639,17 +628,12 @@ pub fn insert_batch(tx: &Connection, who: &str, b: &NewBatch) -> Result<i64> {
     if let Some(p) = b.parent_batch_id {
         get_batch(tx, p)?;
     }
-    if let Some(rel) = &b.parent_relation {
-        if !["shell", "fraction", "repeat"].contains(&rel.as_str()) {
-            return invalid(format!("unknown relation '{rel}' (use shell, fraction or repeat)"));
-        }
-        if b.parent_batch_id.is_none() {
-            return invalid("a relation needs a parent batch (--parent)");
-        }
+    if b.parent_relation.is_some() && b.parent_batch_id.is_none() {
+        return invalid("a relation needs a parent batch (--parent)");
     }
-    let relation = match (&b.parent_relation, b.parent_batch_id) {
-        (Some(r), _) => Some(r.clone()),
-        (None, Some(_)) => Some("shell".to_string()),
+    let relation = match (b.parent_relation, b.parent_batch_id) {
+        (Some(r), _) => Some(r),
+        (None, Some(_)) => Some(BatchRelation::Shell),
         _ => None,
     };
     tx.execute(
@@ -686,7 +670,7 @@ pub fn list_batches(conn: &Connection) -> Result<Vec<BatchRow>> {
     Ok(rows.collect::<rusqlite::Result<_>>()?)
 }
 
-pub fn children_of(conn: &Connection, id: i64) -> Result<Vec<(i64, String, Option<String>)>> {
+pub fn children_of(conn: &Connection, id: i64) -> Result<Vec<(i64, String, Option<BatchRelation>)>> {
     let mut st = conn.prepare("SELECT id, name, parent_relation FROM batch WHERE parent_batch_id = ?1 ORDER BY id")?;
     let rows = st.query_map([id], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?)))?;
     Ok(rows.collect::<rusqlite::Result<_>>()?)
@@ -783,8 +767,7 @@ pub fn edit_batch(tx: &Connection, who: &str, id: i64, e: &BatchEdit) -> Result<
     Ok(after)
 }
 
-pub fn set_batch_status(tx: &Connection, who: &str, id: i64, status: &str) -> Result<BatchRow> {
-    check_status(status)?;
+pub fn set_batch_status(tx: &Connection, who: &str, id: i64, status: BatchStatus) -> Result<BatchRow> {
     let before = get_batch(tx, id)?;
     tx.execute("UPDATE batch SET status = ?1 WHERE id = ?2", params![status, id])?;
     audit(
@@ -864,7 +847,7 @@ pub fn insert_aliquot(tx: &Connection, who: &str, a: &NewAliquot) -> Result<i64>
         (None, None) => Some("crude".to_string()),
         (_, s) => s.clone(),
     };
-    if batch.status == "archived" {
+    if batch.status == BatchStatus::Archived {
         return invalid(format!("batch {} is archived; set its status first", batch.id));
     }
     if batch.voided {
@@ -998,7 +981,7 @@ pub struct SpectrumRow {
 }
 
 pub fn insert_spectrum(tx: &Connection, who: &str, s: &NewSpectrum) -> Result<i64> {
-    if !["abs", "pl", "ple"].contains(&s.kind.as_str()) {
+    if s.kind.parse::<SpectrumKind>().is_err() {
         return invalid(format!("unknown spectrum kind '{}' (abs, pl, ple)", s.kind));
     }
     if s.x.len() != s.y.len() || s.x.is_empty() {
@@ -1159,19 +1142,13 @@ pub fn get_spectrum(conn: &Connection, id: i64) -> Result<SpectrumRow> {
 pub struct LocationRow {
     pub id: i64,
     pub name: String,
-    pub kind: String,
+    pub kind: LocationKind,
     pub position: Option<String>,
 }
 
-pub fn add_location(tx: &Connection, who: &str, name: &str, kind: &str, position: Option<&str>) -> Result<i64> {
+pub fn add_location(tx: &Connection, who: &str, name: &str, kind: LocationKind, position: Option<&str>) -> Result<i64> {
     if name.trim().is_empty() {
         return invalid("a location needs a name");
-    }
-    if !LOCATION_KINDS.contains(&kind) {
-        return invalid(format!(
-            "unknown location kind '{kind}' (use one of {})",
-            LOCATION_KINDS.join(", ")
-        ));
     }
     if location_by_name(tx, name).is_ok() {
         return invalid(format!("location '{name}' already exists"));
@@ -1240,12 +1217,12 @@ pub struct VialRow {
     pub initial_ml: f64,
     pub solvent: String,
     pub owner: Option<String>,
-    pub status: String,
+    pub status: VialStatus,
     /// The vial's current concentration (of its own solution), with where it came from.
     pub concentration_molar: Option<f64>,
     pub created_at: String,
     /// measured, estimate, entered or recorded (see `VialConcentration`); None when unknown.
-    pub concentration_source: Option<String>,
+    pub concentration_source: Option<ConcentrationSource>,
     pub concentration_method: Option<String>,
     pub concentration_stale: bool,
     /// The calibration version behind the concentration (None for entered figures).
@@ -1352,7 +1329,7 @@ pub fn insert_vial(tx: &Connection, who: &str, v: &NewVial) -> Result<i64> {
             tx,
             id,
             &VialConcentration {
-                source: "entered".into(),
+                source: ConcentrationSource::Entered,
                 spectrum_id: None,
                 aliquot_id: None,
                 value: Some(c),
@@ -1415,7 +1392,7 @@ pub fn vials_of_batch(conn: &Connection, batch_id: i64) -> Result<Vec<VialRow>> 
 
 fn usable_vial(conn: &Connection, id: i64) -> Result<VialRow> {
     let v = get_vial(conn, id)?;
-    if v.status == "disposed" {
+    if v.status == VialStatus::Disposed {
         return invalid(format!("vial {} ({}) has been disposed of", v.id, v.label));
     }
     Ok(v)
@@ -1435,7 +1412,11 @@ pub fn draw_from_vial(tx: &Connection, who: &str, id: i64, ml: f64, why: Option<
     }
     let left = (v.volume_ml - ml).max(0.0);
     let left = if left < VOLUME_EPS_ML { 0.0 } else { left };
-    let status = if left == 0.0 { "empty" } else { "in_use" };
+    let status = if left == 0.0 {
+        VialStatus::Empty
+    } else {
+        VialStatus::InUse
+    };
     tx.execute(
         "UPDATE vial SET volume_ml = ?1, status = ?2 WHERE id = ?3",
         params![left, status, id],
@@ -1504,7 +1485,7 @@ pub fn dispose_vial(tx: &Connection, who: &str, id: i64, why: &str) -> Result<Vi
         Some(id),
         "dispose",
         Some(&json!({"status": v.status, "volume_ml": v.volume_ml})),
-        Some(&json!({"status": "disposed", "why": why})),
+        Some(&json!({"status": VialStatus::Disposed, "why": why})),
     )?;
     get_vial(tx, id)
 }
@@ -1513,7 +1494,7 @@ pub fn dispose_vial(tx: &Connection, who: &str, id: i64, why: &str) -> Result<Vi
 pub struct VialEventRow {
     pub id: i64,
     pub vial_id: i64,
-    pub kind: String,
+    pub kind: VialEventKind,
     pub amount_ml: Option<f64>,
     pub who: String,
     pub why: Option<String>,
@@ -1635,7 +1616,7 @@ pub fn ui_setting_set(tx: &Connection, key: &str, value: &str) -> Result<()> {
 /// A vial concentration with its provenance, as written (see schema 0005).
 #[derive(Debug, Clone, Serialize, PartialEq)]
 pub struct VialConcentration {
-    pub source: String,
+    pub source: ConcentrationSource,
     pub spectrum_id: Option<i64>,
     pub aliquot_id: Option<i64>,
     pub value: Option<f64>,
@@ -2036,10 +2017,14 @@ pub fn reinstate_batch(tx: &Connection, who: &str, id: i64, why: &str) -> Result
 pub fn reinstate_vial(tx: &Connection, who: &str, id: i64, why: &str) -> Result<VialRow> {
     let why = check_reason(why)?;
     let v = get_vial(tx, id)?;
-    if v.status != "disposed" {
+    if v.status != VialStatus::Disposed {
         return invalid(format!("vial {} ({}) is not disposed of", v.id, v.label));
     }
-    let status = if v.volume_ml > VOLUME_EPS_ML { "in_use" } else { "empty" };
+    let status = if v.volume_ml > VOLUME_EPS_ML {
+        VialStatus::InUse
+    } else {
+        VialStatus::Empty
+    };
     tx.execute("UPDATE vial SET status = ?1 WHERE id = ?2", params![status, id])?;
     tx.execute(
         "INSERT INTO vial_event (vial_id, kind, who, why, at) VALUES (?1,'reinstate',?2,?3,?4)",

@@ -9,6 +9,7 @@ use crate::error::Result;
 use crate::store::Db;
 use crate::store::model::{StoredVialConcentration, VialConcentration};
 use crate::store::values;
+use crate::vocab::ConcentrationSource;
 use std::collections::BTreeMap;
 
 /// What a vial concentration estimated from its batch's product aliquot should be now.
@@ -27,7 +28,7 @@ fn vial_estimate(conn: &Db, batch_id: i64) -> Result<Option<VialConcentration>> 
     ];
     warnings.extend(v.warnings.clone());
     Ok(Some(VialConcentration {
-        source: "estimate".into(),
+        source: ConcentrationSource::Estimate,
         spectrum_id: None,
         aliquot_id: Some(aid),
         value: v.value,
@@ -45,9 +46,9 @@ pub(super) fn vial_expected(
     cals: &mut BTreeMap<i64, Calibration>,
 ) -> Result<Option<VialConcentration>> {
     let vial = crate::store::model::get_vial(conn, row.vial_id)?;
-    match row.c.source.as_str() {
-        "estimate" => vial_estimate(conn, vial.batch_id),
-        "measured" => {
+    match row.c.source {
+        ConcentrationSource::Estimate => vial_estimate(conn, vial.batch_id),
+        ConcentrationSource::Measured => {
             let Some(sid) = row.c.spectrum_id else { return Ok(None) };
             let s = crate::store::model::vial_spectrum(conn, sid)?;
             let core = crate::store::model::get_batch(conn, vial.batch_id)?.core;
@@ -85,7 +86,7 @@ pub fn refresh_vials(conn: &Db, batch: Option<i64>, dry_run: bool) -> Result<(us
         let expected = vial_expected(conn, &row, &mut cals)?;
         let Some(new) = expected else {
             // The estimate has nothing to follow any more (its product was voided): say so.
-            if row.c.source == "estimate" && !row.stale {
+            if row.c.source == ConcentrationSource::Estimate && !row.stale {
                 if !dry_run {
                     crate::store::model::flag_vial_concentration(conn, row.id, true)?;
                 }
@@ -111,8 +112,8 @@ pub fn mark_vials_stale(tx: &Db) -> Result<usize> {
     let mut cals: BTreeMap<i64, Calibration> = BTreeMap::new();
     for row in crate::store::model::derived_vial_concentrations(tx, None)? {
         let vial = crate::store::model::get_vial(tx, row.vial_id)?;
-        let stale = match row.c.source.as_str() {
-            "estimate" => match vial_estimate(tx, vial.batch_id)? {
+        let stale = match row.c.source {
+            ConcentrationSource::Estimate => match vial_estimate(tx, vial.batch_id)? {
                 None => true,
                 Some(e) => {
                     let src_stale = values::current_stale_flag(tx, e.aliquot_id.unwrap_or(0), "concentration_molar")?
