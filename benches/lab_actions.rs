@@ -47,7 +47,7 @@ fn add_aliquot(c: &mut Criterion) {
         &cuvette::store::model::NewBatch {
             name: "bench growth".into(),
             material: "CdSe".into(),
-            status: Some("growing".into()),
+            status: Some(cuvette::vocab::BatchStatus::Growing),
             ..Default::default()
         },
     )

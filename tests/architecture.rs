@@ -214,6 +214,25 @@ fn non_test(text: &str) -> &str {
 /// may use the views (`report`) to return what it wrote; `report` reads the store and
 /// computes with `derive`, and never calls an action; `derive` and `spectra` are pure.
 const LAYER_RULES: &[(&str, &[&str])] = &[
+    // The vocabularies are the lowest layer: every layer may name them, and they name no other
+    // (the error type aside, which turns an unknown word into a refusal).
+    (
+        "src/vocab/",
+        &[
+            "crate::spectra",
+            "crate::derive",
+            "crate::store",
+            "crate::lab",
+            "crate::report",
+            "crate::search",
+            "crate::cli",
+            "crate::tui",
+            "crate::hazards",
+            "crate::paths",
+            "crate::par",
+            "crate::safe_text",
+        ],
+    ),
     (
         "src/spectra/",
         &[

@@ -22,7 +22,7 @@ fn values_computed_in_memory_are_those_the_stored_spectra_give() {
         &NewBatch {
             name: "CS-memory".into(),
             material: "CdSe".into(),
-            status: Some("growing".into()),
+            status: Some(cuvette::vocab::BatchStatus::Growing),
             ..Default::default()
         },
     )

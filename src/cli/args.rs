@@ -4,8 +4,46 @@
 //! and every argument its own line of help; `tests/cli_conventions.rs` walks the tree and
 //! holds each one to that. Completions and the man page are generated from this grammar.
 
+use crate::vocab::{BatchRelation, BatchStatus, LocationKind, Vocabulary};
+use clap::builder::{PossibleValue, TypedValueParser};
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use std::path::PathBuf;
+
+/// The value parser of one vocabulary's words (`crate::vocab`): help, completions and the man
+/// page list the words, and an unknown word is a usage error (exit 2) whose one line names the
+/// argument, the word and the valid ones, with nothing written.
+#[derive(Debug, Clone, Copy)]
+pub struct Words<T>(std::marker::PhantomData<T>);
+
+/// [`Words`] for the vocabulary `T`, as `value_parser = words::<BatchStatus>()` asks for it.
+pub fn words<T>() -> Words<T> {
+    Words(std::marker::PhantomData)
+}
+
+impl<T: Vocabulary + Clone + Send + Sync> TypedValueParser for Words<T> {
+    type Value = T;
+
+    fn parse_ref(
+        &self,
+        _cmd: &clap::Command,
+        arg: Option<&clap::Arg>,
+        value: &std::ffi::OsStr,
+    ) -> Result<T, clap::Error> {
+        let text = value.to_string_lossy();
+        text.parse::<T>().map_err(|e| {
+            let arg = arg.map(|a| format!(" for '{a}'")).unwrap_or_default();
+            // Raw, so clap adds no usage block: the refusal stays one line.
+            clap::Error::raw(
+                clap::error::ErrorKind::InvalidValue,
+                format!("invalid value{arg}: {e}\n"),
+            )
+        })
+    }
+
+    fn possible_values(&self) -> Option<Box<dyn Iterator<Item = PossibleValue> + '_>> {
+        Some(Box::new(T::WORDS.iter().map(PossibleValue::new)))
+    }
+}
 
 /// `examples!("cuvette a", "cuvette b")`: the help's closing block of example invocations.
 macro_rules! examples {
@@ -443,7 +481,8 @@ pub enum BatchCmd {
         /// The batch's id.
         id: i64,
         /// planned, growing, done, failed or archived.
-        status: String,
+        #[arg(value_parser = words::<BatchStatus>(), hide_possible_values = true)]
+        status: BatchStatus,
         /// Print the batch as JSON.
         #[arg(long)]
         json: bool,
@@ -508,14 +547,14 @@ pub struct BatchNewArgs {
     #[arg(long)]
     pub started: Option<String>,
     /// planned, growing, done, failed or archived (default: planned).
-    #[arg(long)]
-    pub status: Option<String>,
+    #[arg(long, value_parser = words::<BatchStatus>(), hide_possible_values = true)]
+    pub status: Option<BatchStatus>,
     /// The batch this one was made from (a core for a shell, a crude batch for a fraction).
     #[arg(long)]
     pub parent: Option<i64>,
     /// shell, fraction or repeat.
-    #[arg(long)]
-    pub relation: Option<String>,
+    #[arg(long, value_parser = words::<BatchRelation>(), hide_possible_values = true)]
+    pub relation: Option<BatchRelation>,
     /// Free notes.
     #[arg(long)]
     pub notes: Option<String>,
@@ -527,8 +566,8 @@ pub struct BatchNewArgs {
 #[derive(Debug, Args)]
 pub struct BatchListArgs {
     /// Only batches with this status (planned, growing, done, failed, archived).
-    #[arg(long)]
-    pub status: Option<String>,
+    #[arg(long, value_parser = words::<BatchStatus>(), hide_possible_values = true)]
+    pub status: Option<BatchStatus>,
     /// Only batches of this material.
     #[arg(long)]
     pub material: Option<String>,
@@ -724,8 +763,8 @@ pub enum LocationCmd {
         /// The location's name, as vials will show it.
         name: String,
         /// freezer, fridge, glovebox, shelf or cabinet.
-        #[arg(long)]
-        kind: String,
+        #[arg(long, value_parser = words::<LocationKind>(), hide_possible_values = true)]
+        kind: LocationKind,
         /// Where it is (room, shelf, rack).
         #[arg(long)]
         position: Option<String>,

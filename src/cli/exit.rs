@@ -18,7 +18,8 @@ pub enum Outcome {
     Success,
     /// The reader of stdout went away early (`cuvette log --json | head`); nothing is said.
     StdoutClosed,
-    /// The command line did not parse: an unknown command or option, a missing argument.
+    /// The command line did not parse: an unknown command or option, a missing argument, a word
+    /// outside its vocabulary (a batch status, a relation, a location kind).
     Usage,
     /// Input that cannot be accepted, or an action refused (a bad unit, an empty reason, a
     /// file in the way without `--force`).
@@ -117,7 +118,7 @@ pub const EXIT_CODES: &[ExitRow] = &[
     ExitRow {
         outcome: Outcome::Usage,
         code: 2,
-        meaning: "a usage error: unknown command or option, missing argument",
+        meaning: "a usage error: unknown command or option, missing argument, a word not in its list (status, relation, location kind)",
     },
 ];
 

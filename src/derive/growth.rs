@@ -339,7 +339,7 @@ pub struct RecipeStats {
 /// Whether a batch counts as failed for a recipe's repeatability (its aliquots are then not
 /// looked at).
 pub fn failed(b: &model::BatchRow) -> bool {
-    b.status == "failed"
+    b.status == crate::vocab::BatchStatus::Failed
 }
 
 /// How repeatable a recipe version is: mean and spread of its batches' product values, from

@@ -3,6 +3,7 @@
 
 use crate::error::Result;
 use crate::store::{Store, model};
+use crate::vocab::{BatchRelation, BatchStatus};
 
 /// Logs a new batch; returns it as stored.
 pub fn log_batch(store: &mut Store, new: &model::NewBatch) -> Result<model::BatchRow> {
@@ -46,7 +47,7 @@ pub fn edit_batch(store: &mut Store, id: i64, edit: &model::BatchEdit) -> Result
 }
 
 /// Sets a batch's status (planned, growing, done, failed, ...).
-pub fn set_status(store: &mut Store, id: i64, status: &str) -> Result<model::BatchRow> {
+pub fn set_status(store: &mut Store, id: i64, status: BatchStatus) -> Result<model::BatchRow> {
     store.write(|tx, who| model::set_batch_status(tx, who, id, status))
 }
 
@@ -63,7 +64,7 @@ pub fn repeat_batch(store: &mut Store, id: i64, name: Option<&str>) -> Result<mo
             recipe: b.recipe.clone(),
             recipe_version: b.recipe_version,
             parent_batch_id: Some(b.id),
-            parent_relation: Some("repeat".into()),
+            parent_relation: Some(BatchRelation::Repeat),
             ..Default::default()
         };
         let nid = model::insert_batch(tx, who, &nb)?;

@@ -11,6 +11,7 @@ use crate::spectra::HC_EV_NM;
 use crate::store::demo_marks::DemoMarks;
 use crate::store::model::{self, NewAliquot, NewBatch, NewSpectrum, NewVial, RecipeReagent, RecipeStep};
 use crate::store::{Store, model::meta_set};
+use crate::vocab::{BatchRelation, BatchStatus, LocationKind, VialStatus};
 use serde::Deserialize;
 use std::path::Path;
 
@@ -33,7 +34,7 @@ struct Person {
 #[derive(Debug, Deserialize)]
 struct Location {
     name: String,
-    kind: String,
+    kind: LocationKind,
     position: Option<String>,
 }
 #[derive(Debug, Deserialize)]
@@ -51,11 +52,11 @@ struct BatchPlan {
     recipe: String,
     operator: String,
     started_at: String,
-    status: String,
+    status: BatchStatus,
     final_peak_nm: Option<f64>,
     aliquots: usize,
     parent: Option<usize>,
-    relation: Option<String>,
+    relation: Option<BatchRelation>,
     notes: String,
 }
 #[derive(Debug, Deserialize)]
@@ -254,7 +255,7 @@ fn growth_series(plan: &BatchPlan, final_peak: f64, rng: &mut Rng) -> Vec<Sample
         "InP" => (45.0, 0.075, 6.0),
         _ => (55.0, 0.036, 4.0),
     };
-    let failed = plan.status == "failed";
+    let failed = plan.status == BatchStatus::Failed;
     let turn = rng.range(5.0, 11.0);
     let qy_base = match plan.material.as_str() {
         "CdSe/ZnS" => rng.range(0.5, 0.8),
@@ -295,7 +296,7 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
             model::add_person(tx, who, &p.name, p.email.as_deref())?;
         }
         for l in &m.locations {
-            model::add_location(tx, who, &l.name, &l.kind, l.position.as_deref())?;
+            model::add_location(tx, who, &l.name, l.kind, l.position.as_deref())?;
         }
         for r in &m.recipes {
             model::save_recipe(
@@ -347,13 +348,13 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                 recipe_version: None,
                 operator: Some(plan.operator.clone()),
                 started_at: Some(plan.started_at.clone()),
-                status: Some(if plan.status == "done" || plan.status == "failed" {
-                    "growing".into()
+                status: Some(if matches!(plan.status, BatchStatus::Done | BatchStatus::Failed) {
+                    BatchStatus::Growing
                 } else {
-                    plan.status.clone()
+                    plan.status
                 }),
                 parent_batch_id: parent_id,
-                parent_relation: plan.relation.clone(),
+                parent_relation: plan.relation,
                 notes: Some(plan.notes.clone()),
             };
             let op = &plan.operator;
@@ -363,7 +364,7 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                 (Some(p), _) => p,
                 (None, Some(pi)) => {
                     let base = final_peaks.get(pi).copied().unwrap_or(560.0);
-                    if plan.relation.as_deref() == Some("shell") {
+                    if plan.relation == Some(BatchRelation::Shell) {
                         base + 9.0
                     } else {
                         base + rng.range(-7.0, 7.0)
@@ -373,7 +374,7 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
             };
             final_peaks.push(final_peak);
             let mut samples = growth_series(&plan, final_peak, &mut rng);
-            if plan.relation.as_deref() == Some("fraction") {
+            if plan.relation == Some(BatchRelation::Fraction) {
                 samples = vec![Sample {
                     minutes: None,
                     stage: Some("fraction".into()),
@@ -480,10 +481,10 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                 }
                 crate::lab::derivation::derive_aliquot(tx, aid)?;
             }
-            if plan.status == "done" || plan.status == "failed" {
-                model::set_batch_status(tx, op, bid, &plan.status)?;
+            if matches!(plan.status, BatchStatus::Done | BatchStatus::Failed) {
+                model::set_batch_status(tx, op, bid, plan.status)?;
             }
-            if plan.status == "done" {
+            if plan.status == BatchStatus::Done {
                 let nvials = if scale.is_some() {
                     1
                 } else {
@@ -541,12 +542,12 @@ pub fn build(store: &mut Store, scale: Option<usize>, mut progress: impl FnMut(u
                 }
             }
             if let Some(pid) = parent_id
-                && plan.relation.as_deref() == Some("shell")
+                && plan.relation == Some(BatchRelation::Shell)
             {
                 // The shell batch drew its cores from the parent's first vial.
                 if let Some(v) = model::vials_of_batch(tx, pid)?
                     .into_iter()
-                    .find(|v| v.status == "in_use" && v.volume_ml > 0.6)
+                    .find(|v| v.status == VialStatus::InUse && v.volume_ml > 0.6)
                 {
                     model::draw_from_vial(tx, op, v.id, 0.5, Some(&format!("cores for the shell of batch {bid}")))?;
                 }
@@ -573,14 +574,18 @@ fn scaled_plan(m: &Manifest, i: usize, total: usize, rng: &mut Rng) -> BatchPlan
     };
     let day = chrono::NaiveDate::from_ymd_opt(2017, 1, 2).unwrap_or_default()
         + chrono::Duration::days((i as i64 * 3650) / total.max(1) as i64);
-    let status = if rng.uniform() < 0.08 { "failed" } else { "done" };
+    let status = if rng.uniform() < 0.08 {
+        BatchStatus::Failed
+    } else {
+        BatchStatus::Done
+    };
     BatchPlan {
         name: format!("L{:05}", i + 1),
         material: r.material.clone(),
         recipe: r.name.clone(),
         operator: m.people[i % m.people.len()].name.clone(),
         started_at: format!("{} 09:30", day.format("%Y-%m-%d")),
-        status: status.into(),
+        status,
         final_peak_nm: Some(peak),
         aliquots: 3,
         parent: None,

@@ -3,6 +3,7 @@
 
 use crate::error::Result;
 use crate::store::{Store, model};
+use crate::vocab::LocationKind;
 
 /// Adds a person to the lab; returns the new id.
 pub fn add_person(store: &mut Store, name: &str, email: Option<&str>) -> Result<i64> {
@@ -29,13 +30,17 @@ pub fn add_reagent(
 }
 
 /// Adds a storage location; returns the new id.
-pub fn add_location(store: &mut Store, name: &str, kind: &str, position: Option<&str>) -> Result<i64> {
+pub fn add_location(store: &mut Store, name: &str, kind: LocationKind, position: Option<&str>) -> Result<i64> {
     store.write(|tx, who| model::add_location(tx, who, name, kind, position))
 }
 
 /// The first run's introductions: the person using cuvette and the first storage place, either
 /// or both, in one transaction.
-pub fn first_run(store: &mut Store, person: Option<(&str, Option<&str>)>, place: Option<(&str, &str)>) -> Result<()> {
+pub fn first_run(
+    store: &mut Store,
+    person: Option<(&str, Option<&str>)>,
+    place: Option<(&str, LocationKind)>,
+) -> Result<()> {
     store.write(|tx, who| {
         if let Some((name, email)) = person {
             model::add_person(tx, who, name, email)?;

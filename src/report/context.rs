@@ -5,6 +5,7 @@
 use crate::derive::engine::{BatchContext, ParentCore};
 use crate::error::Result;
 use crate::store::{Db, values};
+use crate::vocab::BatchRelation;
 
 /// Reads the batch context of a batch: its material's shell and, when shelled, the parent
 /// batch's product diameter.
@@ -25,7 +26,7 @@ pub fn context_of(conn: &Db, b: values::BatchShellRow) -> Result<BatchContext> {
     if ctx.shell.is_none() {
         return Ok(ctx);
     }
-    if let (Some(pid), Some("shell") | None) = (b.parent_batch_id, b.parent_relation.as_deref()) {
+    if let (Some(pid), Some(BatchRelation::Shell) | None) = (b.parent_batch_id, b.parent_relation) {
         let aliquot = values::product_aliquot(conn, pid)?;
         let d = match aliquot {
             Some(aid) => values::current_value(conn, aid, "diameter_nm")?,

@@ -99,9 +99,9 @@ impl From<&model::BatchRow> for BatchCsv {
             recipe_version: b.recipe_version,
             operator: text(b.operator.as_deref().unwrap_or_default()),
             started_at: text(&b.started_at),
-            status: text(&b.status),
+            status: text(b.status.as_str()),
             parent_batch_id: b.parent_batch_id,
-            parent_relation: text(b.parent_relation.as_deref().unwrap_or_default()),
+            parent_relation: text(b.parent_relation.map(|r| r.as_str()).unwrap_or_default()),
             notes: text(&b.notes),
         }
     }

@@ -187,7 +187,7 @@ impl InventoryCsv {
             solvent: csv_text(&v.solvent).into_owned(),
             concentration_molar: v.concentration_molar.map(csv_number).unwrap_or_default(),
             owner: csv_text(owner).into_owned(),
-            status: csv_text(&v.status).into_owned(),
+            status: csv_text(v.status.as_str()).into_owned(),
         }
     }
 }
@@ -233,10 +233,10 @@ fn batch_section(
         section class="batch" id={ "batch-" (batch.id) } data-batch-id=(batch.id) {
             h2 { "Batch " (batch.id) ": " (Shown(&batch.name)) }
             p {
-                (Shown(&batch.material)) ", " (Shown(&batch.status)) ", started " (Shown(&batch.started_at))
+                (Shown(&batch.material)) ", " (Shown(batch.status.as_str())) ", started " (Shown(&batch.started_at))
                 " by " (Shown(batch.operator.as_deref().unwrap_or("")))
                 @if let Some(p) = batch.parent_batch_id {
-                    ", made from batch " (p) " (" (Shown(batch.parent_relation.as_deref().unwrap_or_default())) ")"
+                    ", made from batch " (p) " (" (Shown(batch.parent_relation.map(|r| r.as_str()).unwrap_or_default())) ")"
                 }
             }
             @if batch.voided {
@@ -324,7 +324,7 @@ fn batch_section(
                 @for v in &sheet.vials {
                     li {
                         "vial " (v.id) " " (Shown(&v.label)) ": " (format!("{:.3}", v.volume_ml)) " mL at "
-                        (Shown(&v.location)) " (" (Shown(&v.status)) ", owner "
+                        (Shown(&v.location)) " (" (Shown(v.status.as_str())) ", owner "
                         (Shown(v.owner.as_deref().unwrap_or_default())) ")"
                     }
                 }

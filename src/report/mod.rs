@@ -21,6 +21,7 @@ use crate::derive::{calibration, engine, growth, sizing};
 use crate::error::Result;
 use crate::spectra::analysis::AnalysisSettings;
 use crate::store::{Db, model};
+use crate::vocab::{BatchRelation, ConcentrationSource, VialStatus};
 use serde::Serialize;
 use serde_json::Value;
 
@@ -42,12 +43,12 @@ pub struct ShelfEntry {
     pub initial_ml: f64,
     pub solvent: String,
     pub owner: Option<String>,
-    pub status: String,
+    pub status: VialStatus,
     /// Of the vial's own solution, mol/L.
     pub concentration_molar: Option<f64>,
     /// measured (from the vial's own spectrum), estimate (carried over from the reaction's
     /// product aliquot), entered (the user's figure) or recorded (source not kept).
-    pub concentration_source: Option<String>,
+    pub concentration_source: Option<ConcentrationSource>,
     pub concentration_method: Option<String>,
     /// The concentration's inputs moved since (a calibration change): recompute.
     pub concentration_stale: bool,
@@ -71,14 +72,14 @@ pub fn shelf_entry(v: &model::VialRow) -> ShelfEntry {
         initial_ml: v.initial_ml,
         solvent: v.solvent.clone(),
         owner: v.owner.clone(),
-        status: v.status.clone(),
+        status: v.status,
         concentration_molar: v.concentration_molar,
-        concentration_source: v.concentration_source.clone(),
+        concentration_source: v.concentration_source,
         concentration_method: v.concentration_method.clone(),
         concentration_stale: v.concentration_stale,
         calibration_version: v.calibration_version,
         nanomoles_left: v.concentration_molar.map(|c| c * v.volume_ml * 1e6),
-        low_stock: v.status != "disposed" && v.volume_ml < LOW_STOCK_ML,
+        low_stock: v.status.on_shelf() && v.volume_ml < LOW_STOCK_ML,
         created_at: v.created_at.clone(),
     }
 }
@@ -86,13 +87,13 @@ pub fn shelf_entry(v: &model::VialRow) -> ShelfEntry {
 /// How a vial's concentration is qualified wherever it is shown: an estimate is never shown
 /// as a measurement, a stale value never as current.
 pub fn concentration_note(v: &model::VialRow) -> &'static str {
-    match (v.concentration_stale, v.concentration_source.as_deref()) {
+    match (v.concentration_stale, v.concentration_source) {
         (true, _) => "STALE",
-        (false, Some("estimate")) => "est.",
-        (false, Some("recorded")) => "unverified",
-        (false, Some("entered")) => "entered",
-        (false, Some("measured")) => "measured",
-        _ => "",
+        (false, Some(ConcentrationSource::Estimate)) => "est.",
+        (false, Some(ConcentrationSource::Recorded)) => "unverified",
+        (false, Some(ConcentrationSource::Entered)) => "entered",
+        (false, Some(ConcentrationSource::Measured)) => "measured",
+        (false, None) => "",
     }
 }
 
@@ -363,7 +364,7 @@ pub struct BatchSheet {
 pub struct ChildBatch {
     pub id: i64,
     pub name: String,
-    pub relation: Option<String>,
+    pub relation: Option<BatchRelation>,
 }
 
 /// The full record of a batch.
@@ -384,7 +385,7 @@ pub fn batch_sheet(db: &Db, id: i64) -> Result<BatchSheet> {
     };
     let stock_ml = vials
         .iter()
-        .filter(|x| x.status != "disposed")
+        .filter(|x| x.status.on_shelf())
         .map(|x| x.volume_ml)
         .sum::<f64>();
     let children = model::children_of(db, id)?

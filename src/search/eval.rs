@@ -9,6 +9,7 @@
 use super::parse::{Clause, Field, MAX_WORD_CHARS, Query};
 use crate::error::Result;
 use crate::store::{Db, facts as stored};
+use crate::vocab::{BatchStatus, quantity};
 use fuzzy_matcher::FuzzyMatcher;
 use fuzzy_matcher::skim::SkimMatcherV2;
 use serde::Serialize;
@@ -20,7 +21,7 @@ pub struct Facts {
     pub id: i64,
     pub name: String,
     pub material: String,
-    pub status: String,
+    pub status: BatchStatus,
     pub operator: Option<String>,
     pub started_at: String,
     pub recipe: Option<String>,
@@ -42,6 +43,23 @@ pub struct Facts {
     tokens: Vec<u32>,
     #[serde(skip)]
     table: std::sync::Arc<Vec<String>>,
+}
+
+impl Facts {
+    /// The product value a numeric search field reads (`size` the diameter, ...), by the field's
+    /// name as the quantity table gives it.
+    fn value_of_field(&mut self, field: &str) -> Option<&mut Option<f64>> {
+        Some(match Field::named(field)? {
+            Field::Size => &mut self.diameter_nm,
+            Field::Peak => &mut self.first_exciton_nm,
+            Field::Pl => &mut self.pl_peak_nm,
+            Field::Qy => &mut self.qy,
+            Field::Fwhm => &mut self.pl_fwhm_nm,
+            Field::Dispersion => &mut self.size_dispersion_pct,
+            Field::Conc => &mut self.concentration_molar,
+            _ => return None,
+        })
+    }
 }
 
 /// One search result.
@@ -81,15 +99,11 @@ pub fn load_facts(conn: &Db) -> Result<Vec<Facts>> {
         if let Some(&i) = index.get(&p.batch_id) {
             let f = &mut facts[i];
             let v = p.value;
-            match p.quantity.as_str() {
-                "diameter_nm" => f.diameter_nm = v,
-                "first_exciton_nm" => f.first_exciton_nm = v,
-                "pl_peak_nm" => f.pl_peak_nm = v,
-                "pl_fwhm_nm" => f.pl_fwhm_nm = v,
-                "size_dispersion_pct" => f.size_dispersion_pct = v,
-                "qy" => f.qy = v,
-                "concentration_molar" => f.concentration_molar = v,
-                _ => {}
+            // The quantity table names which field reads each value; the others are not searched.
+            if let Some(q) = quantity::searched_named(&p.quantity)
+                && let Some(slot) = f.value_of_field(q.search_field)
+            {
+                *slot = v;
             }
         }
     }
@@ -205,7 +219,7 @@ fn text_matches(f: &Facts, field: Field, value: &str) -> bool {
     let v = value.to_lowercase();
     match field {
         Field::Material => f.material.to_lowercase() == v,
-        Field::Status => f.status == v,
+        Field::Status => f.status == v.as_str(),
         Field::By => f.operator.as_ref().is_some_and(|o| {
             let o = o.to_lowercase();
             o == v || o.split_whitespace().any(|w| w == v)

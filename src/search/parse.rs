@@ -18,6 +18,7 @@
 //!   that was probably meant (QY is stored as a fraction, concentration in mol/L).
 
 use crate::error::{Error, Result};
+use crate::vocab::{BatchStatus, Vocabulary};
 use chrono::{Datelike, NaiveDate};
 
 /// The longest query accepted, in characters.
@@ -115,13 +116,7 @@ impl Field {
 
     /// The units a number of this field may carry, for the hints in errors.
     fn units(self) -> &'static str {
-        match self {
-            Field::Size | Field::Peak | Field::Pl | Field::Fwhm => "nm",
-            Field::Qy => "a fraction or %",
-            Field::Dispersion => "%",
-            Field::Conc => "M, mM, uM (µM), nM or pM; mol/L when none is written",
-            _ => "no unit",
-        }
+        crate::vocab::quantity::searched_by(self.name()).map_or("no unit", |q| q.search_units)
     }
 }
 
@@ -836,15 +831,13 @@ impl Parser {
         if t.text.trim().is_empty() {
             return Err(fail(t.col, format!("expected a value for {f}, got an empty phrase")));
         }
-        if field == Field::Status
-            && !crate::store::model::BATCH_STATUSES.contains(&t.text.to_ascii_lowercase().as_str())
-        {
+        if field == Field::Status && t.text.to_ascii_lowercase().parse::<BatchStatus>().is_err() {
             return Err(fail(
                 t.col,
                 format!(
                     "unknown status '{}' (use one of {})",
                     t.text,
-                    crate::store::model::BATCH_STATUSES.join(", ")
+                    BatchStatus::WORDS.join(", ")
                 ),
             ));
         }

@@ -13,7 +13,7 @@ pub struct BatchFactRow {
     pub id: i64,
     pub name: String,
     pub material: String,
-    pub status: String,
+    pub status: crate::vocab::BatchStatus,
     pub operator: Option<String>,
     pub started_at: String,
     pub recipe: Option<String>,

@@ -20,6 +20,7 @@ pub mod handover;
 pub mod model;
 pub mod search_bounds;
 pub mod values;
+mod vocab;
 
 /// The open database (a connection or a transaction) as the layers above the store hold it: they pass it to store functions and never run SQL on it.
 pub type Db = rusqlite::Connection;

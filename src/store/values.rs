@@ -297,7 +297,7 @@ pub struct BatchShellRow {
     pub material: String,
     pub shell: Option<String>,
     pub parent_batch_id: Option<i64>,
-    pub parent_relation: Option<String>,
+    pub parent_relation: Option<crate::vocab::BatchRelation>,
 }
 
 const BATCH_SHELL_SELECT: &str = "SELECT b.id, m.name, m.shell, b.parent_batch_id, b.parent_relation

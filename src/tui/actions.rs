@@ -12,6 +12,7 @@ use super::picker::Picker;
 use super::replies::Then;
 use super::worker::{BenchDefaults, Read};
 use super::{shelf, units};
+use crate::vocab::VialStatus;
 use std::path::PathBuf;
 
 impl App {
@@ -206,7 +207,7 @@ impl App {
                     self.error("no vial selected");
                     return;
                 };
-                if v.status == "disposed" {
+                if v.status == VialStatus::Disposed {
                     let label = v.label.clone();
                     self.error(format!("vial {label} is disposed of (u puts it back)"));
                     return;
@@ -372,7 +373,7 @@ impl App {
                 self.reload();
             }
             Action::ReinstateVial => match self.vials.get(self.vial_selected) {
-                Some(v) if v.status == "disposed" => {
+                Some(v) if v.status == VialStatus::Disposed => {
                     let title = format!("Put vial {} ({}) back", v.id, v.label);
                     let id = v.id;
                     self.mode = Mode::Form(Form::new(FormKind::ReinstateVial, &title, &[("why", "")]).on(id));

@@ -490,7 +490,7 @@ impl App {
                             "{} ({}, {}): {} aliquots, {} vials",
                             self.batch_words(id),
                             s.batch.material,
-                            units::words(&s.batch.status),
+                            units::words(s.batch.status.as_str()),
                             s.aliquots.len(),
                             s.vials.len()
                         ),

@@ -12,6 +12,7 @@ use crate::lab::bench;
 use crate::report;
 use crate::search;
 use crate::store::{Db, Store, model};
+use crate::vocab::{BatchStatus, LocationKind};
 use chrono::{DateTime, FixedOffset};
 use std::path::PathBuf;
 use std::sync::mpsc::Sender;
@@ -147,7 +148,9 @@ fn handover_counts(c: &Db, from: &str, to: &str) -> Result<HandoverCounts, Strin
     let open_batches = model::list_batches(c)
         .map_err(e)?
         .into_iter()
-        .filter(|b| b.operator.as_deref() == Some(from) && matches!(b.status.as_str(), "planned" | "growing"))
+        .filter(|b| {
+            b.operator.as_deref() == Some(from) && matches!(b.status, BatchStatus::Planned | BatchStatus::Growing)
+        })
         .count();
     Ok(HandoverCounts { vials, open_batches })
 }
@@ -187,7 +190,7 @@ fn vial_said(v: &model::VialRow) -> String {
         v.label,
         super::units::ml(v.volume_ml),
         v.location,
-        super::units::words(&v.status)
+        super::units::words(v.status.as_str())
     )
 }
 
@@ -328,7 +331,10 @@ pub(super) fn write(store: &mut Store, w: &Write) -> Result<Wrote, String> {
             lab::register::first_run(
                 store,
                 Some((name.as_str(), Some(email.as_str()).filter(|e| !e.is_empty()))).filter(|_| !name.is_empty()),
-                Some((place.as_str(), kind.as_str())).filter(|_| !place.is_empty()),
+                match place.as_str() {
+                    "" => None,
+                    p => Some((p, kind.parse::<LocationKind>().map_err(crate::Error::from).map_err(e)?)),
+                },
             )
             .map_err(e)?;
             let mut parts = Vec::new();

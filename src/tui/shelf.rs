@@ -109,7 +109,7 @@ fn is_own(c: &Clause) -> bool {
 fn vial_meets(v: &VialRow, c: &Clause) -> bool {
     let eps = 1e-9;
     match c {
-        Clause::Stock => v.status != "disposed" && v.volume_ml > eps,
+        Clause::Stock => v.status.on_shelf() && v.volume_ml > eps,
         Clause::Text {
             field: Field::At,
             value,

@@ -12,6 +12,7 @@ use super::units;
 use super::worker::{AliquotFields, Read, Write};
 use crate::lab::bench::{self, SpectrumFile};
 use crate::store::model;
+use crate::vocab::{BatchStatus, LocationKind, Vocabulary};
 use std::path::PathBuf;
 
 /// What saving a form led to.
@@ -59,7 +60,7 @@ impl App {
                     material: f.get("material"),
                     recipe: some(f.get("recipe")),
                     operator: some(f.get("operator")),
-                    status: Some("growing".into()),
+                    status: Some(BatchStatus::Growing),
                     ..Default::default()
                 };
                 self.save(f, Write::NewBatch(nb))
@@ -228,10 +229,10 @@ impl App {
                 if name.chars().count() > 80 || name.chars().any(char::is_control) {
                     return Err("your name: one line of at most 80 printable characters".into());
                 }
-                if !place.is_empty() && !model::LOCATION_KINDS.contains(&kind.as_str()) {
+                if !place.is_empty() && kind.parse::<LocationKind>().is_err() {
                     return Err(format!(
                         "location kind: one of {} (got '{kind}')",
-                        model::LOCATION_KINDS.join(", ")
+                        LocationKind::WORDS.join(", ")
                     ));
                 }
                 let sign = !name.is_empty() && name != self.store.actor && !self.writer.chosen;

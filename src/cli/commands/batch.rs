@@ -19,9 +19,9 @@ pub(super) fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
                 recipe_version: a.recipe_version,
                 operator: a.operator.clone(),
                 started_at: a.started.clone(),
-                status: a.status.clone(),
+                status: a.status,
                 parent_batch_id: a.parent,
-                parent_relation: a.relation.clone(),
+                parent_relation: a.relation,
                 notes: a.notes.clone(),
             };
             let row = crate::lab::batches::log_batch(&mut store, &nb)?;
@@ -35,9 +35,6 @@ pub(super) fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
             }
         }
         BatchCmd::List(a) => {
-            if let Some(s) = &a.status {
-                model::check_status(s)?;
-            }
             let rows = store.read(|tx| {
                 let mut all = model::list_batches(tx)?;
                 if let Some(m) = &a.material {
@@ -48,7 +45,7 @@ pub(super) fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
             })?;
             let rows: Vec<_> = rows
                 .into_iter()
-                .filter(|b| a.status.as_ref().is_none_or(|s| &b.status == s))
+                .filter(|b| a.status.is_none_or(|s| b.status == s))
                 .collect();
             if a.json {
                 json(&rows)?;
@@ -95,7 +92,7 @@ pub(super) fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
             }
         }
         BatchCmd::SetStatus { id, status, json: j } => {
-            let row = crate::lab::batches::set_status(&mut store, *id, status)?;
+            let row = crate::lab::batches::set_status(&mut store, *id, *status)?;
             if *j {
                 json(&row)?
             } else {

@@ -125,7 +125,7 @@ pub(super) fn location(cli: &Cli, c: &LocationCmd) -> Result<()> {
             position,
             json: j,
         } => {
-            let id = crate::lab::register::add_location(&mut store, name, kind, position.as_deref())?;
+            let id = crate::lab::register::add_location(&mut store, name, *kind, position.as_deref())?;
             if *j {
                 let ls = store.read(|tx| model::list_locations(tx))?;
                 return json(&ls.iter().find(|l| l.id == id));

@@ -6,6 +6,7 @@ use crate::cli::args::*;
 use crate::cli::output::{json, line, molar, num};
 use crate::lab::bench;
 use crate::store::{Store, model};
+use crate::vocab::VialStatus;
 use anyhow::{Result, bail};
 
 fn vial_id(store: &mut Store, key: &str) -> Result<i64> {
@@ -174,10 +175,10 @@ pub(super) fn shelf(cli: &Cli, a: &ShelfArgs) -> Result<()> {
             crate::report::concentration_note(v),
             num(e.nanomoles_left, 2),
             v.owner.clone().unwrap_or_default(),
-            if v.status == "in_use" {
+            if v.status == VialStatus::InUse {
                 String::new()
             } else {
-                v.status.clone()
+                v.status.to_string()
             }
         ))?;
     }

@@ -53,7 +53,7 @@ pub fn vial_measured(
         warnings.extend(find_value(&values, q).map(|d| d.warnings.clone()).unwrap_or_default());
     }
     let c = VialConcentration {
-        source: "measured".into(),
+        source: crate::vocab::ConcentrationSource::Measured,
         spectrum_id: Some(spectrum.id),
         aliquot_id: None,
         value: conc.and_then(|c| c.value),

@@ -56,16 +56,9 @@ pub struct RecomputeReport {
     pub vials_changed: usize,
 }
 
-/// The search fields a threshold can be about, and the derived quantity behind each.
-pub const THRESHOLD_FIELDS: &[(&str, &str)] = &[
-    ("size", "diameter_nm"),
-    ("peak", "first_exciton_nm"),
-    ("pl", "pl_peak_nm"),
-    ("qy", "qy"),
-    ("fwhm", "pl_fwhm_nm"),
-    ("dispersion", "size_dispersion_pct"),
-    ("conc", "concentration_molar"),
-];
+/// The search fields a threshold can be about, and the derived quantity behind each: the one
+/// table of searched quantities (`vocab::quantity`).
+pub const THRESHOLD_FIELDS: &[crate::vocab::DerivedQuantity] = crate::vocab::SEARCHED_QUANTITIES;
 
 /// Aliquots are taken in chunks of ids, so memory stays bounded and no query runs per aliquot.
 const CHUNK: i64 = 2000;
@@ -464,8 +457,8 @@ pub fn mark_stale(tx: &Db) -> Result<usize> {
 pub fn search_thresholds(conn: &Db) -> Result<Vec<(String, String, f64)>> {
     let mut out = Vec::new();
     for (f, v) in values::search_thresholds(conn)? {
-        if let Some((_, q)) = THRESHOLD_FIELDS.iter().find(|(k, _)| *k == f) {
-            out.push((f, q.to_string(), v));
+        if let Some(q) = THRESHOLD_FIELDS.iter().find(|q| q.search_field == f) {
+            out.push((f, q.name.to_string(), v));
         }
     }
     Ok(out)

@@ -9,6 +9,7 @@ use crate::error::Result;
 use crate::store::Db;
 use crate::store::model::{StoredVialConcentration, VialConcentration};
 use crate::store::values;
+use crate::vocab::ConcentrationSource;
 use std::collections::BTreeMap;
 
 /// What a vial concentration estimated from its batch's product aliquot should be now.
@@ -29,7 +30,7 @@ fn estimate_from(conn: &Db, aid: i64) -> Result<Option<VialConcentration>> {
     ];
     warnings.extend(v.warnings.clone());
     Ok(Some(VialConcentration {
-        source: "estimate".into(),
+        source: ConcentrationSource::Estimate,
         spectrum_id: None,
         aliquot_id: Some(aid),
         value: v.value,
@@ -91,9 +92,9 @@ impl VialScan {
     /// What a vial's derived concentration should be now, given its current row.
     pub(super) fn expected(&mut self, conn: &Db, row: &StoredVialConcentration) -> Result<Option<VialConcentration>> {
         let batch_id = self.batch_of(conn, row.vial_id)?;
-        match row.c.source.as_str() {
-            "estimate" => self.estimate(conn, batch_id),
-            "measured" => {
+        match row.c.source {
+            ConcentrationSource::Estimate => self.estimate(conn, batch_id),
+            ConcentrationSource::Measured => {
                 let Some(sid) = row.c.spectrum_id else { return Ok(None) };
                 let s = crate::store::model::vial_spectrum(conn, sid)?;
                 let core = crate::store::model::get_batch(conn, batch_id)?.core;
@@ -132,7 +133,7 @@ pub fn refresh_vials(conn: &Db, batch: Option<i64>, dry_run: bool) -> Result<(us
         let expected = scan.expected(conn, &row)?;
         let Some(new) = expected else {
             // The estimate has nothing to follow any more (its product was voided): say so.
-            if row.c.source == "estimate" && !row.stale {
+            if row.c.source == ConcentrationSource::Estimate && !row.stale {
                 if !dry_run {
                     crate::store::model::flag_vial_concentration(conn, row.id, true)?;
                 }
@@ -159,8 +160,8 @@ pub fn mark_vials_stale(tx: &Db) -> Result<usize> {
     let mut scan = VialScan::new(tx, true)?;
     for row in crate::store::model::derived_vial_concentrations(tx, None)? {
         let batch_id = scan.batch_of(tx, row.vial_id)?;
-        let stale = match row.c.source.as_str() {
-            "estimate" => match scan.estimate(tx, batch_id)? {
+        let stale = match row.c.source {
+            ConcentrationSource::Estimate => match scan.estimate(tx, batch_id)? {
                 None => true,
                 Some(e) => {
                     let src_stale = values::current_stale_flag(tx, e.aliquot_id.unwrap_or(0), "concentration_molar")?

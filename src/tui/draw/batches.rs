@@ -2,6 +2,7 @@
 //! the sort marks, the selected row. Draws from the app state only.
 
 use super::*;
+use crate::vocab::BatchStatus;
 
 /// What a search box shows: its text, whether it is being typed in, what the last good query
 /// means, the current error and its column, and a count of what is listed.
@@ -96,15 +97,15 @@ impl<'a> Column<'a> {
 pub(super) fn batch_columns<'a>(app: &'a App, width: u16) -> Vec<Column<'a>> {
     let fit = |head: String, cell: Box<dyn Fn(&Facts) -> String + 'a>| Column::fitted(app, head, cell);
     let bracketed = |b: &Facts| {
-        if b.status == "done" {
+        if b.status == BatchStatus::Done {
             b.name.clone()
         } else {
-            format!("{} [{}]", b.name, units::words(&b.status))
+            format!("{} [{}]", b.name, units::words(b.status.as_str()))
         }
     };
     let name = fit("name".into(), Box::new(|b| b.name.clone()));
     let name_with_status = fit("name".into(), Box::new(bracketed));
-    let mut status = Some(fit("status".into(), Box::new(|b| units::words(&b.status))));
+    let mut status = Some(fit("status".into(), Box::new(|b| units::words(b.status.as_str()))));
     let mut operator = Some(fit(
         "operator".into(),
         Box::new(|b| b.operator.clone().unwrap_or_default()),

@@ -166,7 +166,7 @@ pub(super) fn sheet_foot(app: &App, b: &BatchSheet, p: &Palette) -> Vec<Line<'st
     let vials: Vec<String> = b
         .vials
         .iter()
-        .filter(|v| v.status != "disposed")
+        .filter(|v| v.status.on_shelf())
         .map(|v| format!("{} {} mL @ {}", v.label, units::ml(v.volume_ml), v.location))
         .collect();
     lines.push(Line::from(format!(

@@ -2,6 +2,7 @@
 //! and marks for low or stale stock. Draws from the app state only.
 
 use super::*;
+use crate::vocab::VialStatus;
 
 /// A label cut to `w` cells from its middle, so the end that tells vials of one batch apart
 /// (`-V1`, `-V2`) always shows: `CS-26…-p-V2`.
@@ -125,7 +126,7 @@ pub(super) fn draw_shelf(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
                     .iter()
                     .filter(|w| o.group.of(w) == g)
                     .fold((0, 0.0), |(c, m), w| {
-                        (c + 1, m + if w.status == "disposed" { 0.0 } else { w.volume_ml })
+                        (c + 1, m + if w.status.on_shelf() { w.volume_ml } else { 0.0 })
                     });
                 shown.push(ShelfLine::Group(format!(
                     "{} {g} · {count} vial{} · {} mL",
@@ -156,7 +157,7 @@ pub(super) fn draw_shelf(f: &mut Frame, app: &App, area: Rect, p: &Palette) {
             }
             ShelfLine::Vial(i) => {
                 let v = &app.vials[*i];
-                let disposed = v.status == "disposed";
+                let disposed = v.status == VialStatus::Disposed;
                 let low = !disposed && v.volume_ml < crate::report::LOW_STOCK_ML;
                 let cells = heads.iter().map(|(h, _)| match *h {
                     "location" => v.location.clone(),
