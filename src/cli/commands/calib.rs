@@ -8,7 +8,7 @@ use crate::derive::{calibration, sizing, solvents};
 use crate::spectra::{self, ReadOptions};
 use crate::store::{Store, model};
 use anyhow::{Result, anyhow, bail};
-use serde_json::json;
+use serde::Serialize;
 
 fn core_of(tx: &crate::store::Db, material: &str) -> crate::Result<String> {
     match model::material_by_name(tx, material) {
@@ -29,6 +29,15 @@ fn core_of(tx: &crate::store::Db, material: &str) -> crate::Result<String> {
 /// refuses 500).
 const MAX_HOMOGENEOUS_HWHM_MEV: f64 = 200.0;
 
+/// What a calibration change prints with `--json`: the new version and how many derived
+/// values it made stale.
+#[derive(Serialize)]
+struct CalibrationChanged {
+    // Fields in alphabetical order: the order these keys have always been printed in.
+    marked_stale: usize,
+    version: i64,
+}
+
 pub(super) fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
     let mut store = open_for(
         cli,
@@ -41,7 +50,10 @@ pub(super) fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
      -> Result<()> {
         let (v, stale) = crate::lab::calibrations::change(store, why, f)?;
         if j {
-            json(&json!({"version": v, "marked_stale": stale}))
+            json(&CalibrationChanged {
+                marked_stale: stale,
+                version: v,
+            })
         } else {
             line(&format!(
                 "calibration version {v}; {stale} derived values are now stale (run `cuvette recompute --dry-run` to preview)"
