@@ -35,13 +35,23 @@ pub enum Error {
     /// The disk or the file refused a write; nothing was written.
     #[error("{0}")]
     Storage(String),
-    /// The lab was restored or its file replaced while this process had it open.
-    #[error("{0}")]
-    Replaced(String),
+    /// The lab was restored or its file replaced while this process had it open; `how` says
+    /// which, so no caller reads it from the message.
+    #[error("{message}")]
+    Replaced { how: Replacement, message: String },
     #[error("{0}")]
     Io(#[from] std::io::Error),
     #[error("json: {0}")]
     Json(#[from] serde_json::Error),
+}
+
+/// What happened to the lab a process had open, as [`Error::Replaced`] names it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Replacement {
+    /// Restored from a backup (the lab has a new generation) while open.
+    Restored,
+    /// The file at the lab's path is no longer the one opened: moved or replaced.
+    FileReplaced,
 }
 
 pub type Result<T> = std::result::Result<T, Error>;

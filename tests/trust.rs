@@ -1191,6 +1191,41 @@ fn the_ui_notices_a_restore_and_reopens_the_restored_lab() {
     );
 }
 
+/// The UI tells a restore from a replaced file by what happened, not by the words of the
+/// message: a lab kept in a folder whose name says "restored" and then replaced by another
+/// file is a replaced file. (Before, the UI looked for "restored" in the message, which names
+/// the path, and told this person their lab had been restored from a backup.)
+#[test]
+fn the_ui_tells_a_replaced_file_from_a_restore_whatever_the_path_says() {
+    let dir = tempfile::Builder::new().prefix("restored-labs").tempdir().unwrap();
+    let lab = Lab {
+        db: dir.path().join("lab.db"),
+        dir,
+    };
+    lab.ok(&["init"]);
+    lab.ok(&["batch", "new", "--material", "CdSe", "--name", "in the first file"]);
+    let other = lab.path("other.db");
+    lab.run_on(&other, &["init"]);
+    let mut app = ui(&lab);
+    assert_eq!(app.hits.len(), 1);
+    // The UI's file moves aside with its journal, and the other lab takes its place.
+    for end in ["", "-wal", "-shm"] {
+        let from = lab.path(&format!("lab.db{end}"));
+        if from.exists() {
+            std::fs::rename(&from, lab.path(&format!("moved.db{end}"))).unwrap();
+        }
+    }
+    assert!(!lab.path("other.db-wal").exists());
+    std::fs::rename(&other, &lab.db).unwrap();
+    check_lab(&mut app);
+    let shown = app.message.as_ref().map(|m| m.1.clone()).unwrap_or_default();
+    assert!(
+        shown.starts_with("the lab's file was replaced: now showing the lab as it is"),
+        "{shown}"
+    );
+    assert_eq!(app.hits.len(), 0, "the file now at the path has no batch");
+}
+
 #[test]
 fn the_handover_pack_leaves_void_aliquots_out_and_labels_estimates() {
     let (lab, b, ids) = series_lab();

@@ -191,7 +191,7 @@ impl Outcome {
             Error::Storage(_) => Outcome::Storage,
             Error::NewerSchema { .. } => Outcome::NewerSchema,
             Error::NotADatabase { .. } => Outcome::NotADatabase,
-            Error::Replaced(_) => Outcome::Replaced,
+            Error::Replaced { .. } => Outcome::Replaced,
             Error::Sqlite(_) | Error::Io(_) | Error::Json(_) => Outcome::Other,
         }
     }

@@ -16,6 +16,26 @@ pub fn json<T: Serialize + ?Sized>(v: &T) -> Result<()> {
     line(&s)
 }
 
+/// A view printed with its keys in alphabetical order at every depth. `batch show --json`,
+/// `explain --json` and the small results of the commands that built their JSON by hand have
+/// always printed their keys so (they went through a `serde_json` map, which sorts them), and
+/// scripts may compare that text; their structs keep the fields in the order people read them.
+pub fn json_sorted<T: Serialize + ?Sized>(v: &T) -> Result<()> {
+    json(&serde_json::to_value(v)?)
+}
+
+/// A number (or a missing one) written as JSON writes it: `10.0`, `2`, `null`. The text lines
+/// that have always shown a view's numbers so keep doing it.
+pub fn as_json<T: Serialize + ?Sized>(v: &T) -> String {
+    serde_json::to_string(v).unwrap_or_default()
+}
+
+/// A number that can be shown: NaN and the infinities, which JSON has no word for, count as
+/// missing, as they do in `--json`.
+pub fn finite(v: Option<f64>) -> Option<f64> {
+    v.filter(|x| x.is_finite())
+}
+
 pub fn json_line<T: Serialize + ?Sized>(v: &T) -> Result<()> {
     let s = safe_text::json_text(serde_json::to_string(v)?);
     line(&s)

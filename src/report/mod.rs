@@ -1,8 +1,8 @@
 //! Views for people and other tools, built from the store: the shelf entry, `explain`'s chain,
 //! SVG plots of a growth series, exports and the handover pack (written by `lab::handover` inside
 //! its transaction). Read-only.
-//! The views are typed (`BatchSheet`, `ExplainChain`); `batch_detail` and `explain` give them as
-//! JSON values for the callers that still take one.
+//! The views are typed (`BatchSheet`, `ExplainChain`): the faces read their fields, and
+//! `--json` prints them as they are.
 
 pub mod context;
 mod export;
@@ -23,7 +23,6 @@ use crate::spectra::analysis::AnalysisSettings;
 use crate::store::{Db, model};
 use crate::vocab::{BatchRelation, ConcentrationSource, VialStatus};
 use serde::Serialize;
-use serde_json::Value;
 
 /// Below this volume a vial counts as low on stock (common practice of our invented lab; a
 /// setting a lab may want to change).
@@ -298,11 +297,6 @@ pub fn explain_chain(db: &Db, aliquot_id: i64) -> Result<ExplainChain> {
     })
 }
 
-/// [`explain_chain`] as JSON, for the callers that still take a `Value`.
-pub fn explain(db: &Db, aliquot_id: i64) -> Result<Value> {
-    Ok(serde_json::to_value(explain_chain(db, aliquot_id)?)?)
-}
-
 /// Minutes of a growth series for people: to 0.01 min, no trailing zeros (2, 2.5, 1.55), never
 /// "-0". One rule for the UI, the plots and the pack.
 pub fn minutes(m: f64) -> String {
@@ -411,14 +405,10 @@ pub fn batch_sheet(db: &Db, id: i64) -> Result<BatchSheet> {
     })
 }
 
-/// [`batch_sheet`] as JSON, for the callers that still take a `Value`.
-pub fn batch_detail(db: &Db, id: i64) -> Result<Value> {
-    Ok(serde_json::to_value(batch_sheet(db, id)?)?)
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
+    use serde_json::Value;
     use std::collections::BTreeSet;
 
     fn keys(v: &Value) -> BTreeSet<String> {

@@ -51,7 +51,7 @@ impl From<rusqlite::Error> for Error {
     }
 }
 
-use crate::error::{Error, Result};
+use crate::error::{Error, Replacement, Result};
 use rusqlite::{Connection, OpenFlags, Transaction, TransactionBehavior, params};
 use std::path::{Path, PathBuf};
 use std::time::Duration;
@@ -306,8 +306,8 @@ impl Store {
     }
 
     /// Whether the lab this store opened is still the one at its path: None when it is, else
-    /// what happened (restored from a backup, or the file moved or replaced).
-    pub fn replaced(&self) -> Result<Option<String>> {
+    /// what happened (restored from a backup, or the file moved or replaced) and its message.
+    pub fn replaced(&self) -> Result<Option<(Replacement, String)>> {
         match check_still_ours(
             self.path.as_deref(),
             self.file_id,
@@ -315,7 +315,7 @@ impl Store {
             &self.conn,
         ) {
             Ok(()) => Ok(None),
-            Err(Error::Replaced(m)) => Ok(Some(m)),
+            Err(Error::Replaced { how, message }) => Ok(Some((how, message))),
             Err(e) => Err(e),
         }
     }
@@ -526,22 +526,28 @@ fn check_still_ours(
         && file_id.is_some()
         && file_identity(path) != file_id
     {
-        return Err(Error::Replaced(format!(
-            "{} is no longer the file this cuvette opened (it was moved or replaced); reopen it: nothing was written",
-            path.display()
-        )));
+        return Err(Error::Replaced {
+            how: Replacement::FileReplaced,
+            message: format!(
+                "{} is no longer the file this cuvette opened (it was moved or replaced); reopen it: nothing was written",
+                path.display()
+            ),
+        });
     }
     let current = model::meta_get(tx, GENERATION_KEY)?;
     if current.as_deref() != generation {
         let when = model::meta_get(tx, "restored_at")?.unwrap_or_default();
-        return Err(Error::Replaced(format!(
-            "nothing was written: the lab was restored from a backup{} while open; reopen it",
-            if when.is_empty() {
-                String::new()
-            } else {
-                format!(" at {when}")
-            }
-        )));
+        return Err(Error::Replaced {
+            how: Replacement::Restored,
+            message: format!(
+                "nothing was written: the lab was restored from a backup{} while open; reopen it",
+                if when.is_empty() {
+                    String::new()
+                } else {
+                    format!(" at {when}")
+                }
+            ),
+        });
     }
     Ok(())
 }

@@ -121,10 +121,10 @@ fn stored_injection(c: &Db, batch: i64) -> Option<DateTime<FixedOffset>> {
 fn check(store: &mut Store) -> Result<Checked, String> {
     match store.replaced() {
         Ok(None) => Ok(Checked::Same(store.data_version().ok())),
-        Ok(Some(what)) => {
+        Ok(Some((how, what))) => {
             let fresh = crate::lab::reopen(store).map_err(|e| format!("{what}; reopening failed: {e}"))?;
             *store = fresh.sibling().map_err(|e| format!("{what}; reopening failed: {e}"))?;
-            Ok(Checked::Reopened(Box::new(fresh), what))
+            Ok(Checked::Reopened(Box::new(fresh), how))
         }
         Err(e) => Err(e.to_string()),
     }

@@ -11,6 +11,7 @@ use super::forms::{self, Form};
 use super::jobs::RecomputeReport;
 use super::units;
 use super::worker::{Checked, Kind, Lists, Note, Read, Reply, SheetData, TrailAsk, Write, Wrote};
+use crate::error::Replacement;
 use crate::lab::bench::WatchSetup;
 use std::collections::{BTreeMap, HashMap};
 use std::sync::mpsc::RecvTimeoutError;
@@ -424,17 +425,16 @@ impl App {
                     self.reload();
                 }
             }
-            Ok(Checked::Reopened(store, what)) => {
+            Ok(Checked::Reopened(store, how)) => {
                 self.store = *store;
                 if !matches!(self.mode, Mode::Normal | Mode::Help) {
                     self.closed_at = Some(Instant::now());
                 }
                 self.mode = Mode::Normal;
                 self.reload();
-                let why = if what.contains("restored") {
-                    "the lab was restored from a backup"
-                } else {
-                    "the lab's file was replaced"
+                let why = match how {
+                    Replacement::Restored => "the lab was restored from a backup",
+                    Replacement::FileReplaced => "the lab's file was replaced",
                 };
                 self.error(format!("{why}: now showing the lab as it is; redo anything unfinished"));
             }

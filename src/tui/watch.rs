@@ -131,7 +131,7 @@ pub fn start(mut store: Store, setup: WatchSetup, tx: Sender<Note>) -> WatchRun 
                 };
                 let mut r = bench::log_watched_file(&mut store, &setup, &p, look.modified, &mut logged);
                 // The lab was restored while watching: go on watching into the restored lab.
-                if let Err(crate::Error::Replaced(_)) = &r
+                if let Err(crate::Error::Replaced { .. }) = &r
                     && let Ok(fresh) = crate::lab::reopen(&store)
                 {
                     store = fresh;

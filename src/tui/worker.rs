@@ -243,7 +243,7 @@ pub enum Checked {
     Same(Option<i64>),
     /// The lab was restored or replaced (what happened): the worker now works on the lab at
     /// the path, and this is the UI's store for it.
-    Reopened(Box<Store>, String),
+    Reopened(Box<Store>, crate::error::Replacement),
 }
 
 /// What a write did.

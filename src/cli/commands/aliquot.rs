@@ -8,7 +8,7 @@ use crate::cli::output::{self, Progress, json, line, molar, num};
 use crate::lab::bench::{self, SpectrumFile};
 use crate::store::model;
 use anyhow::{Context, Result, anyhow, bail};
-use serde_json::json;
+use serde::Serialize;
 use std::path::Path;
 use std::process::ExitCode;
 
@@ -205,7 +205,11 @@ pub(super) fn import(cli: &Cli, a: &ImportArgs) -> Result<()> {
         progress.tick(d, t)
     })?;
     if a.json {
-        return json(&json!({"batch_id": a.batch_id, "aliquots": r.aliquots, "skipped": r.skipped}));
+        return json(&Imported {
+            aliquots: &r.aliquots,
+            batch_id: a.batch_id,
+            skipped: &r.skipped,
+        });
     }
     line(&format!(
         "imported {} aliquots into batch {}",
@@ -219,6 +223,33 @@ pub(super) fn import(cli: &Cli, a: &ImportArgs) -> Result<()> {
     }
     let _ = output::num(None, 0);
     Ok(())
+}
+
+/// What `import --json` prints: the batch's new aliquots and the files skipped.
+#[derive(Serialize)]
+struct Imported<'a> {
+    // Fields in alphabetical order: the order these keys have always been printed in.
+    aliquots: &'a [i64],
+    batch_id: i64,
+    skipped: &'a [String],
+}
+
+/// One line of `import-manifest --json`: a batch's folder imported, or why it was not.
+#[derive(Serialize)]
+#[serde(untagged)]
+enum ManifestResult {
+    // Fields in alphabetical order: the order these keys have always been printed in.
+    Imported {
+        aliquots: Vec<i64>,
+        batch_id: i64,
+        folder: String,
+        skipped: Vec<String>,
+    },
+    Failed {
+        batch_id: i64,
+        error: String,
+        folder: String,
+    },
 }
 
 #[derive(serde::Deserialize)]
@@ -280,9 +311,12 @@ pub(super) fn import_manifest(cli: &Cli, a: &ManifestArgs) -> Result<ExitCode> {
             &bench::Door::default(),
             |_, _| {},
         ) {
-            Ok(ids) => results.push(
-                json!({"batch_id": r.batch_id, "folder": folder.display().to_string(), "aliquots": ids.aliquots, "skipped": ids.skipped}),
-            ),
+            Ok(ids) => results.push(ManifestResult::Imported {
+                aliquots: ids.aliquots,
+                batch_id: r.batch_id,
+                folder: folder.display().to_string(),
+                skipped: ids.skipped,
+            }),
             Err(e) => {
                 failed = true;
                 output::warn(&format!(
@@ -290,9 +324,11 @@ pub(super) fn import_manifest(cli: &Cli, a: &ManifestArgs) -> Result<ExitCode> {
                     r.batch_id,
                     folder.display()
                 ));
-                results.push(
-                    json!({"batch_id": r.batch_id, "folder": folder.display().to_string(), "error": e.to_string()}),
-                );
+                results.push(ManifestResult::Failed {
+                    batch_id: r.batch_id,
+                    error: e.to_string(),
+                    folder: folder.display().to_string(),
+                });
             }
         }
         progress.tick(i + 1, rows.len());
@@ -301,9 +337,11 @@ pub(super) fn import_manifest(cli: &Cli, a: &ManifestArgs) -> Result<ExitCode> {
         json(&results)?;
     } else {
         for r in &results {
-            match r["aliquots"].as_array() {
-                Some(ids) => line(&format!("batch {}: {} aliquots", r["batch_id"], ids.len()))?,
-                None => line(&format!("batch {}: not imported", r["batch_id"]))?,
+            match r {
+                ManifestResult::Imported { aliquots, batch_id, .. } => {
+                    line(&format!("batch {batch_id}: {} aliquots", aliquots.len()))?
+                }
+                ManifestResult::Failed { batch_id, .. } => line(&format!("batch {batch_id}: not imported"))?,
             }
         }
     }

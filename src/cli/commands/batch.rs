@@ -3,10 +3,10 @@
 
 use super::open_for;
 use crate::cli::args::*;
-use crate::cli::output::{json, line, molar, num};
+use crate::cli::output::{as_json, finite, json, json_sorted, line, molar, num};
+use crate::report::BatchSheet;
 use crate::store::model;
 use anyhow::Result;
-use serde_json::Value;
 
 pub(super) fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
     let mut store = open_for(cli, !matches!(c, BatchCmd::List(_) | BatchCmd::Show { .. }))?;
@@ -64,8 +64,8 @@ pub(super) fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
             }
         }
         BatchCmd::Show { id, json: j } => {
-            let v = store.read(|tx| crate::report::batch_detail(tx, *id))?;
-            if *j { json(&v)? } else { print_batch(&v)? }
+            let sheet = store.read(|tx| crate::report::batch_sheet(tx, *id))?;
+            if *j { json_sorted(&sheet)? } else { print_batch(&sheet)? }
         }
         BatchCmd::Edit(a) => {
             let e = model::BatchEdit {
@@ -122,119 +122,119 @@ pub(super) fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
     Ok(())
 }
 
-fn print_batch(v: &Value) -> Result<()> {
-    let s = |k: &str| v[k].as_str().unwrap_or("").to_string();
+fn print_batch(v: &BatchSheet) -> Result<()> {
+    let b = &v.batch;
+    // NaN where the text once read a missing number: `{:.1}` shows it as such.
+    let nm = |x: Option<f64>| finite(x).unwrap_or(f64::NAN);
+    line(&format!("batch {} {} ({}) {}", b.id, b.name, b.material, b.status))?;
     line(&format!(
-        "batch {} {} ({}) {}",
-        v["id"],
-        s("name"),
-        s("material"),
-        s("status")
+        "  started {} by {}",
+        b.started_at,
+        b.operator.as_deref().unwrap_or("")
     ))?;
-    line(&format!("  started {} by {}", s("started_at"), s("operator")))?;
-    if let Some(r) = v["recipe"].as_str() {
-        line(&format!("  recipe {r} v{}", v["recipe_version"]))?;
+    if let Some(r) = &b.recipe {
+        line(&format!("  recipe {r} v{}", as_json(&b.recipe_version)))?;
     }
-    if !s("notes").is_empty() {
-        line(&format!("  notes: {}", s("notes")))?;
+    if !b.notes.is_empty() {
+        line(&format!("  notes: {}", b.notes))?;
     }
     line("   id   min  stage     peak nm   abs    D nm   σ/D %   conc       PL nm  QY     curve (cal)")?;
-    for a in v["aliquots"].as_array().into_iter().flatten() {
-        let f = |k: &str, d: usize| num(a[k].as_f64(), d);
+    for a in &v.aliquots {
+        let f = |x: Option<f64>, d: usize| num(finite(x), d);
+        // The id unpadded, as these lines have always printed it (a JSON number took no width).
         line(&format!(
-            "  {:>4} {:>5} {:<8} {:>8} {:>6} {:>6} {:>6}   {:<10} {:>6} {:>5}  {} ({}){}",
-            a["id"],
-            f("minutes", 1),
-            a["stage"].as_str().unwrap_or(""),
-            f("first_exciton_nm", 1),
-            f("first_exciton_abs", 3),
-            f("diameter_nm", 2),
-            f("size_dispersion_pct", 1),
-            molar(a["concentration_molar"].as_f64()),
-            f("pl_peak_nm", 1),
-            f("qy", 2),
-            a["curve"].as_str().unwrap_or("-"),
-            a["calibration_version"],
-            match (a["voided"].as_bool() == Some(true), a["stale"].as_bool() == Some(true)) {
-                (true, _) => format!(" VOID: {}", a["void_why"].as_str().unwrap_or("")),
+            "  {} {:>5} {:<8} {:>8} {:>6} {:>6} {:>6}   {:<10} {:>6} {:>5}  {} ({}){}",
+            a.id,
+            f(a.minutes, 1),
+            a.stage.as_deref().unwrap_or(""),
+            f(a.first_exciton_nm, 1),
+            f(a.first_exciton_abs, 3),
+            f(a.diameter_nm, 2),
+            f(a.size_dispersion_pct, 1),
+            molar(finite(a.concentration_molar)),
+            f(a.pl_peak_nm, 1),
+            f(a.qy, 2),
+            a.curve.as_deref().unwrap_or("-"),
+            as_json(&a.calibration_version),
+            match (a.voided, a.stale) {
+                (true, _) => format!(" VOID: {}", a.void_why.as_deref().unwrap_or("")),
                 (false, true) => " STALE".to_string(),
                 _ => String::new(),
             }
         ))?;
     }
-    if v["voided"].as_bool() == Some(true) {
-        line(&format!("  VOID batch: {}", s("void_why")))?;
+    if b.voided {
+        line(&format!("  VOID batch: {}", b.void_why.as_deref().unwrap_or("")))?;
     }
-    let g = &v["growth"];
+    let g = &v.growth;
     line(&format!(
         "  growth: {} ; rate {} nm/min{}",
-        g["regime"].as_str().unwrap_or(""),
-        num(g["growth_rate_nm_per_min"].as_f64(), 3),
-        g["focusing_turn_min"]
-            .as_f64()
+        g.regime,
+        num(finite(g.growth_rate_nm_per_min), 3),
+        finite(g.focusing_turn_min)
             .map(|m| format!("; focusing turns to defocusing at {m} min"))
             .unwrap_or_default()
     ))?;
-    if g["mixed_calibrations"].as_bool() == Some(true) {
+    if g.mixed_calibrations {
         line(&format!(
             "  growth uses only aliquots sized under calibration v{}; others are under older versions (run `cuvette recompute`)",
-            g["calibration_version"]
+            as_json(&g.calibration_version)
         ))?;
     }
-    if g["stale"].as_bool() == Some(true) {
+    if g.stale {
         line("  growth: STALE values (run `cuvette recompute`)")?;
     }
-    for j in g["jumps"].as_array().into_iter().flatten() {
+    for j in &g.jumps {
         line(&format!(
             "  ! aliquot {}: first exciton {:.1} -> {:.1} nm at {} min, a step blue while the crystals grow (beyond {:.1} nm): check that reading",
-            j["aliquot_id"],
-            j["from_nm"].as_f64().unwrap_or(f64::NAN),
-            j["to_nm"].as_f64().unwrap_or(f64::NAN),
-            j["minutes"],
-            j["tolerance_nm"].as_f64().unwrap_or(f64::NAN)
+            j.aliquot_id,
+            nm(Some(j.from_nm)),
+            nm(Some(j.to_nm)),
+            as_json(&j.minutes),
+            nm(Some(j.tolerance_nm))
         ))?;
     }
-    for r in g["reassigned"].as_array().into_iter().flatten() {
+    for r in &g.reassigned {
         line(&format!(
             "  ~ aliquot {}: first exciton reassigned {:.1} -> {:.1} nm: the series grows through {:.1}-{:.1} nm there and a feature at {:.1} nm stands on its own (`explain {}` keeps the first reading)",
-            r["aliquot_id"],
-            r["as_read_nm"].as_f64().unwrap_or(f64::NAN),
-            r["first_exciton_nm"].as_f64().unwrap_or(f64::NAN),
-            r["expected_lo_nm"].as_f64().unwrap_or(f64::NAN),
-            r["expected_hi_nm"].as_f64().unwrap_or(f64::NAN),
-            r["first_exciton_nm"].as_f64().unwrap_or(f64::NAN),
-            r["aliquot_id"],
+            r.aliquot_id,
+            nm(r.as_read_nm),
+            nm(r.first_exciton_nm),
+            nm(Some(r.expected_lo_nm)),
+            nm(Some(r.expected_hi_nm)),
+            nm(r.first_exciton_nm),
+            r.aliquot_id,
         ))?;
     }
-    for r in g["unsupported"].as_array().into_iter().flatten() {
+    for r in &g.unsupported {
         line(&format!(
             "  ! aliquot {}: first exciton {:.1} nm lies outside the {:.1}-{:.1} nm its neighbours give, and no feature there stands on its own: kept as read; check it",
-            r["aliquot_id"],
-            r["as_read_nm"].as_f64().unwrap_or(f64::NAN),
-            r["expected_lo_nm"].as_f64().unwrap_or(f64::NAN),
-            r["expected_hi_nm"].as_f64().unwrap_or(f64::NAN),
+            r.aliquot_id,
+            nm(r.as_read_nm),
+            nm(Some(r.expected_lo_nm)),
+            nm(Some(r.expected_hi_nm)),
         ))?;
     }
-    let ry = &v["reaction_yield"];
-    if let Some(f) = ry["yield_fraction"].as_f64() {
+    let ry = &v.reaction_yield;
+    if let Some(f) = finite(ry.yield_fraction) {
         line(&format!(
             "  reaction yield {:.0} % against the limiting {} (`batch show --json` has the terms)",
             100.0 * f,
-            ry["limiting_element"].as_str().unwrap_or("precursor"),
+            ry.limiting_element.as_deref().unwrap_or("precursor"),
         ))?;
     }
-    for x in v["vials"].as_array().into_iter().flatten() {
+    for x in &v.vials {
         line(&format!(
             "  vial {} {} {:.2} mL at {} ({})",
-            x["id"],
-            x["label"].as_str().unwrap_or(""),
-            x["volume_ml"].as_f64().unwrap_or(0.0),
-            x["location"].as_str().unwrap_or(""),
-            x["status"].as_str().unwrap_or("")
+            x.id,
+            x.label,
+            finite(Some(x.volume_ml)).unwrap_or(0.0),
+            x.location,
+            x.status
         ))?;
     }
-    for c in v["cautions"].as_array().into_iter().flatten() {
-        line(&format!("  ! {}", c.as_str().unwrap_or("")))?;
+    for c in &v.cautions {
+        line(&format!("  ! {c}"))?;
     }
     Ok(())
 }

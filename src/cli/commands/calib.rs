@@ -3,12 +3,12 @@
 
 use super::{open_for, open_read};
 use crate::cli::args::*;
-use crate::cli::output::{Progress, json, line, num};
+use crate::cli::output::{Progress, finite, json, json_sorted, line, num};
 use crate::derive::{calibration, sizing, solvents};
 use crate::spectra::{self, ReadOptions};
 use crate::store::{Store, model};
 use anyhow::{Result, anyhow, bail};
-use serde_json::json;
+use serde::Serialize;
 
 fn core_of(tx: &crate::store::Db, material: &str) -> crate::Result<String> {
     match model::material_by_name(tx, material) {
@@ -29,6 +29,15 @@ fn core_of(tx: &crate::store::Db, material: &str) -> crate::Result<String> {
 /// refuses 500).
 const MAX_HOMOGENEOUS_HWHM_MEV: f64 = 200.0;
 
+/// What a calibration change prints with `--json`: the new version and how many derived
+/// values it made stale.
+#[derive(Serialize)]
+struct CalibrationChanged {
+    // Fields in alphabetical order: the order these keys have always been printed in.
+    marked_stale: usize,
+    version: i64,
+}
+
 pub(super) fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
     let mut store = open_for(
         cli,
@@ -41,7 +50,10 @@ pub(super) fn calib(cli: &Cli, c: &CalibCmd) -> Result<()> {
      -> Result<()> {
         let (v, stale) = crate::lab::calibrations::change(store, why, f)?;
         if j {
-            json(&json!({"version": v, "marked_stale": stale}))
+            json(&CalibrationChanged {
+                marked_stale: stale,
+                version: v,
+            })
         } else {
             line(&format!(
                 "calibration version {v}; {stale} derived values are now stale (run `cuvette recompute --dry-run` to preview)"
@@ -399,18 +411,16 @@ pub(super) fn recompute(cli: &Cli, a: &RecomputeArgs) -> Result<()> {
 
 pub(super) fn explain(cli: &Cli, a: &ExplainArgs) -> Result<()> {
     let mut store = open_read(cli)?;
-    let v = store.read(|tx| crate::report::explain(tx, a.aliquot))?;
+    let v = store.read(|tx| crate::report::explain_chain(tx, a.aliquot))?;
     if a.json {
-        return json(&v);
+        return json_sorted(&v);
     }
     line(&format!(
         "aliquot {} of batch {} ({})",
-        v["aliquot_id"],
-        v["batch_id"],
-        v["material"].as_str().unwrap_or("")
+        v.aliquot_id, v.batch_id, v.material
     ))?;
-    for s in v["spectra"].as_array().into_iter().flatten() {
-        let own = match (s["path_cm"].as_f64(), s["dilution_factor"].as_f64()) {
+    for s in &v.spectra {
+        let own = match (finite(s.path_cm), finite(s.dilution_factor)) {
             (None, None) => String::new(),
             (p, d) => format!(
                 " (own cuvette: {} cm, dilution {})",
@@ -420,36 +430,28 @@ pub(super) fn explain(cli: &Cli, a: &ExplainArgs) -> Result<()> {
         };
         line(&format!(
             "  spectrum {} {} {} sha256 {}{own}",
-            s["id"],
-            s["kind"].as_str().unwrap_or(""),
-            s["file_name"].as_str().unwrap_or(""),
-            &s["sha256"].as_str().unwrap_or("")[..12.min(s["sha256"].as_str().unwrap_or("").len())]
+            s.id,
+            s.kind,
+            s.file_name,
+            s.sha256.get(..12.min(s.sha256.len())).unwrap_or(&s.sha256)
         ))?;
     }
-    for step in v["chain"].as_array().into_iter().flatten() {
+    for step in &v.chain {
+        let value = &step.value;
         line(&format!(
             "  {:<20} {:>14} {:<11} {} (calibration v{}){}",
-            step["quantity"].as_str().unwrap_or(""),
-            num(step["value"].as_f64(), 5),
-            step["unit"].as_str().unwrap_or(""),
-            step["method"].as_str().unwrap_or(""),
-            step["calibration_version"],
-            if step["stale"].as_bool() == Some(true) {
-                " STALE"
-            } else {
-                ""
-            }
+            value.quantity,
+            num(finite(value.value), 5),
+            value.unit,
+            value.method,
+            value.calibration_version,
+            if value.stale { " STALE" } else { "" }
         ))?;
-        if let Some(src) = step["source"].as_str() {
-            line(&format!("  {:<20} source: {src}", ""))?;
+        if let Some(note) = &step.curve {
+            line(&format!("  {:<20} source: {}", "", note.source))?;
         }
         // A value's warnings belong beside it: a chemist reading the chain must see them.
-        for w in step["warnings"]
-            .as_array()
-            .into_iter()
-            .flatten()
-            .filter_map(|w| w.as_str())
-        {
+        for w in &value.warnings {
             line(&format!("  {:<20} ! {w}", ""))?;
         }
     }

@@ -28,7 +28,7 @@ use find::{find, log};
 use people::{location, material, person, reagent};
 use recipe::recipe;
 use records::{check, demo, handover, restore};
-use serde_json::json;
+use serde::Serialize;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 use vial::{shelf, vial};
@@ -144,6 +144,23 @@ fn read_options(
     }
 }
 
+/// What `spectrum move --json` prints.
+#[derive(Serialize)]
+struct SpectrumMoved {
+    // Fields in alphabetical order: the order these keys have always been printed in.
+    from_aliquot: i64,
+    spectrum_id: i64,
+    to_aliquot: i64,
+}
+
+/// What `spectrum cuvette --json` prints: the spectrum and the aliquot derived again.
+#[derive(Serialize)]
+struct CuvetteCorrected {
+    // Fields in alphabetical order: the order these keys have always been printed in.
+    aliquot_id: i64,
+    spectrum_id: i64,
+}
+
 pub fn dispatch(cli: Cli) -> Result<ExitCode> {
     let Some(cmd) = &cli.cmd else {
         use std::io::IsTerminal;
@@ -246,7 +263,11 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
             let mut store = open_write(&cli)?;
             let (from, to) = crate::lab::corrections::move_spectrum(&mut store, *spectrum, *to_aliquot, why)?;
             if *j {
-                json(&json!({"spectrum_id": spectrum, "from_aliquot": from, "to_aliquot": to}))?;
+                json(&SpectrumMoved {
+                    from_aliquot: from,
+                    spectrum_id: *spectrum,
+                    to_aliquot: to,
+                })?;
             } else {
                 line(&format!(
                     "spectrum {spectrum} moved from aliquot {from} to aliquot {to}; both recomputed"
@@ -264,7 +285,10 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
             let aliquot =
                 crate::lab::corrections::set_spectrum_cuvette(&mut store, *spectrum, *path_cm, *dilution, why)?;
             if *j {
-                json(&json!({"spectrum_id": spectrum, "aliquot_id": aliquot}))?;
+                json(&CuvetteCorrected {
+                    aliquot_id: aliquot,
+                    spectrum_id: *spectrum,
+                })?;
             } else {
                 line(&format!(
                     "spectrum {spectrum}: cuvette corrected; aliquot {aliquot} recomputed"

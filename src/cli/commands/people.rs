@@ -6,7 +6,7 @@ use crate::cli::output::{json, line};
 use crate::derive::sizing;
 use crate::store::model;
 use anyhow::Result;
-use serde_json::{Value, json};
+use serde::Serialize;
 
 pub(super) fn person(cli: &Cli, c: &PersonCmd) -> Result<()> {
     let mut store = open_for(cli, matches!(c, PersonCmd::Add { .. }))?;
@@ -52,7 +52,7 @@ pub(super) fn material(cli: &Cli, c: &MaterialCmd) -> Result<()> {
         MaterialCmd::List(f) => {
             let ms = store.read(|tx| model::list_materials(tx))?;
             if f.json {
-                let v: Vec<Value> = ms.iter().map(material_json).collect();
+                let v: Vec<MaterialView> = ms.iter().map(material_json).collect();
                 json(&v)?;
             } else {
                 for m in ms {
@@ -154,6 +154,23 @@ pub(super) fn location(cli: &Cli, c: &LocationCmd) -> Result<()> {
 
 /// A material as `material list --json` and `material add --json` give it: with the sizing
 /// curves that apply to its core.
-fn material_json(m: &model::MaterialRow) -> Value {
-    json!({"id": m.id, "name": m.name, "core": m.core, "shell": m.shell, "curves": sizing::curves_for(&m.core)})
+fn material_json(m: &model::MaterialRow) -> MaterialView {
+    MaterialView {
+        core: m.core.clone(),
+        curves: sizing::curves_for(&m.core),
+        id: m.id,
+        name: m.name.clone(),
+        shell: m.shell.clone(),
+    }
+}
+
+/// A material with the sizing curves that apply to its core.
+#[derive(Serialize)]
+struct MaterialView {
+    // Fields in alphabetical order: the order these keys have always been printed in.
+    core: String,
+    curves: Vec<&'static str>,
+    id: i64,
+    name: String,
+    shell: Option<String>,
 }

@@ -6,9 +6,27 @@ use crate::cli::args::*;
 use crate::cli::identity;
 use crate::cli::output::{Progress, json, line};
 use anyhow::Result;
-use serde_json::json;
+use serde::Serialize;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
+
+/// What `check --json` prints: whether the lab holds, each problem found, and how many
+/// aliquots' values were recomputed to compare.
+#[derive(Serialize)]
+struct CheckReport<'a> {
+    // Fields in alphabetical order: the order these keys have always been printed in.
+    aliquots_recomputed: usize,
+    deep: bool,
+    ok: bool,
+    problems: Vec<ProblemLine<'a>>,
+}
+
+/// A problem as `check --json` prints it (the store's `Problem`, its keys in that order).
+#[derive(Serialize)]
+struct ProblemLine<'a> {
+    detail: &'a str,
+    kind: &'a str,
+}
 
 pub(super) fn check(cli: &Cli, a: &CheckArgs) -> Result<ExitCode> {
     let mut store = open_read(cli)?;
@@ -19,9 +37,18 @@ pub(super) fn check(cli: &Cli, a: &CheckArgs) -> Result<ExitCode> {
         Ok((p, n))
     })?;
     if a.json {
-        json(
-            &json!({"ok": problems.is_empty(), "problems": problems, "aliquots_recomputed": checked, "deep": a.deep}),
-        )?;
+        json(&CheckReport {
+            aliquots_recomputed: checked,
+            deep: a.deep,
+            ok: problems.is_empty(),
+            problems: problems
+                .iter()
+                .map(|p| ProblemLine {
+                    detail: &p.detail,
+                    kind: &p.kind,
+                })
+                .collect(),
+        })?;
     } else if problems.is_empty() {
         line(&format!(
             "ok: integrity, foreign keys, cuvette's invariants, spectrum data hashes and the audit log hold; {checked} aliquots recomputed{} agree",
