@@ -9,6 +9,7 @@ use crate::derive::calibration::Calibration;
 use crate::spectra::analysis;
 use crate::store::model::AliquotRow;
 use sha2::{Digest, Sha256};
+use std::fmt::Write as _;
 
 /// The parts of a calibration one aliquot's values depend on.
 pub fn relevant(cal: &Calibration, core: &str, solvent: &str, has_pl: bool) -> serde_json::Value {
@@ -54,23 +55,37 @@ pub fn inputs_hash(
 
 /// As [`inputs_hash`], with the calibration part already rendered (recompute caches it).
 pub fn inputs_hash_with(a: &AliquotRow, core: &str, spectra: &[SpectrumMeta], relevant: &str) -> String {
-    let mut h = Sha256::new();
-    h.update(format!(
+    // The text hashed is written into one buffer (a recompute hashes every aliquot of the lab);
+    // the bytes are exactly those the separate pieces always were.
+    let mut t = String::with_capacity(256 + relevant.len());
+    let _ = write!(
+        t,
         "v1|{core}|{}|{}|{}|",
         a.dilution_factor,
         a.path_cm,
         a.solvent.to_ascii_lowercase()
-    ));
+    );
     for s in spectra {
-        h.update(format!("{}|{}|{:?}|{}|", s.kind, s.sha256, s.excitation_nm, s.x_unit));
+        let _ = write!(t, "{}|{}|{:?}|{}|", s.kind, s.sha256, s.excitation_nm, s.x_unit);
         // A spectrum's own cuvette (the PL cuvette's path and dilution) counts when recorded;
         // left out when not, so older hashes stay as they were.
         if s.path_cm.is_some() || s.dilution_factor.is_some() {
-            h.update(format!("cuvette {:?} {:?}|", s.path_cm, s.dilution_factor));
+            let _ = write!(t, "cuvette {:?} {:?}|", s.path_cm, s.dilution_factor);
         }
     }
-    h.update(relevant);
-    h.finalize().iter().take(16).map(|b| format!("{b:02x}")).collect()
+    t.push_str(relevant);
+    short_hex(&Sha256::digest(t.as_bytes()))
+}
+
+/// The first 16 bytes of a digest as 32 lower-case hex digits: the form every stored hash has.
+fn short_hex(digest: &[u8]) -> String {
+    const DIGITS: &[u8; 16] = b"0123456789abcdef";
+    let mut out = String::with_capacity(32);
+    for &b in digest.iter().take(16) {
+        out.push(DIGITS[(b >> 4) as usize] as char);
+        out.push(DIGITS[(b & 15) as usize] as char);
+    }
+    out
 }
 
 /// The hash of what stage one depends on: the spectra and the analysis settings.
@@ -105,13 +120,13 @@ pub fn analysis_hash_before_method_versions(spectra: &[SpectrumMeta], cal: &Cali
 }
 
 pub fn analysis_hash_with(spectra: &[SpectrumMeta], part: &str) -> String {
-    let mut h = Sha256::new();
-    h.update("stage1|");
+    let mut t = String::with_capacity(128 + part.len());
+    t.push_str("stage1|");
     for s in spectra {
-        h.update(format!("{}|{}|{:?}|{}|", s.kind, s.sha256, s.excitation_nm, s.x_unit));
+        let _ = write!(t, "{}|{}|{:?}|{}|", s.kind, s.sha256, s.excitation_nm, s.x_unit);
     }
-    h.update(part);
-    h.finalize().iter().take(16).map(|b| format!("{b:02x}")).collect()
+    t.push_str(part);
+    short_hex(&Sha256::digest(t.as_bytes()))
 }
 
 /// The hash a stored value of `quantity` should carry.
