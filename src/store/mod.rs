@@ -94,6 +94,13 @@ pub const SCHEMA_VERSION: i64 = MIGRATIONS.len() as i64;
 /// transactions may want more; a test of a stuck lock, less).
 pub const BUSY_TIMEOUT: Duration = Duration::from_secs(30);
 
+/// Per-connection settings: room in the statement cache for every statement one walk over the
+/// lab prepares (a recompute, a check), so none is parsed again per aliquot.
+fn tune(conn: &Connection) -> rusqlite::Result<()> {
+    conn.set_prepared_statement_cache_capacity(64);
+    Ok(())
+}
+
 fn busy_timeout() -> Duration {
     std::env::var("CUVETTE_BUSY_SECONDS")
         .ok()
@@ -245,6 +252,7 @@ impl Store {
             generation: None,
         };
         let version = store.identify(existed)?;
+        tune(&store.conn)?;
         if access == Access::Read {
             store.conn.busy_timeout(busy_timeout())?;
             if version < SCHEMA_VERSION {
@@ -294,6 +302,7 @@ impl Store {
         };
         conn.busy_timeout(busy_timeout())?;
         conn.pragma_update(None, "foreign_keys", "ON")?;
+        tune(&conn)?;
         Ok(Store {
             conn,
             path: Some(path),
@@ -433,6 +442,7 @@ impl Store {
             b.run_to_completion(1024, Duration::from_millis(0), None)?;
         }
         self.conn = mem;
+        tune(&self.conn)?;
         self.conn.pragma_update(None, "foreign_keys", "ON")?;
         self.migrate(version)
     }

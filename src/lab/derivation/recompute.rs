@@ -380,9 +380,10 @@ pub fn recompute(
                             new: v.value,
                             relative_change: rel,
                         });
-                        // Keep only the largest moves so memory stays bounded.
-                        if moves.len() > 200 {
-                            sort_moves(&mut moves);
+                        // Keep only the largest moves so memory stays bounded: the 20 largest
+                        // are selected (not sorted) whenever 2,000 have gathered.
+                        if moves.len() > 2000 {
+                            moves.select_nth_unstable_by(19, move_order);
                             moves.truncate(20);
                         }
                     }
@@ -412,12 +413,15 @@ pub fn recompute(
     Ok(report)
 }
 
+/// Largest relative change first; a move to or from nothing counts as the largest.
+fn move_order(a: &Move, b: &Move) -> std::cmp::Ordering {
+    let ka = a.relative_change.map(f64::abs).unwrap_or(f64::INFINITY);
+    let kb = b.relative_change.map(f64::abs).unwrap_or(f64::INFINITY);
+    kb.total_cmp(&ka)
+}
+
 fn sort_moves(m: &mut [Move]) {
-    m.sort_by(|a, b| {
-        let ka = a.relative_change.map(f64::abs).unwrap_or(f64::INFINITY);
-        let kb = b.relative_change.map(f64::abs).unwrap_or(f64::INFINITY);
-        kb.total_cmp(&ka)
-    });
+    m.sort_by(move_order);
 }
 
 fn count_changes(new: &[Derived], old: &[StoredValue]) -> usize {
