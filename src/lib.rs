@@ -16,6 +16,7 @@ pub mod derive;
 pub mod error;
 pub mod hazards;
 pub mod lab;
+pub mod open_labs;
 pub mod par;
 pub mod paths;
 pub mod report;

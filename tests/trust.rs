@@ -1421,3 +1421,45 @@ fn a_file_larger_than_any_export_is_refused_unread() {
     assert_eq!(o.code, 1);
     assert!(o.stdout.contains("larger than any spectrum export"), "{}", o.stdout);
 }
+
+// ------------------------------------------------------------------ the lab's own files
+
+/// SQLite's locks belong to the process, and closing any descriptor on the database file
+/// releases them all: a file picker's preview landing on the lab (the picker opens in the
+/// folder the lab lives in) or a folder import over the lab's own folder used to open and
+/// close the lab as a would-be spectrum, and from then on another process could write under
+/// this one's feet. The lab's files (and SQLite's companions beside them) are now recognised
+/// by their identity before anything opens them: refused as spectra, passed over by an import.
+#[test]
+fn the_open_lab_is_never_read_as_a_spectrum() {
+    let lab = Lab::new();
+    lab.ok(&["demo"]);
+    let mut store = cuvette::lab::open(&lab.db, "UI User").unwrap();
+    // A write, so the lab's write-ahead log and shared-memory files are there too.
+    store
+        .write(|tx, _| cuvette::store::values::search_thresholds(tx))
+        .unwrap();
+    let mut seen = 0;
+    for p in [lab.db.clone(), lab.path("lab.db-wal"), lab.path("lab.db-shm")] {
+        if !p.exists() {
+            continue;
+        }
+        seen += 1;
+        let e = cuvette::lab::bench::preview_file(&p, 40).unwrap_err().to_string();
+        assert!(e.contains("the lab's own database"), "{}: {e}", p.display());
+        let e = cuvette::spectra::file_bytes(&p).unwrap_err().to_string();
+        assert!(e.contains("the lab's own database"), "{}: {e}", p.display());
+    }
+    assert!(seen >= 2, "the lab and its write-ahead log were not both there");
+    drop(store);
+    // An import of the folder the lab is in takes the spectrum and passes over the lab.
+    let (x, y) = cuvette::lab::demo::absorbance("CdSe", 540.0, 0.04, 0.1, 0.0005, &mut cuvette::lab::demo::Rng::new(3));
+    let mut text = String::from("Wavelength (nm),Absorbance\n");
+    for (a, b) in x.iter().zip(&y) {
+        text.push_str(&format!("{a},{b:.6}\n"));
+    }
+    std::fs::write(lab.path("abs_05min.csv"), text).unwrap();
+    let folder = lab.dir.path().to_string_lossy().to_string();
+    let r = lab.ok(&["import", "1", &folder, "--json"]).json();
+    assert_eq!(r["aliquots"].as_array().map(|a| a.len()), Some(1), "{r}");
+}

@@ -197,6 +197,9 @@ pub fn file_bytes(path: &std::path::Path) -> Result<Vec<u8>> {
 pub fn file_bytes_into(path: &std::path::Path, bytes: &mut Vec<u8>) -> Result<()> {
     use std::io::Read;
     let name = path.display().to_string();
+    if crate::open_labs::is_open_lab(path) {
+        return Err(Error::Invalid(crate::open_labs::refusal(path)));
+    }
     let mut f = std::fs::File::open(path).map_err(|e| spectrum_error(&name, None, &format!("cannot read: {e}")))?;
     let len = f.metadata().map(|m| m.len()).unwrap_or(0);
     if len > MAX_FILE_BYTES {

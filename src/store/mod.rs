@@ -253,6 +253,8 @@ impl Store {
         };
         let version = store.identify(existed)?;
         tune(&store.conn)?;
+        // From here this process holds SQLite locks on the file: nothing else in it may open it.
+        crate::open_labs::register(path);
         if access == Access::Read {
             store.conn.busy_timeout(busy_timeout())?;
             if version < SCHEMA_VERSION {

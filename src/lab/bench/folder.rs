@@ -29,6 +29,8 @@ fn import_series(
         .map_err(|e| Error::Invalid(format!("cannot read folder {}: {e}", folder.display())))?
         .filter_map(|e| e.ok().map(|e| e.path()))
         .filter(|p| p.is_file() && !p.file_name().is_some_and(|n| n.to_string_lossy().starts_with('.')))
+        // The lab itself may live in the folder: its files are never opened as spectra.
+        .filter(|p| !crate::open_labs::is_open_lab(p))
         .collect();
     paths.sort();
     if paths.is_empty() {
@@ -49,8 +51,7 @@ fn import_series(
             let kind = match quantity::kind_from_name(&name) {
                 Some(k) => k.as_str(),
                 None => {
-                    let bytes =
-                        std::fs::read(p).map_err(|e| Error::Invalid(format!("cannot read {}: {e}", p.display())))?;
+                    let bytes = spectra::file_bytes(p)?;
                     let first = spectra::read_all(&p.display().to_string(), &bytes, &ReadOptions::default())?;
                     first
                         .first()
@@ -103,6 +104,8 @@ pub fn group_folder(folder: &Path, excitation_nm: Option<f64>) -> Result<Vec<Fol
         .map_err(|e| Error::Invalid(format!("cannot read folder {}: {e}", folder.display())))?
         .filter_map(|e| e.ok().map(|e| e.path()))
         .filter(|p| p.is_file() && !p.file_name().is_some_and(|n| n.to_string_lossy().starts_with('.')))
+        // The lab itself may live in the folder: its files are never opened as spectra.
+        .filter(|p| !crate::open_labs::is_open_lab(p))
         .collect();
     entries.sort();
     let mut groups: Vec<FolderGroup> = Vec::new();

@@ -161,11 +161,7 @@ pub fn read_series_for_logging(
     kind_as_is: bool,
 ) -> Result<(Vec<RawSpectrum>, String)> {
     let name = path.display().to_string();
-    let bytes = std::fs::read(path).map_err(|e| Error::Spectrum {
-        file: name.clone(),
-        line: None,
-        reason: format!("cannot read: {e}"),
-    })?;
+    let bytes = spectra::file_bytes(path)?;
     let all = spectra::read_all(&name, &bytes, opts)?;
     let mut out = Vec::with_capacity(all.len());
     for (i, raw) in all.into_iter().enumerate() {

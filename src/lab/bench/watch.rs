@@ -134,6 +134,8 @@ pub fn folder_looks(folder: &Path) -> Vec<(PathBuf, FileLook)> {
     let mut v: Vec<(PathBuf, FileLook)> = d
         .filter_map(|e| e.ok())
         .filter(|e| !e.file_name().to_string_lossy().starts_with('.'))
+        // The lab itself may live in the watched folder: its files are never opened as spectra.
+        .filter(|e| !crate::open_labs::is_open_lab(&e.path()))
         .filter_map(|e| {
             let m = e.metadata().ok()?;
             m.is_file().then(|| {
