@@ -504,3 +504,26 @@ fn measuring_a_vial_sets_its_concentration_by_beer_lambert() {
     lab.ok(&["vial", "dispose", "M1", "--why", "used up"]);
     lab.refuses(&["vial", "measure", "M1", "--abs", s(&f)], "has been disposed of");
 }
+
+/// Volumes are decimal to the chemist: 2 mL less 0.45 mL leaves 1.55 mL, stored and shown as
+/// 1.55 (not 1.5500000000000003, the binary floating-point difference), and a batch without vials
+/// holds 0 mL of stock, not -0 (the empty sum of floating-point numbers).
+#[test]
+fn volumes_left_are_the_decimal_differences_and_no_stock_is_zero() {
+    let (lab, b) = lab_with_batch();
+    let bs = b.to_string();
+    let show = lab.ok(&["batch", "show", &bs, "--json"]).json();
+    let stock = show["stock_ml"].as_f64().unwrap();
+    assert!(stock == 0.0 && stock.is_sign_positive(), "stock_ml {stock:?}: {show}");
+    assert!(!lab.ok(&["batch", "show", &bs, "--json"]).stdout.contains("-0.0"));
+    let v = lab
+        .ok(&["vial", "new", &bs, "--ml", "2", "--location", "Fridge A", "--json"])
+        .json();
+    let id = v["id"].to_string();
+    lab.ok(&["vial", "draw", &id, "--ml", "0.45", "--why", "TEM"]);
+    let shelf = lab.ok(&["shelf", "--json"]).json();
+    assert_eq!(shelf[0]["volume_ml"], 1.55, "{shelf}");
+    let o = lab.run(&["vial", "draw", &id, "--ml", "5", "--why", "too much"]);
+    assert_eq!(o.code, 1, "{}", o.stderr);
+    assert!(o.stderr.contains("only 1.55 mL left"), "{}", o.stderr);
+}

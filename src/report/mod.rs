@@ -377,11 +377,12 @@ pub fn batch_sheet(db: &Db, id: i64) -> Result<BatchSheet> {
         Some(v) => Some(model::recipe_view(db, v)?),
         None => None,
     };
+    // From +0.0: the empty sum of f64 is -0.0, which a sheet would print as "-0".
     let stock_ml = vials
         .iter()
         .filter(|x| x.status.on_shelf())
         .map(|x| x.volume_ml)
-        .sum::<f64>();
+        .fold(0.0, |a, b| a + b);
     let children = model::children_of(db, id)?
         .into_iter()
         .map(|(id, name, relation)| ChildBatch { id, name, relation })

@@ -211,16 +211,26 @@ fn usable_vial(conn: &Connection, id: i64) -> Result<VialRow> {
 /// reinstatement reads it too).
 pub(super) const VOLUME_EPS_ML: f64 = 1e-9;
 
+/// A volume as the decimal number of mL it is to the chemist: binary round-off below a
+/// nanolitre (2 - 0.45 = 1.5500000000000003) goes, so the vial holds and shows 1.55 mL. Volumes
+/// are typed to far fewer places, and "start minus draws" still holds within [`VOLUME_EPS_ML`].
+pub(super) fn decimal_ml(ml: f64) -> f64 {
+    let r = (ml * 1e9).round() / 1e9;
+    if r.is_finite() { r } else { ml }
+}
+
 pub fn draw_from_vial(tx: &Connection, who: &str, id: i64, ml: f64, why: Option<&str>) -> Result<VialRow> {
     let v = usable_vial(tx, id)?;
     check_number("volume to draw (mL)", ml, false)?;
     if ml > v.volume_ml + VOLUME_EPS_ML {
         return invalid(format!(
             "cannot draw {ml} mL from vial {} ({}): only {} mL left",
-            v.id, v.label, v.volume_ml
+            v.id,
+            v.label,
+            decimal_ml(v.volume_ml)
         ));
     }
-    let left = (v.volume_ml - ml).max(0.0);
+    let left = decimal_ml((v.volume_ml - ml).max(0.0));
     let left = if left < VOLUME_EPS_ML { 0.0 } else { left };
     let status = if left == 0.0 {
         VialStatus::Empty
