@@ -570,3 +570,37 @@ fn a_curve_change_keeps_the_spectral_values_and_moves_only_the_rest() {
     let dry = lab.ok(&["recompute", "--dry-run", "--json"]).json();
     assert_eq!(dry["aliquots_recomputed"], 2);
 }
+
+/// The preview is the recompute: on the demo lab, whose shelled batches grow on cores that a
+/// curve change resizes, a dry run's counts are the real run's. The real run used to add the
+/// shelled aliquots its cores' move re-derived (aliquots, not values, counted a second time) to
+/// `changed`, and left the vials that followed them out of `vials_changed`.
+#[test]
+fn a_dry_run_counts_what_the_recompute_then_changes() {
+    let lab = Lab::new();
+    lab.ok(&["demo"]);
+    lab.ok(&[
+        "calib",
+        "set-curve",
+        "CdSe",
+        "jasieniak2009",
+        "--why",
+        "adopt the 2009 curve",
+    ]);
+    let dry = lab.ok(&["recompute", "--dry-run", "--json"]).json();
+    let done = lab.ok(&["recompute", "--json"]).json();
+    for k in [
+        "aliquots_recomputed",
+        "recomputed",
+        "changed",
+        "vials_considered",
+        "vials_changed",
+    ] {
+        assert_eq!(
+            dry[k], done[k],
+            "{k}: dry run {} against the recompute {}",
+            dry[k], done[k]
+        );
+    }
+    assert!(done["changed"].as_i64().unwrap() > 0, "{done}");
+}

@@ -259,8 +259,15 @@ pub fn series_pass(tx: &Db, batch_id: i64) -> Result<usize> {
 /// `parent` None every shelled batch is looked at (after a recompute). Returns how many
 /// aliquots were derived again.
 pub fn follow_parent_cores(tx: &Db, parent: Option<i64>) -> Result<usize> {
+    Ok(follow_parent_cores_counted(tx, parent)?.0)
+}
+
+/// As [`follow_parent_cores`], also counting the vials whose concentration followed: (aliquots
+/// derived again, vials changed), so a recompute can report them with its own.
+pub(super) fn follow_parent_cores_counted(tx: &Db, parent: Option<i64>) -> Result<(usize, usize)> {
     let children = values::shelled_children(tx, parent)?;
     let mut n = 0;
+    let mut vials_changed = 0;
     for child in children {
         let batch = crate::store::model::get_batch(tx, child)?;
         let ctx = batch_context(tx, child)?;
@@ -286,10 +293,10 @@ pub fn follow_parent_cores(tx: &Db, parent: Option<i64>) -> Result<usize> {
         }
         if n > 0 {
             // The child's product may have moved with its core: its vials' estimates follow.
-            refresh_vials(tx, Some(child), false)?;
+            vials_changed += refresh_vials(tx, Some(child), false)?.1;
         }
     }
-    Ok(n)
+    Ok((n, vials_changed))
 }
 
 /// Changes the latest calibration with `f`, saves it as a new version (validated; refused with

@@ -5,7 +5,7 @@
 //! calibration change, which walks the same chunks without computing anything.
 
 use super::vials::{mark_vials_stale, refresh_vials};
-use super::{apply, batch_context, follow_parent_cores, same, series_pass, stored_series_hint};
+use super::{apply, batch_context, follow_parent_cores_counted, same, series_pass, stored_series_hint};
 use crate::derive::calibration::Calibration;
 use crate::derive::engine::{
     BatchContext, Computation, Derived, SPECTRAL, SpectrumMeta, analysis_hash_with, analysis_part, compute_in_series,
@@ -395,6 +395,7 @@ pub fn recompute(
     sort_moves(&mut moves);
     moves.truncate(10);
     report.largest_moves = moves;
+    let mut followed_vials = 0;
     if !dry_run {
         // Second looks follow the readings they rest on. With `all`, every batch is looked at,
         // so a lab whose values predate series awareness gets its second looks.
@@ -405,11 +406,15 @@ pub fn recompute(
             report.changed += series_pass(conn, b)?;
         }
         // Shelled batches computed before their parent's product moved in this pass follow it.
-        report.changed += follow_parent_cores(conn, None)?;
+        // Their values were counted as they changed in the pass; a second move of the same
+        // values is not counted again (a dry run cannot see it, and the preview is the run).
+        // The vials that follow them are counted with the rest.
+        let (_, vials) = follow_parent_cores_counted(conn, None)?;
+        followed_vials = vials;
     }
     let (considered, changed) = refresh_vials(conn, None, dry_run)?;
     report.vials_considered = considered;
-    report.vials_changed = changed;
+    report.vials_changed = changed + followed_vials;
     Ok(report)
 }
 
