@@ -9,7 +9,8 @@
 //! status line says "working…", the
 //! sheets asked for arrive once the lock is released (the last one asked is the one shown),
 //! and the queued write lands exactly once. A save still waiting when the person quits is
-//! finished as the app closes, never dropped.
+//! finished as the app closes, never dropped. And the UI's own recompute of every spectrum runs
+//! on its thread while the person opens sheet after sheet.
 #![allow(clippy::unwrap_used, clippy::panic, clippy::expect_used)]
 
 mod common;
@@ -274,5 +275,92 @@ fn a_save_waiting_for_the_lock_lands_when_the_ui_closes() {
     assert_eq!(
         count(&lab, &format!("SELECT count(*) FROM vial WHERE label = '{LABEL}'")),
         1
+    );
+}
+
+/// The UI's own recompute of a large lab, every spectrum analysed again (the analysis settings
+/// changed), runs on its thread while the person moves down the list, opens sheets and goes
+/// back: every step returns while the recompute is running, sheets open under it (reads need no
+/// lock in WAL mode), and the recompute finishes with nothing stale. The slowest step is
+/// printed (the 50 ms a frame is measured with a release build on a quiet machine).
+#[test]
+fn a_person_opens_sheets_while_the_ui_recomputes_every_spectrum() {
+    // CUVETTE_UI_LAB_BATCHES measures on a larger lab (README: 3,000 batches, release build).
+    let batches = std::env::var("CUVETTE_UI_LAB_BATCHES")
+        .ok()
+        .and_then(|s| s.parse().ok())
+        .unwrap_or(BATCHES);
+    let lab = Lab::new();
+    {
+        let mut store = cuvette::lab::open(&lab.db, "Test Runner").unwrap();
+        cuvette::lab::demo::build(&mut store, Some(batches), |_, _| {}).unwrap();
+        // A new saturation limit is an analysis setting: every spectrum's values are stale.
+        store
+            .write(|tx, who| {
+                let mut body = cuvette::lab::calibrations::latest(tx)?.body;
+                body.analysis.saturation_abs = 2.5;
+                cuvette::lab::calibrations::save(tx, who, "test: a new saturation limit", &body)?;
+                cuvette::lab::derivation::mark_stale(tx)
+            })
+            .unwrap();
+    }
+    let stale = |lab: &Lab| {
+        count(
+            lab,
+            "SELECT count(*) FROM derived_value WHERE superseded_at IS NULL AND stale = 1",
+        )
+    };
+    assert!(stale(&lab) > 0);
+    let store = cuvette::lab::open(&lab.db, "Test Runner").unwrap();
+    let mut app = App::new(store, keys::KeyMap::new(&Default::default()).unwrap());
+    let mut d = Driver {
+        term: Terminal::new(TestBackend::new(80, 24)).unwrap(),
+        steps: Vec::new(),
+    };
+    for key in [KeyCode::Enter, KeyCode::Esc, KeyCode::Char('2'), KeyCode::Char('1')] {
+        d.step(&mut app, Some(key));
+        assert!(app.settle_workers(SETTLE_LIMIT));
+        d.step(&mut app, None);
+    }
+    // The recompute: previewed, then confirmed.
+    d.keys(&mut app, &[KeyCode::Char('3'), KeyCode::Char('A')]);
+    let start = Instant::now();
+    while !matches!(app.mode, Mode::Confirm(_)) && start.elapsed() < Duration::from_secs(120) {
+        d.step(&mut app, None);
+        std::thread::sleep(Duration::from_millis(5));
+    }
+    assert!(
+        matches!(app.mode, Mode::Confirm(_)),
+        "the preview asks: {:?}",
+        app.message
+    );
+    d.step(&mut app, Some(KeyCode::Enter));
+    assert!(app.busy, "the recompute runs on its thread");
+    d.steps.clear();
+    let mut sheets_opened = 0;
+    while app.busy && start.elapsed() < Duration::from_secs(300) {
+        d.keys(&mut app, &[KeyCode::Char('1'), KeyCode::Down, KeyCode::Enter]);
+        let asked = Instant::now();
+        while app.view != View::Sheet && app.busy && asked.elapsed() < Duration::from_secs(5) {
+            d.step(&mut app, None);
+            std::thread::sleep(Duration::from_millis(2));
+        }
+        sheets_opened += usize::from(app.view == View::Sheet);
+        d.keys(&mut app, &[KeyCode::Esc]);
+    }
+    let steps_during = d.steps.len();
+    while app.waiting() && start.elapsed() < Duration::from_secs(300) {
+        d.step(&mut app, None);
+        std::thread::sleep(Duration::from_millis(5));
+    }
+    assert!(!app.busy, "the recompute finished");
+    assert_eq!(stale(&lab), 0, "nothing stale after the recompute: {:?}", app.message);
+    assert!(
+        steps_during >= 30 && sheets_opened >= 3,
+        "{steps_during} steps and {sheets_opened} sheets while the recompute ran"
+    );
+    let slowest = d.steps.iter().max().copied().unwrap_or_default();
+    eprintln!(
+        "{steps_during} steps (key, poll, frame at 80x24) and {sheets_opened} sheets opened while the UI recomputed every spectrum of {batches} batches: slowest {slowest:?}"
     );
 }
