@@ -476,9 +476,7 @@ impl App {
                 units::quantity(&m.quantity, m.new)
             ));
         }
-        for c in r.threshold_crossings.iter().take(3) {
-            lines.push(format!("  batch {} crosses {} {}", c.batch_id, c.field, c.threshold));
-        }
+        lines.extend(units::crossing_lines(&r.threshold_crossings));
         lines.push("The old values stay in the record, superseded; the audit log notes the run.".into());
         self.mode = Mode::Confirm(Box::new(super::app::Confirm::new(
             "Recompute stale values?",

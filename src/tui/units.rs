@@ -113,9 +113,66 @@ pub fn parse_number(label: &str, typed: &str) -> Result<Option<f64>, String> {
     }
 }
 
+/// How many threshold crossings a preview names before it counts the rest.
+pub const CROSSINGS_SHOWN: usize = 8;
+
+/// The lines a recompute preview gives its threshold crossings: each batch whose product value
+/// crosses a bound someone searched by, with the value before and after, the first
+/// [`CROSSINGS_SHOWN`] by name and the rest counted, so none goes unmentioned.
+pub fn crossing_lines(crossings: &[crate::lab::derivation::Crossing]) -> Vec<String> {
+    let num = |v: Option<f64>| {
+        v.map(|x| format!("{}", round_to(x, 3)))
+            .unwrap_or_else(|| "none".into())
+    };
+    let mut lines: Vec<String> = crossings
+        .iter()
+        .take(CROSSINGS_SHOWN)
+        .map(|c| {
+            format!(
+                "  batch {} crosses {} {} ({} → {})",
+                c.batch_id,
+                c.field,
+                c.threshold,
+                num(c.old),
+                num(c.new)
+            )
+        })
+        .collect();
+    if crossings.len() > CROSSINGS_SHOWN {
+        lines.push(format!(
+            "  and {} more (`cuvette recompute --dry-run` lists them all)",
+            crossings.len() - CROSSINGS_SHOWN
+        ));
+    }
+    lines
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    fn crossing(batch_id: i64) -> crate::lab::derivation::Crossing {
+        crate::lab::derivation::Crossing {
+            batch_id,
+            field: "size".into(),
+            threshold: 3.5,
+            old: Some(3.4),
+            new: Some(3.6),
+        }
+    }
+
+    #[test]
+    fn every_threshold_crossing_is_named_or_counted() {
+        // The preview listed the first three crossings and said nothing of a fourth.
+        let four: Vec<_> = (1..=4).map(crossing).collect();
+        let lines = crossing_lines(&four);
+        assert_eq!(lines.len(), 4, "{lines:?}");
+        assert!(lines[3].contains("batch 4 crosses size 3.5 (3.4 → 3.6)"), "{lines:?}");
+        let many: Vec<_> = (1..=12).map(crossing).collect();
+        let lines = crossing_lines(&many);
+        assert_eq!(lines.len(), CROSSINGS_SHOWN + 1, "{lines:?}");
+        assert!(lines.last().is_some_and(|l| l.contains("and 4 more")), "{lines:?}");
+    }
 
     #[test]
     fn fixed_decimals_never_show_a_negative_zero() {

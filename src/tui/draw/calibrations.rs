@@ -120,11 +120,8 @@ pub(super) fn draw_calibrations(f: &mut Frame, app: &App, area: Rect, p: &Palett
                         .unwrap_or_default()
                 )));
             }
-            for c in r.threshold_crossings.iter().take(3) {
-                lines.push(Line::styled(
-                    format!("  batch {} crosses {} {}", c.batch_id, c.field, c.threshold),
-                    p.warn(),
-                ));
+            for c in units::crossing_lines(&r.threshold_crossings) {
+                lines.push(Line::styled(c, p.warn()));
             }
         }
     }
