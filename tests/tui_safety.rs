@@ -788,3 +788,30 @@ fn a_first_run_name_over_80_characters_is_refused() {
     assert_eq!(app.store.actor, "Test Runner");
     assert_eq!(scalar(&lab.db, "SELECT COUNT(*) FROM audit_log"), before);
 }
+
+/// A search box holding a query with an error keeps the last good results, but on the lab as it
+/// is now: after a recompute (or any reload) the list's numbers are the new ones. They used to
+/// stay the numbers from before, with their stale marks gone.
+#[test]
+fn a_list_under_a_query_with_an_error_shows_the_lab_as_it_is_now() {
+    let lab = Lab::new();
+    lab.ok(&["demo"]);
+    lab.ok(&["calib", "set-curve", "CdSe", "jasieniak2009", "--why", "newer curve"]);
+    let mut app = open_ui(&lab);
+    press(&mut app, KeyCode::Char('/'));
+    typ(&mut app, "size 3-4 qy >");
+    press(&mut app, KeyCode::Enter);
+    assert!(app.query_error.is_some(), "the query has an error");
+    lab.ok(&["recompute"]);
+    reload(&mut app);
+    assert!(!app.hits.is_empty());
+    for h in &app.hits {
+        let now = app.facts.iter().find(|f| f.id == h.id).unwrap();
+        assert_eq!(
+            serde_json::to_value(&h.facts).unwrap(),
+            serde_json::to_value(now).unwrap(),
+            "batch {} is listed with the numbers from before the recompute",
+            h.id
+        );
+    }
+}

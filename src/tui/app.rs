@@ -104,6 +104,9 @@ pub struct App {
     /// What the last query that parsed means, told back as it is typed: while the query has an
     /// error, the results on screen are still this one's.
     pub query_meaning: String,
+    /// The last query that parsed: while the box holds one with an error, the list is this
+    /// one's results, filtered again from the facts each time they are read.
+    pub last_good_query: crate::search::Query,
     pub sort: SortKey,
     pub sort_desc: bool,
     pub selected: usize,
@@ -207,6 +210,7 @@ impl App {
             query_error: None,
             query_error_column: None,
             query_meaning: "every batch".into(),
+            last_good_query: crate::search::Query::default(),
             sort: SortKey::Id,
             sort_desc: true,
             selected: 0,

@@ -73,22 +73,24 @@ fn error_column(e: &crate::Error) -> Option<usize> {
 
 impl App {
     /// Re-filters the batch list from the facts in memory: cheap enough for every keystroke.
-    /// A query with an error leaves the last good results (and their meaning) in place.
+    /// A query with an error leaves the last good query's results (and their meaning) in
+    /// place, filtered again from the facts as they are now.
     pub fn refilter(&mut self) {
         match self.parse_query(&self.query) {
             Ok((q, typing)) => {
                 self.query_error = None;
                 self.query_error_column = None;
                 self.query_meaning = search::describe(&q) + &typing;
-                self.hits = search::filter(&self.facts, &q);
-                if q.words().is_empty() {
-                    self.sort_hits();
-                }
+                self.last_good_query = q;
             }
             Err(e) => {
                 self.query_error_column = error_column(&e);
                 self.query_error = Some(e.to_string());
             }
+        }
+        self.hits = search::filter(&self.facts, &self.last_good_query);
+        if self.last_good_query.words().is_empty() {
+            self.sort_hits();
         }
         if self.selected >= self.hits.len() {
             self.selected = self.hits.len().saturating_sub(1);
