@@ -8,13 +8,15 @@
 //! feet. The store registers every lab it opens; the readers ask [`is_open_lab`] before they
 //! open a file. Identity is by device and inode from `stat`, which opens nothing, and covers
 //! SQLite's companions beside the lab (`-wal`, `-shm`, `-journal`). Promises: never opens a
-//! file; a lab once registered stays registered for the life of the process (refusing to read
-//! a database as a spectrum is right whether or not it is still open).
+//! file. A registered lab counts only while its path still names the same file: once a lab is
+//! deleted (a test's temporary folder, a lab replaced by another file), its inode may be given
+//! to a new file, which must not then pass for the lab.
 
-use std::path::Path;
+use std::path::{Path, PathBuf};
 use std::sync::Mutex;
 
-static OPEN_LABS: Mutex<Vec<(u64, u64)>> = Mutex::new(Vec::new());
+/// Each registered lab's path and the identity it had when registered.
+static OPEN_LABS: Mutex<Vec<(PathBuf, (u64, u64))>> = Mutex::new(Vec::new());
 
 /// The file's device and inode, without opening it.
 fn identity(path: &Path) -> Option<(u64, u64)> {
@@ -35,8 +37,10 @@ fn identity(path: &Path) -> Option<(u64, u64)> {
 pub fn register(path: &Path) {
     let Some(id) = identity(path) else { return };
     let mut held = OPEN_LABS.lock().unwrap_or_else(|p| p.into_inner());
-    if !held.contains(&id) {
-        held.push(id);
+    // Labs gone from their paths are forgotten as new ones come.
+    held.retain(|(p, was)| identity(p) == Some(*was));
+    if !held.iter().any(|(p, was)| *was == id && p == path) {
+        held.push((path.to_path_buf(), id));
     }
 }
 
@@ -46,7 +50,9 @@ pub fn is_open_lab(path: &Path) -> bool {
     if held.is_empty() {
         return false;
     }
-    let is_held = |p: &Path| identity(p).is_some_and(|id| held.contains(&id));
+    let is_held = |p: &Path| {
+        identity(p).is_some_and(|id| held.iter().any(|(lab, was)| *was == id && identity(lab) == Some(*was)))
+    };
     if is_held(path) {
         return true;
     }
@@ -66,4 +72,30 @@ pub fn refusal(path: &Path) -> String {
         "{} is the lab's own database (or SQLite's file beside it), not a spectrum: it is not read",
         path.display()
     )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    #[allow(clippy::unwrap_used)]
+    fn a_deleted_lab_does_not_lend_its_inode_to_a_new_file() {
+        let dir = tempfile::tempdir().unwrap();
+        let lab = dir.path().join("gone.db");
+        std::fs::write(&lab, b"x").unwrap();
+        register(&lab);
+        assert!(is_open_lab(&lab));
+        assert!(
+            is_open_lab(&dir.path().join("gone.db-wal")),
+            "SQLite's files beside it too"
+        );
+        std::fs::remove_file(&lab).unwrap();
+        // New files, one of which the file system may well give the freed inode.
+        for i in 0..8 {
+            let p = dir.path().join(format!("abs_{i}.csv"));
+            std::fs::write(&p, b"1,2\n").unwrap();
+            assert!(!is_open_lab(&p), "{} passed for the deleted lab", p.display());
+        }
+    }
 }
