@@ -120,10 +120,8 @@ pub fn derive_values(
                                             None
                                         }
                                     },
-                                    None => {
-                                        cw.push(format!("no absorbance measured at {:.0} nm", ex.at_nm));
-                                        None
-                                    }
+                                    // Why there is none is in `cw` already.
+                                    None => None,
                                 };
                                 out.push(d(
                                     "concentration_molar",
@@ -230,17 +228,24 @@ pub fn derive_values(
     (out, sizing_res, ext_res)
 }
 
-/// The absorbance an extinction coefficient goes with, and what to say about it.
+/// The absorbance an extinction coefficient goes with, and what to say about it: when there is
+/// none, the one reason why (refused as untrustworthy, or not measured).
 fn absorbance_for(stage1: &[Derived], ex: &extinction::Extinction, peak: f64) -> (Option<f64>, Vec<String>) {
     let mut w = Vec::new();
+    let missing = || format!("no absorbance measured at {:.0} nm", ex.at_nm);
     if (ex.at_nm - peak).abs() < 1e-9 {
-        return (value_of(stage1, "first_exciton_abs"), w);
+        let a = value_of(stage1, "first_exciton_abs");
+        if a.is_none() {
+            w.push(missing());
+        }
+        return (a, w);
     }
     let (raw_q, corr_q) = if (ex.at_nm - 400.0).abs() < 1e-9 {
         ("abs_400nm", "abs_400nm_corrected")
     } else if (ex.at_nm - 350.0).abs() < 1e-9 {
         ("abs_350nm", "abs_350nm_corrected")
     } else {
+        w.push(missing());
         return (None, w);
     };
     let raw = value_of(stage1, raw_q);
@@ -276,6 +281,8 @@ fn absorbance_for(stage1: &[Derived], ex: &extinction::Extinction, peak: f64) ->
                     "no scatter-corrected absorbance at {:.0} nm (analysed before the correction): the measured value is used (recompute --all)",
                     ex.at_nm
                 ));
+            } else {
+                w.push(missing());
             }
             (raw, w)
         }
@@ -451,5 +458,38 @@ fn qy_value(
                 w,
             )
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn at_400() -> extinction::Extinction {
+        extinction::Extinction {
+            model: "test".into(),
+            extinction_m1cm1: 1.0e5,
+            at_nm: 400.0,
+            warnings: vec![],
+        }
+    }
+
+    /// A concentration refused because the scatter background swallows the absorbance at
+    /// 400 nm says so once; it used to add "no absorbance measured at 400 nm", which is false
+    /// (the absorbance was measured: 0.611).
+    #[test]
+    fn a_refused_absorbance_is_not_called_missing() {
+        let stage1 = vec![
+            super::super::d("abs_400nm", Some(0.611), "absorbance", "measured", vec![]),
+            super::super::d("abs_400nm_corrected", Some(-0.098), "absorbance", "corrected", vec![]),
+        ];
+        let (a, w) = absorbance_for(&stage1, &at_400(), 900.0);
+        assert_eq!(a, None);
+        assert!(w.iter().any(|x| x.contains("scattering background at 400 nm")), "{w:?}");
+        assert!(!w.iter().any(|x| x.contains("no absorbance measured")), "{w:?}");
+        // With nothing measured there, that is what is said.
+        let (a, w) = absorbance_for(&[], &at_400(), 900.0);
+        assert_eq!(a, None);
+        assert_eq!(w, vec!["no absorbance measured at 400 nm".to_string()]);
     }
 }
