@@ -10,13 +10,20 @@
 //! - every write goes through one transaction with its audit row, and first checks, under the
 //!   write lock, that the file at its path is still the lab it opened (same inode, same
 //!   generation: a restore gives the lab a new one), refusing otherwise.
+//!
+//! This file opens the lab (for create, write or read), holds the transactions, the still-ours
+//! check and the audit; `identify.rs` tells what a file is through SQLite alone, `migrate.rs`
+//! holds the migrations and applies them, `blob.rs` encodes a spectrum's points.
 
 pub mod backup;
+mod blob;
 pub mod calibrations;
 pub mod check;
 pub mod demo_marks;
 pub mod facts;
 pub mod handover;
+mod identify;
+mod migrate;
 pub mod model;
 pub mod search_bounds;
 pub mod values;
@@ -56,38 +63,9 @@ use rusqlite::{Connection, OpenFlags, Transaction, TransactionBehavior, params};
 use std::path::{Path, PathBuf};
 use std::time::Duration;
 
-/// The migrations, embedded at compile time, in order. Append only.
-pub const MIGRATIONS: &[(&str, &str)] = &[
-    ("0001_initial", include_str!("../../schema/0001_initial.sql")),
-    ("0002_lab_meta", include_str!("../../schema/0002_lab_meta.sql")),
-    (
-        "0003_search_threshold",
-        include_str!("../../schema/0003_search_threshold.sql"),
-    ),
-    (
-        "0004_spectrum_meta_index",
-        include_str!("../../schema/0004_spectrum_meta_index.sql"),
-    ),
-    (
-        "0005_corrections_and_provenance",
-        include_str!("../../schema/0005_corrections_and_provenance.sql"),
-    ),
-    (
-        "0006_spectrum_label",
-        include_str!("../../schema/0006_spectrum_label.sql"),
-    ),
-    (
-        "0007_spectrum_cuvette_index",
-        include_str!("../../schema/0007_spectrum_cuvette_index.sql"),
-    ),
-    (
-        "0008_current_value_hashes",
-        include_str!("../../schema/0008_current_value_hashes.sql"),
-    ),
-];
-
-/// The schema version this build writes.
-pub const SCHEMA_VERSION: i64 = MIGRATIONS.len() as i64;
+pub use blob::{decode_xy, encode_xy};
+pub use identify::{APPLICATION_ID, check_is_sqlite};
+pub use migrate::{MIGRATIONS, SCHEMA_VERSION};
 
 /// How long a connection waits for another process's lock before giving up, unless
 /// `$CUVETTE_BUSY_SECONDS` says otherwise (a lab whose spectrometer computer holds long
@@ -125,24 +103,6 @@ pub struct Store {
     /// The lab's generation when it was opened; a restore gives the lab a new one.
     generation: Option<String>,
 }
-
-const SQLITE_MAGIC: &[u8] = b"SQLite format 3\0";
-
-/// The application id cuvette writes into the SQLite header ("CUVT"), so a file of another
-/// application is told apart whatever its user_version says.
-pub const APPLICATION_ID: i64 = 0x4355_5654;
-
-/// The tables every cuvette lab has had since schema version 1: a file without an application
-/// id is taken as a lab only when it has all of them.
-const CUVETTE_TABLES: &[&str] = &[
-    "aliquot",
-    "audit_log",
-    "batch",
-    "calibration",
-    "derived_value",
-    "spectrum",
-    "vial",
-];
 
 /// The lab_meta key holding the lab's generation; `restore` sets a new one.
 pub const GENERATION_KEY: &str = "lab_generation";
@@ -351,65 +311,6 @@ impl Store {
         }
     }
 
-    /// Reads what the file is, through SQLite only: refuses a non-SQLite file, another
-    /// application's file and a newer cuvette's; returns the schema version.
-    fn identify(&self, existed: bool) -> Result<i64> {
-        let path_text = self
-            .path
-            .as_ref()
-            .map(|p| p.display().to_string())
-            .unwrap_or_else(|| ":memory:".into());
-        let not_db = |e: rusqlite::Error| match e.sqlite_error_code() {
-            Some(rusqlite::ErrorCode::NotADatabase) => Error::NotADatabase {
-                path: path_text.clone(),
-                reason: "it is not an SQLite file".into(),
-            },
-            _ => Error::from(e),
-        };
-        let version: i64 = self
-            .conn
-            .query_row("PRAGMA user_version", [], |r| r.get(0))
-            .map_err(not_db)?;
-        let app_id: i64 = self
-            .conn
-            .query_row("PRAGMA application_id", [], |r| r.get(0))
-            .map_err(not_db)?;
-        if !existed {
-            return Ok(version);
-        }
-        let foreign = |reason: String| Error::NotADatabase {
-            path: path_text.clone(),
-            reason,
-        };
-        if app_id != 0 && app_id != APPLICATION_ID {
-            return Err(foreign(format!(
-                "an SQLite file of another application (application id {app_id:#x}); nothing was changed"
-            )));
-        }
-        if app_id == 0 {
-            let tables: Vec<String> = {
-                let mut st = self
-                    .conn
-                    .prepare("SELECT name FROM sqlite_master WHERE type = 'table'")?;
-                let rows = st.query_map([], |r| r.get::<_, String>(0))?;
-                rows.collect::<rusqlite::Result<_>>()?
-            };
-            let is_lab = CUVETTE_TABLES.iter().all(|t| tables.iter().any(|n| n == t));
-            if version == 0 && !tables.is_empty() || version > 0 && !is_lab {
-                return Err(foreign(format!(
-                    "an SQLite file without cuvette's tables (user_version {version}); nothing was changed"
-                )));
-            }
-        }
-        if version > SCHEMA_VERSION {
-            return Err(Error::NewerSchema {
-                found: version,
-                supported: SCHEMA_VERSION,
-            });
-        }
-        Ok(version)
-    }
-
     fn setup(&mut self, existed: bool, version: i64) -> Result<()> {
         let path_text = self
             .path
@@ -433,40 +334,6 @@ impl Store {
             }
             self.migrate(version)?;
         }
-        Ok(())
-    }
-
-    /// A read of an older lab: the file is copied into memory and migrated there.
-    fn migrate_in_memory(&mut self, version: i64) -> Result<()> {
-        let mut mem = Connection::open_in_memory()?;
-        {
-            let b = rusqlite::backup::Backup::new(&self.conn, &mut mem)?;
-            b.run_to_completion(1024, Duration::from_millis(0), None)?;
-        }
-        self.conn = mem;
-        tune(&self.conn)?;
-        self.conn.pragma_update(None, "foreign_keys", "ON")?;
-        self.migrate(version)
-    }
-
-    fn backup_before_migration(&self, version: i64) -> Result<PathBuf> {
-        let path = self.path.clone().unwrap_or_default();
-        let stamp = chrono::Utc::now().format("%Y%m%dT%H%M%S");
-        let mut name = path.file_name().unwrap_or_default().to_os_string();
-        name.push(format!(".v{version}-{stamp}.bak"));
-        let dest = path.with_file_name(name);
-        backup::write_new_copy(&self.conn, &dest)
-            .map_err(|e| Error::Invalid(format!("could not back up before migrating: {e}")))
-    }
-
-    fn migrate(&mut self, from: i64) -> Result<()> {
-        let tx = self.conn.transaction_with_behavior(TransactionBehavior::Exclusive)?;
-        for (i, (_name, sql)) in MIGRATIONS.iter().enumerate().skip(from as usize) {
-            tx.execute_batch(sql)?;
-            tx.pragma_update(None, "user_version", (i + 1) as i64)?;
-        }
-        after_migration(&tx, from)?;
-        tx.commit()?;
         Ok(())
     }
 
@@ -646,42 +513,6 @@ fn open_read_only(path: &Path) -> Result<Connection> {
     }
 }
 
-/// Work a migration needs beyond SQL: the stored data hash of every spectrum that has none (all
-/// written before version 5; SQLite has no SHA-256 of its own). Idempotent.
-fn after_migration(tx: &Connection, _from: i64) -> Result<()> {
-    {
-        let mut st = tx.prepare("SELECT id, data FROM spectrum WHERE data_sha256 IS NULL")?;
-        let rows: Vec<(i64, Vec<u8>)> = st
-            .query_map([], |r| Ok((r.get(0)?, r.get(1)?)))?
-            .collect::<rusqlite::Result<_>>()?;
-        for (id, data) in rows {
-            tx.execute(
-                "UPDATE spectrum SET data_sha256 = ?1 WHERE id = ?2",
-                params![crate::spectra::sha256_hex(&data), id],
-            )?;
-        }
-    }
-    Ok(())
-}
-
-/// Refuses a file that is not SQLite before SQLite gets to touch it.
-pub fn check_is_sqlite(path: &Path) -> Result<()> {
-    use std::io::Read;
-    let mut head = [0u8; 16];
-    let mut f = std::fs::File::open(path).map_err(|e| Error::NotADatabase {
-        path: path.display().to_string(),
-        reason: e.to_string(),
-    })?;
-    let n = f.read(&mut head)?;
-    if n < 16 || head != SQLITE_MAGIC {
-        return Err(Error::NotADatabase {
-            path: path.display().to_string(),
-            reason: "it is not an SQLite file".into(),
-        });
-    }
-    Ok(())
-}
-
 /// Appends one row to the audit log. `before`/`after` are JSON snapshots of the entity.
 pub fn audit(
     tx: &Connection,
@@ -712,39 +543,6 @@ pub fn audit(
 pub fn now() -> String {
     chrono::Utc::now().format("%Y-%m-%dT%H:%M:%SZ").to_string()
 }
-
-/// Encodes (x, y) pairs as little-endian f64 pairs: 16 bytes a point, exact round trip.
-pub fn encode_xy(x: &[f64], y: &[f64]) -> Vec<u8> {
-    let mut out = Vec::with_capacity(x.len() * 16);
-    for (a, b) in x.iter().zip(y) {
-        out.extend_from_slice(&a.to_le_bytes());
-        out.extend_from_slice(&b.to_le_bytes());
-    }
-    out
-}
-
-/// Decodes what [`encode_xy`] wrote.
-pub fn decode_xy(blob: &[u8]) -> Result<(Vec<f64>, Vec<f64>)> {
-    if !blob.len().is_multiple_of(16) {
-        return Err(Error::Invalid(format!(
-            "spectrum data of {} bytes is not a whole number of points",
-            blob.len()
-        )));
-    }
-    let n = blob.len() / 16;
-    let mut x = Vec::with_capacity(n);
-    let mut y = Vec::with_capacity(n);
-    for c in blob.chunks_exact(16) {
-        let mut a = [0u8; 8];
-        let mut b = [0u8; 8];
-        a.copy_from_slice(&c[..8]);
-        b.copy_from_slice(&c[8..]);
-        x.push(f64::from_le_bytes(a));
-        y.push(f64::from_le_bytes(b));
-    }
-    Ok((x, y))
-}
-
 /// Counts of the main tables, for tests that assert a failed command changed nothing.
 pub fn row_counts(conn: &Connection) -> Result<Vec<(String, i64)>> {
     let mut out = Vec::new();
