@@ -1,4 +1,4 @@
-//! Shell completions and man pages, generated from the clap grammar in `args.rs` so they can
+//! Shell completions and man pages, generated from the clap grammar in `args/` so they can
 //! never disagree with what the command line takes. Both are rendered into memory first and
 //! then written to stdout in one go: the generators' own writers panic on a closed pipe, and
 //! ours turns it into the quiet exit every other command has.
