@@ -2,6 +2,10 @@
 //! integrals over wavelength and energy, baseline removed. Nothing here does I/O or changes its
 //! input; doubtful results come back with warnings.
 //!
+//! Why this file is about 600 lines: it is the analysis's one pipeline, read top to bottom in
+//! the order below; its parts with their own concern live beside it (`lines.rs`, `baseline.rs`,
+//! `measure.rs`).
+//!
 //! What it does, in order, each step linear in the number of points:
 //! 1. Grid gaps: a step more than [`GAP_FACTOR`] times its neighbours' median step is reported.
 //! 2. The trace is resampled onto an even grid (linear interpolation, one merge pass), binned

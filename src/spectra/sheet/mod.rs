@@ -3,6 +3,10 @@
 //! [`grid::spectra_from_grid`], so header, units, sample columns and x,y pairs are found exactly
 //! as in delimited text.
 //!
+//! Why it is one file of about 600 lines: the two workbook formats share one path from a sheet's
+//! cells to a [`Grid`] (sheet choice, first used column, cell kinds, dates and errors as text),
+//! and splitting it by format would copy that path; its tests live in `tests.rs`.
+//!
 //! What it promises:
 //! - The sheet is the one `ReadOptions::sheet` names (its name, or its 1-based place among the
 //!   workbook's sheets); without a choice, the one sheet that holds a column of numbers. Several
