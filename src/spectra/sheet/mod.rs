@@ -4,7 +4,7 @@
 //! as in delimited text.
 //!
 //! Why it is one file of about 600 lines: the two workbook formats share one path from a sheet's
-//! cells to a [`Grid`] (sheet choice, first used column, cell kinds, dates and errors as text),
+//! cells to a [`Grid`] (sheet choice, first used column, cell kinds, dates, error cells kept as such),
 //! and splitting it by format would copy that path; its tests live in `tests.rs`.
 //!
 //! What it promises:
