@@ -604,3 +604,28 @@ fn a_dry_run_counts_what_the_recompute_then_changes() {
     }
     assert!(done["changed"].as_i64().unwrap() > 0, "{done}");
 }
+
+/// The text sheet says what the JSON warns about the reaction yield: a yield above 100 % came
+/// out as a bare "116 %", and a batch whose yield could not be computed printed nothing.
+#[test]
+fn the_text_sheet_gives_the_reaction_yield_with_its_warnings() {
+    let lab = Lab::new();
+    lab.ok(&["demo"]);
+    let list = lab.ok(&["batch", "list", "--json"]).json();
+    let mut warned = 0;
+    for b in list.as_array().unwrap() {
+        let id = b["id"].to_string();
+        let j = lab.ok(&["batch", "show", &id, "--json"]).json();
+        let text = lab.ok(&["batch", "show", &id]).stdout;
+        let ry = &j["reaction_yield"];
+        for w in ry["warnings"].as_array().unwrap() {
+            let w = w.as_str().unwrap();
+            assert!(text.contains(w), "batch {id}: the text leaves out '{w}':\n{text}");
+            warned += 1;
+        }
+        if ry["yield_fraction"].is_null() {
+            assert!(text.contains("reaction yield not computed"), "batch {id}:\n{text}");
+        }
+    }
+    assert!(warned > 0, "the demo lab has yields with warnings");
+}

@@ -216,12 +216,18 @@ fn print_batch(v: &BatchSheet) -> Result<()> {
         ))?;
     }
     let ry = &v.reaction_yield;
-    if let Some(f) = finite(ry.yield_fraction) {
-        line(&format!(
+    match finite(ry.yield_fraction) {
+        Some(f) => line(&format!(
             "  reaction yield {:.0} % against the limiting {} (`batch show --json` has the terms)",
             100.0 * f,
             ry.limiting_element.as_deref().unwrap_or("precursor"),
-        ))?;
+        ))?,
+        None => line("  reaction yield not computed")?,
+    }
+    // What the yield's caveats are (above 100 %, the volume assumed, why it is missing) belongs
+    // beside the number: a bare "116 %" reads as a result.
+    for w in &ry.warnings {
+        line(&format!("    ! {w}"))?;
     }
     for x in &v.vials {
         line(&format!(
