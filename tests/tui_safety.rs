@@ -815,3 +815,32 @@ fn a_list_under_a_query_with_an_error_shows_the_lab_as_it_is_now() {
         );
     }
 }
+
+/// A message answers the person's last action: an error from a form put away, or from an
+/// action on another view, no longer stands on the status line through what comes next.
+#[test]
+fn an_old_message_does_not_stand_under_the_next_action() {
+    let (_lab, mut app) = demo_ui();
+    // Something the lab refuses: going to a batch that is not there.
+    press(&mut app, KeyCode::Char('g'));
+    typ(&mut app, "99999");
+    press(&mut app, KeyCode::Enter);
+    wait_idle(&mut app);
+    let said = app.message.clone();
+    assert!(said.as_ref().is_some_and(|m| m.0), "an error: {said:?}");
+    // The form comes back with the text; put away, it takes the error with it.
+    assert!(matches!(app.mode, Mode::Form(_)));
+    press(&mut app, KeyCode::Esc);
+    assert!(app.message.is_none(), "still shown after Esc: {:?}", app.message);
+    // A view's answer goes when the person moves on to another view.
+    press(&mut app, KeyCode::Char('3'));
+    press(&mut app, KeyCode::Char('A'));
+    wait_idle(&mut app);
+    assert!(
+        app.message.as_ref().is_some_and(|m| m.1.contains("nothing is stale")),
+        "{:?}",
+        app.message
+    );
+    press(&mut app, KeyCode::Char('2'));
+    assert!(app.message.is_none(), "still shown on the shelf: {:?}", app.message);
+}

@@ -330,9 +330,16 @@ impl App {
                 self.held_back.clear();
                 self.closed_at = None;
                 if let Some(a) = self.keys.action(&ev, self.scope()) {
+                    // A message answers the person's last action: the next action starts
+                    // without it, so an old error never stands under a new view or question.
+                    self.message = None;
                     self.act(a);
                 }
             }
+        }
+        // A form or question put away with Esc takes its messages with it.
+        if was_open && ev.code == KeyCode::Esc && matches!(self.mode, Mode::Normal) {
+            self.message = None;
         }
         // Esc closes on purpose; Enter (or a confirmation's answer) closes where the person may
         // still be typing, so only then are the next letters held back.
