@@ -629,3 +629,40 @@ fn the_text_sheet_gives_the_reaction_yield_with_its_warnings() {
     }
     assert!(warned > 0, "the demo lab has yields with warnings");
 }
+
+/// The growth line says which rate it gives: "rate 9.980e-3 nm/min" was the rate between the
+/// last two aliquots, printed in an exponent form the rest of the sheet never uses, while the
+/// series grew at 0.06 nm/min. Both rates are named, in plain decimals.
+#[test]
+fn the_growth_line_names_its_rates_in_plain_numbers() {
+    let lab = Lab::new();
+    lab.ok(&["demo"]);
+    let list = lab.ok(&["batch", "list", "--json"]).json();
+    let mut seen = 0;
+    for b in list.as_array().unwrap() {
+        let id = b["id"].to_string();
+        let j = lab.ok(&["batch", "show", &id, "--json"]).json();
+        let text = lab.ok(&["batch", "show", &id]).stdout;
+        let line = text
+            .lines()
+            .find(|l| l.trim_start().starts_with("growth:"))
+            .unwrap_or_else(|| panic!("{text}"));
+        assert!(!line.contains("e-"), "batch {id}: {line}");
+        if let (Some(last), Some(mean)) = (
+            j["growth"]["growth_rate_nm_per_min"].as_f64(),
+            j["growth"]["mean_growth_rate_nm_per_min"].as_f64(),
+        ) {
+            assert!(
+                line.contains("between the last two aliquots") && line.contains("over the series"),
+                "batch {id}: {line}"
+            );
+            // Three significant figures of each, as the JSON has them.
+            for v in [last, mean] {
+                let shown = format!("{:.*}", (2 - v.abs().log10().floor() as i32).max(0) as usize, v);
+                assert!(line.contains(&shown), "batch {id}: {shown} not in {line}");
+            }
+            seen += 1;
+        }
+    }
+    assert!(seen > 0);
+}
