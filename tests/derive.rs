@@ -666,3 +666,34 @@ fn the_growth_line_names_its_rates_in_plain_numbers() {
     }
     assert!(seen > 0);
 }
+
+/// The text sheet's aliquot table lines up under its header whatever the ids' lengths: the id
+/// was printed unpadded, so a one-digit id pulled every column two places left of its heading.
+#[test]
+fn the_aliquot_table_lines_up_under_its_header() {
+    let lab = Lab::new();
+    lab.ok(&["demo"]);
+    for id in ["1", "23"] {
+        let text = lab.ok(&["batch", "show", id]).stdout;
+        let lines: Vec<&str> = text.lines().collect();
+        let h = lines
+            .iter()
+            .position(|l| l.contains(" id ") && l.contains("peak nm"))
+            .unwrap();
+        let col = |l: &str, word: &str| l.find(word).map(|i| l[..i].chars().count());
+        let min_end = col(lines[h], "min").unwrap() + "min".len();
+        let rows: Vec<&&str> = lines[h + 1..]
+            .iter()
+            .take_while(|l| !l.trim_start().starts_with("growth"))
+            .collect();
+        assert!(!rows.is_empty(), "{text}");
+        for r in rows {
+            // The minutes column (always filled: a number or "-") is right-aligned to its
+            // heading's end.
+            let cells: Vec<&str> = r.split_whitespace().collect();
+            let from = col(r, cells[0]).unwrap() + cells[0].len();
+            let end = from + r[from..].find(cells[1]).unwrap() + cells[1].len();
+            assert_eq!(end, min_end, "batch {id}: '{r}' under '{}'", lines[h]);
+        }
+    }
+}

@@ -148,12 +148,23 @@ fn print_batch(v: &BatchSheet) -> Result<()> {
     if !b.notes.is_empty() {
         line(&format!("  notes: {}", b.notes))?;
     }
-    line("   id   min  stage     peak nm   abs    D nm   σ/D %   conc       PL nm  QY     curve (cal)")?;
+    // The id takes the width of the longest one (at least the heading's), so the columns stay
+    // under their headings whatever the ids.
+    let id_width = v
+        .aliquots
+        .iter()
+        .map(|a| a.id.to_string().len())
+        .max()
+        .unwrap_or(0)
+        .max(3);
+    line(&format!(
+        "  {:>id_width$}   min  stage     peak nm   abs    D nm   σ/D %   conc       PL nm  QY     curve (cal)",
+        "id"
+    ))?;
     for a in &v.aliquots {
         let f = |x: Option<f64>, d: usize| num(finite(x), d);
-        // The id unpadded, as these lines have always printed it (a JSON number took no width).
         line(&format!(
-            "  {} {:>5} {:<8} {:>8} {:>6} {:>6} {:>6}   {:<10} {:>6} {:>5}  {} ({}){}",
+            "  {:>id_width$} {:>5} {:<8} {:>8} {:>6} {:>6} {:>6}   {:<10} {:>6} {:>5}  {} ({}){}",
             a.id,
             f(a.minutes, 1),
             a.stage.as_deref().unwrap_or(""),
