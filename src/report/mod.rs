@@ -6,11 +6,14 @@
 
 pub mod context;
 mod export;
+mod figures;
 pub mod handover;
 mod outfile;
 pub mod plot;
 mod summary;
 pub mod yields;
+
+pub use figures::three_figures;
 
 pub use export::export;
 pub use outfile::{create_output, create_outputs};

@@ -122,16 +122,6 @@ pub(super) fn batch(cli: &Cli, c: &BatchCmd) -> Result<()> {
     Ok(())
 }
 
-/// A rate to three significant figures in plain decimals (0.00998, 0.0600, 1.25): the sheet's
-/// other numbers never use an exponent.
-fn three_figures(x: f64) -> String {
-    if x == 0.0 || !x.is_finite() {
-        return format!("{x}");
-    }
-    let decimals = (2 - x.abs().log10().floor() as i32).max(0) as usize;
-    format!("{x:.decimals$}")
-}
-
 fn print_batch(v: &BatchSheet) -> Result<()> {
     let b = &v.batch;
     // NaN where the text once read a missing number: `{:.1}` shows it as such.
@@ -192,11 +182,14 @@ fn print_batch(v: &BatchSheet) -> Result<()> {
     let rates = match (finite(g.growth_rate_nm_per_min), finite(g.mean_growth_rate_nm_per_min)) {
         (Some(last), Some(mean)) => format!(
             "; {} nm/min between the last two aliquots, {} nm/min over the series",
-            three_figures(last),
-            three_figures(mean)
+            crate::report::three_figures(last),
+            crate::report::three_figures(mean)
         ),
-        (Some(last), None) => format!("; {} nm/min between the last two aliquots", three_figures(last)),
-        (None, Some(mean)) => format!("; {} nm/min over the series", three_figures(mean)),
+        (Some(last), None) => format!(
+            "; {} nm/min between the last two aliquots",
+            crate::report::three_figures(last)
+        ),
+        (None, Some(mean)) => format!("; {} nm/min over the series", crate::report::three_figures(mean)),
         (None, None) => String::new(),
     };
     line(&format!(
