@@ -18,8 +18,9 @@ use std::sync::Mutex;
 /// Each registered lab's path and the identity it had when registered.
 static OPEN_LABS: Mutex<Vec<(PathBuf, (u64, u64))>> = Mutex::new(Vec::new());
 
-/// The file's device and inode, without opening it.
-fn identity(path: &Path) -> Option<(u64, u64)> {
+/// The file's device and inode, without opening it (None where the platform gives none): the
+/// identity the store also checks a lab by before each write.
+pub fn identity(path: &Path) -> Option<(u64, u64)> {
     #[cfg(unix)]
     {
         use std::os::unix::fs::MetadataExt;
@@ -27,7 +28,7 @@ fn identity(path: &Path) -> Option<(u64, u64)> {
     }
     #[cfg(not(unix))]
     {
-        // Elsewhere a lock is not released by another handle's close; nothing to guard.
+        // Elsewhere a lock is not released by another handle's close, and no inode is given.
         let _ = path;
         None
     }

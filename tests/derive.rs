@@ -658,7 +658,7 @@ fn the_growth_line_names_its_rates_in_plain_numbers() {
             );
             // Three significant figures of each, as the JSON has them.
             for v in [last, mean] {
-                let shown = format!("{:.*}", (2 - v.abs().log10().floor() as i32).max(0) as usize, v);
+                let shown = cuvette::report::three_figures(v);
                 assert!(line.contains(&shown), "batch {id}: {shown} not in {line}");
             }
             seen += 1;

@@ -122,16 +122,7 @@ enum Access {
 /// SQLite holds on it can be dropped (closing any handle on a database file drops the
 /// process's POSIX locks on it: SQLite's documented pitfall).
 pub fn file_identity(path: &Path) -> Option<(u64, u64)> {
-    #[cfg(unix)]
-    {
-        use std::os::unix::fs::MetadataExt;
-        std::fs::metadata(path).ok().map(|m| (m.dev(), m.ino()))
-    }
-    #[cfg(not(unix))]
-    {
-        let _ = path;
-        None
-    }
+    crate::open_labs::identity(path)
 }
 
 fn missing_lab(path: &Path) -> Error {

@@ -233,15 +233,7 @@ pub fn product_aliquot(conn: &Connection, batch_id: i64) -> Result<Option<i64>> 
 
 /// Each batch's product aliquot.
 pub fn product_aliquots(conn: &Connection) -> Result<HashSet<i64>> {
-    let mut st = conn.prepare("SELECT aliquot_id FROM batch_product")?;
-    let rows = st.query_map([], |r| r.get::<_, Option<i64>>(0))?;
-    let mut out = HashSet::new();
-    for r in rows {
-        if let Some(id) = r? {
-            out.insert(id);
-        }
-    }
-    Ok(out)
+    Ok(product_aliquot_of_batches(conn)?.into_values().collect())
 }
 
 /// Each batch's product aliquot, by batch (batches without one are left out): one query for a
